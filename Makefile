@@ -1,0 +1,104 @@
+# shoal: adequacy and coverage analyzer for causal test suites. See LICENSE (GPL-3.0-or-later).
+
+# ---- user variables ---------------------------------------------------------------------------
+PREFIX   ?= /usr/local
+DESTDIR  ?=
+CC       ?= cc
+CFLAGS   ?= -O2 -g
+# Debian's own interpreter: the python3 first on PATH may not see python3-scipy and friends.
+PYTHON   ?= /usr/bin/python3
+BUILD    ?= build
+
+# ---- what the build needs ---------------------------------------------------------------------
+PKGS      = gsl sqlite3
+WARN      = -std=c11 -Wall -Wextra -Wshadow -Wstrict-prototypes -Werror
+ALL_CPPFLAGS = -D_POSIX_C_SOURCE=200809L -I. $(CPPFLAGS)
+PKG_CFLAGS = $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
+PKG_LIBS   = $(shell pkg-config --libs $(PKGS) 2>/dev/null)
+ALL_CFLAGS = $(WARN) $(CFLAGS) $(PKG_CFLAGS) -MMD -MP
+LIBS       = $(PKG_LIBS) -lm
+
+# Debian packages: to build, to plot, and for the reference checks in `make check`.
+DEB_BUILD = libgsl-dev libsqlite3-dev pkg-config gnuplot-nox sqlite3
+DEB_CHECK = python3-scipy python3-numpy python3-networkx python3-statsmodels r-cran-pwr valgrind \
+            chromium
+
+LIB_SRC  = $(wildcard coverage/*.c) $(wildcard power/*.c)
+LIB_OBJ  = $(LIB_SRC:%.c=$(BUILD)/%.o)
+TEST_SRC = $(wildcard tests/test_*.c)
+TEST_BIN = $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)
+# Probes: small programs the Python reference checks drive (not run on their own).
+PROBE_SRC = $(wildcard tests/probe_*.c)
+PROBE_BIN = $(PROBE_SRC:tests/%.c=$(BUILD)/tests/%)
+BENCH_SRC = $(wildcard tests/bench/*.c)
+BENCH_BIN = $(BENCH_SRC:tests/bench/%.c=$(BUILD)/bench/%)
+FIXTURE_SRC = $(wildcard fixtures/*.c)
+FIXTURE_BIN = $(FIXTURE_SRC:fixtures/%.c=$(BUILD)/fixtures/%)
+SHOAL    = $(BUILD)/shoal
+
+.PHONY: all deps deps-check demo check check-slow check-asan bench install clean
+
+all: $(SHOAL) $(FIXTURE_BIN)
+
+# Install what is missing with apt-get when run as root; otherwise print the exact command.
+deps:
+	@DEB="$(DEB_BUILD)" sh .ci/deps
+deps-check:
+	@DEB="$(DEB_BUILD) $(DEB_CHECK)" sh .ci/deps
+
+$(BUILD)/%.o: %.c
+	@mkdir -p $(dir $@)
+	$(CC) $(ALL_CPPFLAGS) $(ALL_CFLAGS) -c $< -o $@
+
+$(BUILD)/libshoal.a: $(LIB_OBJ)
+	@rm -f $@
+	ar rcs $@ $(LIB_OBJ)
+
+$(SHOAL): $(BUILD)/shoal.o $(BUILD)/libshoal.a
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+
+$(BUILD)/tests/%: $(BUILD)/tests/%.o $(BUILD)/libshoal.a
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+
+$(BUILD)/bench/%: $(BUILD)/tests/bench/%.o $(BUILD)/libshoal.a
+	@mkdir -p $(dir $@)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+
+$(BUILD)/fixtures/%: $(BUILD)/fixtures/%.o
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+
+# The main job on the bundled, invented demo campaign.
+DEMO_GRAPH   = fixtures/demo/triage.graph
+DEMO_CSV     = fixtures/demo/triage-runs.csv
+DEMO_ARCHIVE = $(BUILD)/demo/triage.db
+demo: deps
+	@$(MAKE) --no-print-directory all
+	@sh .ci/demo "$(SHOAL)" "$(DEMO_GRAPH)" "$(DEMO_CSV)" "$(DEMO_ARCHIVE)"
+
+check: deps deps-check
+	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN)
+	@SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/run.sh
+
+check-slow: deps deps-check
+	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN)
+	@SHOAL_SLOW=1 SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/run.sh
+
+# AddressSanitizer and UBSan over the whole suite, in a build directory of its own.
+check-asan: deps deps-check
+	@$(MAKE) --no-print-directory BUILD=build-asan \
+	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all" \
+	  LDFLAGS="-fsanitize=address,undefined" check
+
+bench: deps deps-check
+	@$(MAKE) --no-print-directory all $(BENCH_BIN)
+	@SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/bench/run.sh
+
+install: $(SHOAL)
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1
+	install -m 755 $(SHOAL) $(DESTDIR)$(PREFIX)/bin/shoal
+	install -m 644 coverage/shoal.1 $(DESTDIR)$(PREFIX)/share/man/man1/shoal.1
+
+clean:
+	rm -rf build build-asan shoal-report
+
+-include $(LIB_OBJ:.o=.d) $(BUILD)/shoal.d $(TEST_BIN:%=%.d) $(PROBE_BIN:%=%.d) $(BENCH_SRC:%.c=$(BUILD)/%.d)

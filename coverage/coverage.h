@@ -1,0 +1,337 @@
+/* shoal coverage/: the graph file, the run archive, the claims, coverage measures and reports.
+ * See LICENSE. */
+#ifndef SHOAL_COVERAGE_H
+#define SHOAL_COVERAGE_H
+
+#include <stddef.h>
+#include <stdio.h>
+
+#include "power/power.h"
+
+/* Ownership: every object a cov_ function hands out through an out-parameter belongs to the caller,
+ * who releases it with the matching _free or _close; every _free and _close accepts NULL. Strings
+ * and arrays inside a struct belong to that struct. Library functions never print to stdout or
+ * stderr on their own and never exit: the report writers print only to the FILE * they are given. */
+
+/* Status codes of the coverage module. 0 is success. COV_EINPUT is the user's fault (exit 2). */
+enum cov_status {
+    COV_OK = 0,
+    COV_EINPUT,     /* bad graph file, CSV, archive contents or option value */
+    COV_ENOMEM,
+    COV_EIO,        /* file system or SQLite failure */
+    COV_ENUMERIC,   /* a numeric routine failed or did not converge */
+    COV_ENOPLOT     /* gnuplot is missing or failed; callers treat it as a warning */
+};
+
+/* Where and what went wrong. where is "file:line:column", "file: row R, column C" or empty. */
+typedef struct {
+    char where[512];
+    char msg[1024];
+} cov_error;
+
+/* Fill err (which may be NULL) and return status, so callers can write
+ * `return cov_fail(err, COV_EINPUT, where, "expected ...")`. */
+int cov_fail(cov_error *err, int status, const char *where, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+
+/* ---------------------------------------------------------------------------------------------
+ * The graph file (coverage/graph.c). Format: README.md, "The graph file". */
+
+typedef enum { COV_INPUT, COV_OUTPUT, COV_HIDDEN } cov_role;
+typedef enum { COV_REAL, COV_INTEGER, COV_BOOL, COV_LEVELS } cov_type;
+typedef enum { COV_UNIT_RAW, COV_UNIT_SD } cov_unit;
+
+/* An amount of effect: raw outcome units per unit of treatment, or SDs of the outcome per unit of
+ * treatment. value is NAN when the file does not give it. */
+typedef struct {
+    double value;
+    cov_unit unit;
+} cov_amount;
+
+typedef struct {
+    char *name;
+    cov_role role;
+    cov_type type;
+    double lo, hi;        /* inputs: declared range; bool 0..1; levels 0..L-1. Others: NAN */
+    char **levels;        /* COV_LEVELS: the level names, in declared order */
+    size_t n_levels;
+    double noise_sd;      /* outputs: noise SD declared with `noise`, in the output's units; NAN */
+    int held;             /* inputs: 1 when `hold` fixes it for planned runs */
+    double held_value;    /* the held value (level index for level sets) */
+    int line, col;        /* where it is declared */
+} cov_var;
+
+typedef struct {
+    size_t from, to;      /* variable indices */
+    int sign;             /* +1 or -1 when an expected sign is given, else 0 */
+    cov_amount effect;    /* smallest effect of interest of this edge; NAN value: the default */
+    int line, col;
+} cov_edge;
+
+typedef struct {
+    char *path;                 /* file name used in messages */
+    cov_var *vars;
+    size_t n_vars;
+    cov_edge *edges;
+    size_t n_edges;
+    cov_amount default_effect;  /* `default effect`; NAN value when absent */
+    cov_amount margin;          /* `default margin`: the equivalence margin for absence claims */
+    int inputs_independent;     /* `design independent`: no shared hidden design node */
+} cov_graph;
+
+/* Parse a graph file. On a syntax or consistency error returns COV_EINPUT with err->where set to
+ * "file:line:column". Returns COV_EIO when the file cannot be read. */
+int cov_graph_parse_file(const char *path, cov_graph **out, cov_error *err);
+/* The same on text already in memory; name is used in messages. */
+int cov_graph_parse_text(const char *name, const char *text, cov_graph **out, cov_error *err);
+void cov_graph_free(cov_graph *g);
+/* Index of the variable called name, or -1. */
+long cov_graph_find(const cov_graph *g, const char *name);
+
+/* ---------------------------------------------------------------------------------------------
+ * Claims (coverage/claims.c, coverage/dsep.c). */
+
+typedef enum { COV_CLAIM_EFFECT, COV_CLAIM_ABSENCE } cov_claim_kind;
+typedef enum { COV_TESTABLE, COV_UNTESTABLE } cov_claim_status;
+
+typedef struct {
+    cov_claim_kind kind;
+    size_t treatment, outcome;  /* variable indices */
+    size_t *cond;               /* separating set, ascending variable indices, recorded variables */
+    size_t n_cond;
+    cov_amount effect;          /* effect of interest (effect claim) or margin (absence claim),
+                                   defaults applied */
+    int sign;                   /* expected sign from the edge, 0 if none (absence: 0) */
+    cov_claim_status status;
+    char *reason;               /* untestable: the hidden variable or open path; NULL otherwise */
+    int steerable;              /* 1 when the separating set holds inputs only */
+} cov_claim;
+
+typedef struct {
+    cov_claim *items;
+    size_t n;
+} cov_claims;
+
+/* Derive every effect and absence claim that g implies (see README.md, "Claims"). */
+int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err);
+void cov_claims_free(cov_claims *c);
+
+/* ---------------------------------------------------------------------------------------------
+ * The run archive (coverage/csv.c, coverage/archive.c). */
+
+typedef struct cov_archive cov_archive;
+
+#define COV_DEFAULT_TABLE "runs"
+
+/* Open an SQLite archive read-only. A missing file, a missing table or a file that is not SQLite is
+ * COV_EINPUT. table NULL means COV_DEFAULT_TABLE. */
+int cov_archive_open(const char *path, const char *table, cov_archive **out, cov_error *err);
+void cov_archive_close(cov_archive *a);
+/* 1 when the archive was made by `shoal import` (it has shoal's batch table), else 0. */
+int cov_archive_owned(const cov_archive *a);
+const char *cov_archive_path(const cov_archive *a);
+
+/* Append csv_path to the archive db_path (created when missing) in one transaction, stamped as a
+ * new batch. On success writes the batch id and the row count. Bad CSV is COV_EINPUT with
+ * err->where "file:line:column". */
+int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
+                   long long *batch_id, size_t *rows, cov_error *err);
+
+/* One data problem found while reading, kept as an example for the report. */
+typedef struct {
+    size_t var;
+    size_t row;           /* 1-based row in the table's rowid order */
+    double value;
+    char what[96];        /* "outside [2, 12]" */
+} cov_data_issue;
+
+/* The recorded variables, read once into contiguous columns. */
+typedef struct {
+    size_t n_runs;
+    size_t n_vars;        /* equals the graph's n_vars */
+    double **col;         /* col[v][i]: NULL for hidden variables; missing cells are NAN; bools
+                             0/1; level sets hold the level index */
+    size_t *n_missing;    /* per variable: NULL or NaN cells, out-of-domain cells included */
+    size_t *n_outside;    /* per variable: input cells outside the declared domain (stored NAN) */
+    cov_data_issue *issues;   /* up to COV_ISSUE_EXAMPLES examples per variable */
+    size_t n_issues;
+    long long *batch;     /* per run batch id, or NULL when the archive has no batches */
+    size_t n_batches;
+} cov_data;
+
+#define COV_ISSUE_EXAMPLES 5
+
+/* Read the graph's recorded variables from the archive. A recorded variable without a column, a
+ * non-numeric cell, a bool other than 0/1/true/false or an undeclared level is COV_EINPUT naming
+ * the column (and the row). progress may be NULL; it is called now and then with the share done. */
+int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double share, void *ctx),
+                  void *ctx, cov_data **out, cov_error *err);
+void cov_data_free(cov_data *d);
+
+/* ---------------------------------------------------------------------------------------------
+ * Per-claim assessment: regression, power, MDE, runs needed (coverage/assess.c). */
+
+typedef enum { COV_AMPLE, COV_THIN, COV_BLIND } cov_verdict;   /* enough / too thin / untestable */
+
+/* The word printed for a verdict: "ample", "thin", "untestable". */
+const char *cov_verdict_word(cov_verdict v);
+
+typedef struct {
+    double alpha;         /* family-wise level, default 0.05 */
+    double target;        /* target power, default 0.80 */
+    int bonferroni;       /* 1 (default): Bonferroni over the testable claims */
+    int one_sided;        /* 1: one-sided tests where the edge gives a sign */
+} cov_power_options;
+
+typedef struct {
+    size_t claim;         /* index into the claims */
+    size_t n;             /* complete cases used */
+    double df;
+    double estimate, se;  /* observed coefficient and SE, reported only */
+    double sigma;         /* residual SD */
+    double sd_treatment_resid;   /* sd(X | S), divisor n */
+    double vif;           /* 1 / (1 - R^2 of X on S) */
+    double effect_raw;    /* effect of interest (or margin) in outcome units per treatment unit */
+    double alpha;         /* per-claim level after the family correction */
+    double power, power_lo, power_hi;
+    double mde, mde_lo, mde_hi;       /* for absence claims: the smallest margin it could show */
+    double runs_needed;   /* total runs for the target; INFINITY when unreachable */
+    int noise_flag;       /* 1 when the noise estimate cannot be trusted */
+    char *noise_note;     /* why, or NULL */
+    int has_pure_error;   /* replicated configurations allow a pure-error sigma */
+    double sigma_pure, lof_f, lof_p;
+    cov_verdict verdict;
+    char *reason;         /* one line: why thin or untestable; NULL when ample */
+} cov_assessment;
+
+typedef struct {
+    cov_power_options opt;
+    size_t n_testable;    /* the family size used for Bonferroni */
+    cov_assessment *items;    /* one per claim, in claim order */
+    size_t n;
+} cov_assessments;
+
+int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
+               const cov_power_options *opt, cov_assessments **out, cov_error *err);
+void cov_assessments_free(cov_assessments *a);
+
+/* ---------------------------------------------------------------------------------------------
+ * Coverage of the input space and support of each claim (coverage/space.c and friends). */
+
+typedef struct {
+    size_t min_runs;      /* m: a bin or cell is covered when it holds at least m runs (5) */
+    size_t bins;          /* equal-width bins for numeric inputs (10) */
+    int way;              /* highest t-way strength 2 or 3; 0: 3 when inputs <= 20, else 2 */
+    double dependence_threshold;   /* |r| or Cramer's V above which a pair is flagged (0.5) */
+    unsigned long seed;   /* for subsampling and the scrambled probe set */
+} cov_coverage_options;
+
+/* Bins of one input's declared domain: bools 2, level sets L, integers with <= 10 values one per
+ * value, else opt->bins equal-width bins. Returns the bin of x, or -1 when x is NAN or outside. */
+size_t cov_bin_count(const cov_var *v, size_t bins);
+long cov_bin_of(const cov_var *v, size_t bins, double x);
+
+typedef struct {
+    size_t var;
+    size_t n_bins;
+    size_t *count;        /* runs per bin */
+    double share;         /* share of bins with >= min_runs */
+} cov_marginal;
+
+typedef struct {
+    size_t a, b;          /* variable indices, a < b */
+    size_t na, nb;
+    size_t *count;        /* na * nb, row-major: count[i * nb + j] */
+    double share;         /* share of cells with >= min_runs */
+    size_t n_empty;
+} cov_pair;
+
+typedef struct {
+    cov_coverage_options opt;
+    size_t *inputs;       /* the input variable indices */
+    size_t n_inputs;
+    cov_marginal *marginal;   /* one per input */
+    cov_pair *pairs;      /* every pair of inputs */
+    size_t n_pairs;
+    size_t *worst;        /* pair indices, worst share first */
+    double marginal_share;    /* over all bins of all inputs */
+    double pairwise_share;    /* over all cells of all pairs */
+    double threeway_share;    /* NAN when not computed */
+    size_t n_numeric;         /* numeric inputs used for discrepancy and gaps */
+    size_t *numeric;
+    double cd2;               /* centred L2 discrepancy squared (Hickernell 1998) */
+    double cd2_random;        /* its expectation for as many independent uniform points */
+    int cd_subsampled;        /* 1 when estimated on a random subsample */
+    double fill_distance;     /* in the unit cube of the numeric inputs */
+    double *gaps;             /* n_gaps points, n_numeric coordinates each, in the unit cube */
+    double *gap_dist;         /* distance from each gap point to the nearest run */
+    size_t n_gaps;
+    double *dependence;       /* n_inputs * n_inputs: |r| or Cramer's V */
+    size_t n_outside;         /* runs with an input outside its domain (data errors) */
+} cov_coverage;
+
+int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_coverage_options *opt,
+                         cov_coverage **out, cov_error *err);
+void cov_coverage_free(cov_coverage *c);
+
+typedef struct {
+    size_t claim;
+    size_t n;                 /* runs with the claim's variables all present */
+    size_t distinct;          /* distinct treatment values */
+    double spread;            /* SD of the treatment */
+    double spread_resid;      /* sd(X | S) */
+    double overlap;           /* bool/level treatment: share of runs in strata holding every
+                                 level at least min_runs times; numeric: NAN */
+    double kish_ess;          /* Kish's effective sample size of the overlap weights */
+    double runs_per_config;   /* mean runs per distinct configuration of the claim's variables */
+    int pure_error;           /* 1 when replicates allow sigma from pure error */
+    int ok;                   /* 1 when support is adequate */
+    char *reason;             /* why not, in plain words; NULL when ok */
+} cov_support;
+
+typedef struct {
+    cov_support *items;       /* one per claim, in claim order; untestable claims have ok = 0 */
+    size_t n;
+} cov_supports;
+
+int cov_support_measure(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                        const cov_coverage_options *opt, cov_supports **out, cov_error *err);
+void cov_supports_free(cov_supports *s);
+
+/* ---------------------------------------------------------------------------------------------
+ * Commands (coverage/cmd_*.c). The driver fills cov_options from the command line; each command
+ * prints its results to out, writes warnings and progress to note (stderr), and returns a
+ * cov_status. *adequate is set to 1 when the command's gate is met and 0 otherwise. */
+
+typedef enum { COV_FMT_TABLE, COV_FMT_CSV, COV_FMT_JSON } cov_format;
+
+typedef struct {
+    const char *graph_path;
+    const char *archive_path;     /* may be NULL for plan on an empty campaign */
+    const char *table;            /* NULL: COV_DEFAULT_TABLE */
+    const char *csv_path;         /* import */
+    const char *out_path;         /* survey: report directory; plan: CSV file; NULL: default */
+    const char *history_path;     /* survey on a read-only archive: side file for history */
+    cov_format format;
+    int quiet;
+    int color;                    /* decided by the driver: terminal and no NO_COLOR */
+    int progress;                 /* stderr is a terminal */
+    cov_power_options power;
+    cov_coverage_options coverage;
+    double need_marginal, need_pairwise, need_threeway;   /* gates, NAN when unset */
+    long budget;                  /* plan: runs to plan; -1 for auto */
+    int replicates;               /* plan: seeds per configuration */
+} cov_options;
+
+/* Fill o with the defaults written in README.md. */
+void cov_options_default(cov_options *o);
+
+int cov_cmd_claims(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err);
+int cov_cmd_import(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err);
+int cov_cmd_check(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err);
+int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err);
+int cov_cmd_coverage(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err);
+int cov_cmd_survey(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err);
+int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err);
+
+#endif

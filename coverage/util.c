@@ -1,0 +1,50 @@
+/* Error filling, verdict words and option defaults shared by every coverage/ file.
+ * See LICENSE. */
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "coverage/coverage.h"
+
+int cov_fail(cov_error *err, int status, const char *where, const char *fmt, ...)
+{
+    if (err != NULL) {
+        snprintf(err->where, sizeof err->where, "%s", where ? where : "");
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(err->msg, sizeof err->msg, fmt, ap);
+        va_end(ap);
+    }
+    return status;
+}
+
+const char *cov_verdict_word(cov_verdict v)
+{
+    switch (v) {
+    case COV_AMPLE: return "ample";
+    case COV_THIN: return "thin";
+    case COV_BLIND: return "untestable";
+    }
+    return "?";
+}
+
+void cov_options_default(cov_options *o)
+{
+    memset(o, 0, sizeof *o);
+    o->format = COV_FMT_TABLE;
+    o->power.alpha = 0.05;
+    o->power.target = 0.80;
+    o->power.bonferroni = 1;
+    o->power.one_sided = 0;
+    o->coverage.min_runs = 5;
+    o->coverage.bins = 10;
+    o->coverage.way = 0;              /* 0: decide from the input count */
+    o->coverage.dependence_threshold = 0.5;
+    o->coverage.seed = 20261202UL;
+    o->need_marginal = NAN;
+    o->need_pairwise = NAN;
+    o->need_threeway = NAN;
+    o->budget = 0;
+    o->replicates = 1;
+}
