@@ -36,7 +36,7 @@ FIXTURE_SRC = $(wildcard fixtures/*.c)
 FIXTURE_BIN = $(FIXTURE_SRC:fixtures/%.c=$(BUILD)/fixtures/%)
 SHOAL    = $(BUILD)/shoal
 
-.PHONY: all deps deps-check demo check check-slow check-asan bench install clean
+.PHONY: all deps deps-check demo check check-slow check-asan check-valgrind bench install clean
 
 all: $(SHOAL) $(FIXTURE_BIN)
 
@@ -88,6 +88,11 @@ check-asan: deps deps-check
 	@$(MAKE) --no-print-directory BUILD=build-asan \
 	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all" \
 	  LDFLAGS="-fsanitize=address,undefined" check
+
+# The C tests under valgrind (memcheck, leak check, non-zero exit on any error).
+check-valgrind: deps deps-check
+	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN)
+	@VALGRIND=1 SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/run.sh
 
 bench: deps deps-check
 	@$(MAKE) --no-print-directory all $(BENCH_BIN)
