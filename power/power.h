@@ -41,6 +41,14 @@ int pw_ncbeta_cdf(double x, double a, double b, double lambda, double *lower, do
 /* Noncentral F with df1, df2 > 0 and noncentrality lambda >= 0, through the noncentral beta. */
 int pw_ncf_cdf(double f, double df1, double df2, double lambda, double *lower, double *upper);
 
+/* Library-internal terms shared by the mixture series (power/ncbeta.c): the log of the Poisson term
+ * e^{-lambda} lambda^x / Gamma(x + 1) and of the binomial term
+ * Gamma(n + 1) / (Gamma(k + 1) Gamma(n - k + 1)) p^k q^(n - k), for real x, k, n (q = 1 - p, both
+ * given), by Loader's (2000) saddle-point forms, which keep full relative accuracy where
+ * differences of lgamma lose digits. Return -INFINITY for a zero term. */
+double pw_log_dpois(double x, double lambda);
+double pw_log_dbinom(double k, double n, double p, double q);
+
 /* Noncentral chi-squared with df > 0 and lambda >= 0 (Ding 1992, AS 275, and the Poisson mixture). */
 int pw_ncchisq_cdf(double x, double df, double lambda, double *lower, double *upper);
 
