@@ -81,6 +81,7 @@ typedef struct {
     double rss;          /* residual sum of squares */
     double sigma;        /* residual SD, sqrt(rss / df) */
     double r2;           /* coefficient of determination (centred when X has an intercept) */
+    double *cov_unscaled; /* p * p, row-major: (X'X)^-1, so that Cov(coef) = sigma^2 cov_unscaled */
 } pw_ols;
 
 /* Fit by Householder QR (Golub & Van Loan 2013, sec. 5.2), which keeps the NIST StRD Longley
@@ -88,6 +89,52 @@ typedef struct {
  * Returns PW_OK, PW_ESING (rank-deficient), PW_EFEW (n <= p) or PW_ENOMEM. */
 int pw_ols_fit(const double *X, const double *y, size_t n, size_t p, pw_ols **out);
 void pw_ols_free(pw_ols *fit);
+
+/* Means and centred cross-products of k columns, accumulated one row at a time by the co-moment
+ * update (Welford 1962; Chan, Golub & LeVeque 1983), which stays accurate when the means are large
+ * against the spread. Only the upper triangle of xprod (j >= i) is kept. (power/xprod.c) */
+typedef struct {
+    size_t k;            /* columns */
+    double n;            /* rows added */
+    double *mean;        /* k means */
+    double *xprod;       /* k * k row-major: sum over rows of (x_i - mean_i)(x_j - mean_j), j >= i */
+} pw_moments;
+
+int pw_moments_alloc(size_t k, pw_moments **out);   /* PW_OK or PW_ENOMEM */
+void pw_moments_free(pw_moments *m);
+void pw_moments_add(pw_moments *m, const double *row);   /* row: k values, none NaN */
+/* The centred cross-product of columns i and j of m, either order. */
+double pw_moments_at(const pw_moments *m, size_t i, size_t j);
+
+/* A regression solved from centred cross-products: y on k predictors and an intercept, where the
+ * last t predictors are the treatment (t = 1 for a single column, L - 1 dummies for a level set).
+ * The cross-products are scaled to correlations and factored by Cholesky in the order
+ * (others, treatment, y) (Golub & Van Loan 2013, sec. 4.2; the residual sum of squares is the last
+ * pivot squared, as in the sweep of Goodnight 1979). A predictor whose share of variance left after
+ * the earlier ones is below PW_ALIAS_TOL is aliased and dropped (kept[j] = 0). */
+#define PW_ALIAS_TOL 1e-9    /* 1 - R^2 below this: the column is a linear function of the others up
+                                to rounding of data stored with ~16 digits */
+typedef struct {
+    size_t k, t;          /* predictors without the intercept; trailing treatment columns */
+    double n;             /* rows */
+    unsigned char *kept;  /* k flags */
+    size_t rank, t_rank;  /* kept predictors; kept treatment columns */
+    double *coef;         /* k slopes (0 when dropped) */
+    double *se;           /* k standard errors (NAN when dropped) */
+    double intercept;
+    double rss, df, sigma, r2;   /* df = n - 1 - rank; sigma NAN when df <= 0 */
+    double *treat_info;   /* t_rank * t_rank: X_T'(I - H)X_T of the kept treatment columns given the
+                             intercept and the other predictors (the inverse of their block of
+                             (X'X)^-1), row-major */
+    double *treat_coef;   /* t_rank slopes of the kept treatment columns */
+} pw_xfit;
+
+/* Solve the regression whose columns are idx[0..k-1] (predictors, the treatment last) and idx[k]
+ * (outcome) of the accumulated moments m. Returns PW_OK, PW_EDOM (bad sizes), PW_ENOMEM. A constant
+ * or aliased predictor is dropped, not an error; t_rank == 0 means the treatment never varies
+ * apart from the other predictors. */
+int pw_xfit_solve(const pw_moments *m, const size_t *idx, size_t k, size_t t, pw_xfit **out);
+void pw_xfit_free(pw_xfit *f);
 
 /* ---------------------------------------------------------------------------------------------
  * Power, minimum detectable effect and run sizing for one test (power/sizing.c and friends).
@@ -114,7 +161,31 @@ typedef struct {
     double n_levels;     /* PW_TEST_LEVELS_F: levels L; otherwise ignored */
     double p_base;       /* PW_TEST_TWO_PROP: outcome's base rate; share_treated: group share */
     double share_treated;
+    double ncp_per_run;  /* PW_TEST_LEVELS_F: noncentrality per run per (effect / sigma)^2 under the
+                            least favourable pattern; NAN or <= 0: balanced groups, 1 / (2 L) */
 } pw_design;
+
+/* How the figures are formed (documented in README.md, "shoal power"):
+ * - PW_TEST_COEF_T: df = n - n_params - 1, ncp = effect sd_x_resid sqrt(n) / sigma; power of the
+ *   t test with both tails (sides 2) or the upper one (sides 1, effect in the expected direction).
+ * - PW_TEST_LEVELS_F: df1 = L - 1, df2 = n - n_params - df1,
+ *   lambda = ncp_per_run n (effect / sigma)^2, power = P(F'(df1, df2, lambda) > F_{1-alpha}).
+ * - PW_TEST_TWO_PROP: p1, p2 = p_base -+ effect / 2 clipped to [PW_PROP_EPS, 1 - PW_PROP_EPS],
+ *   Cohen's h = 2 asin sqrt(p2) - 2 asin sqrt(p1), normal test on n sd_x_resid^2 effective units
+ *   (n1 n2 / (n1 + n2) when the conditioning set is empty), as pwr.2p2n.test computes it.
+ * - PW_TEST_TOST: se = sigma / (sd_x_resid sqrt(n)), df = n - n_params - max(1, L - 1), exact
+ *   power through pw_tost_power at a true effect of 0 with margins -+effect. */
+#define PW_PROP_EPS 1e-9     /* keeps both proportions inside (0, 1), where the arcsine is smooth */
+
+/* Power of the normal-approximation test of Cohen's h (Cohen 1988, ch. 6) with effective size
+ * n_eff = n1 n2 / (n1 + n2): Phi(h sqrt(n_eff) - z) + [sides 2] Phi(-h sqrt(n_eff) - z), z the
+ * upper alpha / sides normal quantile. */
+int pw_prop_power_h(double h, double n_eff, double alpha, int sides, double *power);
+
+/* Cohen's f^2 form of the F test for u tested coefficients and v residual df, with R's
+ * pwr.f2.test convention lambda = f2 (u + v + 1). */
+int pw_f2_power(double f2, double u, double v, double alpha, double *power);
+
 
 /* Power of the test described by d. Returns PW_OK, PW_EDOM, PW_EFEW or PW_ENOCONV. */
 int pw_power(const pw_design *d, double *power);
@@ -129,5 +200,75 @@ int pw_mde(const pw_design *d, double *mde);
  * PW_MAX_RUNS reaches it. */
 #define PW_MAX_RUNS 1e9
 int pw_runs_needed(const pw_design *d, double *runs);
+
+/* ---------------------------------------------------------------------------------------------
+ * Optimal-design arithmetic for planning runs (power/design.c). Matrices are row-major. */
+
+/* The inverse of a symmetric positive definite p-by-p matrix a, by Cholesky
+ * (gsl_linalg_cholesky_decomp1 and _invert). a and ainv may not overlap. Returns PW_OK, PW_ESING
+ * (not positive definite), PW_ENOMEM. */
+int pw_spd_inverse(const double *a, size_t p, double *ainv);
+
+/* Sherman & Morrison (1950): given ainv = A^-1, u = A^-1 x and xu = x' A^-1 x, the inverse of
+ * A + w x x' is A^-1 - w u u' / (1 + w xu). pw_sm_direction writes u (p values) and *xu;
+ * pw_sm_update overwrites ainv with the inverse of A + w x x' (w > 0) in O(p^2). PW_EDOM when
+ * 1 + w xu is not positive (ainv was not positive definite). */
+void pw_sm_direction(const double *ainv, size_t p, const double *x, double *u, double *xu);
+int pw_sm_update(double *ainv, size_t p, const double *x, double w, double *u);
+
+/* The information a design holds about a treatment block of k columns starting at column first
+ * (its coefficients are contrasts against a left-out level): 1 / the largest variance, in units of
+ * sigma^2, among the block's coefficients and their pairwise differences, i.e. the worst-estimated
+ * difference between two levels. k = 1: 1 / ainv[first][first]. With u and xu from
+ * pw_sm_direction and w > 0, _after gives the same figure for A + w x x' without forming it. */
+double pw_block_info(const double *ainv, size_t p, size_t first, size_t k);
+double pw_block_info_after(const double *ainv, size_t p, size_t first, size_t k, const double *u,
+                           double xu, double w);
+
+/* d at n_new runs with q = sd_x_resid sqrt(n), which sets the test's noncentrality (effect q /
+ * sigma), replaced by q_new. For PW_TEST_TWO_PROP, whose information is n share (1 - share), the
+ * treated share becomes the one (<= 1/2 of the way) giving q_new^2 = n_new share (1 - share),
+ * capped at a balanced 1/2. */
+int pw_design_with_q(const pw_design *d, double n_new, double q_new, pw_design *out);
+
+/* The smallest q = sd_x_resid sqrt(n) with which d reaches d->target at n_new runs, by Brent root
+ * finding on pw_power (power rises with q). *q is INFINITY when no q up to PW_Q_MAX (or, for two
+ * proportions, a balanced allocation) reaches it. */
+#define PW_Q_MAX 1e8
+int pw_design_q_needed(const pw_design *d, double n_new, double *q);
+
+/* Greedy sequential augmentation (Wynn 1970; Fedorov 1972, ch. 4), forward selection without
+ * exchange. A pw_aug holds groups of claims that share design columns: each group keeps
+ * (X'X + ridge I)^-1 over its columns, drawn from a global coded row of n_cols values (column 0 is
+ * the intercept, always 1). A target is one claim's treatment block in a group, with the
+ * information it needs (pw_block_info units). Allocated by pw_aug_alloc, freed by pw_aug_free. */
+typedef struct pw_aug pw_aug;
+
+int pw_aug_alloc(size_t n_cols, pw_aug **out);
+void pw_aug_free(pw_aug *a);
+/* Add a group over the global columns cols[0..p-1] (cols[0] should be 0, the intercept) whose
+ * current cross-product matrix is gram (p-by-p, X0'X0 of the runs so far; NULL for none); ridge > 0
+ * is added to its diagonal so that an empty or rank-deficient start stays invertible. */
+int pw_aug_add_group(pw_aug *a, const size_t *cols, size_t p, const double *gram, double ridge,
+                     size_t *group);
+/* Add a target: columns first..first+k-1 of the group (positions within cols). need: the
+ * information at which it reaches its target; NAN or INFINITY make it never active. */
+int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, double need,
+                      size_t *target);
+size_t pw_aug_n_targets(const pw_aug *a);
+double pw_aug_info(const pw_aug *a, size_t target);
+double pw_aug_need(const pw_aug *a, size_t target);
+/* Change a target's need; a target is active while its information is below its need. */
+void pw_aug_set_need(pw_aug *a, size_t target, double need);
+int pw_aug_active(const pw_aug *a, size_t target);
+size_t pw_aug_n_active(const pw_aug *a);
+/* The score of adding w runs at the coded row: over active targets, the share of the remaining
+ * need the runs would cover (capped at 1), weighted by 1 + the share still missing so the targets
+ * furthest below their need count most. 0 when nothing is active. */
+int pw_aug_score(pw_aug *a, const double *row, double w, double *score);
+/* Add w runs at row to every group (Sherman-Morrison, with a fresh Cholesky inverse of the kept
+ * cross-products every PW_AUG_REFRESH commits to stop rounding drift). */
+#define PW_AUG_REFRESH 64
+int pw_aug_commit(pw_aug *a, const double *row, double w);
 
 #endif
