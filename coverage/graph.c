@@ -1,0 +1,962 @@
+/* The graph file: a line-oriented description of the model's variables and expected effects.
+ * See LICENSE. */
+#include <errno.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coverage/internal.h"
+
+/* Integers are held in doubles; beyond 2^53 whole numbers are no longer exact. */
+#define GRAPH_MAX_WHOLE 9007199254740992.0
+/* Names longer than this are not compared for "did you mean": the suggestion is a courtesy. */
+#define SUGGEST_MAX_LEN 128
+
+typedef enum {
+    T_END, T_WORD, T_QUOTED, T_NUMBER, T_ARROW, T_COMMA, T_LBRACK, T_RBRACK, T_LBRACE, T_RBRACE,
+    T_PLUS, T_MINUS
+} tok_kind;
+
+typedef struct {
+    tok_kind kind;
+    char *text;     /* T_WORD, T_QUOTED, T_NUMBER: owned, unescaped */
+    double num;     /* T_NUMBER */
+    int col;        /* 1-based, in characters (UTF-8 continuation bytes do not count) */
+} token;
+
+typedef struct {
+    size_t *item;
+    size_t n, cap;
+} index_list;
+
+typedef struct {
+    const char *name;
+    int line;
+    token *tok;
+    size_t n_tok, cap_tok, pos;
+    cov_graph *g;
+    size_t cap_vars, cap_edges;
+    index_list *children;   /* per variable, parallel to g->vars */
+    int seen_default_effect, seen_margin, seen_design;
+    cov_error *err;
+} parser;
+
+static const char *const reserved_words[] = {
+    "input", "output", "hidden", "real", "integer", "bool", "levels", "noise", "default", "effect",
+    "margin", "design", "independent", "hold", "expect", "sd"};
+#define N_RESERVED (sizeof reserved_words / sizeof reserved_words[0])
+
+static const char *const statement_words[] = {"input", "output", "hidden", "default", "design",
+                                              "hold"};
+#define N_STATEMENT (sizeof statement_words / sizeof statement_words[0])
+
+static int is_reserved(const char *w)
+{
+    for (size_t i = 0; i < N_RESERVED; i++)
+        if (strcmp(w, reserved_words[i]) == 0) return 1;
+    return 0;
+}
+
+static int perr(parser *p, int col, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+static int perr(parser *p, int col, const char *fmt, ...)
+{
+    if (p->err != NULL) {
+        snprintf(p->err->where, sizeof p->err->where, "%s:%d:%d", p->name, p->line, col);
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(p->err->msg, sizeof p->err->msg, fmt, ap);
+        va_end(ap);
+    }
+    return COV_EINPUT;
+}
+
+/* Levenshtein distance (Levenshtein 1966; the two-row dynamic programme of Wagner & Fischer 1974),
+ * on bytes, which is enough to catch typing slips. */
+static size_t edit_distance(const char *a, const char *b)
+{
+    size_t m = strlen(a), n = strlen(b);
+    if (m > SUGGEST_MAX_LEN || n > SUGGEST_MAX_LEN) return (size_t)-1;
+    size_t prev[SUGGEST_MAX_LEN + 1], cur[SUGGEST_MAX_LEN + 1];
+    for (size_t j = 0; j <= n; j++) prev[j] = j;
+    for (size_t i = 1; i <= m; i++) {
+        cur[0] = i;
+        for (size_t j = 1; j <= n; j++) {
+            size_t best = prev[j - 1] + (a[i - 1] != b[j - 1]);
+            if (prev[j] + 1 < best) best = prev[j] + 1;
+            if (cur[j - 1] + 1 < best) best = cur[j - 1] + 1;
+            cur[j] = best;
+        }
+        memcpy(prev, cur, (n + 1) * sizeof prev[0]);
+    }
+    return prev[n];
+}
+
+/* A suggestion is offered when the nearest candidate is within a third of the word's length
+ * (at least 2 edits): close enough to be a slip, far enough not to suggest nonsense. */
+static const char *nearest(const char *word, const char *const *cand, size_t n_cand,
+                           size_t stride)
+{
+    const char *best = NULL;
+    size_t best_d = (size_t)-1;
+    for (size_t i = 0; i < n_cand; i++) {
+        const char *c = *(const char *const *)((const char *)cand + i * stride);
+        size_t d = edit_distance(word, c);
+        if (d < best_d) {
+            best_d = d;
+            best = c;
+        }
+    }
+    size_t limit = strlen(word) / 3;
+    if (limit < 2) limit = 2;
+    return best != NULL && best_d <= limit ? best : NULL;
+}
+
+/* ---- lexing ---------------------------------------------------------------------------------- */
+
+static void tokens_clear(parser *p)
+{
+    for (size_t i = 0; i < p->n_tok; i++) free(p->tok[i].text);
+    p->n_tok = 0;
+    p->pos = 0;
+}
+
+static int push_token(parser *p, tok_kind kind, char *text, double num, int col)
+{
+    if (p->n_tok == p->cap_tok) {
+        size_t cap = p->cap_tok ? 2 * p->cap_tok : 16;
+        token *t = realloc(p->tok, cap * sizeof *t);
+        if (t == NULL) {
+            free(text);
+            return cov_fail(p->err, COV_ENOMEM, "", "out of memory reading the graph");
+        }
+        p->tok = t;
+        p->cap_tok = cap;
+    }
+    p->tok[p->n_tok++] = (token){kind, text, num, col};
+    return COV_OK;
+}
+
+static int is_word_start(int c) { return (c >= 'A' && c <= 'Z') || (c >= 'a' && c <= 'z') || c == '_'; }
+static int is_digit(int c) { return c >= '0' && c <= '9'; }
+static int is_word_char(int c) { return is_word_start(c) || is_digit(c) || c == '.'; }
+
+/* Split one line [s, e) into tokens. */
+static int lex_line(parser *p, const char *s, const char *e)
+{
+    int col = 1;
+    const char *q = s;
+    while (q < e) {
+        unsigned char c = (unsigned char)*q;
+        int start_col = col;
+        if (c == ' ' || c == '\t') {
+            q++;
+            col++;
+            continue;
+        }
+        if (c == '#') break;
+        if (c == '"') {
+            size_t cap = (size_t)(e - q);
+            char *buf = malloc(cap + 1);
+            if (buf == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+            size_t n = 0;
+            const char *r = q + 1;
+            int closed = 0;
+            while (r < e) {
+                if (*r == '"') {
+                    closed = 1;
+                    r++;
+                    break;
+                }
+                if (*r == '\\') {
+                    if (r + 1 < e && (r[1] == '"' || r[1] == '\\')) {
+                        buf[n++] = r[1];
+                        r += 2;
+                        continue;
+                    }
+                    int bad_col = start_col;
+                    for (const char *k = q; k < r; k++)
+                        if (((unsigned char)*k & 0xC0) != 0x80) bad_col++;
+                    free(buf);
+                    if (r + 1 >= e)
+                        return perr(p, bad_col, "found a backslash at the end of the line, "
+                                    "expected \\\" or \\\\ inside a quoted name");
+                    return perr(p, bad_col, "found the escape \\%c, expected \\\" or \\\\ inside "
+                                "a quoted name", r[1]);
+                }
+                buf[n++] = *r++;
+            }
+            if (!closed) {
+                free(buf);
+                return perr(p, start_col, "found an unterminated quoted name, expected a closing "
+                            "'\"' before the end of the line");
+            }
+            buf[n] = '\0';
+            if (n == 0) {
+                free(buf);
+                return perr(p, start_col, "found an empty quoted name \"\", expected at least one "
+                            "character");
+            }
+            for (const char *k = q; k < r; k++)
+                if (((unsigned char)*k & 0xC0) != 0x80) col++;
+            q = r;
+            int rc = push_token(p, T_QUOTED, buf, 0, start_col);
+            if (rc) return rc;
+            continue;
+        }
+        if (c == '-' && q + 1 < e && q[1] == '>') {
+            int rc = push_token(p, T_ARROW, NULL, 0, start_col);
+            if (rc) return rc;
+            q += 2;
+            col += 2;
+            continue;
+        }
+        int signed_num = (c == '-' || c == '+') && q + 1 < e &&
+                         (is_digit((unsigned char)q[1]) ||
+                          (q[1] == '.' && q + 2 < e && is_digit((unsigned char)q[2])));
+        if (is_digit(c) || signed_num || (c == '.' && q + 1 < e && is_digit((unsigned char)q[1]))) {
+            const char *r = q + 1;
+            while (r < e) {
+                int d = (unsigned char)*r;
+                if (is_word_char(d)) r++;
+                else if ((d == '+' || d == '-') && (r[-1] == 'e' || r[-1] == 'E')) r++;
+                else break;
+            }
+            size_t len = (size_t)(r - q);
+            char *text = malloc(len + 1);
+            if (text == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+            memcpy(text, q, len);
+            text[len] = '\0';
+            char *end = NULL;
+            errno = 0;
+            double v = strtod(text, &end);
+            /* strtod also reads hexadecimal, inf and nan: the format allows decimal numbers only. */
+            if (errno != 0 || end != text + len || !isfinite(v) || strpbrk(text, "xXnNiI") != NULL) {
+                int rc = perr(p, start_col, "found '%s', expected a decimal number", text);
+                free(text);
+                return rc;
+            }
+            q = r;
+            col += (int)len;
+            int rc = push_token(p, T_NUMBER, text, v, start_col);
+            if (rc) return rc;
+            continue;
+        }
+        if (is_word_start(c)) {
+            const char *r = q + 1;
+            while (r < e && is_word_char((unsigned char)*r)) r++;
+            size_t len = (size_t)(r - q);
+            char *text = malloc(len + 1);
+            if (text == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+            memcpy(text, q, len);
+            text[len] = '\0';
+            q = r;
+            col += (int)len;
+            int rc = push_token(p, T_WORD, text, 0, start_col);
+            if (rc) return rc;
+            continue;
+        }
+        tok_kind k;
+        switch (c) {
+        case ',': k = T_COMMA; break;
+        case '[': k = T_LBRACK; break;
+        case ']': k = T_RBRACK; break;
+        case '{': k = T_LBRACE; break;
+        case '}': k = T_RBRACE; break;
+        case '+': k = T_PLUS; break;
+        case '-': k = T_MINUS; break;
+        default: {
+            /* Quote the whole UTF-8 sequence so the message shows the character the user typed. */
+            size_t len = 1;
+            while (q + len < e && len < 4 && ((unsigned char)q[len] & 0xC0) == 0x80) len++;
+            return perr(p, start_col, "found the character '%.*s', expected a name, a number or "
+                        "one of -> , [ ] { } + -", (int)len, q);
+        }
+        }
+        int rc = push_token(p, k, NULL, 0, start_col);
+        if (rc) return rc;
+        q++;
+        col++;
+    }
+    return push_token(p, T_END, NULL, 0, col);
+}
+
+/* ---- parsing helpers ------------------------------------------------------------------------- */
+
+static token *peek(parser *p) { return &p->tok[p->pos]; }
+static token *next(parser *p)
+{
+    token *t = &p->tok[p->pos];
+    if (t->kind != T_END) p->pos++;
+    return t;
+}
+
+/* A short description of a token for "found ..." messages. */
+static const char *describe(const token *t, char *buf, size_t size)
+{
+    switch (t->kind) {
+    case T_END: snprintf(buf, size, "the end of the line"); break;
+    case T_WORD: snprintf(buf, size, "'%s'", t->text); break;
+    case T_QUOTED: snprintf(buf, size, "the name \"%s\"", t->text); break;
+    case T_NUMBER: snprintf(buf, size, "the number %s", t->text); break;
+    case T_ARROW: snprintf(buf, size, "'->'"); break;
+    case T_COMMA: snprintf(buf, size, "','"); break;
+    case T_LBRACK: snprintf(buf, size, "'['"); break;
+    case T_RBRACK: snprintf(buf, size, "']'"); break;
+    case T_LBRACE: snprintf(buf, size, "'{'"); break;
+    case T_RBRACE: snprintf(buf, size, "'}'"); break;
+    case T_PLUS: snprintf(buf, size, "'+'"); break;
+    case T_MINUS: snprintf(buf, size, "'-'"); break;
+    }
+    return buf;
+}
+
+static int expect_fail(parser *p, const token *t, const char *expected)
+{
+    char buf[160];
+    return perr(p, t->col, "found %s, expected %s", describe(t, buf, sizeof buf), expected);
+}
+
+static int expect_kind(parser *p, tok_kind kind, const char *expected)
+{
+    token *t = peek(p);
+    if (t->kind != kind) return expect_fail(p, t, expected);
+    next(p);
+    return COV_OK;
+}
+
+static int expect_end(parser *p)
+{
+    return expect_kind(p, T_END, "the end of the line");
+}
+
+static int is_word(const token *t, const char *w)
+{
+    return t->kind == T_WORD && strcmp(t->text, w) == 0;
+}
+
+/* A name token: a bare word that is not reserved, or a quoted string. */
+static int take_name(parser *p, const char *what, token **out)
+{
+    token *t = peek(p);
+    if (t->kind == T_WORD && is_reserved(t->text))
+        return perr(p, t->col, "found the reserved word '%s', expected %s (quote it, \"%s\", to "
+                    "use it as a name)", t->text, what, t->text);
+    if (t->kind != T_WORD && t->kind != T_QUOTED) return expect_fail(p, t, what);
+    *out = next(p);
+    return COV_OK;
+}
+
+/* Names of the declared variables, for suggestions. */
+static int resolve(parser *p, const token *t, size_t *out)
+{
+    long k = cov_graph_find(p->g, t->text);
+    if (k >= 0) {
+        *out = (size_t)k;
+        return COV_OK;
+    }
+    const char *near = p->g->n_vars
+        ? nearest(t->text, (const char *const *)&p->g->vars[0].name, p->g->n_vars, sizeof(cov_var))
+        : NULL;
+    if (near != NULL)
+        return perr(p, t->col, "found the undeclared variable '%s', expected a variable declared "
+                    "before this line; did you mean '%s'?", t->text, near);
+    return perr(p, t->col, "found the undeclared variable '%s', expected a variable declared "
+                "before this line with input, output or hidden", t->text);
+}
+
+static int take_number(parser *p, const char *expected, token **out)
+{
+    token *t = peek(p);
+    if (t->kind != T_NUMBER) return expect_fail(p, t, expected);
+    *out = next(p);
+    return COV_OK;
+}
+
+static int is_whole(double x) { return x == floor(x) && fabs(x) <= GRAPH_MAX_WHOLE; }
+
+/* An amount: a positive number, then optionally `sd`. */
+static int take_amount(parser *p, const char *what, cov_amount *out)
+{
+    token *t = NULL;
+    int rc = take_number(p, what, &t);
+    if (rc) return rc;
+    if (!(t->num > 0)) return perr(p, t->col, "found %s, expected %s greater than 0", t->text, what);
+    out->value = t->num;
+    out->unit = COV_UNIT_RAW;
+    if (is_word(peek(p), "sd")) {
+        next(p);
+        out->unit = COV_UNIT_SD;
+    }
+    return COV_OK;
+}
+
+/* ---- declarations ---------------------------------------------------------------------------- */
+
+static int add_var(parser *p, const char *name, cov_var **out)
+{
+    cov_graph *g = p->g;
+    if (g->n_vars == p->cap_vars) {
+        size_t cap = p->cap_vars ? 2 * p->cap_vars : 16;
+        cov_var *v = realloc(g->vars, cap * sizeof *v);
+        if (v == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+        g->vars = v;
+        index_list *c = realloc(p->children, cap * sizeof *c);
+        if (c == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+        p->children = c;
+        p->cap_vars = cap;
+    }
+    cov_var *v = &g->vars[g->n_vars];
+    memset(v, 0, sizeof *v);
+    v->name = strdup(name);
+    if (v->name == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+    v->lo = v->hi = v->noise_sd = v->held_value = NAN;
+    p->children[g->n_vars] = (index_list){NULL, 0, 0};
+    g->n_vars++;
+    *out = v;
+    return COV_OK;
+}
+
+/* `[LO, HI]` with LO < HI; whole numbers for integers. */
+static int take_range(parser *p, cov_type type, double *lo, double *hi)
+{
+    token *open = peek(p), *a = NULL, *b = NULL;
+    int rc = expect_kind(p, T_LBRACK, "'[' starting the range [LO, HI]");
+    if (!rc) rc = take_number(p, "the lower end LO of [LO, HI]", &a);
+    if (!rc) rc = expect_kind(p, T_COMMA, "',' between LO and HI");
+    if (!rc) rc = take_number(p, "the upper end HI of [LO, HI]", &b);
+    if (!rc) rc = expect_kind(p, T_RBRACK, "']' closing the range");
+    if (rc) return rc;
+    if (type == COV_INTEGER) {
+        if (!is_whole(a->num))
+            return perr(p, a->col, "found %s, expected a whole number for an integer range",
+                        a->text);
+        if (!is_whole(b->num))
+            return perr(p, b->col, "found %s, expected a whole number for an integer range",
+                        b->text);
+    }
+    if (!(a->num < b->num))
+        return perr(p, open->col, "found the %s range [%s, %s], expected LO < HI",
+                    a->num == b->num ? "empty" : "inverted", a->text, b->text);
+    *lo = a->num;
+    *hi = b->num;
+    return COV_OK;
+}
+
+/* `{a, b, ...}`: at least two distinct level names. */
+static int take_levels(parser *p, cov_var *v)
+{
+    token *open = peek(p);
+    int rc = expect_kind(p, T_LBRACE, "'{' starting the list of levels");
+    if (rc) return rc;
+    size_t cap = 0;
+    for (;;) {
+        token *t = NULL;
+        rc = take_name(p, "a level name", &t);
+        if (rc) return rc;
+        for (size_t i = 0; i < v->n_levels; i++)
+            if (strcmp(v->levels[i], t->text) == 0)
+                return perr(p, t->col, "found the level '%s' twice, expected distinct levels",
+                            t->text);
+        if (v->n_levels == cap) {
+            cap = cap ? 2 * cap : 4;
+            char **l = realloc(v->levels, cap * sizeof *l);
+            if (l == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+            v->levels = l;
+        }
+        v->levels[v->n_levels] = strdup(t->text);
+        if (v->levels[v->n_levels] == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+        v->n_levels++;
+        if (peek(p)->kind == T_COMMA) {
+            next(p);
+            continue;
+        }
+        rc = expect_kind(p, T_RBRACE, "',' or '}' in the list of levels");
+        if (rc) return rc;
+        break;
+    }
+    if (v->n_levels < 2)
+        return perr(p, open->col, "found 1 level, expected at least 2 distinct levels");
+    return COV_OK;
+}
+
+static int parse_declaration(parser *p, cov_role role)
+{
+    next(p);
+    token *name = NULL;
+    int rc = take_name(p, "a variable name", &name);
+    if (rc) return rc;
+    long prior = cov_graph_find(p->g, name->text);
+    if (prior >= 0)
+        return perr(p, name->col, "found a second declaration of '%s', expected each variable "
+                    "declared once (first declared at line %d)", name->text,
+                    p->g->vars[prior].line);
+    token *type = peek(p);
+    static const char *const types[] = {"real", "integer", "bool", "levels"};
+    cov_type ty;
+    if (is_word(type, "real")) ty = COV_REAL;
+    else if (is_word(type, "integer")) ty = COV_INTEGER;
+    else if (is_word(type, "bool")) ty = COV_BOOL;
+    else if (is_word(type, "levels")) ty = COV_LEVELS;
+    else {
+        const char *near = type->kind == T_WORD ? nearest(type->text, types, 4, sizeof types[0])
+                                                 : NULL;
+        char buf[160];
+        if (near != NULL)
+            return perr(p, type->col, "found %s, expected a type: real, integer, bool or levels; "
+                        "did you mean '%s'?", describe(type, buf, sizeof buf), near);
+        return expect_fail(p, type, "a type: real, integer, bool or levels");
+    }
+    next(p);
+    cov_var *v = NULL;
+    rc = add_var(p, name->text, &v);
+    if (rc) return rc;
+    v->role = role;
+    v->type = ty;
+    v->line = p->line;
+    v->col = name->col;
+    double lo = NAN, hi = NAN;
+    if (ty == COV_LEVELS) {
+        if (role != COV_HIDDEN || peek(p)->kind == T_LBRACE) rc = take_levels(p, v);
+        if (rc) return rc;
+        lo = 0;
+        hi = (double)v->n_levels - 1;
+        if (v->n_levels == 0) lo = hi = NAN;
+    } else if (ty == COV_BOOL) {
+        lo = 0;
+        hi = 1;
+    } else if (role == COV_INPUT || peek(p)->kind == T_LBRACK) {
+        if (role == COV_OUTPUT)
+            return expect_fail(p, peek(p), "'noise' or the end of the line (outputs take no range)");
+        rc = take_range(p, ty, &lo, &hi);
+        if (rc) return rc;
+    }
+    if (role == COV_INPUT) {
+        v->lo = lo;
+        v->hi = hi;
+    }
+    if (role == COV_OUTPUT && is_word(peek(p), "noise")) {
+        next(p);
+        token *sd = NULL;
+        rc = take_number(p, "the noise SD after 'noise'", &sd);
+        if (rc) return rc;
+        if (!(sd->num > 0))
+            return perr(p, sd->col, "found %s, expected a noise SD greater than 0", sd->text);
+        v->noise_sd = sd->num;
+    }
+    if (peek(p)->kind != T_END) {
+        if (role == COV_OUTPUT) return expect_fail(p, peek(p), "'noise SD' or the end of the line");
+        return expect_end(p);
+    }
+    return COV_OK;
+}
+
+static int parse_default(parser *p)
+{
+    next(p);
+    token *what = peek(p);
+    if (is_word(what, "effect")) {
+        next(p);
+        if (p->seen_default_effect)
+            return perr(p, what->col, "found a second 'default effect', expected one at most");
+        p->seen_default_effect = 1;
+        int rc = take_amount(p, "a smallest effect of interest", &p->g->default_effect);
+        return rc ? rc : expect_kind(p, T_END, "'sd' or the end of the line");
+    }
+    if (is_word(what, "margin")) {
+        next(p);
+        if (p->seen_margin)
+            return perr(p, what->col, "found a second 'default margin', expected one at most");
+        p->seen_margin = 1;
+        int rc = take_amount(p, "an equivalence margin", &p->g->margin);
+        return rc ? rc : expect_kind(p, T_END, "'sd' or the end of the line");
+    }
+    return expect_fail(p, what, "'effect' or 'margin' after 'default'");
+}
+
+static int parse_design(parser *p)
+{
+    token *first = next(p);
+    if (!is_word(peek(p), "independent"))
+        return expect_fail(p, peek(p), "'independent' after 'design'");
+    next(p);
+    if (p->seen_design)
+        return perr(p, first->col, "found a second 'design independent', expected one at most");
+    p->seen_design = 1;
+    p->g->inputs_independent = 1;
+    return expect_end(p);
+}
+
+static int parse_hold(parser *p)
+{
+    next(p);
+    token *name = NULL;
+    size_t k;
+    int rc = take_name(p, "the name of an input to hold", &name);
+    if (!rc) rc = resolve(p, name, &k);
+    if (rc) return rc;
+    cov_var *v = &p->g->vars[k];
+    if (v->role != COV_INPUT)
+        return perr(p, name->col, "found the %s '%s', expected an input (only inputs can be held)",
+                    v->role == COV_OUTPUT ? "output" : "hidden variable", v->name);
+    if (v->held)
+        return perr(p, name->col, "found a second 'hold' for '%s', expected one at most", v->name);
+    token *val = peek(p);
+    char buf[160];
+    double x = NAN;
+    if (v->type == COV_LEVELS) {
+        if (val->kind != T_WORD && val->kind != T_QUOTED)
+            return expect_fail(p, val, "a level name of the input");
+        for (size_t i = 0; i < v->n_levels; i++)
+            if (strcmp(v->levels[i], val->text) == 0) x = (double)i;
+        if (isnan(x))
+            return perr(p, val->col, "found the level '%s', which '%s' does not declare; expected "
+                        "one of its levels", val->text, v->name);
+    } else if (v->type == COV_BOOL) {
+        if (is_word(val, "true") || (val->kind == T_NUMBER && val->num == 1)) x = 1;
+        else if (is_word(val, "false") || (val->kind == T_NUMBER && val->num == 0)) x = 0;
+        else return perr(p, val->col, "found %s, expected true or false for the bool input '%s'",
+                         describe(val, buf, sizeof buf), v->name);
+    } else {
+        if (val->kind != T_NUMBER) return expect_fail(p, val, "a number");
+        if (v->type == COV_INTEGER && !is_whole(val->num))
+            return perr(p, val->col, "found %s, expected a whole number for the integer input '%s'",
+                        val->text, v->name);
+        if (val->num < v->lo || val->num > v->hi)
+            return perr(p, val->col, "found %s, outside the domain of '%s'; expected a value in "
+                        "[%g, %g]", val->text, v->name, v->lo, v->hi);
+        x = val->num;
+    }
+    next(p);
+    v->held = 1;
+    v->held_value = x;
+    return expect_end(p);
+}
+
+/* ---- edges ----------------------------------------------------------------------------------- */
+
+static int list_push(index_list *l, size_t x)
+{
+    if (l->n == l->cap) {
+        size_t cap = l->cap ? 2 * l->cap : 4;
+        size_t *it = realloc(l->item, cap * sizeof *it);
+        if (it == NULL) return COV_ENOMEM;
+        l->item = it;
+        l->cap = cap;
+    }
+    l->item[l->n++] = x;
+    return COV_OK;
+}
+
+/* When `to` already reaches `from`, adding from -> to closes a cycle: report it as a path. Depth-
+ * first search over the edges read so far (Tarjan 1972). */
+static int check_cycle(parser *p, size_t from, size_t to, int col)
+{
+    size_t n = p->g->n_vars;
+    size_t *prev = malloc(n * sizeof *prev), *stack = malloc(n * sizeof *stack);
+    int rc = COV_OK;
+    if (prev == NULL || stack == NULL) {
+        rc = cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+        goto fail;
+    }
+    for (size_t i = 0; i < n; i++) prev[i] = (size_t)-1;
+    size_t top = 0;
+    stack[top++] = to;
+    prev[to] = to;
+    int found = 0;
+    while (top > 0 && !found) {
+        size_t u = stack[--top];
+        for (size_t i = 0; i < p->children[u].n; i++) {
+            size_t w = p->children[u].item[i];
+            if (prev[w] != (size_t)-1) continue;
+            prev[w] = u;
+            if (w == from) {
+                found = 1;
+                break;
+            }
+            stack[top++] = w;
+        }
+    }
+    if (found) {
+        /* Walk back from `from` to `to`; the cycle reads from -> to -> ... -> from. */
+        size_t len = 0;
+        for (size_t u = from; ; u = prev[u]) {
+            stack[len++] = u;
+            if (u == to) break;
+        }
+        char msg[900];
+        size_t used = 0;
+        used += (size_t)snprintf(msg + used, sizeof msg - used, "%s", p->g->vars[from].name);
+        for (size_t i = len; i-- > 0 && used < sizeof msg;)
+            used += (size_t)snprintf(msg + used, sizeof msg - used, " -> %s",
+                                     p->g->vars[stack[i]].name);
+        rc = perr(p, col, "found a cycle: %s; expected a graph without cycles", msg);
+    }
+fail:
+    free(prev);
+    free(stack);
+    return rc;
+}
+
+static int add_edge(parser *p, const token *ft, size_t from, const token *tt, size_t to)
+{
+    cov_graph *g = p->g;
+    if (from == to)
+        return perr(p, tt->col, "found a cycle: %s -> %s; expected a graph without cycles",
+                    g->vars[from].name, g->vars[to].name);
+    if (g->vars[to].role == COV_INPUT)
+        return perr(p, tt->col, "found an edge into the input '%s', expected edges into outputs "
+                    "or hidden variables only (the tester sets inputs)", g->vars[to].name);
+    for (size_t i = 0; i < g->n_edges; i++)
+        if (g->edges[i].from == from && g->edges[i].to == to)
+            return perr(p, tt->col, "found a second edge %s -> %s, expected each edge once (first "
+                        "at line %d)", g->vars[from].name, g->vars[to].name, g->edges[i].line);
+    int rc = check_cycle(p, from, to, tt->col);
+    if (rc) return rc;
+    if (g->n_edges == p->cap_edges) {
+        size_t cap = p->cap_edges ? 2 * p->cap_edges : 16;
+        cov_edge *e = realloc(g->edges, cap * sizeof *e);
+        if (e == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+        g->edges = e;
+        p->cap_edges = cap;
+    }
+    g->edges[g->n_edges++] = (cov_edge){from, to, 0, {NAN, COV_UNIT_RAW}, p->line, ft->col};
+    if (list_push(&p->children[from], to)) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+    return COV_OK;
+}
+
+/* NAME (, NAME)* (-> NAME (, NAME)*)+ [expect +|-] [effect X [sd]] */
+static int parse_edges(parser *p)
+{
+    size_t first_edge = p->g->n_edges;
+    size_t prev_start = p->pos, prev_end;
+    int rc = COV_OK;
+    /* Check every name of the first list. */
+    for (;;) {
+        token *t = NULL;
+        size_t k;
+        rc = take_name(p, "a variable name", &t);
+        if (!rc) rc = resolve(p, t, &k);
+        if (rc) return rc;
+        if (peek(p)->kind != T_COMMA) break;
+        next(p);
+    }
+    prev_end = p->pos;
+    if (peek(p)->kind != T_ARROW) return expect_fail(p, peek(p), "',' or '->'");
+    while (peek(p)->kind == T_ARROW) {
+        next(p);
+        size_t cur_start = p->pos;
+        for (;;) {
+            token *t = NULL;
+            size_t k;
+            rc = take_name(p, "a variable name after '->'", &t);
+            if (!rc) rc = resolve(p, t, &k);
+            if (rc) return rc;
+            for (size_t i = prev_start; i < prev_end; i += 2) {
+                size_t from;
+                (void)resolve(p, &p->tok[i], &from);
+                rc = add_edge(p, &p->tok[i], from, t, k);
+                if (rc) return rc;
+            }
+            if (peek(p)->kind != T_COMMA) break;
+            next(p);
+        }
+        prev_start = cur_start;
+        prev_end = p->pos;
+    }
+    int sign = 0, have_sign = 0, have_effect = 0;
+    cov_amount eff = {NAN, COV_UNIT_RAW};
+    while (peek(p)->kind != T_END) {
+        token *t = peek(p);
+        if (is_word(t, "expect")) {
+            if (have_sign) return perr(p, t->col, "found a second 'expect', expected one at most");
+            next(p);
+            token *s = peek(p);
+            if (s->kind == T_PLUS) sign = 1;
+            else if (s->kind == T_MINUS) sign = -1;
+            else return expect_fail(p, s, "'+' or '-' after 'expect'");
+            next(p);
+            have_sign = 1;
+        } else if (is_word(t, "effect")) {
+            if (have_effect) return perr(p, t->col, "found a second 'effect', expected one at most");
+            next(p);
+            rc = take_amount(p, "a smallest effect of interest", &eff);
+            if (rc) return rc;
+            have_effect = 1;
+        } else {
+            return expect_fail(p, t, "'->', ',', 'expect', 'effect' or the end of the line");
+        }
+    }
+    for (size_t i = first_edge; i < p->g->n_edges; i++) {
+        p->g->edges[i].sign = sign;
+        p->g->edges[i].effect = eff;
+    }
+    return COV_OK;
+}
+
+/* ---- statements and files -------------------------------------------------------------------- */
+
+static int parse_statement(parser *p)
+{
+    token *t = peek(p);
+    if (t->kind == T_END) return COV_OK;
+    if (t->kind == T_QUOTED) return parse_edges(p);
+    if (t->kind != T_WORD)
+        return expect_fail(p, t, "a statement (input, output, hidden, default, design, hold) or an "
+                           "edge");
+    if (is_word(t, "input")) return parse_declaration(p, COV_INPUT);
+    if (is_word(t, "output")) return parse_declaration(p, COV_OUTPUT);
+    if (is_word(t, "hidden")) return parse_declaration(p, COV_HIDDEN);
+    if (is_word(t, "default")) return parse_default(p);
+    if (is_word(t, "design")) return parse_design(p);
+    if (is_word(t, "hold")) return parse_hold(p);
+    if (is_reserved(t->text))
+        return perr(p, t->col, "found '%s' at the start of a statement, expected a statement "
+                    "(input, output, hidden, default, design, hold) or an edge", t->text);
+    tok_kind after = p->tok[p->pos + 1].kind;
+    if (after == T_ARROW || after == T_COMMA) return parse_edges(p);
+    if (cov_graph_find(p->g, t->text) >= 0)
+        return expect_fail(p, &p->tok[p->pos + 1], "'->' or ',' after a variable name");
+    const char *near = nearest(t->text, statement_words, N_STATEMENT, sizeof statement_words[0]);
+    if (near != NULL)
+        return perr(p, t->col, "found the unknown word '%s', expected a statement or an edge; "
+                    "did you mean '%s'?", t->text, near);
+    return perr(p, t->col, "found the unknown word '%s', expected a statement (input, output, "
+                "hidden, default, design, hold) or an edge (NAME -> NAME)", t->text);
+}
+
+void cov_graph_free(cov_graph *g)
+{
+    if (g == NULL) return;
+    for (size_t i = 0; i < g->n_vars; i++) {
+        free(g->vars[i].name);
+        for (size_t j = 0; j < g->vars[i].n_levels; j++) free(g->vars[i].levels[j]);
+        free(g->vars[i].levels);
+    }
+    free(g->vars);
+    free(g->edges);
+    free(g->path);
+    free(g);
+}
+
+long cov_graph_find(const cov_graph *g, const char *name)
+{
+    for (size_t i = 0; i < g->n_vars; i++)
+        if (strcmp(g->vars[i].name, name) == 0) return (long)i;
+    return -1;
+}
+
+int cov_graph_parse_text(const char *name, const char *text, cov_graph **out, cov_error *err)
+{
+    *out = NULL;
+    parser p;
+    memset(&p, 0, sizeof p);
+    p.name = name ? name : "(graph)";
+    p.err = err;
+    int rc = COV_OK;
+    cov_graph *g = calloc(1, sizeof *g);
+    if (g == NULL) return cov_fail(err, COV_ENOMEM, "", "out of memory");
+    p.g = g;
+    g->default_effect = (cov_amount){NAN, COV_UNIT_RAW};
+    g->margin = (cov_amount){NAN, COV_UNIT_RAW};
+    g->path = strdup(p.name);
+    if (g->path == NULL) {
+        rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
+        goto fail;
+    }
+    const char *s = text;
+    /* A UTF-8 byte-order mark is not part of the first statement. */
+    if ((unsigned char)s[0] == 0xEF && (unsigned char)s[1] == 0xBB && (unsigned char)s[2] == 0xBF)
+        s += 3;
+    for (p.line = 1; *s != '\0'; p.line++) {
+        const char *e = strchr(s, '\n');
+        const char *stop = e ? e : s + strlen(s);
+        const char *lend = stop;
+        if (lend > s && lend[-1] == '\r') lend--;
+        tokens_clear(&p);
+        rc = lex_line(&p, s, lend);
+        if (!rc) rc = parse_statement(&p);
+        if (rc) goto fail;
+        s = e ? e + 1 : stop;
+    }
+    /* The tool refuses to guess which effect matters: every edge that becomes an effect claim
+     * needs a smallest effect of interest, its own or the file's default. */
+    if (isnan(g->default_effect.value)) {
+        for (size_t i = 0; i < g->n_edges; i++) {
+            const cov_edge *ed = &g->edges[i];
+            if (!isnan(ed->effect.value) || g->vars[ed->from].role == COV_HIDDEN ||
+                g->vars[ed->to].role == COV_HIDDEN)
+                continue;
+            p.line = ed->line;
+            rc = perr(&p, ed->col, "found the edge %s -> %s without a smallest effect of interest, "
+                      "expected 'effect X [sd]' on it or a 'default effect X [sd]' line",
+                      g->vars[ed->from].name, g->vars[ed->to].name);
+            goto fail;
+        }
+    }
+    tokens_clear(&p);
+    free(p.tok);
+    for (size_t i = 0; i < g->n_vars; i++) free(p.children[i].item);
+    free(p.children);
+    *out = g;
+    return COV_OK;
+fail:
+    tokens_clear(&p);
+    free(p.tok);
+    for (size_t i = 0; i < g->n_vars; i++) free(p.children[i].item);
+    free(p.children);
+    cov_graph_free(g);
+    return rc;
+}
+
+int cov_graph_parse_file(const char *path, cov_graph **out, cov_error *err)
+{
+    *out = NULL;
+    FILE *f = fopen(path, "rb");
+    if (f == NULL)
+        return cov_fail(err, COV_EIO, path, "cannot open the graph file: %s", strerror(errno));
+    char *buf = NULL;
+    size_t len = 0, cap = 0;
+    int rc = COV_OK;
+    for (;;) {
+        if (cap - len < 4096) {
+            cap = cap ? 2 * cap : 65536;
+            char *nb = realloc(buf, cap + 1);
+            if (nb == NULL) {
+                rc = cov_fail(err, COV_ENOMEM, path, "out of memory reading the graph file");
+                goto fail;
+            }
+            buf = nb;
+        }
+        size_t got = fread(buf + len, 1, cap - len, f);
+        len += got;
+        if (got == 0) break;
+    }
+    if (ferror(f)) {
+        rc = cov_fail(err, COV_EIO, path, "cannot read the graph file: %s", strerror(errno));
+        goto fail;
+    }
+    buf[len] = '\0';
+    const char *nul = memchr(buf, '\0', len);
+    if (nul != NULL) {
+        int line = 1, col = 1;
+        for (const char *q = buf; q < nul; q++) {
+            if (*q == '\n') {
+                line++;
+                col = 1;
+            } else if (((unsigned char)*q & 0xC0) != 0x80) {
+                col++;
+            }
+        }
+        char where[512];
+        snprintf(where, sizeof where, "%s:%d:%d", path, line, col);
+        rc = cov_fail(err, COV_EINPUT, where, "found a NUL byte, expected UTF-8 text");
+        goto fail;
+    }
+    rc = cov_graph_parse_text(path, buf, out, err);
+fail:
+    free(buf);
+    fclose(f);
+    return rc;
+}
