@@ -20,6 +20,41 @@ void cov_emit_csv_number(FILE *f, double x);
 
 /* ---- graph and d-separation (coverage/graph.c, coverage/dsep.c, coverage/claims.c) ----------- */
 
+#define COV_NO_NODE ((size_t)-1)
+
+/* The DAG that separator searches work on: node i < g->n_vars is variable i; when the inputs are
+ * not declared independent, node g->n_vars is the hidden design node, a parent of every input.
+ * Parents and children are stored as offset arrays: the parents of v are par[par_start[v]] up to
+ * par[par_start[v + 1] - 1], and likewise for children. */
+typedef struct {
+    size_t n;             /* nodes */
+    size_t n_vars;        /* the graph's variables (nodes 0 .. n_vars - 1) */
+    size_t design;        /* the design node, or COV_NO_NODE */
+    size_t *par_start, *par;
+    size_t *ch_start, *ch;
+} cov_dag;
+
+/* Build the DAG of g, with the design node when with_design is 1, leaving out edge skip_edge
+ * (an index into g->edges, or COV_NO_NODE for none). Returns COV_OK or COV_ENOMEM. */
+int cov_dag_build(const cov_graph *g, int with_design, size_t skip_edge, cov_dag **out);
+void cov_dag_free(cov_dag *d);
+
+/* *separated = 1 when the node set in_z (in_z[v] != 0, length d->n) d-separates x and y, by the
+ * Bayes-ball reachability walk. x and y must not be in in_z. Returns COV_OK or COV_ENOMEM. */
+int cov_dsep_separated(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
+                       int *separated);
+/* A d-connecting path from x to y given in_z: writes its nodes to path (room for 2 * d->n) and
+ * the arrows between consecutive nodes to dir (dir[i] = +1: path[i] -> path[i+1]; -1: <-),
+ * *len nodes (0 when x and y are d-separated). Returns COV_OK or COV_ENOMEM. */
+int cov_dsep_open_path(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
+                       size_t *path, int *dir, size_t *len);
+/* A minimal d-separator of x and y drawn from the nodes with allowed[v] != 0 (FindMinSep). On
+ * success *found = 1 and z (length d->n) marks the separator. When none exists *found = 0 and z
+ * marks the largest candidate, allowed nodes among the ancestors of x and y, which leaves some
+ * path open. Returns COV_OK or COV_ENOMEM. */
+int cov_dsep_minsep(const cov_dag *d, size_t x, size_t y, const unsigned char *allowed,
+                    unsigned char *z, int *found);
+
 /* ---- archive and data (coverage/csv.c, coverage/archive.c, coverage/data.c) ------------------ */
 
 /* ---- one claim's regression data (coverage/design.c) ------------------------------------------ */
