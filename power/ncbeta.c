@@ -103,7 +103,8 @@ static int beta_pair(double x, double y, double a, double b, double *lo, double 
  * error bound on the neglected weights). The incomplete betas move by the step
  * g(a) = x^a y^b / (a B(a, b)) = b / (a + b) * binom(a; a + b, x) (A&S 26.5.16), taken from the
  * accurate binomial term at the mode and then by its ratio x (a + b) / (a + 1), in logs so a step
- * that underflows at the mode can still grow to matter further out. x + y = 1, both given exactly. */
+ * that underflows at the mode can still grow to matter further out. x + y = 1, both given
+ * exactly. */
 static int ncbeta_tails(double x, double y, double a, double b, double lambda, double *lower,
                         double *upper)
 {
