@@ -1,0 +1,406 @@
+/* Reading the graph's recorded variables from the archive into contiguous columns, checking each
+ * cell against the variable's declared type and domain. See LICENSE. */
+#include <errno.h>
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <sqlite3.h>
+
+#include "coverage/internal.h"
+
+/* Report progress this often: often enough to move a bar, rarely enough to cost nothing. */
+#define PROGRESS_EVERY_ROWS 65536
+/* First guess at the run count when the table's rowids say nothing useful. */
+#define START_CAPACITY 1024
+
+static int ascii_casecmp(const char *a, const char *b)
+{
+    for (;; a++, b++) {
+        int x = (unsigned char)*a, y = (unsigned char)*b;
+        if (x >= 'A' && x <= 'Z') x += 'a' - 'A';
+        if (y >= 'A' && y <= 'Z') y += 'a' - 'A';
+        if (x != y || x == 0) return x - y;
+    }
+}
+
+void cov_data_free(cov_data *d)
+{
+    if (d == NULL) return;
+    if (d->col)
+        for (size_t v = 0; v < d->n_vars; v++) free(d->col[v]);
+    free(d->col);
+    free(d->n_missing);
+    free(d->n_outside);
+    free(d->issues);
+    free(d->batch);
+    free(d);
+}
+
+/* The archive column of a variable: an exact match first, then one that differs only in ASCII
+ * case, as SQLite itself resolves names. -1 when there is none. */
+static long find_column(const cov_archive *a, const char *name)
+{
+    size_t n = cov_archive_n_columns(a);
+    for (size_t i = 0; i < n; i++)
+        if (strcmp(cov_archive_column(a, i), name) == 0) return (long)i;
+    for (size_t i = 0; i < n; i++)
+        if (ascii_casecmp(cov_archive_column(a, i), name) == 0) return (long)i;
+    return -1;
+}
+
+/* Parse a whole text cell as a number: strtod with end-pointer and errno checks, surrounding
+ * blanks allowed. Returns 0 and *x on success. */
+static int parse_number(const char *s, double *x)
+{
+    char *end = NULL;
+    errno = 0;
+    double v = strtod(s, &end);
+    if (end == s) return -1;
+    while (*end == ' ' || *end == '\t') end++;
+    if (*end != '\0') return -1;
+    if (errno == ERANGE && fabs(v) > 1) return -1;   /* overflow; underflow keeps the tiny value */
+    *x = v;
+    return 0;
+}
+
+/* What one cell is read as. */
+typedef struct {
+    cov_archive *a;
+    const cov_graph *g;
+    size_t row;           /* 1-based */
+    cov_error *err;
+} reader;
+
+static int cell_error(reader *r, size_t v, const char *fmt, const char *found, const char *extra)
+{
+    char where[512];
+    snprintf(where, sizeof where, "%s: row %zu, column %s", cov_archive_path(r->a), r->row,
+             r->g->vars[v].name);
+    return cov_fail(r->err, COV_EINPUT, where, fmt, found, extra ? extra : "");
+}
+
+/* The text of a cell that is not already text, for level matching and messages. */
+static void cell_text(sqlite3_stmt *st, int c, char *buf, size_t n)
+{
+    switch (sqlite3_column_type(st, c)) {
+    case SQLITE_INTEGER: snprintf(buf, n, "%lld", (long long)sqlite3_column_int64(st, c)); break;
+    case SQLITE_FLOAT: {
+        double x = sqlite3_column_double(st, c);
+        /* The shortest of %.15g and %.17g that reads back as x, so 0.5 prints as "0.5". */
+        snprintf(buf, n, "%.15g", x);
+        if (strtod(buf, NULL) != x) snprintf(buf, n, "%.17g", x);
+        break;
+    }
+    case SQLITE_BLOB: snprintf(buf, n, "(binary data)"); break;
+    case SQLITE_NULL: snprintf(buf, n, "(null)"); break;
+    default: {
+        const char *t = (const char *)sqlite3_column_text(st, c);
+        snprintf(buf, n, "%s", t ? t : "");
+    }
+    }
+}
+
+/* Read one cell of variable v into *x (NAN when missing). Returns a status. */
+static int read_cell(reader *r, sqlite3_stmt *st, int c, size_t v, double *x)
+{
+    const cov_var *var = &r->g->vars[v];
+    int type = sqlite3_column_type(st, c);
+    char buf[256];
+    if (type == SQLITE_NULL) {
+        *x = NAN;
+        return COV_OK;
+    }
+    if (var->type == COV_LEVELS) {
+        cell_text(st, c, buf, sizeof buf);
+        for (size_t k = 0; k < var->n_levels; k++) {
+            if (strcmp(buf, var->levels[k]) == 0) {
+                *x = (double)k;
+                return COV_OK;
+            }
+        }
+        /* List the declared levels in the message. */
+        char list[512];
+        size_t at = 0;
+        list[0] = '\0';
+        for (size_t k = 0; k < var->n_levels && at < sizeof list; k++)
+            at += (size_t)snprintf(list + at, sizeof list - at, "%s%s", k ? ", " : "",
+                                   var->levels[k]);
+        return cell_error(r, v, "found the level '%.200s', expected one of the declared levels: %s",
+                          buf, list);
+    }
+    double val;
+    if (type == SQLITE_INTEGER || type == SQLITE_FLOAT) {
+        val = sqlite3_column_double(st, c);
+    } else if (type == SQLITE_TEXT) {
+        const char *t = (const char *)sqlite3_column_text(st, c);
+        if (var->type == COV_BOOL && t != NULL) {
+            if (ascii_casecmp(t, "true") == 0) {
+                *x = 1;
+                return COV_OK;
+            }
+            if (ascii_casecmp(t, "false") == 0) {
+                *x = 0;
+                return COV_OK;
+            }
+        }
+        if (t == NULL || parse_number(t, &val) != 0) {
+            cell_text(st, c, buf, sizeof buf);
+            if (var->type == COV_BOOL)
+                return cell_error(r, v, "found '%.200s', expected 0, 1, true or false%s", buf,
+                                  NULL);
+            return cell_error(r, v, "found '%.200s', expected a number%s", buf, NULL);
+        }
+    } else {
+        return cell_error(r, v, "found %s, expected a number%s", "binary data", NULL);
+    }
+    if (isnan(val)) {
+        *x = NAN;
+        return COV_OK;
+    }
+    if (var->type == COV_BOOL) {
+        if (val != 0 && val != 1) {
+            cell_text(st, c, buf, sizeof buf);
+            return cell_error(r, v, "found '%.200s', expected 0, 1, true or false%s", buf, NULL);
+        }
+    }
+    *x = val;
+    return COV_OK;
+}
+
+/* Is x inside the declared domain of input var? Writes why not into what. */
+static int in_domain(const cov_var *var, double x, char *what, size_t n)
+{
+    if (var->role != COV_INPUT || (var->type != COV_REAL && var->type != COV_INTEGER)) {
+        if (isinf(x)) {
+            snprintf(what, n, "not finite");
+            return 0;
+        }
+        return 1;
+    }
+    if (!(x >= var->lo && x <= var->hi)) {
+        snprintf(what, n, "outside [%g, %g]", var->lo, var->hi);
+        return 0;
+    }
+    if (var->type == COV_INTEGER && x != floor(x)) {
+        snprintf(what, n, "not a whole number in [%g, %g]", var->lo, var->hi);
+        return 0;
+    }
+    return 1;
+}
+
+static int grow(cov_data *d, const cov_graph *g, size_t cap, int with_batch)
+{
+    for (size_t v = 0; v < g->n_vars; v++) {
+        if (d->col[v] == NULL && g->vars[v].role == COV_HIDDEN) continue;
+        double *p = realloc(d->col[v], cap * sizeof *p);
+        if (p == NULL) return -1;
+        d->col[v] = p;
+    }
+    if (with_batch) {
+        long long *b = realloc(d->batch, cap * sizeof *b);
+        if (b == NULL) return -1;
+        d->batch = b;
+    }
+    return 0;
+}
+
+static int cmp_ll(const void *a, const void *b)
+{
+    long long x = *(const long long *)a, y = *(const long long *)b;
+    return (x > y) - (x < y);
+}
+
+/* A first guess at the row count without a counting scan: the rowid span. */
+static size_t estimate_rows(sqlite3 *db, const char *qt)
+{
+    char sql[1024];
+    size_t est = 0;
+    sqlite3_stmt *st = NULL;
+    if (strlen(qt) > sizeof sql - 64) return 0;
+    snprintf(sql, sizeof sql, "SELECT max(rowid) - min(rowid) + 1 FROM %s", qt);
+    if (sqlite3_prepare_v2(db, sql, -1, &st, NULL) == SQLITE_OK && sqlite3_step(st) == SQLITE_ROW)
+        if (sqlite3_column_type(st, 0) == SQLITE_INTEGER) {
+            long long n = sqlite3_column_int64(st, 0);
+            if (n > 0 && n < ((long long)1 << 40)) est = (size_t)n;
+        }
+    sqlite3_finalize(st);
+    return est;
+}
+
+int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double share, void *ctx),
+                  void *ctx, cov_data **out, cov_error *err)
+{
+    *out = NULL;
+    sqlite3 *db = cov_archive_db(a);
+    sqlite3_stmt *st = NULL;
+    char *sql = NULL, *qt = NULL;
+    long *colidx = NULL;
+    size_t *vars = NULL;    /* the recorded variables in SELECT order */
+    size_t *n_examples = NULL;
+    int rc = COV_ENOMEM;
+    cov_data *d = calloc(1, sizeof *d);
+    if (d == NULL) goto nomem;
+    d->n_vars = g->n_vars;
+    d->col = calloc(g->n_vars ? g->n_vars : 1, sizeof *d->col);
+    d->n_missing = calloc(g->n_vars ? g->n_vars : 1, sizeof *d->n_missing);
+    d->n_outside = calloc(g->n_vars ? g->n_vars : 1, sizeof *d->n_outside);
+    d->issues = calloc(g->n_vars * COV_ISSUE_EXAMPLES + 1, sizeof *d->issues);
+    colidx = calloc(g->n_vars + 1, sizeof *colidx);
+    vars = calloc(g->n_vars + 1, sizeof *vars);
+    n_examples = calloc(g->n_vars + 1, sizeof *n_examples);
+    if (!d->col || !d->n_missing || !d->n_outside || !d->issues || !colidx || !vars ||
+        !n_examples)
+        goto nomem;
+
+    /* Every recorded variable needs a column: name all that are missing at once. */
+    size_t n_rec = 0, n_absent = 0;
+    char absent[768];
+    absent[0] = '\0';
+    size_t at = 0;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        if (g->vars[v].role == COV_HIDDEN) continue;
+        long c = find_column(a, g->vars[v].name);
+        if (c < 0) {
+            if (at < sizeof absent)
+                at += (size_t)snprintf(absent + at, sizeof absent - at, "%s'%s'",
+                                       n_absent ? ", " : "", g->vars[v].name);
+            n_absent++;
+            continue;
+        }
+        colidx[n_rec] = c;
+        vars[n_rec++] = v;
+    }
+    if (n_absent > 0) {
+        rc = cov_fail(err, COV_EINPUT, cov_archive_path(a), "table '%s' has no column for the "
+                      "recorded variable%s %s; expected one column per input and output",
+                      cov_archive_table(a), n_absent == 1 ? "" : "s", absent);
+        goto fail;
+    }
+    long batch_col = find_column(a, "shoal_batch");
+    int with_batch = batch_col >= 0;
+
+    /* One SELECT of every needed column, in rowid order (the table's own order for a table
+     * without rowids or a view, where ORDER BY rowid is refused). */
+    qt = cov_sql_ident(cov_archive_table(a));
+    if (qt == NULL) goto nomem;
+    size_t len = strlen(qt) + 64;
+    for (size_t k = 0; k < n_rec; k++) len += 2 * strlen(cov_archive_column(a, (size_t)colidx[k])) + 4;
+    len += 32;
+    sql = malloc(len);
+    if (sql == NULL) goto nomem;
+    at = (size_t)snprintf(sql, len, "SELECT ");
+    for (size_t k = 0; k < n_rec; k++) {
+        char *q = cov_sql_ident(cov_archive_column(a, (size_t)colidx[k]));
+        if (q == NULL) goto nomem;
+        at += (size_t)snprintf(sql + at, len - at, "%s, ", q);
+        free(q);
+    }
+    at += (size_t)snprintf(sql + at, len - at, "%s FROM %s",
+                           with_batch ? "\"shoal_batch\"" : "NULL", qt);
+    size_t base = at;
+    snprintf(sql + at, len - at, " ORDER BY rowid");
+    if (sqlite3_prepare_v2(db, sql, -1, &st, NULL) != SQLITE_OK) {
+        sql[base] = '\0';
+        if (sqlite3_prepare_v2(db, sql, -1, &st, NULL) != SQLITE_OK) {
+            rc = cov_fail(err, COV_EIO, cov_archive_path(a), "cannot read the table of runs: %s",
+                          sqlite3_errmsg(db));
+            goto fail;
+        }
+    }
+
+    size_t est = estimate_rows(db, qt);
+    size_t cap = est > 0 ? est : START_CAPACITY;
+    if (grow(d, g, cap, with_batch)) goto nomem;
+    reader r = {a, g, 0, err};
+    size_t n = 0;
+    int step;
+    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        if (n == cap) {
+            cap *= 2;
+            if (grow(d, g, cap, with_batch)) goto nomem;
+        }
+        r.row = n + 1;
+        for (size_t k = 0; k < n_rec; k++) {
+            size_t v = vars[k];
+            double x;
+            int ct = sqlite3_column_type(st, (int)k);
+            /* The common case first: a number in a real or integer column with no domain. */
+            if (ct == SQLITE_FLOAT || ct == SQLITE_INTEGER) {
+                if (g->vars[v].type == COV_LEVELS || g->vars[v].type == COV_BOOL) {
+                    rc = read_cell(&r, st, (int)k, v, &x);
+                    if (rc) goto fail;
+                } else {
+                    x = sqlite3_column_double(st, (int)k);
+                }
+            } else {
+                rc = read_cell(&r, st, (int)k, v, &x);
+                if (rc) goto fail;
+            }
+            if (isnan(x)) {
+                d->n_missing[v]++;
+            } else {
+                char what[96];
+                if (!in_domain(&g->vars[v], x, what, sizeof what)) {
+                    if (g->vars[v].role == COV_INPUT) d->n_outside[v]++;
+                    d->n_missing[v]++;
+                    if (n_examples[v]++ < COV_ISSUE_EXAMPLES) {
+                        cov_data_issue *is = &d->issues[d->n_issues++];
+                        is->var = v;
+                        is->row = n + 1;
+                        is->value = x;
+                        snprintf(is->what, sizeof is->what, "%s", what);
+                    }
+                    x = NAN;
+                }
+            }
+            d->col[v][n] = x;
+        }
+        if (with_batch)
+            d->batch[n] = sqlite3_column_type(st, (int)n_rec) == SQLITE_NULL
+                              ? 0 : sqlite3_column_int64(st, (int)n_rec);
+        n++;
+        if (progress != NULL && n % PROGRESS_EVERY_ROWS == 0)
+            progress(est > n ? (double)n / (double)est : 0.99, ctx);
+    }
+    if (step != SQLITE_DONE) {
+        rc = cov_fail(err, COV_EIO, cov_archive_path(a), "cannot read the table of runs: %s",
+                      sqlite3_errmsg(db));
+        goto fail;
+    }
+    d->n_runs = n;
+    if (with_batch && n > 0) {
+        long long *sorted = malloc(n * sizeof *sorted);
+        if (sorted == NULL) goto nomem;
+        memcpy(sorted, d->batch, n * sizeof *sorted);
+        qsort(sorted, n, sizeof *sorted, cmp_ll);
+        d->n_batches = 1;
+        for (size_t i = 1; i < n; i++) d->n_batches += sorted[i] != sorted[i - 1];
+        free(sorted);
+    } else if (!with_batch) {
+        free(d->batch);
+        d->batch = NULL;
+    }
+    if (progress != NULL) progress(1.0, ctx);
+    sqlite3_finalize(st);
+    free(sql);
+    free(qt);
+    free(colidx);
+    free(vars);
+    free(n_examples);
+    *out = d;
+    return COV_OK;
+nomem:
+    rc = cov_fail(err, COV_ENOMEM, cov_archive_path(a), "out of memory while reading the archive");
+fail:
+    sqlite3_finalize(st);
+    free(sql);
+    free(qt);
+    free(colidx);
+    free(vars);
+    free(n_examples);
+    cov_data_free(d);
+    return rc;
+}
