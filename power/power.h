@@ -48,6 +48,10 @@ int pw_ncf_cdf(double f, double df1, double df2, double lambda, double *lower, d
  * differences of lgamma lose digits. Return -INFINITY for a zero term. */
 double pw_log_dpois(double x, double lambda);
 double pw_log_dbinom(double k, double n, double p, double q);
+/* Library-internal (power/ncbeta.c): I_x(a, b) into *lo and its complement I_y(b, a) into *up,
+ * with x + y = 1 both given exactly, each accurate even when x or y is below 1e-14 (GSL's
+ * gsl_sf_beta_inc called on the side where it does not form 1 - x). PW_OK, PW_EDOM or PW_ENOCONV. */
+int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double *up);
 
 /* Noncentral chi-squared with df > 0 and lambda >= 0 (Ding 1992, AS 275, and the Poisson mixture). */
 int pw_ncchisq_cdf(double x, double df, double lambda, double *lower, double *upper);
@@ -135,6 +139,30 @@ typedef struct {
  * apart from the other predictors. */
 int pw_xfit_solve(const pw_moments *m, const size_t *idx, size_t k, size_t t, pw_xfit **out);
 void pw_xfit_free(pw_xfit *f);
+
+/* Residual diagnostics of a fit on m rows (power/diag.c): excess kurtosis of the residuals
+ * y - fitted; Koenker's (1981) studentised Breusch-Pagan (1979) LM statistic with the fitted values
+ * as variance regressor (chi-squared, 1 df) and its p value; the ratio (>= 1) of residual variances
+ * between the highest and lowest thirds of the fitted values; the share of y taken by its most
+ * common value. Fields NAN when undefined. Returns PW_OK, PW_EFEW (m < 4), PW_ENOMEM. */
+typedef struct {
+    double excess_kurtosis;
+    double bp_lm, bp_p;
+    double third_ratio;
+    double mode_share;
+} pw_resid_diag;
+int pw_resid_diagnose(const double *y, const double *fitted, size_t m, pw_resid_diag *out);
+
+/* Pure error and the lack-of-fit F test from rows that repeat a configuration: rows with equal
+ * keys (m rows of kk values, row-major) are replicates. n_coef is the fitted coefficients
+ * (intercept included). sigma_pure is NAN without replicates; f and p NAN when either df < 1. */
+typedef struct {
+    size_t groups;        /* distinct configurations */
+    double df_pe, df_lof;
+    double sigma_pure, f, p;
+} pw_lof;
+int pw_lack_of_fit(const double *keys, size_t kk, const double *y, const double *fitted, size_t m,
+                   double n_coef, pw_lof *out);
 
 /* ---------------------------------------------------------------------------------------------
  * Power, minimum detectable effect and run sizing for one test (power/sizing.c and friends).
@@ -225,10 +253,11 @@ double pw_block_info(const double *ainv, size_t p, size_t first, size_t k);
 double pw_block_info_after(const double *ainv, size_t p, size_t first, size_t k, const double *u,
                            double xu, double w);
 
-/* d at n_new runs with q = sd_x_resid sqrt(n), which sets the test's noncentrality (effect q /
- * sigma), replaced by q_new. For PW_TEST_TWO_PROP, whose information is n share (1 - share), the
- * treated share becomes the one (<= 1/2 of the way) giving q_new^2 = n_new share (1 - share),
- * capped at a balanced 1/2. */
+/* The information a test's noncentrality rests on, as q with noncentrality (effect q / sigma):
+ * sd_x_resid sqrt(n) for t and TOST tests, sqrt(ncp_per_run n) for the level-set F test (its
+ * noncentrality is q^2 (effect / sigma)^2), sqrt(n sd_x_resid^2) or sqrt(n s (1 - s)) for two
+ * proportions. pw_design_q reads it; pw_design_with_q writes d at n_new runs with q = q_new. */
+double pw_design_q(const pw_design *d);
 int pw_design_with_q(const pw_design *d, double n_new, double q_new, pw_design *out);
 
 /* The smallest q = sd_x_resid sqrt(n) with which d reaches d->target at n_new runs, by Brent root
@@ -270,5 +299,25 @@ int pw_aug_score(pw_aug *a, const double *row, double w, double *score);
  * cross-products every PW_AUG_REFRESH commits to stop rounding drift). */
 #define PW_AUG_REFRESH 64
 int pw_aug_commit(pw_aug *a, const double *row, double w);
+
+/* ---------------------------------------------------------------------------------------------
+ * Logistic regression (power/logit.c). */
+
+/* Iterations allowed to the IRLS fit: R's glm.fit stops at 25 by default; a well-posed fit needs
+ * fewer than 10, so 50 only ever binds on data that do not settle. */
+#define PW_LOGIT_MAX_ITER 50
+
+/* Maximum-likelihood logistic regression of y (each 0 or 1) on X (n x p, row-major; the caller
+ * includes any intercept column) by iteratively reweighted least squares (McCullagh & Nelder 1989,
+ * "Generalized Linear Models", 2nd ed., sec. 4.4.1; Green 1984), each step a Householder QR
+ * least-squares solve (gsl_linalg_QR_decomp, gsl_linalg_QR_lssolve). Writes p coefficients to coef
+ * and n fitted probabilities to prob (either may be NULL) and the iterations used to *iter (may be
+ * NULL). Separated data drive probabilities towards 0 or 1: the fit still converges in deviance
+ * and returns them, which is what a propensity-overlap check wants to see. Returns PW_OK;
+ * PW_ENOCONV after PW_LOGIT_MAX_ITER iterations (coef and prob hold the last iterate); PW_ESING
+ * when a weighted design is rank-deficient; PW_EFEW when n <= p; PW_EDOM when a y is not 0 or 1;
+ * PW_ENOMEM. */
+int pw_logit_fit(const double *X, const double *y, size_t n, size_t p, double *coef, double *prob,
+                 int *iter);
 
 #endif
