@@ -202,6 +202,12 @@ typedef struct {
     double sigma_pure, lof_f, lof_p;
     cov_verdict verdict;
     char *reason;         /* one line: why thin or untestable; NULL when ample */
+    int has_design;       /* 1 when design holds the claim's test (for cov_assess_design) */
+    pw_design design;     /* the test at the current figures (effect = effect_raw) */
+    double sd_outcome;    /* the outcome's SD over the complete cases (divisor n - 1), or NAN */
+    double excess_kurtosis;   /* of the residuals, or NAN */
+    size_t n_diag;        /* rows the residual diagnostics used (a fixed-seed subsample when
+                             fewer than n) */
 } cov_assessment;
 
 typedef struct {

@@ -129,6 +129,14 @@ void cov_claim_design_free(cov_claim_design *cd);
 int cov_assess_design(const cov_graph *g, const cov_claims *c, const cov_assessments *a,
                       size_t claim, pw_design *out);
 
+/* Write the JSON members every command prints for a claim, without braces: "kind", "treatment",
+ * "outcome", "conditioning", "effect_of_interest", "effect_unit", "sign", "status", "reason",
+ * "steerable" (the `shoal claims --json` fields, in that order). */
+void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c);
+/* The CSV fields kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,
+ * steerable (no trailing comma or newline); conditioning joins names with ';'. */
+void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c);
+
 /* ---- coverage and support (coverage/space.c, coverage/support.c, ...) ------------------------- */
 
 /* ---- survey: plots, report, history (coverage/plot.c, coverage/report.c, ...) ----------------- */
