@@ -1,0 +1,494 @@
+/* Input-space coverage: bins, marginal, 2-way and 3-way combination coverage of the runs.
+ * See LICENSE. */
+#include <math.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_rng.h>
+
+#include "coverage/internal.h"
+
+/* Integer inputs with at most this many whole values get one bin per value (issue 4). */
+#define COV_INTEGER_EXACT_MAX 10
+/* Runs binned at a time: the codes of one block (inputs x block x 2 bytes) and the scaled numeric
+ * values (x 8 bytes) stay in cache while every pair's counters are updated from them. */
+#define COV_BLOCK 512
+/* 3-way counting costs runs x triples increments and cells of memory: above this many triples
+ * (C(20, 3) = 1140 is the default limit's count) a fixed-seed random sample of them is counted. */
+#define COV_THREEWAY_MAX_TRIPLES 2000
+/* Inputs up to which --way 0 (auto) adds 3-way coverage (issue 4). */
+#define COV_THREEWAY_AUTO_INPUTS 20
+/* Discrepancy is O(n^2 d): above this many runs it is computed on a fixed-seed subsample. */
+#define COV_CD_MAX_RUNS 4000
+/* Gap points kept for the plots and the plan (issue 4). */
+#define COV_N_GAPS 20
+
+/* 1 for an integer input whose declared domain holds COV_INTEGER_EXACT_MAX values or fewer. */
+static int small_integer(const cov_var *v)
+{
+    return v->type == COV_INTEGER && isfinite(v->lo) && isfinite(v->hi)
+           && floor(v->hi) - ceil(v->lo) + 1 <= COV_INTEGER_EXACT_MAX;
+}
+
+size_t cov_bin_count(const cov_var *v, size_t bins)
+{
+    switch (v->type) {
+    case COV_BOOL: return 2;
+    case COV_LEVELS: return v->n_levels;
+    case COV_INTEGER:
+        if (small_integer(v)) return (size_t)(floor(v->hi) - ceil(v->lo) + 1);
+        return bins;
+    case COV_REAL: return bins;
+    }
+    return bins;
+}
+
+long cov_bin_of(const cov_var *v, size_t bins, double x)
+{
+    if (isnan(x)) return -1;
+    switch (v->type) {
+    case COV_BOOL:
+        return x == 0 ? 0 : x == 1 ? 1 : -1;
+    case COV_LEVELS:
+        if (x < 0 || x >= (double)v->n_levels || x != floor(x)) return -1;
+        return (long)x;
+    case COV_INTEGER:
+        if (small_integer(v)) {
+            if (x < v->lo || x > v->hi || x != floor(x)) return -1;
+            return (long)(x - ceil(v->lo));
+        }
+        break;
+    case COV_REAL:
+        break;
+    }
+    if (!(x >= v->lo && x <= v->hi) || bins == 0) return -1;
+    /* Equal-width bins [lo + k w, lo + (k+1) w); the top edge hi belongs to the last bin. */
+    double b = floor((x - v->lo) / (v->hi - v->lo) * (double)bins);
+    if (b >= (double)bins) b = (double)bins - 1;
+    if (b < 0) b = 0;
+    return (long)b;
+}
+
+void cov_coverage_free(cov_coverage *c)
+{
+    if (c == NULL) return;
+    if (c->marginal != NULL)
+        for (size_t k = 0; k < c->n_inputs; k++) free(c->marginal[k].count);
+    free(c->marginal);
+    if (c->pairs != NULL)
+        for (size_t p = 0; p < c->n_pairs; p++) free(c->pairs[p].count);
+    free(c->pairs);
+    free(c->worst);
+    free(c->inputs);
+    free(c->numeric);
+    free(c->gaps);
+    free(c->gap_dist);
+    free(c->dependence);
+    free(c);
+}
+
+/* One input's binning, hoisted out of the run loop. */
+typedef struct {
+    cov_type type;
+    size_t nb;            /* bins; code nb means missing or outside */
+    double lo, hi, scale; /* numeric bins: bin = floor((x - lo) * scale) with scale = nb/(hi-lo) */
+    int exact;            /* one bin per whole value (bool, levels, small integer) */
+    const cov_var *var;
+    size_t bins;
+} binner;
+
+static inline uint16_t bin_code(const binner *b, double x)
+{
+    if (b->exact) {
+        long k = cov_bin_of(b->var, b->bins, x);
+        return (uint16_t)(k < 0 ? b->nb : (size_t)k);
+    }
+    if (!(x >= b->lo && x <= b->hi)) return (uint16_t)b->nb;
+    /* The same expression as cov_bin_of, so both give the same bin at every edge. */
+    double k = floor((x - b->lo) / (b->hi - b->lo) * (double)b->nb);
+    if (k >= (double)b->nb) k = (double)b->nb - 1;
+    if (k < 0) k = 0;
+    return (uint16_t)k;
+}
+
+static int cmp_worst(const void *pa, const void *pb, const cov_pair *pairs)
+{
+    const cov_pair *a = &pairs[*(const size_t *)pa], *b = &pairs[*(const size_t *)pb];
+    if (a->share != b->share) return a->share < b->share ? -1 : 1;
+    if (a->n_empty != b->n_empty) return a->n_empty > b->n_empty ? -1 : 1;
+    return *(const size_t *)pa < *(const size_t *)pb ? -1 : 1;
+}
+
+/* Order the pair indices worst first; a merge sort, since qsort passes no context. */
+static void sort_worst(size_t *idx, size_t *tmp, size_t n, const cov_pair *pairs)
+{
+    if (n < 2) return;
+    size_t h = n / 2;
+    sort_worst(idx, tmp, h, pairs);
+    sort_worst(idx + h, tmp, n - h, pairs);
+    size_t i = 0, j = h, k = 0;
+    while (i < h && j < n)
+        tmp[k++] = cmp_worst(&idx[j], &idx[i], pairs) < 0 ? idx[j++] : idx[i++];
+    while (i < h) tmp[k++] = idx[i++];
+    while (j < n) tmp[k++] = idx[j++];
+    memcpy(idx, tmp, n * sizeof *idx);
+}
+
+/* Everything the single pass over the runs fills. */
+typedef struct {
+    size_t K;              /* inputs */
+    binner *bn;
+    size_t n_pairs;
+    uint32_t **pc;         /* per pair: (na+1) x (nb+1) counters, the last row/column = missing */
+    size_t n_tri;
+    size_t (*tri)[3];      /* input positions of each counted triple */
+    uint32_t **tc;         /* per triple: (na+1)(nb+1)(nc+1) counters */
+} pass_state;
+
+static void pass_free(pass_state *s)
+{
+    if (s->pc != NULL)
+        for (size_t p = 0; p < s->n_pairs; p++) free(s->pc[p]);
+    free(s->pc);
+    if (s->tc != NULL)
+        for (size_t t = 0; t < s->n_tri; t++) free(s->tc[t]);
+    free(s->tc);
+    free(s->tri);
+    free(s->bn);
+}
+
+/* Choose the triples: all of them when few enough, else a fixed-seed sample without replacement
+ * (Knuth 1997, TAOCP vol. 2, 3.4.2, Algorithm S: selection sampling in index order). */
+static int choose_triples(pass_state *s, size_t K, unsigned long seed, int *sampled)
+{
+    size_t total = K < 3 ? 0 : K * (K - 1) * (K - 2) / 6;
+    size_t want = total <= COV_THREEWAY_MAX_TRIPLES ? total : COV_THREEWAY_MAX_TRIPLES;
+    *sampled = want < total;
+    s->n_tri = 0;
+    if (want == 0) return COV_OK;
+    s->tri = malloc(want * sizeof *s->tri);
+    if (s->tri == NULL) return COV_ENOMEM;
+    gsl_rng *r = NULL;
+    if (*sampled) {
+        r = gsl_rng_alloc(gsl_rng_mt19937);
+        if (r == NULL) return COV_ENOMEM;
+        gsl_rng_set(r, seed ^ 0x3a3aUL);
+    }
+    size_t seen = 0;
+    for (size_t a = 0; a < K; a++)
+        for (size_t b = a + 1; b < K; b++)
+            for (size_t c = b + 1; c < K; c++, seen++) {
+                if (s->n_tri == want) continue;
+                if (r != NULL && (double)(total - seen) * gsl_rng_uniform(r)
+                                     >= (double)(want - s->n_tri))
+                    continue;
+                s->tri[s->n_tri][0] = a;
+                s->tri[s->n_tri][1] = b;
+                s->tri[s->n_tri][2] = c;
+                s->n_tri++;
+            }
+    gsl_rng_free(r);
+    return COV_OK;
+}
+
+/* The one pass: per block of runs, every input's bin once, then every pair's (and counted
+ * triple's) cell incremented, and the numeric inputs' unit-cube values kept for later. */
+static void count_pass(const cov_data *d, const size_t *inputs, pass_state *s, uint16_t *codes)
+{
+    const size_t K = s->K, n = d->n_runs;
+    for (size_t i0 = 0; i0 < n; i0 += COV_BLOCK) {
+        size_t m = n - i0 < COV_BLOCK ? n - i0 : COV_BLOCK;
+        for (size_t k = 0; k < K; k++) {
+            const double *x = d->col[inputs[k]] + i0;
+            uint16_t *ck = codes + k * COV_BLOCK;
+            const binner *b = &s->bn[k];
+            for (size_t i = 0; i < m; i++) ck[i] = bin_code(b, x[i]);
+        }
+        size_t p = 0;
+        for (size_t a = 0; a < K; a++) {
+            const uint16_t *ca = codes + a * COV_BLOCK;
+            for (size_t b = a + 1; b < K; b++, p++) {
+                const uint16_t *cb = codes + b * COV_BLOCK;
+                uint32_t *cnt = s->pc[p];
+                const size_t stride = s->bn[b].nb + 1;
+                for (size_t i = 0; i < m; i++) cnt[(size_t)ca[i] * stride + cb[i]]++;
+            }
+        }
+        for (size_t t = 0; t < s->n_tri; t++) {
+            const uint16_t *ca = codes + s->tri[t][0] * COV_BLOCK;
+            const uint16_t *cb = codes + s->tri[t][1] * COV_BLOCK;
+            const uint16_t *cc = codes + s->tri[t][2] * COV_BLOCK;
+            const size_t sb = s->bn[s->tri[t][1]].nb + 1, sc = s->bn[s->tri[t][2]].nb + 1;
+            uint32_t *cnt = s->tc[t];
+            for (size_t i = 0; i < m; i++)
+                cnt[((size_t)ca[i] * sb + cb[i]) * sc + cc[i]]++;
+        }
+    }
+}
+
+/* Numeric inputs scaled to the unit cube, complete runs only (n_complete x n_numeric, row-major). */
+static int numeric_points(const cov_graph *g, const cov_data *d, const size_t *numeric,
+                          size_t nn, double **out, size_t *n_out)
+{
+    *out = NULL;
+    *n_out = 0;
+    if (nn == 0) return COV_OK;
+    double *pts = malloc((d->n_runs ? d->n_runs : 1) * nn * sizeof *pts);
+    if (pts == NULL) return COV_ENOMEM;
+    size_t m = 0;
+    for (size_t i = 0; i < d->n_runs; i++) {
+        double *row = pts + m * nn;
+        size_t k;
+        for (k = 0; k < nn; k++) {
+            const cov_var *v = &g->vars[numeric[k]];
+            double x = d->col[numeric[k]][i];
+            if (!(x >= v->lo && x <= v->hi)) break;
+            row[k] = (x - v->lo) / (v->hi - v->lo);
+        }
+        if (k == nn) m++;
+    }
+    *out = pts;
+    *n_out = m;
+    return COV_OK;
+}
+
+/* Centred L2 discrepancy of the complete numeric points; a fixed-seed subsample (Algorithm S)
+ * above COV_CD_MAX_RUNS runs. */
+static int discrepancy(const double *pts, size_t n, size_t nn, unsigned long seed, cov_coverage *c)
+{
+    c->cd_n = n;
+    if (n == 0 || nn == 0) {
+        c->cd2 = c->cd2_random = NAN;
+        return COV_OK;
+    }
+    if (n <= COV_CD_MAX_RUNS) {
+        c->cd2 = cov_cd2(pts, n, nn);
+        c->cd2_random = cov_cd2_random(n, nn);
+        return COV_OK;
+    }
+    double *sub = malloc((size_t)COV_CD_MAX_RUNS * nn * sizeof *sub);
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    if (sub == NULL || r == NULL) {
+        free(sub);
+        gsl_rng_free(r);
+        return COV_ENOMEM;
+    }
+    gsl_rng_set(r, seed ^ 0xcd2UL);
+    size_t m = 0;
+    for (size_t i = 0; i < n && m < COV_CD_MAX_RUNS; i++)
+        if ((double)(n - i) * gsl_rng_uniform(r) < (double)(COV_CD_MAX_RUNS - m))
+            memcpy(sub + nn * m++, pts + nn * i, nn * sizeof *sub);
+    c->cd2 = cov_cd2(sub, m, nn);
+    c->cd2_random = cov_cd2_random(m, nn);
+    c->cd_subsampled = 1;
+    c->cd_n = m;
+    free(sub);
+    gsl_rng_free(r);
+    return COV_OK;
+}
+
+int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_coverage_options *opt,
+                         cov_coverage **out, cov_error *err)
+{
+    int rc = COV_ENOMEM;
+    pass_state s;
+    memset(&s, 0, sizeof s);
+    uint16_t *codes = NULL;
+    double *pts = NULL;
+    cov_coverage *c = calloc(1, sizeof *c);
+    *out = NULL;
+    if (c == NULL) goto fail;
+    c->opt = *opt;
+    if (opt->min_runs == 0 || opt->bins < 2) {
+        rc = cov_fail(err, COV_EINPUT, "", "coverage needs --min-runs >= 1 and --bins >= 2");
+        goto fail;
+    }
+    if (d->n_runs > UINT32_MAX) {
+        rc = cov_fail(err, COV_EINPUT, "", "more than %lu runs are not supported",
+                      (unsigned long)UINT32_MAX);
+        goto fail;
+    }
+    c->threeway_share = NAN;
+    c->cd2 = c->cd2_random = c->fill_distance = NAN;
+    c->marginal_share = c->pairwise_share = NAN;
+
+    size_t K = 0, nn = 0;
+    for (size_t v = 0; v < g->n_vars; v++)
+        if (g->vars[v].role == COV_INPUT) {
+            K++;
+            if (g->vars[v].type == COV_REAL || g->vars[v].type == COV_INTEGER) nn++;
+        }
+    c->inputs = malloc((K ? K : 1) * sizeof *c->inputs);
+    c->numeric = malloc((nn ? nn : 1) * sizeof *c->numeric);
+    c->marginal = calloc(K ? K : 1, sizeof *c->marginal);
+    s.bn = calloc(K ? K : 1, sizeof *s.bn);
+    if (c->inputs == NULL || c->numeric == NULL || c->marginal == NULL || s.bn == NULL) goto fail;
+    for (size_t v = 0; v < g->n_vars; v++)
+        if (g->vars[v].role == COV_INPUT) {
+            c->inputs[c->n_inputs++] = v;
+            if (g->vars[v].type == COV_REAL || g->vars[v].type == COV_INTEGER)
+                c->numeric[c->n_numeric++] = v;
+            c->n_outside += d->n_outside != NULL ? d->n_outside[v] : 0;
+        }
+    s.K = K;
+    for (size_t k = 0; k < K; k++) {
+        const cov_var *v = &g->vars[c->inputs[k]];
+        binner *b = &s.bn[k];
+        b->var = v;
+        b->bins = opt->bins;
+        b->type = v->type;
+        b->nb = cov_bin_count(v, opt->bins);
+        b->exact = v->type == COV_BOOL || v->type == COV_LEVELS || small_integer(v);
+        b->lo = v->lo;
+        b->hi = v->hi;
+        if (b->nb == 0 || b->nb >= UINT16_MAX) {
+            rc = cov_fail(err, COV_EINPUT, "", "input %s has %zu bins; 1 to %u are supported",
+                          v->name, b->nb, (unsigned)UINT16_MAX - 1);
+            goto fail;
+        }
+        if (!b->exact && !(v->lo < v->hi)) {
+            rc = cov_fail(err, COV_EINPUT, "", "input %s has no usable domain", v->name);
+            goto fail;
+        }
+    }
+
+    /* Counters: one per pair, and per counted triple. */
+    s.n_pairs = K < 2 ? 0 : K * (K - 1) / 2;
+    c->n_pairs = s.n_pairs;
+    s.pc = calloc(s.n_pairs ? s.n_pairs : 1, sizeof *s.pc);
+    c->pairs = calloc(s.n_pairs ? s.n_pairs : 1, sizeof *c->pairs);
+    c->worst = malloc((s.n_pairs ? s.n_pairs : 1) * sizeof *c->worst);
+    if (s.pc == NULL || c->pairs == NULL || c->worst == NULL) goto fail;
+    for (size_t a = 0, p = 0; a < K; a++)
+        for (size_t b = a + 1; b < K; b++, p++) {
+            s.pc[p] = calloc((s.bn[a].nb + 1) * (s.bn[b].nb + 1), sizeof **s.pc);
+            if (s.pc[p] == NULL) goto fail;
+        }
+    int want3 = opt->way == 3 || (opt->way == 0 && K <= COV_THREEWAY_AUTO_INPUTS);
+    if (want3 && K >= 3) {
+        if ((rc = choose_triples(&s, K, opt->seed, &c->threeway_sampled)) != COV_OK) goto fail;
+        rc = COV_ENOMEM;
+        s.tc = calloc(s.n_tri ? s.n_tri : 1, sizeof *s.tc);
+        if (s.tc == NULL) goto fail;
+        for (size_t t = 0; t < s.n_tri; t++) {
+            size_t cells = (s.bn[s.tri[t][0]].nb + 1) * (s.bn[s.tri[t][1]].nb + 1)
+                           * (s.bn[s.tri[t][2]].nb + 1);
+            s.tc[t] = calloc(cells, sizeof **s.tc);
+            if (s.tc[t] == NULL) goto fail;
+        }
+        c->n_triples = s.n_tri;
+    }
+    codes = malloc((K ? K : 1) * COV_BLOCK * sizeof *codes);
+    if (codes == NULL) goto fail;
+    count_pass(d, c->inputs, &s, codes);
+
+    /* Marginal counts come from the pair tables' margins when there are pairs (the missing column
+     * included), so the runs are read once; a lone input is counted directly. */
+    size_t covered = 0, cells = 0;
+    for (size_t k = 0; k < K; k++) {
+        cov_marginal *mg = &c->marginal[k];
+        mg->var = c->inputs[k];
+        mg->n_bins = s.bn[k].nb;
+        mg->count = calloc(mg->n_bins, sizeof *mg->count);
+        if (mg->count == NULL) goto fail;
+        if (K == 1) {
+            for (size_t i = 0; i < d->n_runs; i++) {
+                long bi = cov_bin_of(s.bn[k].var, opt->bins, d->col[mg->var][i]);
+                if (bi >= 0) mg->count[bi]++;
+            }
+        } else {
+            /* Pair (k, other): k is the row when it is the smaller position. */
+            size_t other = k == 0 ? 1 : 0;
+            size_t a = k < other ? k : other, b = k < other ? other : k;
+            size_t p = a * K - a * (a + 1) / 2 + (b - a - 1);
+            size_t sb = s.bn[b].nb + 1;
+            for (size_t r = 0; r <= s.bn[a].nb; r++)
+                for (size_t q = 0; q < sb; q++) {
+                    size_t mine = k == a ? r : q;
+                    if (mine < mg->n_bins) mg->count[mine] += s.pc[p][r * sb + q];
+                }
+        }
+        size_t cov_k = 0;
+        for (size_t j = 0; j < mg->n_bins; j++) cov_k += mg->count[j] >= opt->min_runs;
+        mg->share = mg->n_bins ? (double)cov_k / (double)mg->n_bins : NAN;
+        covered += cov_k;
+        cells += mg->n_bins;
+    }
+    c->marginal_share = cells ? (double)covered / (double)cells : NAN;
+
+    covered = cells = 0;
+    for (size_t a = 0, p = 0; a < K; a++)
+        for (size_t b = a + 1; b < K; b++, p++) {
+            cov_pair *pr = &c->pairs[p];
+            pr->a = c->inputs[a];
+            pr->b = c->inputs[b];
+            pr->na = s.bn[a].nb;
+            pr->nb = s.bn[b].nb;
+            pr->count = malloc(pr->na * pr->nb * sizeof *pr->count);
+            if (pr->count == NULL) goto fail;
+            size_t cov_p = 0;
+            for (size_t i = 0; i < pr->na; i++)
+                for (size_t j = 0; j < pr->nb; j++) {
+                    size_t x = s.pc[p][i * (pr->nb + 1) + j];
+                    pr->count[i * pr->nb + j] = x;
+                    cov_p += x >= opt->min_runs;
+                    pr->n_empty += x == 0;
+                }
+            pr->share = (double)cov_p / (double)(pr->na * pr->nb);
+            covered += cov_p;
+            cells += pr->na * pr->nb;
+            c->worst[p] = p;
+        }
+    c->pairwise_share = cells ? (double)covered / (double)cells : NAN;
+    if (c->n_pairs > 1) {
+        size_t *tmp = malloc(c->n_pairs * sizeof *tmp);
+        if (tmp == NULL) goto fail;
+        sort_worst(c->worst, tmp, c->n_pairs, c->pairs);
+        free(tmp);
+    }
+
+    if (s.n_tri > 0) {
+        covered = cells = 0;
+        for (size_t t = 0; t < s.n_tri; t++) {
+            size_t na = s.bn[s.tri[t][0]].nb, nb = s.bn[s.tri[t][1]].nb;
+            size_t nc = s.bn[s.tri[t][2]].nb;
+            for (size_t i = 0; i < na; i++)
+                for (size_t j = 0; j < nb; j++)
+                    for (size_t q = 0; q < nc; q++)
+                        covered += s.tc[t][(i * (nb + 1) + j) * (nc + 1) + q] >= opt->min_runs;
+            cells += na * nb * nc;
+        }
+        c->threeway_share = (double)covered / (double)cells;
+    }
+
+    if ((rc = cov_dependence_fill(g, d, c)) != COV_OK) goto fail;
+
+    /* Space filling: discrepancy and gaps on the complete numeric runs in the unit cube. */
+    rc = COV_ENOMEM;
+    if (numeric_points(g, d, c->numeric, c->n_numeric, &pts, &c->n_complete) != COV_OK) goto fail;
+    if ((rc = discrepancy(pts, c->n_complete, c->n_numeric, opt->seed, c)) != COV_OK) goto fail;
+    if (c->n_numeric > 0 && c->n_complete > 0) {
+        rc = COV_ENOMEM;
+        c->gaps = malloc(COV_N_GAPS * c->n_numeric * sizeof *c->gaps);
+        c->gap_dist = malloc(COV_N_GAPS * sizeof *c->gap_dist);
+        if (c->gaps == NULL || c->gap_dist == NULL) goto fail;
+        c->n_probes = cov_probe_count(c->n_numeric);
+        rc = cov_fill_gaps(pts, c->n_complete, c->n_numeric, opt->seed, COV_N_GAPS,
+                           &c->fill_distance, c->gaps, c->gap_dist, &c->n_gaps,
+                           &c->gaps_subsampled);
+        if (rc != COV_OK) goto fail;
+    }
+    free(pts);
+    free(codes);
+    pass_free(&s);
+    *out = c;
+    return COV_OK;
+fail:
+    free(pts);
+    free(codes);
+    pass_free(&s);
+    cov_coverage_free(c);
+    if (rc == COV_ENOMEM) cov_fail(err, COV_ENOMEM, "", "out of memory measuring coverage");
+    return rc;
+}
