@@ -273,7 +273,14 @@ typedef struct {
     double *gap_dist;         /* distance from each gap point to the nearest run */
     size_t n_gaps;
     double *dependence;       /* n_inputs * n_inputs: |r| or Cramer's V */
-    size_t n_outside;         /* runs with an input outside its domain (data errors) */
+    size_t n_outside;         /* input cells outside their declared domain (data errors; the
+                                 archive reader stores them as missing, so runs are not told) */
+    size_t n_triples;         /* 3-way combinations counted (0 when not computed) */
+    int threeway_sampled;     /* 1 when those are a fixed-seed random sample of all triples */
+    size_t cd_n;              /* runs the discrepancy was computed on */
+    size_t n_complete;        /* runs with every numeric input present and inside its domain */
+    size_t n_probes;          /* probe points of the fill distance */
+    int gaps_subsampled;      /* 1 when distances were measured to a random subsample of runs */
 } cov_coverage;
 
 int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_coverage_options *opt,
