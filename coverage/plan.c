@@ -1,0 +1,862 @@
+/* The next runs: candidate sets, greedy augmentation over the claims' designs, predicted power.
+ * See LICENSE. */
+#include <math.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_qrng.h>
+#include <gsl/gsl_rng.h>
+
+#include "coverage/internal.h"
+
+/* Added to the diagonal of every claim's cross-products so that an empty or rank-deficient start
+ * stays invertible: a millionth of what one run at a domain end adds to a coded column (|z| <= 1),
+ * far below anything that moves a printed power. */
+#define PLAN_RIDGE 1e-6
+/* Scrambled Sobol points in the candidate set, and as many again rounded to the domain ends. */
+#define PLAN_N_SOBOL 256
+/* GSL's Sobol generator goes up to 40 dimensions; more inputs are padded with further
+ * independently scrambled Sobol blocks (Owen 1998, "Latin supercube sampling"). */
+#define PLAN_SOBOL_MAX_DIM 40
+/* Level combinations enumerated per set of level-set inputs a claim needs. */
+#define PLAN_LEVEL_COMBO_CAP 256
+/* Weight of the coverage bonus (share of 2-way cells still under min_runs that a run would fall in,
+ * distance to the nearest run): it raises a claim score by at most 5%, so coverage breaks near-ties
+ * while some claim is short, and leads alone once none is. */
+#define PLAN_COVER_WEIGHT 0.05
+/* Runs of the archive the distance bonus measures against (a fixed-seed sample beyond that). */
+#define PLAN_GAP_SAMPLE 2000
+/* Real values are drawn on a grid of this share of the domain, so that they print short. */
+#define PLAN_REAL_GRID 1e-6
+/* --budget auto: a need is recomputed at the current run count once that count has grown by this
+ * factor (the run count changes the test's degrees of freedom, so the need falls slowly). */
+#define PLAN_NEED_REFRESH 1.25
+/* --budget auto: when the exact power of a claim whose need was met is still short, its need is
+ * raised by this factor and the search goes on; at most PLAN_MAX_BUMPS times in all. */
+#define PLAN_NEED_BUMP 1.02
+#define PLAN_MAX_BUMPS 200
+
+/* The coded column layout of the inputs: column 0 is the intercept; numeric inputs are scaled to
+ * [-1, 1]; bools are 0/1; a level set has L - 1 dummies against its first level. */
+typedef struct {
+    size_t n_cols;
+    size_t *first, *count;    /* per variable; count 0 for non-inputs */
+} layout;
+
+static int is_numeric(const cov_var *v) { return v->type == COV_REAL || v->type == COV_INTEGER; }
+
+static void code_row(const cov_graph *g, const layout *L, const double *vals, double *row)
+{
+    row[0] = 1.0;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        const cov_var *var = &g->vars[v];
+        if (L->count[v] == 0) continue;
+        double x = vals[v];
+        double *r = row + L->first[v];
+        if (is_numeric(var)) r[0] = 2.0 * (x - var->lo) / (var->hi - var->lo) - 1.0;
+        else if (var->type == COV_BOOL) r[0] = x;
+        else
+            for (size_t k = 1; k < var->n_levels; k++) r[k - 1] = (size_t)x == k ? 1.0 : 0.0;
+    }
+}
+
+typedef struct {
+    size_t *cols;
+    size_t p;
+    long outcome;             /* the outcome whose missing cells narrow the rows, or -1 */
+    size_t group;             /* in the pw_aug */
+    size_t n_rows;
+} plan_group;
+
+/* Per-claim working state. */
+typedef struct {
+    pw_design pd;
+    int have_pd;
+    double q_mul;             /* q^2 = info * q_mul (coded information to the test's q^2) */
+    size_t target;            /* in the pw_aug, for steered claims */
+    double n_base;            /* runs the current figures rest on */
+    double runs_needed;       /* assumed claims: total runs for the target */
+} claim_work;
+
+struct plan_state {
+    const cov_graph *g;
+    const cov_claims *c;
+    const cov_data *d;
+    const cov_power_options *opt;
+    layout L;
+    plan_group *groups;
+    size_t n_groups;
+    claim_work *w;
+    pw_aug *aug;
+    size_t n_cand;
+    double *cand_vals;        /* n_cand * n_vars */
+    double *cand_rows;        /* n_cand * n_cols */
+    /* coverage bonus */
+    size_t *pair_a, *pair_b, n_pairs;
+    size_t *pair_nb;          /* bins of b */
+    size_t **pair_count;
+    long *cand_bin;           /* n_cand * n_vars */
+    size_t min_runs;
+    size_t *gap_vars, n_gap_vars;
+    double *cand_gap;         /* n_cand: distance to the nearest run in the unit cube */
+};
+
+static unsigned parity32(uint32_t x)
+{
+    x ^= x >> 16;
+    x ^= x >> 8;
+    x ^= x >> 4;
+    x ^= x >> 2;
+    x ^= x >> 1;
+    return x & 1u;
+}
+
+/* Random linear scrambling with a digital shift (Matousek 1998, "On the L2-discrepancy for
+ * anchored boxes", J. Complexity 14): digit i of the output is digit i of the input plus a random
+ * combination of the digits before it, plus a random shift digit, all mod 2. The scrambled net keeps
+ * its (t, m, s) properties. */
+typedef struct {
+    uint32_t rows[32];        /* rows[i]: bit 31 - j set when input digit j enters output digit i */
+    uint32_t shift;
+} scramble;
+
+static void scramble_init(scramble *s, gsl_rng *r)
+{
+    for (int i = 0; i < 32; i++) {
+        uint32_t below = i == 0 ? 0u : (uint32_t)(gsl_rng_get(r) & 0xffffffffUL);
+        uint32_t keep = i == 0 ? 0u : ~(uint32_t)0 << (32 - i);    /* digits 0 .. i-1 */
+        s->rows[i] = (below & keep) | (1u << (31 - i));
+    }
+    s->shift = (uint32_t)(gsl_rng_get(r) & 0xffffffffUL);
+}
+
+static double scramble_apply(const scramble *s, double u)
+{
+    uint32_t b = (uint32_t)ldexp(u, 32), out = 0;
+    if (u >= 1.0) b = 0xffffffffu;
+    for (int i = 0; i < 32; i++) out |= (uint32_t)parity32(s->rows[i] & b) << (31 - i);
+    out ^= s->shift;
+    return ldexp((double)out + 0.5, -32);
+}
+
+/* A value of input v from a share u in [0, 1); corner = 1 takes the nearer end instead. */
+static double value_of(const cov_var *v, double u, int corner)
+{
+    if (v->held) return v->held_value;
+    if (v->type == COV_BOOL) return u < 0.5 ? 0.0 : 1.0;
+    if (v->type == COV_LEVELS) {
+        double k = floor(u * (double)v->n_levels);
+        return k >= (double)v->n_levels ? (double)v->n_levels - 1 : k;
+    }
+    if (corner) return u < 0.5 ? v->lo : v->hi;
+    if (v->type == COV_INTEGER) {
+        double k = v->lo + floor(u * (v->hi - v->lo + 1.0));
+        return k > v->hi ? v->hi : k;
+    }
+    double x = v->lo + (v->hi - v->lo) * (PLAN_REAL_GRID * floor(u / PLAN_REAL_GRID));
+    return x > v->hi ? v->hi : (x < v->lo ? v->lo : x);
+}
+
+static int cand_push(struct plan_state *st, size_t *cap, const double *vals)
+{
+    const cov_graph *g = st->g;
+    if (st->n_cand == *cap) {
+        size_t nc = *cap ? 2 * *cap : 512;
+        double *nv = realloc(st->cand_vals, nc * g->n_vars * sizeof *nv);
+        if (nv == NULL) return COV_ENOMEM;
+        st->cand_vals = nv;
+        *cap = nc;
+    }
+    double *dst = st->cand_vals + st->n_cand * g->n_vars;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        const cov_var *var = &g->vars[v];
+        dst[v] = var->role != COV_INPUT ? NAN : (var->held ? var->held_value : vals[v]);
+    }
+    st->n_cand++;
+    return COV_OK;
+}
+
+/* The candidate set: scrambled Sobol points, the same rounded to the domain ends (corners), the
+ * centre and one-at-a-time extremes, and every combination of the level sets steered claims use. */
+static int build_candidates(struct plan_state *st, unsigned long seed)
+{
+    const cov_graph *g = st->g;
+    size_t nv = g->n_vars, cap = 0;
+    int rc = COV_ENOMEM;
+    size_t *free_in = malloc((nv + 1) * sizeof *free_in);
+    double *u = malloc((nv + 1) * sizeof *u), *vals = malloc((nv + 1) * sizeof *vals);
+    double *pts = NULL;
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    if (free_in == NULL || u == NULL || vals == NULL || r == NULL) goto fail;
+    gsl_rng_set(r, seed);
+    size_t dim = 0;
+    for (size_t v = 0; v < nv; v++)
+        if (g->vars[v].role == COV_INPUT && !g->vars[v].held) free_in[dim++] = v;
+    for (size_t v = 0; v < nv; v++) vals[v] = NAN;
+    pts = malloc((size_t)PLAN_N_SOBOL * (dim + 1) * sizeof *pts);
+    if (pts == NULL) goto fail;
+    for (size_t b0 = 0; b0 < dim; b0 += PLAN_SOBOL_MAX_DIM) {
+        size_t bd = dim - b0 < PLAN_SOBOL_MAX_DIM ? dim - b0 : PLAN_SOBOL_MAX_DIM;
+        gsl_qrng *q = gsl_qrng_alloc(gsl_qrng_sobol, (unsigned)bd);
+        scramble *sc = malloc(bd * sizeof *sc);
+        if (q == NULL || sc == NULL) {
+            gsl_qrng_free(q);
+            free(sc);
+            goto fail;
+        }
+        for (size_t k = 0; k < bd; k++) scramble_init(&sc[k], r);
+        for (size_t i = 0; i < PLAN_N_SOBOL; i++) {
+            if (gsl_qrng_get(q, u) != 0) {
+                gsl_qrng_free(q);
+                free(sc);
+                rc = COV_ENUMERIC;
+                goto fail;
+            }
+            for (size_t k = 0; k < bd; k++)
+                pts[i * (dim + 1) + b0 + k] = scramble_apply(&sc[k], u[k]);
+        }
+        gsl_qrng_free(q);
+        free(sc);
+    }
+    for (int corner = 0; corner <= 1; corner++)
+        for (size_t i = 0; i < PLAN_N_SOBOL; i++) {
+            for (size_t k = 0; k < dim; k++)
+                vals[free_in[k]] = value_of(&g->vars[free_in[k]], pts[i * (dim + 1) + k], corner);
+            if ((rc = cand_push(st, &cap, vals)) != COV_OK) goto fail;
+        }
+    /* The centre of the numeric domains, and each numeric input at either end from there. */
+    for (size_t k = 0; k < dim; k++) vals[free_in[k]] = value_of(&g->vars[free_in[k]], 0.5, 0);
+    if ((rc = cand_push(st, &cap, vals)) != COV_OK) goto fail;
+    for (size_t k = 0; k < dim; k++) {
+        const cov_var *var = &g->vars[free_in[k]];
+        if (!is_numeric(var)) continue;
+        double mid = vals[free_in[k]];
+        vals[free_in[k]] = var->lo;
+        if ((rc = cand_push(st, &cap, vals)) != COV_OK) goto fail;
+        vals[free_in[k]] = var->hi;
+        if ((rc = cand_push(st, &cap, vals)) != COV_OK) goto fail;
+        vals[free_in[k]] = mid;
+    }
+    /* Level combinations: for each steered claim's level-set inputs, every combination, the other
+     * inputs taken from the corner points in turn. */
+    size_t *lv = malloc((nv + 1) * sizeof *lv), *digit = malloc((nv + 1) * sizeof *digit);
+    if (lv == NULL || digit == NULL) {
+        free(lv);
+        free(digit);
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    size_t rot = 0;
+    for (size_t i = 0; i < st->c->n; i++) {
+        const cov_claim *cl = &st->c->items[i];
+        if (cl->status != COV_TESTABLE) continue;
+        size_t n_lv = 0;
+        for (size_t m = 0; m <= cl->n_cond; m++) {
+            size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
+            const cov_var *var = &g->vars[v];
+            if (var->role == COV_INPUT && var->type == COV_LEVELS && !var->held) lv[n_lv++] = v;
+        }
+        if (n_lv == 0) continue;
+        size_t combos = 1;
+        for (size_t m = 0; m < n_lv && combos <= PLAN_LEVEL_COMBO_CAP; m++)
+            combos *= g->vars[lv[m]].n_levels;
+        if (combos > PLAN_LEVEL_COMBO_CAP) combos = PLAN_LEVEL_COMBO_CAP;
+        for (size_t m = 0; m < n_lv; m++) digit[m] = 0;
+        for (size_t t = 0; t < combos; t++) {
+            size_t base = PLAN_N_SOBOL + rot++ % PLAN_N_SOBOL;
+            memcpy(vals, st->cand_vals + base * nv, nv * sizeof *vals);
+            for (size_t m = 0; m < n_lv; m++) vals[lv[m]] = (double)digit[m];
+            if ((rc = cand_push(st, &cap, vals)) != COV_OK) {
+                free(lv);
+                free(digit);
+                goto fail;
+            }
+            for (size_t m = 0; m < n_lv; m++) {
+                if (++digit[m] < g->vars[lv[m]].n_levels) break;
+                digit[m] = 0;
+            }
+        }
+    }
+    free(lv);
+    free(digit);
+    rc = COV_OK;
+fail:
+    gsl_rng_free(r);
+    free(free_in);
+    free(u);
+    free(vals);
+    free(pts);
+    return rc;
+}
+
+static int var_present(const cov_data *d, size_t v, size_t i)
+{
+    return d->col[v] != NULL && !isnan(d->col[v][i]);
+}
+
+/* The design group of a steered claim: intercept, treatment and separating-set columns in ascending
+ * order; claims with the same columns (and, when the outcome has missing cells, the same outcome)
+ * share one inverse. */
+static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, size_t *first,
+                      size_t *k)
+{
+    const cov_graph *g = st->g;
+    const layout *L = &st->L;
+    size_t *cols = malloc(L->n_cols * sizeof *cols);
+    unsigned char *use = calloc(L->n_cols, 1);
+    if (cols == NULL || use == NULL) {
+        free(cols);
+        free(use);
+        return COV_ENOMEM;
+    }
+    use[0] = 1;
+    for (size_t m = 0; m <= cl->n_cond; m++) {
+        size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
+        for (size_t j = 0; j < L->count[v]; j++) use[L->first[v] + j] = 1;
+    }
+    size_t p = 0;
+    for (size_t j = 0; j < L->n_cols; j++)
+        if (use[j]) cols[p++] = j;
+    free(use);
+    *k = L->count[cl->treatment];
+    for (size_t j = 0; j < p; j++)
+        if (cols[j] == L->first[cl->treatment]) *first = j;
+    long outcome = st->d != NULL && st->d->n_missing[cl->outcome] > 0 ? (long)cl->outcome : -1;
+    for (size_t i = 0; i < st->n_groups; i++) {
+        plan_group *gr = &st->groups[i];
+        if (gr->p == p && gr->outcome == outcome && memcmp(gr->cols, cols, p * sizeof *cols) == 0) {
+            free(cols);
+            *gi = i;
+            return COV_OK;
+        }
+    }
+    /* A new group: its cross-products over the runs with all its variables present. */
+    double *gram = calloc(p * p, sizeof *gram);
+    double *vals = malloc(g->n_vars * sizeof *vals), *row = malloc(L->n_cols * sizeof *row);
+    plan_group *ng = realloc(st->groups, (st->n_groups + 1) * sizeof *ng);
+    if (ng != NULL) st->groups = ng;
+    if (gram == NULL || vals == NULL || row == NULL || ng == NULL) {
+        free(cols);
+        free(gram);
+        free(vals);
+        free(row);
+        return COV_ENOMEM;
+    }
+    size_t n_rows = 0;
+    const cov_data *d = st->d;
+    for (size_t i = 0; d != NULL && i < d->n_runs; i++) {
+        int ok = outcome < 0 || var_present(d, (size_t)outcome, i);
+        for (size_t m = 0; ok && m <= cl->n_cond; m++)
+            ok = var_present(d, m < cl->n_cond ? cl->cond[m] : cl->treatment, i);
+        if (!ok) continue;
+        for (size_t v = 0; v < g->n_vars; v++)
+            vals[v] = L->count[v] && d->col[v] != NULL && !isnan(d->col[v][i]) ? d->col[v][i]
+                                                                                : g->vars[v].lo;
+        code_row(g, L, vals, row);
+        for (size_t a = 0; a < p; a++)
+            for (size_t b = 0; b < p; b++) gram[a * p + b] += row[cols[a]] * row[cols[b]];
+        n_rows++;
+    }
+    free(vals);
+    free(row);
+    size_t ag;
+    int prc = pw_aug_add_group(st->aug, cols, p, gram, PLAN_RIDGE, &ag);
+    free(gram);
+    if (prc != PW_OK) {
+        free(cols);
+        return prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
+    }
+    plan_group *gr = &st->groups[st->n_groups];
+    gr->cols = cols;
+    gr->p = p;
+    gr->outcome = outcome;
+    gr->group = ag;
+    gr->n_rows = n_rows;
+    *gi = st->n_groups++;
+    return COV_OK;
+}
+
+/* The test of a claim sized from the graph's declared noise SD of its outcome (no usable runs). */
+static int design_from_noise(const cov_graph *g, const cov_claim *cl, const cov_power_options *opt,
+                             size_t n_testable, const layout *L, pw_design *pd)
+{
+    const cov_var *y = &g->vars[cl->outcome], *x = &g->vars[cl->treatment];
+    if (!(y->noise_sd > 0)) return -1;
+    memset(pd, 0, sizeof *pd);
+    pd->sigma = y->noise_sd;
+    pd->effect = cl->effect.value * (cl->effect.unit == COV_UNIT_SD ? y->noise_sd : 1.0);
+    pd->target = opt->target;
+    pd->alpha = opt->bonferroni && n_testable > 1 ? opt->alpha / (double)n_testable : opt->alpha;
+    pd->sides = opt->one_sided && cl->sign != 0 ? 1 : 2;
+    double params = 1;
+    for (size_t m = 0; m < cl->n_cond; m++) params += L->count[cl->cond[m]] ? L->count[cl->cond[m]] : 1;
+    pd->n_params = params;
+    pd->ncp_per_run = NAN;
+    if (cl->kind == COV_CLAIM_ABSENCE) pd->test = PW_TEST_TOST;
+    else if (x->type == COV_LEVELS) {
+        pd->test = PW_TEST_LEVELS_F;
+        pd->n_levels = (double)x->n_levels;
+    } else pd->test = PW_TEST_COEF_T;
+    return 0;
+}
+
+/* q_req^2 / q_mul: the coded information at which claim i reaches its target at n runs. */
+static double need_at(const claim_work *w, double n)
+{
+    /* Below one residual degree of freedom the test has no power at all; size it there instead. */
+    double k = w->pd.test == PW_TEST_LEVELS_F ? w->pd.n_levels - 1.0 : 1.0;
+    if (n < w->pd.n_params + k + 2.0) n = w->pd.n_params + k + 2.0;
+    double q = NAN;
+    if (pw_design_q_needed(&w->pd, n, &q) != PW_OK) return INFINITY;
+    return q * q / w->q_mul;
+}
+
+/* ---- the coverage bonus ------------------------------------------------------------------------ */
+
+static int cover_init(struct plan_state *st, const cov_coverage_options *copt, unsigned long seed)
+{
+    const cov_graph *g = st->g;
+    const cov_data *d = st->d;
+    size_t nv = g->n_vars, bins = copt != NULL && copt->bins > 0 ? copt->bins : 10;
+    st->min_runs = copt != NULL && copt->min_runs > 0 ? copt->min_runs : 5;
+    size_t n_free = 0;
+    for (size_t v = 0; v < nv; v++)
+        if (g->vars[v].role == COV_INPUT && !g->vars[v].held) n_free++;
+    size_t max_pairs = n_free * (n_free > 0 ? n_free - 1 : 0) / 2;
+    st->pair_a = malloc((max_pairs + 1) * sizeof(size_t));
+    st->pair_b = malloc((max_pairs + 1) * sizeof(size_t));
+    st->pair_nb = malloc((max_pairs + 1) * sizeof(size_t));
+    st->pair_count = calloc(max_pairs + 1, sizeof(size_t *));
+    st->cand_bin = malloc((st->n_cand * nv + 1) * sizeof(long));
+    st->gap_vars = malloc((nv + 1) * sizeof(size_t));
+    st->cand_gap = malloc((st->n_cand + 1) * sizeof(double));
+    if (st->pair_a == NULL || st->pair_b == NULL || st->pair_nb == NULL || st->pair_count == NULL ||
+        st->cand_bin == NULL || st->gap_vars == NULL || st->cand_gap == NULL)
+        return COV_ENOMEM;
+    for (size_t c = 0; c < st->n_cand; c++)
+        for (size_t v = 0; v < nv; v++)
+            st->cand_bin[c * nv + v] = g->vars[v].role == COV_INPUT
+                                           ? cov_bin_of(&g->vars[v], bins, st->cand_vals[c * nv + v])
+                                           : -1;
+    for (size_t a = 0; a < nv; a++) {
+        const cov_var *va = &g->vars[a];
+        if (va->role != COV_INPUT || va->held) continue;
+        if (is_numeric(va)) st->gap_vars[st->n_gap_vars++] = a;
+        for (size_t b = a + 1; b < nv; b++) {
+            const cov_var *vb = &g->vars[b];
+            if (vb->role != COV_INPUT || vb->held) continue;
+            size_t na = cov_bin_count(va, bins), nb = cov_bin_count(vb, bins);
+            size_t *cnt = calloc(na * nb + 1, sizeof *cnt);
+            if (cnt == NULL) return COV_ENOMEM;
+            for (size_t i = 0; d != NULL && i < d->n_runs; i++) {
+                long ba = cov_bin_of(va, bins, d->col[a][i]), bb = cov_bin_of(vb, bins, d->col[b][i]);
+                if (ba >= 0 && bb >= 0) cnt[(size_t)ba * nb + (size_t)bb]++;
+            }
+            st->pair_a[st->n_pairs] = a;
+            st->pair_b[st->n_pairs] = b;
+            st->pair_nb[st->n_pairs] = nb;
+            st->pair_count[st->n_pairs++] = cnt;
+        }
+    }
+    /* Distance in the unit cube of the numeric inputs from each candidate to the nearest run of a
+     * fixed-seed sample of the archive (the fill-distance idea of coverage, per candidate). */
+    size_t dn = st->n_gap_vars;
+    double diag = sqrt((double)dn);
+    for (size_t c = 0; c < st->n_cand; c++) st->cand_gap[c] = diag;
+    if (d == NULL || dn == 0 || d->n_runs == 0) return COV_OK;
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    if (r == NULL) return COV_ENOMEM;
+    gsl_rng_set(r, seed + 1);
+    size_t n_sample = d->n_runs < PLAN_GAP_SAMPLE ? d->n_runs : PLAN_GAP_SAMPLE;
+    for (size_t s = 0; s < n_sample; s++) {
+        size_t i = n_sample == d->n_runs ? s : (size_t)gsl_rng_uniform_int(r, d->n_runs);
+        int ok = 1;
+        for (size_t k = 0; ok && k < dn; k++) ok = var_present(d, st->gap_vars[k], i);
+        if (!ok) continue;
+        for (size_t c = 0; c < st->n_cand; c++) {
+            double s2 = 0.0;
+            for (size_t k = 0; k < dn; k++) {
+                const cov_var *var = &g->vars[st->gap_vars[k]];
+                double t = (st->cand_vals[c * nv + st->gap_vars[k]] - d->col[st->gap_vars[k]][i]) /
+                           (var->hi - var->lo);
+                s2 += t * t;
+            }
+            if (sqrt(s2) < st->cand_gap[c]) st->cand_gap[c] = sqrt(s2);
+        }
+    }
+    gsl_rng_free(r);
+    return COV_OK;
+}
+
+static double cover_bonus(const struct plan_state *st, size_t c)
+{
+    size_t nv = st->g->n_vars;
+    double cells = 0.0, gap = 0.0;
+    if (st->n_pairs > 0) {
+        size_t hit = 0;
+        for (size_t k = 0; k < st->n_pairs; k++) {
+            long ba = st->cand_bin[c * nv + st->pair_a[k]], bb = st->cand_bin[c * nv + st->pair_b[k]];
+            if (ba >= 0 && bb >= 0 &&
+                st->pair_count[k][(size_t)ba * st->pair_nb[k] + (size_t)bb] < st->min_runs)
+                hit++;
+        }
+        cells = (double)hit / (double)st->n_pairs;
+    }
+    if (st->n_gap_vars > 0) gap = st->cand_gap[c] / sqrt((double)st->n_gap_vars);
+    return 0.5 * (cells + gap);
+}
+
+static void cover_commit(struct plan_state *st, size_t chosen, int replicates)
+{
+    size_t nv = st->g->n_vars, dn = st->n_gap_vars;
+    for (size_t k = 0; k < st->n_pairs; k++) {
+        long ba = st->cand_bin[chosen * nv + st->pair_a[k]];
+        long bb = st->cand_bin[chosen * nv + st->pair_b[k]];
+        if (ba >= 0 && bb >= 0) st->pair_count[k][(size_t)ba * st->pair_nb[k] + (size_t)bb] +=
+            (size_t)replicates;
+    }
+    for (size_t c = 0; c < st->n_cand; c++) {
+        double s2 = 0.0;
+        for (size_t k = 0; k < dn; k++) {
+            const cov_var *var = &st->g->vars[st->gap_vars[k]];
+            double t = (st->cand_vals[c * nv + st->gap_vars[k]] -
+                        st->cand_vals[chosen * nv + st->gap_vars[k]]) / (var->hi - var->lo);
+            s2 += t * t;
+        }
+        if (sqrt(s2) < st->cand_gap[c]) st->cand_gap[c] = sqrt(s2);
+    }
+}
+
+static void state_free(struct plan_state *st)
+{
+    for (size_t i = 0; i < st->n_groups; i++) free(st->groups[i].cols);
+    free(st->groups);
+    free(st->w);
+    pw_aug_free(st->aug);
+    free(st->cand_vals);
+    free(st->cand_rows);
+    for (size_t k = 0; st->pair_count != NULL && k < st->n_pairs; k++) free(st->pair_count[k]);
+    free(st->pair_a);
+    free(st->pair_b);
+    free(st->pair_nb);
+    free(st->pair_count);
+    free(st->cand_bin);
+    free(st->gap_vars);
+    free(st->cand_gap);
+    free(st->L.first);
+    free(st->L.count);
+}
+
+void cov_plan_free(cov_plan *p)
+{
+    if (p == NULL) return;
+    free(p->rows);
+    free(p->seeds);
+    free(p->items);
+    free(p);
+}
+
+/* ---- predictions ------------------------------------------------------------------------------- */
+
+/* Predicted power of plan item it after `planned` configurations of the plan's replicates. */
+static double predict(const struct plan_state *st, const cov_plan_claim *it, double added)
+{
+    const claim_work *w = &st->w[it->claim];
+    pw_design t;
+    double pw = NAN;
+    if (it->mode == COV_PLAN_UNSIZED) return NAN;
+    if (it->mode == COV_PLAN_ASSUMED) {
+        t = w->pd;
+        t.n = w->n_base + added;
+    } else {
+        double q = sqrt(pw_aug_info(st->aug, w->target) * w->q_mul);
+        if (!(w->n_base + added > 0) || pw_design_with_q(&w->pd, w->n_base + added, q, &t) != PW_OK)
+            return NAN;
+    }
+    if (pw_power(&t, &pw) != PW_OK) return NAN;
+    return pw;
+}
+
+/* Set up each testable claim: its mode, its test now and, when steered, its design group. */
+static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_plan *p)
+{
+    const cov_graph *g = st->g;
+    size_t n_testable = 0;
+    for (size_t i = 0; i < st->c->n; i++) n_testable += st->c->items[i].status == COV_TESTABLE;
+    p->items = calloc(n_testable + 1, sizeof *p->items);
+    st->w = calloc(st->c->n + 1, sizeof *st->w);
+    if (p->items == NULL || st->w == NULL) return COV_ENOMEM;
+    int have_runs = st->d != NULL && st->d->n_runs > 0 && a != NULL;
+    for (size_t i = 0; i < st->c->n; i++) {
+        const cov_claim *cl = &st->c->items[i];
+        if (cl->status != COV_TESTABLE) continue;
+        cov_plan_claim *it = &p->items[p->n++];
+        claim_work *w = &st->w[i];
+        it->claim = i;
+        it->power_now = NAN;
+        int steer = g->vars[cl->treatment].role == COV_INPUT;
+        for (size_t m = 0; m < cl->n_cond; m++) steer &= g->vars[cl->cond[m]].role == COV_INPUT;
+        double pw = NAN;
+        if (have_runs && cov_assess_design(g, st->c, a, i, &w->pd) == COV_OK &&
+            pw_power(&w->pd, &pw) == PW_OK && w->pd.n > 0) {
+            w->have_pd = 1;
+            it->power_now = pw;
+            w->n_base = w->pd.n;
+        }
+        if (!steer) {
+            it->mode = w->have_pd ? COV_PLAN_ASSUMED : COV_PLAN_UNSIZED;
+            if (w->have_pd && pw_runs_needed(&w->pd, &w->runs_needed) != PW_OK)
+                w->runs_needed = INFINITY;
+            continue;
+        }
+        size_t gi = 0, first = 0, k = 1;
+        int rc = find_group(st, cl, &gi, &first, &k);
+        if (rc != COV_OK) return rc;
+        size_t n_rows = st->groups[gi].n_rows;
+        int prc = pw_aug_add_target(st->aug, st->groups[gi].group, first, k, INFINITY, &w->target);
+        if (prc != PW_OK) return COV_ENOMEM;
+        double info0 = pw_aug_info(st->aug, w->target);
+        double q_now = w->have_pd ? pw_design_q(&w->pd) : NAN;
+        const cov_var *x = &g->vars[cl->treatment];
+        if (w->have_pd && q_now > 0 && isfinite(q_now) && n_rows > st->groups[gi].p && info0 > 0) {
+            /* The archive's own figures, moved by the ratio of information the runs add. */
+            w->q_mul = q_now * q_now / info0;
+        } else if (design_from_noise(g, cl, st->opt, n_testable, &st->L, &w->pd) == 0) {
+            w->have_pd = 1;
+            it->from_noise = 1;
+            /* Coded information to raw: a numeric column was scaled by half its range. */
+            double half = is_numeric(x) ? 0.5 * (x->hi - x->lo) : 1.0;
+            w->q_mul = half * half;
+            w->n_base = (double)n_rows;
+            if (n_rows > 0) {
+                pw_design t;
+                double q = sqrt(info0 * w->q_mul);
+                if (pw_design_with_q(&w->pd, (double)n_rows, q, &t) != PW_OK ||
+                    pw_power(&t, &it->power_now) != PW_OK)
+                    it->power_now = NAN;
+            }
+        } else {
+            it->mode = COV_PLAN_UNSIZED;
+            continue;
+        }
+        it->mode = COV_PLAN_STEERED;
+        pw_aug_set_need(st->aug, w->target, need_at(w, w->n_base));
+    }
+    return COV_OK;
+}
+
+/* ---- the greedy search ------------------------------------------------------------------------- */
+
+static void refresh_needs(struct plan_state *st, const cov_plan *p, double added)
+{
+    for (size_t j = 0; j < p->n; j++) {
+        const cov_plan_claim *it = &p->items[j];
+        if (it->mode != COV_PLAN_STEERED || it->unreachable) continue;
+        const claim_work *w = &st->w[it->claim];
+        pw_aug_set_need(st->aug, w->target, need_at(w, w->n_base + added));
+    }
+}
+
+/* Score candidate c. While some claim is short, the claims' share-of-need score, raised by at most
+ * PLAN_COVER_WEIGHT for filling cells and gaps (so coverage breaks near-ties but never buys a run
+ * that no claim needs); once none is short, the coverage bonus alone. Both parts only fall as runs
+ * are added. */
+static int score_candidate(struct plan_state *st, size_t c, double w, double *claim_part,
+                           double *total)
+{
+    double s = 0.0;
+    if (pw_aug_score(st->aug, st->cand_rows + c * st->L.n_cols, w, &s) != PW_OK) return COV_ENUMERIC;
+    *claim_part = s;
+    double bonus = cover_bonus(st, c);
+    *total = pw_aug_n_active(st->aug) > 0 ? s * (1.0 + PLAN_COVER_WEIGHT * bonus) : bonus;
+    return COV_OK;
+}
+
+static int push_row(cov_plan *p, size_t *cap, const double *vals)
+{
+    if (p->n_configs == *cap) {
+        size_t nc = *cap ? 2 * *cap : 64;
+        double *nr = realloc(p->rows, nc * p->n_vars * sizeof *nr);
+        if (nr == NULL) return COV_ENOMEM;
+        p->rows = nr;
+        *cap = nc;
+    }
+    memcpy(p->rows + p->n_configs * p->n_vars, vals, p->n_vars * sizeof *vals);
+    p->n_configs++;
+    return COV_OK;
+}
+
+/* Distinct seeds: an affine map with an odd multiplier is a bijection of the integers mod 2^31
+ * (Knuth, TAOCP vol. 2, sec. 3.2.1.2), so seeds for distinct run numbers never collide. */
+#define SEED_MUL 1103515245UL
+#define SEED_MOD 2147483648UL
+
+static void make_seeds(cov_plan *p, unsigned long seed)
+{
+    size_t n = p->n_configs * (size_t)p->replicates;
+    unsigned long base = (seed * 2654435761UL + 12345UL) % SEED_MOD;
+    for (size_t i = 0; i < n; i++)
+        p->seeds[i] = (SEED_MUL * ((base + i) % SEED_MOD) + 12345UL) % SEED_MOD;
+}
+
+int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                  const cov_assessments *a, const cov_power_options *opt,
+                  const cov_coverage_options *copt, long budget, int replicates,
+                  cov_plan **out, cov_error *err)
+{
+    *out = NULL;
+    if (budget < -1) return cov_fail(err, COV_EINPUT, "", "--budget expects a whole number >= 0 or 'auto'");
+    if (replicates < 1) return cov_fail(err, COV_EINPUT, "", "--replicates expects a whole number >= 1");
+    unsigned long seed = copt != NULL ? copt->seed : 20261202UL;
+    struct plan_state st;
+    memset(&st, 0, sizeof st);
+    st.g = g;
+    st.c = c;
+    st.d = d != NULL && d->n_runs > 0 ? d : NULL;
+    st.opt = opt;
+    int rc = COV_ENOMEM;
+    double *bound = NULL, *part = NULL;
+    unsigned char *fresh = NULL;
+    cov_plan *p = calloc(1, sizeof *p);
+    st.L.first = calloc(g->n_vars + 1, sizeof(size_t));
+    st.L.count = calloc(g->n_vars + 1, sizeof(size_t));
+    if (p == NULL || st.L.first == NULL || st.L.count == NULL) goto fail;
+    p->n_vars = g->n_vars;
+    p->replicates = replicates;
+    st.L.n_cols = 1;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        const cov_var *var = &g->vars[v];
+        if (var->role != COV_INPUT) continue;
+        st.L.first[v] = st.L.n_cols;
+        st.L.count[v] = var->type == COV_LEVELS ? var->n_levels - 1 : 1;
+        st.L.n_cols += st.L.count[v];
+    }
+    if (pw_aug_alloc(st.L.n_cols, &st.aug) != PW_OK) goto fail;
+    if ((rc = setup_claims(&st, a, p)) != COV_OK) goto fail;
+    if ((rc = build_candidates(&st, seed)) != COV_OK) goto fail;
+    rc = COV_ENOMEM;
+    p->n_candidates = st.n_cand;
+    st.cand_rows = malloc((st.n_cand * st.L.n_cols + 1) * sizeof *st.cand_rows);
+    bound = malloc((st.n_cand + 1) * sizeof *bound);
+    part = malloc((st.n_cand + 1) * sizeof *part);
+    fresh = malloc(st.n_cand + 1);
+    if (st.cand_rows == NULL || bound == NULL || part == NULL || fresh == NULL) goto fail;
+    for (size_t k = 0; k < st.n_cand; k++)
+        code_row(g, &st.L, st.cand_vals + k * g->n_vars, st.cand_rows + k * st.L.n_cols);
+    if ((rc = cover_init(&st, copt, seed)) != COV_OK) goto fail;
+
+    /* Assumed claims need configurations in proportion; beyond the cap they are unreachable. */
+    double k_rep = (double)replicates;
+    size_t assumed_configs = 0;
+    for (size_t j = 0; j < p->n; j++) {
+        cov_plan_claim *it = &p->items[j];
+        if (it->mode != COV_PLAN_ASSUMED) continue;
+        const claim_work *w = &st.w[it->claim];
+        double more = ceil((w->runs_needed - w->n_base) / k_rep);
+        if (!(more <= (double)COV_PLAN_AUTO_CAP)) it->unreachable = budget < 0;
+        else if (more > (double)assumed_configs) assumed_configs = (size_t)more;
+    }
+
+    size_t row_cap = 0, last_refresh = 0, bumps = 0;
+    for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY, fresh[k] = 0;
+    for (;;) {
+        size_t planned = p->n_configs;
+        if (budget >= 0 && planned >= (size_t)budget) break;
+        if (budget < 0 && pw_aug_n_active(st.aug) == 0 && planned >= assumed_configs) {
+            /* Needs are met: confirm with the exact power, and raise any need that fell short. */
+            refresh_needs(&st, p, (double)planned * k_rep);
+            int short_any = 0;
+            for (size_t j = 0; j < p->n; j++) {
+                cov_plan_claim *it = &p->items[j];
+                if (it->mode != COV_PLAN_STEERED || it->unreachable) continue;
+                const claim_work *w = &st.w[it->claim];
+                double pw = predict(&st, it, (double)planned * k_rep);
+                if (pw >= opt->target) continue;
+                short_any = 1;
+                if (++bumps > PLAN_MAX_BUMPS) it->unreachable = 1;
+                else pw_aug_set_need(st.aug, w->target,
+                                     fmax(pw_aug_need(st.aug, w->target),
+                                          pw_aug_info(st.aug, w->target)) * PLAN_NEED_BUMP);
+            }
+            if (!short_any) break;
+            for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY, fresh[k] = 0;
+            continue;
+        }
+        if (budget < 0 && planned >= COV_PLAN_AUTO_CAP) {
+            p->capped = 1;
+            break;
+        }
+        /* Lazy greedy (Minoux 1978): the scores only fall as runs are added, so a stale score is an
+         * upper bound and only the leader needs rescoring. */
+        size_t best = 0;
+        for (;;) {
+            best = 0;
+            for (size_t k = 1; k < st.n_cand; k++)
+                if (bound[k] > bound[best]) best = k;
+            if (fresh[best]) break;
+            if ((rc = score_candidate(&st, best, k_rep, &part[best], &bound[best])) != COV_OK)
+                goto fail;
+            fresh[best] = 1;
+        }
+        if (part[best] <= 0.0 && pw_aug_n_active(st.aug) > 0) {
+            /* Every candidate's score is bounded by the leader's, which is 0: no run the domains
+             * allow moves the claims still short. */
+            for (size_t j = 0; j < p->n; j++) {
+                cov_plan_claim *it = &p->items[j];
+                if (it->mode != COV_PLAN_STEERED || !pw_aug_active(st.aug, st.w[it->claim].target))
+                    continue;
+                it->unreachable = budget < 0;
+                pw_aug_set_need(st.aug, st.w[it->claim].target, INFINITY);
+            }
+            for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY, fresh[k] = 0;
+            continue;
+        }
+        int was_active = pw_aug_n_active(st.aug) > 0;
+        if (pw_aug_commit(st.aug, st.cand_rows + best * st.L.n_cols, k_rep) != PW_OK) {
+            rc = cov_fail(err, COV_ENUMERIC, "", "the planned design became singular");
+            goto fail;
+        }
+        cover_commit(&st, best, replicates);
+        if ((rc = push_row(p, &row_cap, st.cand_vals + best * g->n_vars)) != COV_OK) goto fail;
+        for (size_t k = 0; k < st.n_cand; k++) fresh[k] = 0;
+        if (pw_aug_n_active(st.aug) == 0 && was_active)
+            for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
+        if ((double)p->n_configs >= PLAN_NEED_REFRESH * (double)(last_refresh + 4)) {
+            last_refresh = p->n_configs;
+            refresh_needs(&st, p, (double)p->n_configs * k_rep);
+            for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
+        }
+    }
+    if (budget < 0 && p->capped)
+        for (size_t j = 0; j < p->n; j++)
+            if (p->items[j].mode == COV_PLAN_STEERED &&
+                pw_aug_active(st.aug, st.w[p->items[j].claim].target))
+                p->items[j].unreachable = 1;
+
+    double added = (double)p->n_configs * k_rep;
+    for (size_t j = 0; j < p->n; j++) {
+        cov_plan_claim *it = &p->items[j];
+        const claim_work *w = &st.w[it->claim];
+        it->n_now = w->n_base;
+        it->n_after = w->n_base + added;
+        it->power_after = predict(&st, it, added);
+        it->reaches = it->power_after >= opt->target;
+    }
+    p->seeds = malloc((p->n_configs * (size_t)replicates + 1) * sizeof *p->seeds);
+    if (p->seeds == NULL) goto fail;
+    make_seeds(p, seed);
+    *out = p;
+    p = NULL;
+    rc = COV_OK;
+fail:
+    if (rc == COV_ENOMEM) cov_fail(err, COV_ENOMEM, "", "out of memory while planning");
+    else if (rc == COV_ENUMERIC && err != NULL && err->msg[0] == '\0')
+        cov_fail(err, COV_ENUMERIC, "", "a numeric routine failed while planning");
+    free(bound);
+    free(part);
+    free(fresh);
+    state_free(&st);
+    cov_plan_free(p);
+    return rc;
+}
