@@ -753,15 +753,18 @@ static int parse_edges(parser *p)
             rc = take_name(p, "a variable name after '->'", &t);
             if (!rc) rc = resolve(p, t, &k);
             if (rc) return rc;
-            for (size_t i = prev_start; i < prev_end; i += 2) {
-                size_t from;
-                (void)resolve(p, &p->tok[i], &from);
-                rc = add_edge(p, &p->tok[i], from, t, k);
-                if (rc) return rc;
-            }
             if (peek(p)->kind != T_COMMA) break;
             next(p);
         }
+        /* Every name of the left list to every name of the right list, left names outermost. The
+         * names were resolved above, so these look-ups succeed. */
+        for (size_t i = prev_start; i < prev_end; i += 2)
+            for (size_t j = cur_start; j < p->pos; j += 2) {
+                size_t from = (size_t)cov_graph_find(p->g, p->tok[i].text);
+                size_t to = (size_t)cov_graph_find(p->g, p->tok[j].text);
+                rc = add_edge(p, &p->tok[i], from, &p->tok[j], to);
+                if (rc) return rc;
+            }
         prev_start = cur_start;
         prev_end = p->pos;
     }

@@ -1,0 +1,281 @@
+# Cross-check of `shoal claims --json` against networkx 2.8.8 (nx.d_separated) on random DAGs.
+# See LICENSE.
+#
+# Source of truth: networkx 2.8.8 `d_separated` (Debian python3-networkx), which tests
+# d-separation by pruning leaves and checking weak connectivity (Darwiche 2009). The claim
+# definitions checked here are those of README.md "Claims". Every comparison is exact (sets and
+# booleans), so there is no tolerance. Fixed seed: the graphs are the same on every run.
+import itertools
+import json
+import os
+import random
+import subprocess
+import sys
+import tempfile
+
+import networkx as nx
+
+SEED = 20261202
+N_SMALL = 520          # graphs of 3..12 nodes: exhaustive subset checks are affordable
+N_LARGE = 60           # graphs of 13..22 nodes: separation and single-removal minimality only
+BRUTE_MAX_NODES = 12   # the brief's limit for brute force over all subsets
+DESIGN = "__design__"  # our own node for the campaign's design; no graph name can collide with it
+
+shoal = os.environ.get("SHOAL", "build/shoal")
+failures = []
+counts = {"graphs": 0, "claims": 0, "testable": 0, "untestable": 0, "brute": 0, "subset": 0}
+
+
+def fail(msg):
+    failures.append(msg)
+
+
+def quote(name):
+    if name.startswith("v") and name[1:].isdigit():
+        return name
+    return '"' + name.replace("\\", "\\\\").replace('"', '\\"') + '"'
+
+
+def make_graph(rng, n):
+    """A random DAG: a random topological order, edges forward with probability p; declared in
+    another random order, so that declaration order and causal order differ."""
+    p = rng.choice([0.2, 0.3, 0.45])
+    topo = list(range(n))
+    rng.shuffle(topo)
+    edges = [(topo[i], topo[j]) for i in range(n) for j in range(i + 1, n) if rng.random() < p]
+    parents = {v: [a for a, b in edges if b == v] for v in range(n)}
+    names = []
+    for v in range(n):
+        if rng.random() < 0.08:
+            names.append('v %d; "q"' % v)      # quoted names with a space, ';' and quotes
+        else:
+            names.append("v%d" % v)
+    role = {}
+    for v in range(n):
+        r = rng.random()
+        if not parents[v]:
+            role[v] = "input" if r < 0.5 else ("hidden" if r < 0.7 else "output")
+        else:
+            role[v] = "hidden" if r < 0.25 else "output"
+    decl = list(range(n))
+    rng.shuffle(decl)
+    return edges, names, role, decl
+
+
+def write_graph(path, rng, edges, names, role, decl, independent):
+    lines = ["# Invented random graph for the d-separation cross-check."]
+    types = {}
+    for v in decl:
+        if role[v] == "input":
+            t = rng.choice(["real [0, 1]", "integer [1, 9]", "bool", "levels {lo, mid, hi}"])
+        elif role[v] == "output":
+            t = rng.choice(["real", "real noise 2.5", "integer", "bool"])
+        else:
+            t = "real"
+        types[v] = t
+        lines.append("%s %s %s" % (role[v], quote(names[v]), t))
+    lines.append("default effect 0.2 sd")
+    lines.append("default margin 0.05 sd")
+    if independent:
+        lines.append("design independent")
+    # Edges: grouped by target as comma lists ("a, b -> t") or one per line, in a random order;
+    # the written order is the expected order of effect claims.
+    order = []
+    by_target = {}
+    for a, b in edges:
+        by_target.setdefault(b, []).append(a)
+    targets = list(by_target)
+    rng.shuffle(targets)
+    effects = {}
+    for t in targets:
+        srcs = by_target[t]
+        rng.shuffle(srcs)
+        ann = ""
+        eff = None
+        if rng.random() < 0.3:
+            eff = round(rng.uniform(0.1, 3), 2)
+            ann = " expect + effect %g" % eff
+        if rng.random() < 0.5:
+            lines.append("%s -> %s%s" % (", ".join(quote(names[s]) for s in srcs),
+                                         quote(names[t]), ann))
+            order += [(s, t) for s in srcs]
+            for s in srcs:
+                effects[(s, t)] = eff
+        else:
+            for s in srcs:
+                lines.append("%s -> %s%s" % (quote(names[s]), quote(names[t]), ann))
+                order.append((s, t))
+                effects[(s, t)] = eff
+    with open(path, "w", encoding="utf-8") as f:
+        f.write("\n".join(lines) + "\n")
+    return order, effects
+
+
+def topo_rank(n, edges, decl):
+    """Kahn's algorithm taking the earliest-declared ready node first."""
+    pos = {v: i for i, v in enumerate(decl)}
+    indeg = {v: 0 for v in range(n)}
+    for _, b in edges:
+        indeg[b] += 1
+    done, rank = set(), {}
+    for r in range(n):
+        ready = [v for v in range(n) if v not in done and indeg[v] == 0]
+        v = min(ready, key=lambda u: pos[u])
+        done.add(v)
+        rank[v] = r
+        for a, b in edges:
+            if a == v:
+                indeg[b] -= 1
+    return rank
+
+
+def expected_claims(n, order, edges, role, decl):
+    rec = lambda v: role[v] != "hidden"
+    out = [("effect", a, b) for a, b in order if rec(a) and rec(b)]
+    rank = topo_rank(n, edges, decl)
+    adj = set(edges) | {(b, a) for a, b in edges}
+    for y in decl:
+        if role[y] != "output":
+            continue
+        for x in decl:
+            if x == y or not rec(x) or (x, y) in adj:
+                continue
+            if role[x] == "output" and rank[x] > rank[y]:
+                continue
+            out.append(("absence", x, y))
+    return out
+
+
+def proper_subsets(s):
+    s = sorted(s)
+    for k in range(len(s)):
+        for sub in itertools.combinations(s, k):
+            yield set(sub)
+
+
+def check_graph(idx, tmp, rng, n):
+    edges, names, role, decl = make_graph(rng, n)
+    independent = rng.random() < 0.4
+    path = os.path.join(tmp, "g%03d.graph" % idx)
+    order, effects = write_graph(path, rng, edges, names, role, decl, independent)
+    res = subprocess.run([shoal, "claims", "--json", path], capture_output=True, text=True)
+    if res.returncode != 0:
+        fail("%s: exit %d: %s" % (path, res.returncode, res.stderr.strip()))
+        return
+    doc = json.loads(res.stdout)
+    counts["graphs"] += 1
+    G = nx.DiGraph()
+    G.add_nodes_from(names)
+    G.add_edges_from((names[a], names[b]) for a, b in edges)
+    if not independent:
+        G.add_edges_from((DESIGN, names[v]) for v in range(n) if role[v] == "input")
+    by_name = {names[v]: v for v in range(n)}
+    recorded = {names[v] for v in range(n) if role[v] != "hidden"}
+    inputs = {names[v] for v in range(n) if role[v] == "input"}
+    want = [(k, names[a], names[b]) for k, a, b in expected_claims(n, order, edges, role, decl)]
+    got = [(c["kind"], c["treatment"], c["outcome"]) for c in doc["claims"]]
+    if got != want:
+        fail("%s: claims differ from the definitions: got %s, expected %s" % (path, got, want))
+        return
+    for c in doc["claims"]:
+        counts["claims"] += 1
+        x, y, S = c["treatment"], c["outcome"], set(c["conditioning"])
+        H = G.copy()
+        if c["kind"] == "effect":
+            H.remove_edge(x, y)
+            e = effects[(by_name[x], by_name[y])]
+            want_eff, want_unit = (e, "raw") if e is not None else (0.2, "sd")
+            want_sign = 1 if e is not None else 0
+        else:
+            want_eff, want_unit, want_sign = 0.05, "sd", 0
+        if (c["effect_of_interest"], c["effect_unit"], c["sign"]) != (want_eff, want_unit,
+                                                                     want_sign):
+            fail("%s: %s %s->%s effect %s %s sign %s, expected %s %s %s" % (
+                path, c["kind"], x, y, c["effect_of_interest"], c["effect_unit"], c["sign"],
+                want_eff, want_unit, want_sign))
+        if c["status"] == "testable":
+            counts["testable"] += 1
+            if not S <= recorded - {x, y}:
+                fail("%s: %s %s->%s set %s holds unrecorded names" % (path, c["kind"], x, y, S))
+                continue
+            if not nx.d_separated(H, {x}, {y}, S):
+                fail("%s: %s %s->%s: %s does not d-separate" % (path, c["kind"], x, y, S))
+                continue
+            for z in S:
+                if nx.d_separated(H, {x}, {y}, S - {z}):
+                    fail("%s: %s %s->%s: %s is not minimal (drop %s)" % (path, c["kind"], x, y,
+                                                                         S, z))
+            if n <= BRUTE_MAX_NODES:
+                counts["subset"] += 1
+                for sub in proper_subsets(S):
+                    if nx.d_separated(H, {x}, {y}, sub):
+                        fail("%s: %s %s->%s: proper subset %s of %s separates" % (
+                            path, c["kind"], x, y, sub, S))
+                        break
+            # The preferred set (parents of the outcome, or of both ends) when all recorded.
+            pref = set(H.predecessors(y)) - {x}
+            if c["kind"] == "absence":
+                pref |= set(H.predecessors(x))
+            if pref <= recorded and not S <= pref:
+                fail("%s: %s %s->%s: %s is not within the recorded parents %s" % (
+                    path, c["kind"], x, y, S, pref))
+            if c["steerable"] != (S <= inputs):
+                fail("%s: %s %s->%s steerable %s for %s" % (path, c["kind"], x, y,
+                                                            c["steerable"], S))
+            if c["reason"] is not None:
+                fail("%s: testable claim with a reason" % path)
+        else:
+            counts["untestable"] += 1
+            r = c["reason"] or ""
+            hidden_named = any(names[v] in r for v in range(n) if role[v] == "hidden") or \
+                "[design]" in r
+            if not r.startswith("open path ") or not hidden_named:
+                fail("%s: %s %s->%s: reason %r names no open path through a hidden variable" %
+                     (path, c["kind"], x, y, r))
+            cand = sorted(recorded - {x, y})
+            if n <= BRUTE_MAX_NODES:
+                counts["brute"] += 1
+                for k in range(len(cand) + 1):
+                    hit = next((s for s in itertools.combinations(cand, k)
+                                if nx.d_separated(H, {x}, {y}, set(s))), None)
+                    if hit is not None:
+                        fail("%s: %s %s->%s reported untestable but %s separates" % (
+                            path, c["kind"], x, y, set(hit)))
+                        break
+            else:
+                # Largest candidate: recorded ancestors (van der Zander et al. 2019: if any
+                # recorded separator exists, this one does).
+                anc = nx.ancestors(H, x) | nx.ancestors(H, y)
+                if nx.d_separated(H, {x}, {y}, set(cand) & anc):
+                    fail("%s: %s %s->%s reported untestable but recorded ancestors separate" %
+                         (path, c["kind"], x, y))
+
+
+def main():
+    rng = random.Random(SEED)
+    with tempfile.TemporaryDirectory() as tmp:
+        for i in range(N_SMALL):
+            check_graph(i, tmp, rng, rng.randint(3, BRUTE_MAX_NODES))
+        for i in range(N_LARGE):
+            check_graph(N_SMALL + i, tmp, rng, rng.randint(13, 22))
+    src = "(source: networkx %s d_separated)" % nx.__version__
+    for m in failures[:25]:
+        print("FAIL: %s %s" % (m, src))
+    ok = not failures
+    total = N_SMALL + N_LARGE
+    print("%s: %d of %d random graphs parsed and gave the claims the definitions imply %s" % (
+        "PASS" if counts["graphs"] == total and ok else "FAIL", counts["graphs"], total, src))
+    print("%s: %d testable claims: each set d-separates and no single member can be dropped %s"
+          % ("PASS" if ok and counts["testable"] > 0 else "FAIL", counts["testable"], src))
+    print("%s: %d testable claims on <= %d nodes: no proper subset separates %s" % (
+        "PASS" if ok and counts["subset"] > 0 else "FAIL", counts["subset"], BRUTE_MAX_NODES, src))
+    print("%s: %d untestable claims on <= %d nodes confirmed by brute force over all subsets of "
+          "recorded variables %s" % ("PASS" if ok and counts["brute"] > 0 else "FAIL",
+                                     counts["brute"], BRUTE_MAX_NODES, src))
+    print("%s: %d failures among %d claims in all" % ("PASS" if ok else "FAIL", len(failures),
+                                                       counts["claims"]))
+    return 0 if ok else 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())
