@@ -83,18 +83,22 @@ double pw_log_dbinom(double k, double n, double p, double q)
     return lc - 0.5 * lf;
 }
 
-/* I_x(a, b) and its complement I_y(b, a) from GSL's continued fraction (gsl_sf_beta_inc). */
-static int beta_pair(double x, double y, double a, double b, double *lo, double *up)
+int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double *up)
 {
+    /* GSL's continued fraction (gsl_sf_beta_inc) works on x directly below (a + 1) / (a + b + 2)
+     * and on 1 - x above it, forming 1 - x itself, which loses every digit of a y near 1e-14.
+     * So call it with whichever of x and y lies on its direct side, and take the other tail as
+     * the complement: on the direct side the value returned stays below 0.96 for shapes from 1/4
+     * to 1e6 (checked on a grid with scipy.special.betainc), so the complement loses at most about
+     * one digit, and a tail that is really small is always the one computed directly. */
     gsl_sf_result r;
-    int s = gsl_sf_beta_inc_e(a, b, x, &r);
+    int direct_x = x < (a + 1.0) / (a + b + 2.0);
+    int s = direct_x ? gsl_sf_beta_inc_e(a, b, x, &r) : gsl_sf_beta_inc_e(b, a, y, &r);
     if (s != GSL_SUCCESS && s != GSL_EUNDRFLW)
         return s == GSL_EDOM ? PW_EDOM : PW_ENOCONV;
-    *lo = s == GSL_EUNDRFLW ? 0.0 : r.val;
-    s = gsl_sf_beta_inc_e(b, a, y, &r);
-    if (s != GSL_SUCCESS && s != GSL_EUNDRFLW)
-        return s == GSL_EDOM ? PW_EDOM : PW_ENOCONV;
-    *up = s == GSL_EUNDRFLW ? 0.0 : r.val;
+    double v = s == GSL_EUNDRFLW ? 0.0 : r.val;
+    *lo = direct_x ? v : 1.0 - v;
+    *up = direct_x ? 1.0 - v : v;
     return PW_OK;
 }
 
@@ -122,7 +126,7 @@ static int ncbeta_tails(double x, double y, double a, double b, double lambda, d
     double k = floor(L);
     double w0 = exp(pw_log_dpois(k, L));
     double i0, ic0;
-    int s = beta_pair(x, y, a + k, b, &i0, &ic0);
+    int s = pw_beta_inc_pair(x, y, a + k, b, &i0, &ic0);
     if (s != PW_OK)
         return s;
     double lx = log(x);

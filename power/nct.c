@@ -18,22 +18,10 @@
  * sqrt(ncp^2 / 2); nine SDs reach 1e-18 of the mass, so 2e5 terms serve |ncp| up to about 3e4,
  * far beyond any power computation (power is 1 to double precision long before). */
 #define NCT_MAX_TERMS 200000
-
-/* One incomplete beta term I_x(a, b) together with its complement I_y(b, a), y = 1 - x, both from
- * GSL (gsl_sf_beta_inc, continued fraction of Numerical Recipes / DiDonato & Morris). */
-static int beta_pair(double x, double y, double a, double b, double *lo, double *up)
-{
-    gsl_sf_result r;
-    int s = gsl_sf_beta_inc_e(a, b, x, &r);
-    if (s != GSL_SUCCESS && s != GSL_EUNDRFLW)
-        return s == GSL_EDOM ? PW_EDOM : PW_ENOCONV;
-    *lo = s == GSL_EUNDRFLW ? 0.0 : r.val;
-    s = gsl_sf_beta_inc_e(b, a, y, &r);
-    if (s != GSL_SUCCESS && s != GSL_EUNDRFLW)
-        return s == GSL_EDOM ? PW_EDOM : PW_ENOCONV;
-    *up = s == GSL_EUNDRFLW ? 0.0 : r.val;
-    return PW_OK;
-}
+/* With d < 0 the upper-tail terms alternate in sign. When the tail is below this share of the sum
+ * of their absolute values, more than three digits have cancelled, so the tail is recomputed as
+ * Owen's Q by quadrature of positive terms (power/owen.c), accurate relative to itself. */
+#define NCT_CANCEL_SHARE 1e-3
 
 /* log of the step g(a) = x^a y^b / (a B(a, b)) of the recurrence I_x(a + 1, b) = I_x(a, b) - g(a)
  * (Abramowitz & Stegun 26.5.16), as b / (a + b) times the binomial term, which Loader's form keeps
@@ -77,9 +65,9 @@ static int nct_nonneg(double t, double nu, double d, double *lower, double *uppe
         q0 = copysign(exp(pw_log_dpois(k + 0.5, lam)), d);
     }
     double ip0, icp0, iq0, icq0;
-    int s = beta_pair(x, y, k + 0.5, b, &ip0, &icp0);
+    int s = pw_beta_inc_pair(x, y, k + 0.5, b, &ip0, &icp0);
     if (s == PW_OK)
-        s = beta_pair(x, y, k + 1.0, b, &iq0, &icq0);
+        s = pw_beta_inc_pair(x, y, k + 1.0, b, &iq0, &icq0);
     if (s != PW_OK)
         return s;
     double lx = log(x);
@@ -168,6 +156,16 @@ static int nct_nonneg(double t, double nu, double d, double *lower, double *uppe
 
     double lo = gsl_cdf_ugaussian_P(-d) + 0.5 * lo_sum;
     double up = 0.5 * up_sum;
+    if (d < 0.0 && nu >= 1.0 && !(up_sum >= NCT_CANCEL_SHARE * up_scale)) {
+        /* P(T > t) = E[Phi(d - t X / sqrt(nu))], X ~ chi_nu: Owen's Q_nu(-t, -d; 0, inf). */
+        s = pw_owen_q(nu, -t, -d, INFINITY, &up);
+        if (s != PW_OK)
+            return s;
+        /* The absolute weights sum to at most 1 + erf(|d| / sqrt 2) <= 2, so here up is below
+         * about 1e-3: the lower tail is near 1, and as the complement of an upper tail accurate
+         * to its last digits it is exact to rounding, while the cancelling series is not. */
+        lo = 1.0 - up;
+    }
     *lower = fmin(fmax(lo, 0.0), 1.0);
     *upper = fmin(fmax(up, 0.0), 1.0);
     return PW_OK;
