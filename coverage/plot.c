@@ -1,0 +1,874 @@
+/* The survey's plots: gnuplot scripts with inline datablocks, written as SVG and PNG.
+ * See LICENSE. */
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include "coverage/internal.h"
+
+/* Layout: 900 x 560 reads well beside text in a report and on a laptop screen. */
+#define PLOT_W 900
+#define PLOT_H 560
+/* Row plots (power, MDE) show at most this many claims, the worst ones, so the labels stay legible;
+ * each row takes ROW_PX pixels beyond the fixed margins. */
+#define PLOT_MAX_ROWS 30
+#define ROW_PX 17
+#define ROW_MARGIN_PX 150
+#define MAX_PAIR_PLOTS 4       /* cell grids of the thinnest pairs */
+#define MAX_CURVES 4           /* power curves of the thinnest claims */
+#define CURVE_STEPS 80         /* points per power curve: smooth at 900 px */
+#define CURVE_HEADROOM 1.3     /* the x axis runs 30% past the largest need, to show the plateau */
+#define MATRIX_LABEL_MAX 14    /* beyond this many inputs the matrix cells are too small to label */
+#define GRID_LABEL_MAX 144     /* likewise for the cells of a pair's grid */
+#define MAX_POINTS 4000        /* runs drawn per pair grid; more are thinned evenly */
+#define NAME_SHOWN 28          /* bytes of a name shown in tics and titles before "..." */
+#define JITTER 0.32            /* share of a category's cell width runs spread over, each side */
+
+/* The palette, our own. Every pair of colours that must be told apart differs in lightness as well
+ * as hue, so the plots survive the common colour-vision deficiencies (deutan, protan, tritan) and
+ * greyscale printing; shapes and dash types carry the same distinctions again. */
+#define C_AMPLE   "#2B5C9E"   /* ample: dark blue, CIE L* about 39 */
+#define C_THIN    "#E3872D"   /* thin: orange, L* about 65; blue against orange survives deutan/protan */
+#define C_RUNS    "#1E3F66"   /* archive runs: navy dots */
+#define C_PLANNED "#C8471B"   /* planned runs: vermilion open triangles, another shape and hue */
+#define C_EMPTY   "#BEBEBE"   /* empty cell: mid grey, no hue to confuse */
+#define C_FEW     "#F6DDB4"   /* cell with some runs but fewer than the minimum: pale sand */
+#define C_EDGE    "#8C8C8C"   /* cell borders */
+#define C_INK     "#222222"   /* reference lines, markers of the effect of interest */
+/* Power curves: navy, vermilion, sky, gold; L* about 25, 48, 67, 82, with distinct dashes and points. */
+static const char *const curve_colour[MAX_CURVES] = {"#1B3A6B", "#C8471B", "#5AA9D6", "#E9C46A"};
+static const int curve_dash[MAX_CURVES] = {1, 2, 4, 5};
+static const int curve_point[MAX_CURVES] = {7, 5, 9, 13};
+/* The coverage matrix: a sequential scale whose lightness rises steadily from dark violet (no cell
+ * covered) to pale cream (all covered), so it reads the same without colour. */
+static const char *const matrix_palette =
+    "(0 '#2B1140', 0.25 '#6A2366', 0.5 '#B63E63', 0.75 '#EE8A58', 1 '#FBEBB5')";
+
+enum plot_kind { PLOT_PAIRS, PLOT_PAIR, PLOT_POWER, PLOT_MDE, PLOT_CURVES };
+
+typedef struct {
+    enum plot_kind kind;
+    size_t arg;       /* PLOT_PAIR: the rank among the thinnest pairs (0 = thinnest) */
+} plot_ref;
+
+#define MAX_PLOTS (1 + MAX_PAIR_PLOTS + 3)
+
+/* A claim's row: its assessment index and the key it is sorted by. */
+typedef struct {
+    size_t idx;
+    double key;
+} row_key;
+
+static int by_key_up(const void *pa, const void *pb)
+{
+    const row_key *a = pa, *b = pb;
+    if (a->key < b->key) return -1;
+    if (a->key > b->key) return 1;
+    return a->idx < b->idx ? -1 : (a->idx > b->idx);
+}
+
+static int testable(const cov_assessment *it)
+{
+    return it->verdict != COV_BLIND && isfinite(it->power);
+}
+
+/* Testable claims sorted by power, lowest first (mde = 0), or by MDE over effect of interest,
+ * highest first (mde = 1). Caller frees. */
+static row_key *claim_rows(const cov_findings *f, int mde, size_t *n)
+{
+    *n = 0;
+    if (f->assess == NULL || f->assess->n == 0) return NULL;
+    row_key *rows = malloc(f->assess->n * sizeof *rows);
+    if (rows == NULL) return NULL;
+    for (size_t i = 0; i < f->assess->n; i++) {
+        const cov_assessment *it = &f->assess->items[i];
+        if (!testable(it) || it->claim >= f->claims->n) continue;
+        if (mde && !(isfinite(it->effect_raw) && it->effect_raw > 0)) continue;
+        double key = it->power;
+        if (mde) key = isfinite(it->mde) ? -(it->mde / it->effect_raw) : -INFINITY;
+        rows[(*n)++] = (row_key){i, key};
+    }
+    qsort(rows, *n, sizeof *rows, by_key_up);
+    return rows;
+}
+
+static size_t pair_plot_count(const cov_findings *f)
+{
+    const cov_coverage *c = f->coverage;
+    if (c == NULL || c->n_pairs == 0 || c->worst == NULL) return 0;
+    return c->n_pairs < MAX_PAIR_PLOTS ? c->n_pairs : MAX_PAIR_PLOTS;
+}
+
+static size_t count_testable(const cov_findings *f)
+{
+    size_t n = 0;
+    if (f->assess != NULL)
+        for (size_t i = 0; i < f->assess->n; i++) n += testable(&f->assess->items[i]);
+    return n;
+}
+
+/* The plots for f, in report order. */
+static size_t plan_plots(const cov_findings *f, plot_ref *refs)
+{
+    size_t n = 0;
+    if (f->coverage != NULL && f->coverage->n_inputs >= 2 && f->coverage->n_pairs > 0) {
+        refs[n++] = (plot_ref){PLOT_PAIRS, 0};
+        for (size_t k = 0; k < pair_plot_count(f); k++) refs[n++] = (plot_ref){PLOT_PAIR, k};
+    }
+    if (count_testable(f) > 0) {
+        refs[n++] = (plot_ref){PLOT_POWER, 0};
+        refs[n++] = (plot_ref){PLOT_MDE, 0};
+        refs[n++] = (plot_ref){PLOT_CURVES, 0};
+    }
+    return n;
+}
+
+/* name, cut at a UTF-8 character boundary after NAME_SHOWN bytes, with "..." when cut. */
+static const char *shown(const char *name, char *buf, size_t size)
+{
+    size_t len = strlen(name);
+    if (len <= NAME_SHOWN || size < NAME_SHOWN + 4) return name;
+    size_t cut = NAME_SHOWN;
+    while (cut > 0 && ((unsigned char)name[cut] & 0xC0) == 0x80) cut--;
+    snprintf(buf, size, "%.*s...", (int)cut, name);
+    return buf;
+}
+
+static const char *var_name(const cov_findings *f, size_t v, char *buf, size_t size)
+{
+    return shown(f->graph->vars[v].name, buf, size);
+}
+
+/* "A -> B" for an effect claim, "A -/-> B" for an absence claim. */
+static void claim_label(const cov_findings *f, size_t claim, char *out, size_t size)
+{
+    const cov_claim *c = &f->claims->items[claim];
+    char a[NAME_SHOWN + 8], b[NAME_SHOWN + 8];
+    snprintf(out, size, "%s %s %s", var_name(f, c->treatment, a, sizeof a),
+             c->kind == COV_CLAIM_EFFECT ? "->" : "-/->", var_name(f, c->outcome, b, sizeof b));
+}
+
+static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
+{
+    char a[NAME_SHOWN + 8], b[NAME_SHOWN + 8];
+    size_t min_runs = f->coverage ? f->coverage->opt.min_runs : 0;
+    switch (r.kind) {
+    case PLOT_PAIRS:
+        snprintf(out, size,
+                 "Pairwise coverage: for every pair of inputs, the share of its cells that hold at "
+                 "least %zu runs. Darker is thinner; the outlined pairs are drawn cell by cell next.",
+                 min_runs);
+        return;
+    case PLOT_PAIR: {
+        const cov_pair *p = &f->coverage->pairs[f->coverage->worst[r.arg]];
+        snprintf(out, size,
+                 "Thin pair %zu: %s by %s. Each cell shows its run count; grey cells hold no run, "
+                 "sand cells fewer than %zu; dots are runs%s.",
+                 r.arg + 1, var_name(f, p->a, a, sizeof a), var_name(f, p->b, b, sizeof b), min_runs,
+                 f->n_planned ? ", triangles the planned runs" : "");
+        return;
+    }
+    case PLOT_POWER:
+        snprintf(out, size,
+                 "Power of each testable claim at its effect of interest, lowest first, with the "
+                 "target power dashed. Blue bars are ample, orange bars too thin.");
+        return;
+    case PLOT_MDE:
+        snprintf(out, size,
+                 "Smallest detectable effect (dot, with its uncertainty range) beside the effect of "
+                 "interest (diamond), log scale. A claim is sized well when its dot lies left of its "
+                 "diamond.");
+        return;
+    case PLOT_CURVES:
+        snprintf(out, size,
+                 "Power of the thinnest claims as runs like the current ones are added; the large "
+                 "dots mark the runs each needs to reach the target%s.",
+                 f->n_planned ? ", the dotted line the planned runs" : "");
+        return;
+    }
+    out[0] = '\0';
+}
+
+static const char *plot_base(plot_ref r, char *buf, size_t size)
+{
+    switch (r.kind) {
+    case PLOT_PAIRS: return "pairs";
+    case PLOT_PAIR: snprintf(buf, size, "pair-%zu", r.arg + 1); return buf;
+    case PLOT_POWER: return "power";
+    case PLOT_MDE: return "mde";
+    case PLOT_CURVES: return "curves";
+    }
+    return "plot";
+}
+
+void cov_plots_free(cov_plots *p)
+{
+    if (p == NULL) return;
+    for (size_t i = 0; i < p->n; i++) {
+        free(p->items[i].name);
+        free(p->items[i].caption);
+    }
+    free(p->items);
+    free(p);
+}
+
+int cov_plot_list(const cov_findings *f, cov_plots **out, cov_error *err)
+{
+    *out = NULL;
+    plot_ref refs[MAX_PLOTS];
+    size_t n = plan_plots(f, refs);
+    cov_plots *p = calloc(1, sizeof *p);
+    if (p == NULL) goto fail;
+    p->items = calloc(n ? n : 1, sizeof *p->items);
+    if (p->items == NULL) goto fail;
+    for (size_t i = 0; i < n; i++, p->n++) {
+        char base[32], text[1024];
+        caption(f, refs[i], text, sizeof text);
+        p->items[i].name = strdup(plot_base(refs[i], base, sizeof base));
+        p->items[i].caption = strdup(text);
+        if (p->items[i].name == NULL || p->items[i].caption == NULL) {
+            p->n++;
+            goto fail;
+        }
+    }
+    *out = p;
+    return COV_OK;
+fail:
+    cov_plots_free(p);
+    return cov_fail(err, COV_ENOMEM, "", "out of memory listing the plots");
+}
+
+/* ---- script pieces ------------------------------------------------------------------------- */
+
+static void num(FILE *s, double x)
+{
+    if (isfinite(x)) fprintf(s, "%.9g", x);
+    else fputs("NaN", s);
+}
+
+/* "set output 'DIR/BASE.EXT'". A relative dir gets "./" in front, because gnuplot reads an output
+ * name starting with '|' as a command to pipe into and one starting with '~' as a home directory. */
+static void set_output(FILE *s, const char *dir, const char *base, const char *ext)
+{
+    size_t len = strlen(dir) + strlen(base) + strlen(ext) + 8;
+    char *path = malloc(len);
+    fputs("set output ", s);
+    if (path != NULL) {
+        snprintf(path, len, "%s%s/%s.%s", dir[0] == '/' ? "" : "./", dir, base, ext);
+        cov_gp_quote(s, path);
+    } else {
+        cov_gp_quote(s, "");   /* the write fails in gnuplot; the missing file is then reported */
+    }
+    fputc('\n', s);
+    free(path);
+}
+
+/* The common start of every plot. height in pixels. */
+static void start_plot(FILE *s, int height)
+{
+    fprintf(s, "reset\nset encoding utf8\nset terminal svg size %d,%d fixed noenhanced "
+               "font 'DejaVu Sans,12' background '#FFFFFF'\n", PLOT_W, height);
+    fputs("set border lc rgb '" C_INK "'\nset tics textcolor rgb '" C_INK "'\n", s);
+}
+
+/* Write the plot command held in `plot` to both files. */
+static void finish_plot(FILE *s, const char *dir, const char *base, int height, const char *plot)
+{
+    set_output(s, dir, base, "svg");
+    fputs(plot, s);
+    fprintf(s, "set output\nset terminal pngcairo size %d,%d noenhanced font 'DejaVu Sans,10' "
+               "background '#FFFFFF'\n", PLOT_W, height);
+    set_output(s, dir, base, "png");
+    fputs("replot\nset output\n", s);
+}
+
+/* "set title 'line1'" with an optional second line of our own words. */
+static void set_title(FILE *s, const char *line1, const char *line2)
+{
+    fputs("set title ", s);
+    cov_gp_quote(s, line1);
+    if (line2 != NULL) {
+        fputs(".\"\\n\".", s);
+        cov_gp_quote(s, line2);
+    }
+    fputs(" font ',13'\n", s);
+}
+
+static void set_label_cmd(FILE *s, const char *what, const char *text)
+{
+    fprintf(s, "set %s ", what);
+    cov_gp_quote(s, text);
+    fputc('\n', s);
+}
+
+/* ---- 1. the pairwise coverage matrix --------------------------------------------------------- */
+
+static long input_pos(const cov_coverage *c, size_t var)
+{
+    for (size_t i = 0; i < c->n_inputs; i++)
+        if (c->inputs[i] == var) return (long)i;
+    return -1;
+}
+
+static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
+{
+    const cov_coverage *c = f->coverage;
+    size_t n = c->n_inputs;
+    char buf[NAME_SHOWN + 8], line[256];
+    fputs("$pairs << EOD\n", s);
+    for (size_t k = 0; k < c->n_pairs; k++) {
+        long i = input_pos(c, c->pairs[k].a), j = input_pos(c, c->pairs[k].b);
+        if (i < 0 || j < 0) continue;
+        if (i > j) { long t = i; i = j; j = t; }
+        double share = c->pairs[k].share;
+        /* Text colour: white on the dark half of the scale, black on the light half. */
+        fprintf(s, "%ld %ld ", i, j);
+        num(s, share);
+        fprintf(s, " %d\n", share < 0.55 ? 0xFFFFFF : 0x000000);
+    }
+    fputs("EOD\n$outlined << EOD\n", s);
+    for (size_t k = 0; k < pair_plot_count(f); k++) {
+        const cov_pair *p = &c->pairs[c->worst[k]];
+        long i = input_pos(c, p->a), j = input_pos(c, p->b);
+        if (i > j) { long t = i; i = j; j = t; }
+        fprintf(s, "%ld %ld %zu\n", i, j, k + 1);
+    }
+    fputs("EOD\n", s);
+    start_plot(s, PLOT_H);
+    snprintf(line, sizeof line, "Pairwise coverage: share of each pair's cells with at least %zu runs",
+             c->opt.min_runs);
+    set_title(s, line, "outlined and numbered: the thinnest pairs, drawn cell by cell in the next plots");
+    fputs("set size ratio -1\nset xtics scale 0 rotate by 40 right (", s);
+    for (size_t i = 0; i + 1 < n; i++) {
+        if (i) fputs(", ", s);
+        cov_gp_quote_tic(s, var_name(f, c->inputs[i], buf, sizeof buf));
+        fprintf(s, " %zu", i);
+    }
+    fputs(")\nset ytics scale 0 (", s);
+    for (size_t i = 1; i < n; i++) {
+        if (i > 1) fputs(", ", s);
+        cov_gp_quote_tic(s, var_name(f, c->inputs[i], buf, sizeof buf));
+        fprintf(s, " %zu", i);
+    }
+    fprintf(s, ")\nset xrange [-0.5:%zu.5]\nset yrange [%zu.5:0.5]\n", n - 2, n - 1);
+    fprintf(s, "set cbrange [0:1]\nset palette defined %s\n", matrix_palette);
+    fputs("set cbtics ('0%%' 0, '25%%' 0.25, '50%%' 0.5, '75%%' 0.75, '100%%' 1)\n", s);
+    fputs("set cblabel 'share of cells covered'\nunset key\nset style fill solid 1 noborder\n", s);
+    fputs("set xlabel 'input'\nset ylabel 'input'\n", s);
+    char plot[1024];
+    snprintf(plot, sizeof plot,
+             "plot $pairs using 1:2:(0.5):(0.5):3 with boxxyerror fc palette notitle%s, \\\n"
+             "  $outlined using 1:2:(0.46):(0.46) with boxxyerror fs empty border lw 3 "
+             "lc rgb '#000000' notitle, \\\n"
+             "  $outlined using ($1-0.36):($2-0.3):(sprintf('%%d', $3)) with labels "
+             "font ',9' tc rgb '#000000' boxed notitle\n",
+             n <= MATRIX_LABEL_MAX
+                 ? ", \\\n  $pairs using 1:2:(sprintf('%.0f%%', 100*$3)):4 with labels tc rgb variable"
+                   " notitle"
+                 : "");
+    fputs("set style textbox opaque fc rgb '#FFFFFF' noborder margins 1,1\n", s);
+    finish_plot(s, dir, "pairs", PLOT_H, plot);
+    return COV_OK;
+}
+
+/* ---- 2. the cell grid of one thin pair --------------------------------------------------------- */
+
+/* How one input's bins sit on its axis. */
+typedef struct {
+    int categorical;      /* bool or level set: bins are the categories 0..L-1 */
+    int per_value;        /* integer with one bin per value */
+    double lo, width;     /* bin k spans lo + k*width .. lo + (k+1)*width */
+} axis_geom;
+
+static axis_geom geometry(const cov_var *v, size_t nbins)
+{
+    axis_geom g = {0, 0, 0.0, 1.0};
+    if (v->type == COV_BOOL || v->type == COV_LEVELS) {
+        g.categorical = 1;
+        g.lo = -0.5;
+    } else if (v->type == COV_INTEGER && fabs(v->hi - v->lo + 1 - (double)nbins) < 0.5) {
+        g.per_value = 1;
+        g.lo = v->lo - 0.5;
+    } else {
+        g.lo = v->lo;
+        g.width = (v->hi - v->lo) / (double)nbins;
+    }
+    return g;
+}
+
+/* A reproducible number in [-1, 1) for run i on axis `axis` (splitmix64 finaliser, Steele, Lea &
+ * Flood 2014), so the jitter looks random but the plots are identical from one survey to the next. */
+static double jitter(size_t i, unsigned axis)
+{
+    uint64_t z = (uint64_t)i * 2 + axis + 0x9E3779B97F4A7C15ULL;
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
+    z ^= z >> 31;
+    return (double)(z >> 11) / 4503599627370496.0 - 1.0;   /* 2^52 */
+}
+
+static double place(axis_geom g, double x, size_t i, unsigned axis)
+{
+    return g.categorical || g.per_value ? x + JITTER * jitter(i, axis) : x;
+}
+
+static void axis_tics(FILE *s, const char *axis, const cov_var *v, axis_geom g, size_t nbins)
+{
+    if (g.categorical) {
+        fprintf(s, "set %stics scale 0 (", axis);
+        for (size_t k = 0; k < nbins; k++) {
+            if (k) fputs(", ", s);
+            char buf[NAME_SHOWN + 8];
+            const char *name = v->type == COV_BOOL ? (k ? "true" : "false")
+                             : k < v->n_levels ? shown(v->levels[k], buf, sizeof buf) : "?";
+            cov_gp_quote_tic(s, name);
+            fprintf(s, " %zu", k);
+        }
+        fputs(")\n", s);
+    } else if (g.per_value) {
+        fprintf(s, "set %stics 1 scale 0\n", axis);
+    } else {
+        /* Tics on the bin edges, so each cell is read between two numbers. */
+        fprintf(s, "set %stics ", axis);
+        num(s, g.lo);
+        fputs(", ", s);
+        num(s, g.width * (nbins > 5 ? 2 : 1));
+        fprintf(s, " format '%%.3g'\n");
+    }
+    fprintf(s, "set %srange [", axis);
+    num(s, g.lo);
+    fputc(':', s);
+    num(s, g.lo + g.width * (double)nbins);
+    fputs("]\n", s);
+}
+
+static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t rank)
+{
+    const cov_coverage *c = f->coverage;
+    const cov_pair *p = &c->pairs[c->worst[rank]];
+    const cov_var *va = &f->graph->vars[p->a], *vb = &f->graph->vars[p->b];
+    axis_geom ga = geometry(va, p->na), gb = geometry(vb, p->nb);
+    size_t min_runs = c->opt.min_runs;
+
+    fprintf(s, "$cells%zu << EOD\n", rank);
+    for (size_t i = 0; i < p->na; i++)
+        for (size_t j = 0; j < p->nb; j++) {
+            size_t count = p->count[i * p->nb + j];
+            num(s, ga.lo + ga.width * ((double)i + 0.5));
+            fputc(' ', s);
+            num(s, gb.lo + gb.width * ((double)j + 0.5));
+            fputc(' ', s);
+            num(s, ga.width / 2);
+            fputc(' ', s);
+            num(s, gb.width / 2);
+            fprintf(s, " %zu %d\n", count, count == 0 ? 0 : count < min_runs ? 1 : 2);
+        }
+    fprintf(s, "EOD\n$runs%zu << EOD\n", rank);
+    size_t shown_runs = 0, present = 0;
+    const cov_data *d = f->data;
+    if (d != NULL && d->col[p->a] != NULL && d->col[p->b] != NULL) {
+        for (size_t i = 0; i < d->n_runs; i++)
+            present += isfinite(d->col[p->a][i]) && isfinite(d->col[p->b][i]);
+        size_t stride = present > MAX_POINTS ? (present + MAX_POINTS - 1) / MAX_POINTS : 1;
+        for (size_t i = 0, seen = 0; i < d->n_runs; i++) {
+            double x = d->col[p->a][i], y = d->col[p->b][i];
+            if (!isfinite(x) || !isfinite(y)) continue;
+            if (seen++ % stride != 0) continue;
+            num(s, place(ga, x, i, 0));
+            fputc(' ', s);
+            num(s, place(gb, y, i, 1));
+            fputc('\n', s);
+            shown_runs++;
+        }
+    }
+    fprintf(s, "EOD\n$planned%zu << EOD\n", rank);
+    size_t nv = f->graph->n_vars;
+    for (size_t i = 0; f->planned != NULL && i < f->n_planned; i++) {
+        double x = f->planned[i * nv + p->a], y = f->planned[i * nv + p->b];
+        if (!isfinite(x) || !isfinite(y)) continue;
+        num(s, place(ga, x, i + 7919, 0));   /* another stream than the runs' */
+        fputc(' ', s);
+        num(s, place(gb, y, i + 7919, 1));
+        fputc('\n', s);
+    }
+    fputs("EOD\n", s);
+
+    start_plot(s, PLOT_H);
+    char na[NAME_SHOWN + 8], nb[NAME_SHOWN + 8], line[512], line2[256];
+    size_t covered = 0;
+    for (size_t k = 0; k < p->na * p->nb; k++) covered += p->count[k] >= min_runs;
+    const char *name_a = var_name(f, p->a, na, sizeof na), *name_b = var_name(f, p->b, nb, sizeof nb);
+    snprintf(line, sizeof line, "Thin pair %zu: %s by %s", rank + 1, name_a, name_b);
+    snprintf(line2, sizeof line2, "%zu of %zu cells hold at least %zu runs; %zu cells are empty",
+             covered, p->na * p->nb, min_runs, p->n_empty);
+    set_title(s, line, line2);
+    axis_tics(s, "x", va, ga, p->na);
+    axis_tics(s, "y", vb, gb, p->nb);
+    set_label_cmd(s, "xlabel", name_a);
+    set_label_cmd(s, "ylabel", name_b);
+    fputs("set key below horizontal height 1.5\n", s);
+    fputs("set style textbox opaque fc rgb '#FFFFFF' noborder margins 1,0.5\n", s);
+    char runs_title[128], few_title[128], plan_title[128];
+    if (shown_runs < present)
+        snprintf(runs_title, sizeof runs_title, "runs (every %zuth of %zu shown)",
+                 (present + MAX_POINTS - 1) / MAX_POINTS, present);
+    else
+        snprintf(runs_title, sizeof runs_title, "runs in the archive (%zu)", present);
+    snprintf(few_title, sizeof few_title, "fewer than %zu runs", min_runs);
+    snprintf(plan_title, sizeof plan_title, "planned runs (%zu)", f->n_planned);
+    /* Dots fade when there are many, so dense regions still show their density. */
+    const char *dot = shown_runs > 400 ? "#A01E3F66" : shown_runs > 100 ? "#401E3F66" : C_RUNS;
+    char plot[2048];
+    int len = snprintf(plot, sizeof plot,
+        "plot $cells%zu using ($6==0 ? $1 : NaN):2:3:4 with boxxyerror fs solid 1 border lc rgb '"
+        C_EDGE "' fc rgb '" C_EMPTY "' title 'no runs', \\\n"
+        "  $cells%zu using ($6==1 ? $1 : NaN):2:3:4 with boxxyerror fs solid 1 border lc rgb '"
+        C_EDGE "' fc rgb '" C_FEW "' title '%s', \\\n"
+        "  $cells%zu using ($6==2 ? $1 : NaN):2:3:4 with boxxyerror fs empty border lw 1 lc rgb '"
+        C_EDGE "' notitle, \\\n"
+        "  $runs%zu using 1:2 with points pt 7 ps 0.5 lc rgb '%s' title '%s'",
+        rank, rank, few_title, rank, rank, dot, runs_title);
+    if (f->n_planned > 0)
+        len += snprintf(plot + len, sizeof plot - (size_t)len,
+                        ", \\\n  $planned%zu using 1:2 with points pt 8 ps 1.3 lw 2 lc rgb '" C_PLANNED
+                        "' title '%s'", rank, plan_title);
+    if (p->na * p->nb <= GRID_LABEL_MAX)
+        snprintf(plot + len, sizeof plot - (size_t)len,
+                 ", \\\n  $cells%zu using ($1-$3):($2+$4):(sprintf('%%d', $5)) with labels left "
+                 "offset 0.3,-0.6 boxed font ',9' notitle\n", rank);
+    else
+        snprintf(plot + len, sizeof plot - (size_t)len, "\n");
+    char base[32];
+    finish_plot(s, dir, plot_base((plot_ref){PLOT_PAIR, rank}, base, sizeof base), PLOT_H, plot);
+    return COV_OK;
+}
+
+/* ---- 3. power bars ------------------------------------------------------------------------------ */
+
+static int row_height(size_t rows)
+{
+    int h = ROW_MARGIN_PX + ROW_PX * (int)rows;
+    return h > PLOT_H ? h : PLOT_H;
+}
+
+/* ytics naming each row by its claim. */
+static void row_tics(FILE *s, const cov_findings *f, const row_key *rows, size_t n, const char *suffix_nan_mde)
+{
+    fputs("set ytics scale 0 (", s);
+    for (size_t r = 0; r < n; r++) {
+        const cov_assessment *it = &f->assess->items[rows[r].idx];
+        char label[3 * NAME_SHOWN + 64];
+        claim_label(f, it->claim, label, sizeof label);
+        if (suffix_nan_mde != NULL && !isfinite(it->mde))
+            strncat(label, suffix_nan_mde, sizeof label - strlen(label) - 1);
+        if (r) fputs(", ", s);
+        cov_gp_quote_tic(s, label);
+        fprintf(s, " %zu", r + 1);
+    }
+    fprintf(s, ")\nset yrange [%zu.5:0.5]\n", n);
+}
+
+static void rows_title(FILE *s, const char *what, size_t shown_n, size_t total, const char *line2)
+{
+    char line[256];
+    if (shown_n < total) snprintf(line, sizeof line, "%s (the %zu worst of %zu)", what, shown_n, total);
+    else snprintf(line, sizeof line, "%s", what);
+    set_title(s, line, line2);
+}
+
+static int plot_power(FILE *s, const cov_findings *f, const char *dir)
+{
+    size_t total;
+    row_key *rows = claim_rows(f, 0, &total);
+    if (rows == NULL) return COV_ENOMEM;
+    size_t n = total < PLOT_MAX_ROWS ? total : PLOT_MAX_ROWS;
+    double target = f->assess->opt.target;
+    fputs("$power << EOD\n", s);
+    for (size_t r = 0; r < n; r++) {
+        const cov_assessment *it = &f->assess->items[rows[r].idx];
+        fprintf(s, "%zu ", r + 1);
+        num(s, it->power);
+        fputc(' ', s);
+        num(s, isfinite(it->power_lo) ? it->power_lo : it->power);
+        fputc(' ', s);
+        num(s, isfinite(it->power_hi) ? it->power_hi : it->power);
+        fprintf(s, " %d\n", it->verdict == COV_AMPLE ? 0x2B5C9E : 0xE3872D);
+    }
+    fputs("EOD\n", s);
+    int h = row_height(n);
+    start_plot(s, h);
+    rows_title(s, "Power of each testable claim at its effect of interest, lowest first", n, total,
+               NULL);
+    row_tics(s, f, rows, n, NULL);
+    fputs("set xrange [0:1]\nset xtics 0.1 format '%.1f'\nset grid xtics lc rgb '#DDDDDD'\n", s);
+    fputs("set xlabel 'power: the chance the test detects the effect of interest'\n", s);
+    fputs("set key below horizontal height 1.5\nset errorbars small\n", s);
+    fputs("set arrow 1 from ", s);
+    num(s, target);
+    fputs(", graph 0 to ", s);
+    num(s, target);
+    fputs(", graph 1 nohead dt 2 lw 2 lc rgb '" C_INK "' front\n", s);
+    char plot[1024];
+    snprintf(plot, sizeof plot,
+             "plot $power using ($2/2):1:($2/2):(0.36):5 with boxxyerror fs solid 1 noborder "
+             "lc rgb variable notitle, \\\n"
+             "  $power using 2:1:3:4 with xerrorbars pt 7 ps 0.4 lw 1.2 lc rgb '" C_INK
+             "' title 'uncertainty range', \\\n"
+             "  $power using 4:1:(sprintf('%%.2f', $2)) with labels left offset 0.6,0 font ',9' "
+             "notitle, \\\n"
+             "  keyentry with boxes fs solid 1 noborder lc rgb '" C_AMPLE "' title 'ample', \\\n"
+             "  keyentry with boxes fs solid 1 noborder lc rgb '" C_THIN "' title 'too thin', \\\n"
+             "  keyentry with lines dt 2 lw 2 lc rgb '" C_INK "' title 'target power %.2f'\n",
+             target);
+    finish_plot(s, dir, "power", h, plot);
+    free(rows);
+    return COV_OK;
+}
+
+/* ---- 4. MDE beside the effect of interest ------------------------------------------------------- */
+
+static int plot_mde(FILE *s, const cov_findings *f, const char *dir)
+{
+    size_t total;
+    row_key *rows = claim_rows(f, 1, &total);
+    if (rows == NULL && total > 0) return COV_ENOMEM;
+    size_t n = total < PLOT_MAX_ROWS ? total : PLOT_MAX_ROWS;
+    double lo = INFINITY, hi = -INFINITY;
+    fputs("$mde << EOD\n", s);
+    for (size_t r = 0; r < n; r++) {
+        const cov_assessment *it = &f->assess->items[rows[r].idx];
+        double v[4] = {it->effect_raw, it->mde, it->mde_lo, it->mde_hi};
+        for (int k = 0; k < 4; k++)
+            if (isfinite(v[k]) && v[k] > 0) {
+                lo = fmin(lo, v[k]);
+                hi = fmax(hi, v[k]);
+            }
+        double mlo = isfinite(it->mde_lo) && it->mde_lo > 0 ? it->mde_lo : it->mde;
+        double mhi = isfinite(it->mde_hi) ? it->mde_hi : it->mde;
+        fprintf(s, "%zu ", r + 1);
+        num(s, it->effect_raw);
+        fputc(' ', s);
+        num(s, it->mde > 0 ? it->mde : NAN);
+        fputc(' ', s);
+        num(s, mlo > 0 ? mlo : NAN);
+        fputc(' ', s);
+        num(s, mhi > 0 ? mhi : NAN);
+        fprintf(s, " %d\n", it->verdict == COV_AMPLE ? 0x2B5C9E : 0xE3872D);
+    }
+    fputs("EOD\n", s);
+    if (!(lo < hi)) {   /* one value, or none: a decade either side */
+        double mid = isfinite(lo) ? lo : 1.0;
+        lo = mid / 10;
+        hi = mid * 10;
+    }
+    int h = row_height(n);
+    start_plot(s, h);
+    rows_title(s, "Smallest detectable effect beside the effect of interest", n, total,
+               "a claim is sized well when its dot lies left of its diamond");
+    row_tics(s, f, rows, n, " (no MDE)");
+    fputs("set logscale x\nset xrange [", s);
+    num(s, lo / 1.6);
+    fputc(':', s);
+    num(s, hi * 1.6);
+    fputs("]\nset grid xtics lc rgb '#E4E4E4'\nset xtics (", s);
+    /* Tics at 1, 2 and 5 times each power of ten in range: a log axis labelled only at decades is
+     * hard to read off. */
+    int first = 1;
+    for (double dec = pow(10, floor(log10(lo / 1.6))); dec <= hi * 1.6; dec *= 10)
+        for (int m = 0; m < 3; m++) {
+            double t = dec * (m == 0 ? 1 : m == 1 ? 2 : 5);
+            if (t < lo / 1.6 || t > hi * 1.6) continue;
+            fputs(first ? "" : ", ", s);
+            fprintf(s, "%.6g", t);
+            first = 0;
+        }
+    fputs(") format '%g'\n", s);
+    fputs("set xlabel 'effect, in outcome units per unit of treatment (log scale)'\n", s);
+    fputs("set key below horizontal height 1.5\nset errorbars small\n", s);
+    char plot[1536];
+    snprintf(plot, sizeof plot,
+             "plot $mde using 2:1:($3-$2):(0) with vectors nohead lw 5 lc rgb '#DADADA' notitle, \\\n"
+             "  $mde using 3:1:4:5:6 with xerrorbars pt 7 ps 1.1 lw 1.2 lc rgb variable notitle, \\\n"
+             "  $mde using 2:1 with points pt 12 ps 1.7 lw 1.5 lc rgb '" C_INK
+             "' title 'effect of interest', \\\n"
+             "  keyentry with points pt 7 ps 1.1 lc rgb '" C_AMPLE "' title 'MDE, ample', \\\n"
+             "  keyentry with points pt 7 ps 1.1 lc rgb '" C_THIN "' title 'MDE, too thin'\n");
+    finish_plot(s, dir, "mde", h, plot);
+    free(rows);
+    return COV_OK;
+}
+
+/* ---- 5. power over added runs -------------------------------------------------------------------- */
+
+static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
+{
+    size_t total;
+    row_key *rows = claim_rows(f, 0, &total);
+    if (rows == NULL) return COV_ENOMEM;
+    double target = f->assess->opt.target;
+    pw_design des[MAX_CURVES];
+    size_t pick[MAX_CURVES], n = 0;
+    for (size_t r = 0; r < total && n < MAX_CURVES; r++) {
+        const cov_assessment *it = &f->assess->items[rows[r].idx];
+        if (cov_assess_design(f->graph, f->claims, f->assess, it->claim, &des[n]) != COV_OK)
+            continue;
+        double p0;
+        if (pw_power(&des[n], &p0) != PW_OK) continue;
+        pick[n++] = rows[r].idx;
+    }
+    /* The x axis: past the largest finite need, or the current size when none is needed. */
+    double need_max = 0, n_max = 0;
+    for (size_t k = 0; k < n; k++) {
+        const cov_assessment *it = &f->assess->items[pick[k]];
+        double add = it->runs_needed - des[k].n;
+        if (isfinite(add) && add > need_max) need_max = add;
+        n_max = fmax(n_max, des[k].n);
+    }
+    double span = need_max > 0 ? ceil(need_max * CURVE_HEADROOM) : fmax(20, n_max);
+    if ((double)f->n_planned * 1.1 > span) span = ceil((double)f->n_planned * 1.1);
+    for (size_t k = 0; k < n; k++) {
+        fprintf(s, "$curve%zu << EOD\n", k);
+        double base = des[k].n, last = -1;
+        for (int j = 0; j <= CURVE_STEPS; j++) {
+            double add = round(span * j / CURVE_STEPS);
+            if (add == last) continue;
+            last = add;
+            pw_design d = des[k];
+            d.n = base + add;
+            double pw;
+            if (pw_power(&d, &pw) != PW_OK) continue;
+            num(s, add);
+            fputc(' ', s);
+            num(s, pw);
+            fputc('\n', s);
+        }
+        fputs("EOD\n", s);
+    }
+    fputs("$need << EOD\n", s);
+    for (size_t k = 0; k < n; k++) {
+        const cov_assessment *it = &f->assess->items[pick[k]];
+        double add = it->runs_needed - des[k].n;
+        if (!(isfinite(add) && add > 0)) continue;
+        pw_design d = des[k];
+        d.n = it->runs_needed;
+        double pw;
+        if (pw_power(&d, &pw) != PW_OK) pw = target;
+        num(s, add);
+        fputc(' ', s);
+        num(s, pw);
+        fputc('\n', s);
+    }
+    fputs("EOD\n", s);
+    start_plot(s, PLOT_H);
+    set_title(s, "Power of the thinnest claims as runs are added",
+              "assuming new runs resemble the current ones; large dots: runs needed for the target");
+    fputs("set xlabel 'runs added to the campaign'\nset ylabel 'power at the effect of interest'\n", s);
+    fputs("set yrange [0:1.04]\nset ytics 0.1 format '%.1f'\nset grid lc rgb '#E4E4E4'\n", s);
+    fputs("set xrange [0:", s);
+    num(s, span);
+    fputs("]\nset key below horizontal maxcols 2 height 1\n", s);
+    fputs("set arrow 1 from graph 0, first ", s);
+    num(s, target);
+    fputs(" to graph 1, first ", s);
+    num(s, target);
+    fputs(" nohead dt 2 lw 2 lc rgb '" C_INK "' back\n", s);
+    if (f->n_planned > 0) {
+        fprintf(s, "set arrow 2 from first %zu, graph 0 to first %zu, graph 1 nohead dt 3 lw 2 "
+                   "lc rgb '" C_PLANNED "' back\n", f->n_planned, f->n_planned);
+    }
+    char *plot = NULL;
+    size_t plot_len = 0;
+    FILE *ps = open_memstream(&plot, &plot_len);
+    if (ps == NULL) {
+        free(rows);
+        return COV_ENOMEM;
+    }
+    fputs("plot ", ps);
+    for (size_t k = 0; k < n; k++) {
+        const cov_assessment *it = &f->assess->items[pick[k]];
+        char label[3 * NAME_SHOWN + 128];
+        claim_label(f, it->claim, label, sizeof label);
+        size_t used = strlen(label);
+        double add = it->runs_needed - des[k].n;
+        if (!isfinite(it->runs_needed))
+            snprintf(label + used, sizeof label - used, ": %.2f now, target out of reach", it->power);
+        else if (add > 0)
+            snprintf(label + used, sizeof label - used, ": %.2f now, needs %.0f more", it->power, add);
+        else
+            snprintf(label + used, sizeof label - used, ": %.2f now", it->power);
+        fprintf(ps, "%s$curve%zu using 1:2 with linespoints pointinterval 16 pt %d ps 1 lw 2.5 "
+                    "dt %d lc rgb '%s' title ", k ? ", \\\n  " : "", k, curve_point[k],
+                curve_dash[k], curve_colour[k]);
+        cov_gp_quote(ps, label);
+    }
+    fputs(", \\\n  $need using 1:2 with points pt 7 ps 1.8 lc rgb '" C_INK
+          "' title 'runs needed', \\\n"
+          "  $need using 1:2:(sprintf('+%.0f', $1)) with labels offset 0,1.2 font ',10' notitle, \\\n"
+          "  keyentry with lines dt 2 lw 2 lc rgb '" C_INK "' title 'target power'", ps);
+    if (f->n_planned > 0)
+        fprintf(ps, ", \\\n  keyentry with lines dt 3 lw 2 lc rgb '" C_PLANNED
+                    "' title 'planned runs (%zu)'", f->n_planned);
+    fputc('\n', ps);
+    int rc = fclose(ps) == 0 ? COV_OK : COV_ENOMEM;
+    if (rc == COV_OK) finish_plot(s, dir, "curves", PLOT_H, plot);
+    free(plot);
+    free(rows);
+    return rc;
+}
+
+/* ---- all of them ----------------------------------------------------------------------------------- */
+
+int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *err)
+{
+    plot_ref refs[MAX_PLOTS];
+    size_t n = plan_plots(f, refs);
+    if (n == 0) return COV_OK;
+    for (const char *p = dir; *p; p++)
+        if ((unsigned char)*p < 0x20)
+            return cov_fail(err, COV_ENOPLOT, "",
+                            "the report directory's name holds a control character, which cannot "
+                            "be passed to gnuplot");
+    char exe[4096];
+    if (cov_gp_find(exe, sizeof exe) != 0)
+        return cov_fail(err, COV_ENOPLOT, "",
+                        "gnuplot was not found on PATH (install gnuplot, e.g. Debian's gnuplot-nox)");
+    char *script = NULL;
+    size_t len = 0;
+    FILE *s = open_memstream(&script, &len);
+    if (s == NULL) return cov_fail(err, COV_ENOMEM, "", "out of memory writing the plots");
+    int rc = COV_OK;
+    for (size_t i = 0; i < n && rc == COV_OK; i++) {
+        switch (refs[i].kind) {
+        case PLOT_PAIRS: rc = plot_pairs(s, f, dir); break;
+        case PLOT_PAIR: rc = plot_pair(s, f, dir, refs[i].arg); break;
+        case PLOT_POWER: rc = plot_power(s, f, dir); break;
+        case PLOT_MDE: rc = plot_mde(s, f, dir); break;
+        case PLOT_CURVES: rc = plot_curves(s, f, dir); break;
+        }
+    }
+    if (fclose(s) != 0 && rc == COV_OK) rc = COV_ENOMEM;
+    if (rc != COV_OK) {
+        free(script);
+        return cov_fail(err, COV_ENOMEM, "", "out of memory writing the plots");
+    }
+    rc = cov_gp_run(script, len, note, err);
+    free(script);
+    if (rc != COV_OK) return rc;
+    /* gnuplot reports a file it cannot open as an error, but check: a report must not point at
+     * a plot that is not there. */
+    for (size_t i = 0; i < n; i++) {
+        static const char *const ext[2] = {"svg", "png"};
+        char base[32], path[4096];
+        for (int e = 0; e < 2; e++) {
+            snprintf(path, sizeof path, "%s/%s.%s", dir, plot_base(refs[i], base, sizeof base),
+                     ext[e]);
+            struct stat st;
+            if (stat(path, &st) != 0 || st.st_size == 0)
+                return cov_fail(err, COV_ENOPLOT, "", "gnuplot did not write %s", path);
+        }
+    }
+    return COV_OK;
+}
