@@ -187,6 +187,45 @@ typedef struct {
     size_t n_planned;
 } cov_findings;
 
+/* Plots (coverage/plot.c), drawn by gnuplot through a pipe (coverage/gnuplot.c). Each plot is
+ * written twice into the report directory: NAME.svg (svg terminal, to inline) and NAME.png
+ * (pngcairo). The names, in report order: "pairs" (pairwise coverage matrix, when >= 2 inputs),
+ * "pair-1" .. "pair-4" (cell grids of the thinnest pairs), then, when some claim is testable,
+ * "power" (power bars), "mde" (MDE beside the effect of interest) and "curves" (power over added
+ * runs). The SVG files start with an XML declaration and a DOCTYPE, which inlining must drop. */
+typedef struct {
+    char *name;       /* file name without extension: "pairs", "pair-1", "power", ... */
+    char *caption;    /* one plain sentence; holds user names unescaped, so escape it for HTML */
+} cov_plot;
+
+typedef struct {
+    cov_plot *items;  /* in report order */
+    size_t n;
+} cov_plots;
+
+/* The plots cov_plot_all writes for f, in order. Needs f->graph, f->claims, f->assess and
+ * f->coverage (either of the last two may be NULL: its plots are then left out). COV_ENOMEM. */
+int cov_plot_list(const cov_findings *f, cov_plots **out, cov_error *err);
+void cov_plots_free(cov_plots *p);
+
+/* Write every plot of cov_plot_list into the existing directory dir, in one gnuplot run with all
+ * data sent inline as datablocks (no data files are written). Returns COV_OK; COV_ENOPLOT with a
+ * plain message when gnuplot is not on PATH, fails, or leaves a file unwritten (the caller carries
+ * on without plots); COV_ENOMEM. gnuplot's warnings, if any, go to note (may be NULL). */
+int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *err);
+
+/* Write s as a gnuplot string literal: single-quoted, ' doubled, control characters and invalid
+ * UTF-8 bytes replaced by '?'. The only way user text reaches gnuplot. s may be NULL (""). */
+void cov_gp_quote(FILE *f, const char *s);
+/* The same for the label of an explicit tic (set xtics ('label' 1)), which gnuplot reads as a
+ * format: '%' is doubled as well. */
+void cov_gp_quote_tic(FILE *f, const char *s);
+/* Find an executable "gnuplot" on PATH; writes its path into path. 0 when found, else -1. */
+int cov_gp_find(char *path, size_t size);
+/* Run gnuplot (with -d: no init files) on the script of len bytes fed through a pipe. COV_OK when
+ * gnuplot exits with status 0; else COV_ENOPLOT, with gnuplot's last message line in err. */
+int cov_gp_run(const char *script, size_t len, FILE *note, cov_error *err);
+
 /* ---- plan (coverage/plan.c) -------------------------------------------------------------------- */
 
 /* How the plan predicts one claim's power after the planned runs. */
