@@ -187,6 +187,56 @@ typedef struct {
     size_t n_planned;
 } cov_findings;
 
+/* The figures of one survey, one round of the campaign's history (coverage/history.c). */
+typedef struct {
+    char at[32];              /* UTC, ISO 8601: "2026-12-02T01:30:00Z" */
+    long long n_runs;
+    long long n_batches;
+    long long n_ample, n_thin, n_blind;
+    double marginal_share, pairwise_share, threeway_share;   /* NAN when not computed */
+} cov_round;
+
+/* Where a survey keeps its history: in the owned archive, in a --history side file, or nowhere. */
+typedef enum { COV_HISTORY_NONE, COV_HISTORY_ARCHIVE, COV_HISTORY_SIDE } cov_history_store;
+
+/* Fill r with the counts and shares of f (the time is the caller's). */
+void cov_round_from_findings(const cov_findings *f, cov_round *r);
+/* Read the rounds kept in the SQLite file db_path, oldest first. A file without history tables,
+ * or (side files only, missing_ok 1) no file at all, gives *n = 0. The file is opened read-only.
+ * Free *out with free(). Returns COV_OK, COV_EIO, COV_EINPUT (not SQLite), COV_ENOMEM. */
+int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_t *n,
+                     cov_error *err);
+/* Append round r and each claim's power to the history tables (shoal_rounds, shoal_round_claims)
+ * of db_path, created when missing (the side file itself too), in one transaction. The caller
+ * guarantees db_path is shoal's own archive or a side file: never the user's archive. */
+int cov_history_record(const char *db_path, const cov_findings *f, const cov_round *r,
+                       cov_error *err);
+
+/* What the report says besides the findings. */
+typedef struct {
+    const char *generated;    /* UTC time of the survey */
+    int adequate;             /* the verdict, gates included */
+    const char *gate_note;    /* NULL, or which --need-* gate failed */
+    const char *plot_note;    /* NULL when plots were made; else why they were skipped */
+    cov_history_store store;
+    const char *history_path; /* archive or side file; NULL with COV_HISTORY_NONE */
+    const cov_round *rounds;  /* earlier rounds and this one, oldest first */
+    size_t n_rounds;
+} cov_report_info;
+
+/* Write index.html, report.md, summary.json and claims.csv into the existing directory dir. The
+ * plots of cov_plot_list already in dir (NAME.svg) are embedded in index.html as data URIs, unless
+ * info->plot_note says they were skipped. Every user string is escaped for its format. Test hook:
+ * with the environment variable SHOAL_TEST_FAULT=report it fails halfway (COV_EIO).
+ * Returns COV_OK, COV_EIO, COV_ENOMEM. */
+int cov_report_write(const cov_findings *f, const cov_report_info *info, const char *dir,
+                     cov_error *err);
+/* summary.json alone, to any stream (`shoal survey --json` prints it to stdout). */
+void cov_report_summary_json(const cov_findings *f, const cov_report_info *info, FILE *out);
+/* Ordering of claims for the terminal and the report: thin first by rising power, then
+ * untestable, then ample by rising power. Fills order (f->claims->n entries). */
+void cov_report_order(const cov_findings *f, size_t *order);
+
 /* Plots (coverage/plot.c), drawn by gnuplot through a pipe (coverage/gnuplot.c). Each plot is
  * written twice into the report directory: NAME.svg (svg terminal, to inline) and NAME.png
  * (pngcairo). The names, in report order: "pairs" (pairwise coverage matrix, when >= 2 inputs),
