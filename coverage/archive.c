@@ -146,7 +146,7 @@ int cov_archive_open(const char *path, const char *table, cov_archive **out, cov
         rc = cov_fail(err, COV_ENOMEM, path, "out of memory");
         goto fail;
     }
-    if (sqlite3_open_v2(path, &a->db, SQLITE_OPEN_READONLY, NULL) != SQLITE_OK) {
+    if (sqlite3_open_v2(path, &a->db, SQLITE_OPEN_READONLY | SQLITE_OPEN_NOMUTEX, NULL) != SQLITE_OK) {
         rc = sql_fail(err, a->db, path, "cannot open the archive");
         goto fail;
     }

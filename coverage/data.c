@@ -1,6 +1,7 @@
 /* Reading the graph's recorded variables from the archive into contiguous columns, checking each
  * cell against the variable's declared type and domain. See LICENSE. */
 #include <errno.h>
+#include <float.h>
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -13,6 +14,10 @@
 
 /* Report progress this often: often enough to move a bar, rarely enough to cost nothing. */
 #define PROGRESS_EVERY_ROWS 65536
+/* Rows gathered row-major before they are copied into the columns: writing 80 columns a cell at a
+ * time defeats the processor's store prefetch, while a block of 256 rows (160 KiB for 80 columns)
+ * stays in cache and is copied out one column at a time. */
+#define STAGE_ROWS 256
 /* First guess at the run count when the table's rowids say nothing useful. */
 #define START_CAPACITY 1024
 
@@ -213,6 +218,16 @@ static int cmp_ll(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
+/* Copy rows [base, base + count) from the row-major stage into the columns. */
+static void unstage(cov_data *d, const size_t *vars, size_t n_rec, const double *stage,
+                    size_t base, size_t count)
+{
+    for (size_t k = 0; k < n_rec; k++) {
+        double *dst = d->col[vars[k]] + base;
+        for (size_t i = 0; i < count; i++) dst[i] = stage[i * n_rec + k];
+    }
+}
+
 /* A first guess at the row count without a counting scan: the rowid span. */
 static size_t estimate_rows(sqlite3 *db, const char *qt)
 {
@@ -240,6 +255,9 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     long *colidx = NULL;
     size_t *vars = NULL;    /* the recorded variables in SELECT order */
     size_t *n_examples = NULL;
+    unsigned char *fast = NULL, *whole = NULL;
+    double *stage = NULL;
+    double *lo = NULL, *hi = NULL;
     int rc = COV_ENOMEM;
     cov_data *d = calloc(1, sizeof *d);
     if (d == NULL) goto nomem;
@@ -311,6 +329,25 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
         }
     }
 
+    /* The fast path's bounds per selected column: numbers in a real or integer column need only
+     * a range test (a whole-number test too for integer inputs); anything else takes read_cell. */
+    fast = calloc(n_rec + 1, 1);
+    whole = calloc(n_rec + 1, 1);
+    lo = calloc(n_rec + 1, sizeof *lo);
+    hi = calloc(n_rec + 1, sizeof *hi);
+    if (!fast || !whole || !lo || !hi) goto nomem;
+    for (size_t k = 0; k < n_rec; k++) {
+        const cov_var *var = &g->vars[vars[k]];
+        fast[k] = var->type == COV_REAL || var->type == COV_INTEGER;
+        int ranged = var->role == COV_INPUT && isfinite(var->lo) && isfinite(var->hi);
+        lo[k] = ranged ? var->lo : -DBL_MAX;
+        hi[k] = ranged ? var->hi : DBL_MAX;
+        whole[k] = ranged && var->type == COV_INTEGER;
+    }
+
+    stage = malloc(STAGE_ROWS * (n_rec ? n_rec : 1) * sizeof *stage);
+    if (stage == NULL) goto nomem;
+
     size_t est = estimate_rows(db, qt);
     size_t cap = est > 0 ? est : START_CAPACITY;
     if (grow(d, g, cap, with_batch)) goto nomem;
@@ -323,17 +360,22 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
             if (grow(d, g, cap, with_batch)) goto nomem;
         }
         r.row = n + 1;
+        double *row = stage + (n % STAGE_ROWS) * n_rec;
         for (size_t k = 0; k < n_rec; k++) {
             size_t v = vars[k];
-            double x;
-            int ct = sqlite3_column_type(st, (int)k);
-            /* The common case first: a number in a real or integer column with no domain. */
-            if (ct == SQLITE_FLOAT || ct == SQLITE_INTEGER) {
-                if (g->vars[v].type == COV_LEVELS || g->vars[v].type == COV_BOOL) {
-                    rc = read_cell(&r, st, (int)k, v, &x);
-                    if (rc) goto fail;
-                } else {
-                    x = sqlite3_column_double(st, (int)k);
+            double x = NAN;
+            /* One column fetch per cell: the value's type and number come from it without a
+             * second lookup. The connection is opened with SQLITE_OPEN_NOMUTEX (multi-thread
+             * mode), where unprotected and protected sqlite3_value objects are the same (SQLite
+             * C interface, "Dynamically Typed Value Object"). */
+            sqlite3_value *cell = sqlite3_column_value(st, (int)k);
+            int ct = sqlite3_value_type(cell);
+            if (fast[k] && (ct == SQLITE_FLOAT || ct == SQLITE_INTEGER)) {
+                /* The common case: a number in a real or integer column, inside the domain. */
+                x = sqlite3_value_double(cell);
+                if (x >= lo[k] && x <= hi[k] && (!whole[k] || x == floor(x))) {
+                    row[k] = x;
+                    continue;
                 }
             } else {
                 rc = read_cell(&r, st, (int)k, v, &x);
@@ -356,12 +398,13 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
                     x = NAN;
                 }
             }
-            d->col[v][n] = x;
+            row[k] = x;
         }
         if (with_batch)
             d->batch[n] = sqlite3_column_type(st, (int)n_rec) == SQLITE_NULL
                               ? 0 : sqlite3_column_int64(st, (int)n_rec);
         n++;
+        if (n % STAGE_ROWS == 0) unstage(d, vars, n_rec, stage, n - STAGE_ROWS, STAGE_ROWS);
         if (progress != NULL && n % PROGRESS_EVERY_ROWS == 0)
             progress(est > n ? (double)n / (double)est : 0.99, ctx);
     }
@@ -370,6 +413,7 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
                       sqlite3_errmsg(db));
         goto fail;
     }
+    unstage(d, vars, n_rec, stage, n - n % STAGE_ROWS, n % STAGE_ROWS);
     d->n_runs = n;
     if (with_batch && n > 0) {
         long long *sorted = malloc(n * sizeof *sorted);
@@ -390,6 +434,11 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     free(colidx);
     free(vars);
     free(n_examples);
+    free(fast);
+    free(stage);
+    free(whole);
+    free(lo);
+    free(hi);
     *out = d;
     return COV_OK;
 nomem:
@@ -401,6 +450,11 @@ fail:
     free(colidx);
     free(vars);
     free(n_examples);
+    free(fast);
+    free(stage);
+    free(whole);
+    free(lo);
+    free(hi);
     cov_data_free(d);
     return rc;
 }

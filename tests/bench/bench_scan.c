@@ -1,0 +1,120 @@
+/* Times cov_data_read of a table's columns against a bare sqlite3_step scan of the same columns,
+ * each as the median of REPEATS runs, and prints both and their ratio. See LICENSE. */
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#include <gsl/gsl_errno.h>
+#include <sqlite3.h>
+
+#include "coverage/internal.h"
+
+/* Three runs, as the brief for the benchmark asks; the median discards one slow outlier. */
+#define REPEATS 3
+
+/* Keeps the compiler from dropping the scans whose values are otherwise unused. */
+static volatile double sink_out;
+
+static double now(void)
+{
+    struct timespec t;
+    clock_gettime(CLOCK_MONOTONIC, &t);
+    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* The baseline: one SELECT of the columns, sqlite3_step over every row, each value read once. */
+static double bare_scan(const char *db_path, const char *sql, int n_cols, double *sink)
+{
+    sqlite3 *db = NULL;
+    sqlite3_stmt *st = NULL;
+    double t0 = now();
+    if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READONLY | SQLITE_OPEN_NOMUTEX, NULL) != SQLITE_OK ||
+        sqlite3_prepare_v2(db, sql, -1, &st, NULL) != SQLITE_OK) {
+        fprintf(stderr, "bench_scan: %s\n", sqlite3_errmsg(db));
+        exit(1);
+    }
+    double sum = 0;
+    while (sqlite3_step(st) == SQLITE_ROW)
+        for (int j = 0; j < n_cols; j++) sum += sqlite3_column_double(st, j);
+    sqlite3_finalize(st);
+    sqlite3_close(db);
+    *sink += sum;
+    return now() - t0;
+}
+
+int main(int argc, char **argv)
+{
+    gsl_set_error_handler_off();
+    if (argc != 3) {
+        fprintf(stderr, "usage: bench_scan ARCHIVE.db COLUMNS\n");
+        return 2;
+    }
+    char *end = NULL;
+    errno = 0;
+    long n_cols = strtol(argv[2], &end, 10);
+    if (errno || *end || n_cols < 1 || n_cols > 2000) {
+        fprintf(stderr, "bench_scan: COLUMNS must be 1..2000\n");
+        return 2;
+    }
+    /* An invented graph over columns c1..cN: odd ones inputs with a domain (so the domain check
+     * runs), even ones outputs. */
+    cov_var *vars = calloc((size_t)n_cols, sizeof *vars);
+    char (*names)[16] = calloc((size_t)n_cols, sizeof *names);
+    size_t sql_len = 64 + 16 * (size_t)n_cols;
+    char *sql = malloc(sql_len);
+    size_t at = (size_t)snprintf(sql, sql_len, "SELECT ");
+    for (long j = 0; j < n_cols; j++) {
+        snprintf(names[j], sizeof names[j], "c%ld", j + 1);
+        vars[j].name = names[j];
+        vars[j].role = j % 2 == 0 ? COV_INPUT : COV_OUTPUT;
+        vars[j].type = COV_REAL;
+        vars[j].lo = j % 2 == 0 ? 0 : NAN;
+        vars[j].hi = j % 2 == 0 ? 1000 : NAN;
+        vars[j].noise_sd = NAN;
+        at += (size_t)snprintf(sql + at, sql_len - at, "%s\"c%ld\"", j ? ", " : "", j + 1);
+    }
+    snprintf(sql + at, sql_len - at, " FROM runs");
+    cov_graph g = {"bench.graph", vars, (size_t)n_cols, NULL, 0, {NAN, COV_UNIT_RAW},
+                   {NAN, COV_UNIT_RAW}, 0};
+
+    double t_bare[REPEATS], t_read[REPEATS], sink = 0;
+    size_t runs = 0;
+    for (int r = 0; r < REPEATS; r++) {
+        t_bare[r] = bare_scan(argv[1], sql, (int)n_cols, &sink);
+        cov_error err = {{0}, {0}};
+        cov_archive *a = NULL;
+        cov_data *d = NULL;
+        double t0 = now();
+        int rc = cov_archive_open(argv[1], NULL, &a, &err);
+        if (rc == COV_OK) rc = cov_data_read(a, &g, NULL, NULL, &d, &err);
+        t_read[r] = now() - t0;
+        if (rc != COV_OK) {
+            fprintf(stderr, "bench_scan: %s: %s\n", err.where, err.msg);
+            return 1;
+        }
+        runs = d->n_runs;
+        sink += d->col[0][0];
+        cov_data_free(d);
+        cov_archive_close(a);
+    }
+    qsort(t_bare, REPEATS, sizeof *t_bare, cmp_double);
+    qsort(t_read, REPEATS, sizeof *t_read, cmp_double);
+    double bare = t_bare[REPEATS / 2], rd = t_read[REPEATS / 2];
+    printf("read %zu runs x %ld columns: bare sqlite3_step scan %.2f s, cov_data_read %.2f s "
+           "(median of %d), ratio %.2f (target <= 1.5)\n", runs, n_cols, bare, rd, REPEATS,
+           rd / bare);
+    sink_out = sink;
+    free(vars);
+    free(names);
+    free(sql);
+    return 0;
+}
