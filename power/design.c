@@ -4,6 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include <gsl/gsl_cdf.h>
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_linalg.h>
 #include <gsl/gsl_roots.h>
@@ -15,7 +16,9 @@
  * method needs on a monotone function over a bracket of 40 decades. */
 #define Q_REL_TOL 1e-7
 #define Q_MAX_ITER 200
-#define Q_MIN 1e-12
+/* The bracket widens by this factor per step, at most Q_MAX_WIDEN times (4^30 is ~1e18). */
+#define Q_WIDEN 4.0
+#define Q_MAX_WIDEN 30
 
 int pw_spd_inverse(const double *a, size_t p, double *ainv)
 {
@@ -139,18 +142,33 @@ static double q_gap(double log_q, void *arg)
 int pw_design_q_needed(const pw_design *d, double n_new, double *q)
 {
     *q = NAN;
-    if (!(n_new > 0.0)) return PW_EDOM;
+    if (!(n_new > 0.0) || !(d->effect > 0.0) || !(d->sigma > 0.0)) return PW_EDOM;
     q_ctx c = {d, n_new, PW_OK};
-    double hi = log(PW_Q_MAX);
-    if (d->test == PW_TEST_TWO_PROP) hi = log(sqrt(0.25 * n_new));
-    double lo = log(Q_MIN);
+    double q_cap = d->test == PW_TEST_TWO_PROP ? sqrt(0.25 * n_new) : PW_Q_MAX;
+    /* A bracket around Bloom's (1995) normal-limit guess (z_{1-a/2} + z_{power}) sigma / effect,
+     * widened by factors of Q_WIDEN: a far bracket would make the noncentral t work at absurd
+     * noncentralities. */
+    double guess = (gsl_cdf_ugaussian_Qinv(d->alpha / 2.0) + gsl_cdf_ugaussian_Pinv(d->target)) *
+                   d->sigma / d->effect;
+    if (!(guess > 0.0) || !isfinite(guess)) guess = 1.0;
+    double lo = log(guess / Q_WIDEN), hi = log(fmin(guess * Q_WIDEN, q_cap));
     double f_hi = q_gap(hi, &c);
+    for (int k = 0; c.status == PW_OK && !(f_hi >= 0.0) && hi < log(q_cap) && k < Q_MAX_WIDEN; k++) {
+        lo = hi;
+        hi = fmin(hi + log(Q_WIDEN), log(q_cap));
+        f_hi = q_gap(hi, &c);
+    }
     if (c.status != PW_OK) return c.status;
     if (!(f_hi >= 0.0)) {
         *q = INFINITY;
         return PW_OK;
     }
     double f_lo = q_gap(lo, &c);
+    for (int k = 0; c.status == PW_OK && f_lo >= 0.0 && k < Q_MAX_WIDEN; k++) {
+        hi = lo;
+        lo -= log(Q_WIDEN);
+        f_lo = q_gap(lo, &c);
+    }
     if (c.status != PW_OK) return c.status;
     if (f_lo >= 0.0) {
         *q = exp(lo);
