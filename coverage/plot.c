@@ -21,6 +21,8 @@
 #define MAX_CURVES 4           /* power curves of the thinnest claims */
 #define CURVE_STEPS 80         /* points per power curve: smooth at 900 px */
 #define CURVE_HEADROOM 1.3     /* the x axis runs 30% past the largest need, to show the plateau */
+#define CURVE_LOG_RATIO 8.0    /* needs further apart than this share one plot on a log axis */
+#define CURVES_H 680           /* the curves' legend takes one row per entry, up to seven */
 #define MATRIX_LABEL_MAX 14    /* beyond this many inputs the matrix cells are too small to label */
 #define GRID_LABEL_MAX 144     /* likewise for the cells of a pair's grid */
 #define MAX_POINTS 4000        /* runs drawn per pair grid; more are thinned evenly */
@@ -95,19 +97,33 @@ static row_key *claim_rows(const cov_findings *f, int mde, size_t *n)
     return rows;
 }
 
+/* The thin pairs drawn cell by cell: up to MAX_PAIR_PLOTS of those not fully covered, worst first;
+ * when every pair is covered, the worst one still, so the report always shows where runs lie. */
 static size_t pair_plot_count(const cov_findings *f)
 {
     const cov_coverage *c = f->coverage;
     if (c == NULL || c->n_pairs == 0 || c->worst == NULL) return 0;
-    return c->n_pairs < MAX_PAIR_PLOTS ? c->n_pairs : MAX_PAIR_PLOTS;
+    size_t n = 0;
+    while (n < c->n_pairs && n < MAX_PAIR_PLOTS && c->pairs[c->worst[n]].share < 1) n++;
+    return n > 0 ? n : 1;
 }
 
-static size_t count_testable(const cov_findings *f)
+/* The claims each row plot would show: testable ones (power), those with a positive effect of
+ * interest (MDE), those whose test cov_assess_design can give again (curves). */
+static void count_rows(const cov_findings *f, size_t *power, size_t *mde, size_t *curves)
 {
-    size_t n = 0;
-    if (f->assess != NULL)
-        for (size_t i = 0; i < f->assess->n; i++) n += testable(&f->assess->items[i]);
-    return n;
+    *power = *mde = *curves = 0;
+    if (f->assess == NULL || f->claims == NULL) return;
+    for (size_t i = 0; i < f->assess->n; i++) {
+        const cov_assessment *it = &f->assess->items[i];
+        if (!testable(it) || it->claim >= f->claims->n) continue;
+        (*power)++;
+        *mde += isfinite(it->effect_raw) && it->effect_raw > 0;
+        pw_design d;
+        double pw;
+        *curves += cov_assess_design(f->graph, f->claims, f->assess, it->claim, &d) == COV_OK &&
+                   pw_power(&d, &pw) == PW_OK;
+    }
 }
 
 /* The plots for f, in report order. */
@@ -118,11 +134,11 @@ static size_t plan_plots(const cov_findings *f, plot_ref *refs)
         refs[n++] = (plot_ref){PLOT_PAIRS, 0};
         for (size_t k = 0; k < pair_plot_count(f); k++) refs[n++] = (plot_ref){PLOT_PAIR, k};
     }
-    if (count_testable(f) > 0) {
-        refs[n++] = (plot_ref){PLOT_POWER, 0};
-        refs[n++] = (plot_ref){PLOT_MDE, 0};
-        refs[n++] = (plot_ref){PLOT_CURVES, 0};
-    }
+    size_t power, mde, curves;
+    count_rows(f, &power, &mde, &curves);
+    if (power > 0) refs[n++] = (plot_ref){PLOT_POWER, 0};
+    if (mde > 0) refs[n++] = (plot_ref){PLOT_MDE, 0};
+    if (curves > 0) refs[n++] = (plot_ref){PLOT_CURVES, 0};
     return n;
 }
 
@@ -361,8 +377,10 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
     char plot[1024];
     snprintf(plot, sizeof plot,
              "plot $pairs using 1:2:(0.5):(0.5):3 with boxxyerror fc palette notitle%s, \\\n"
-             "  $outlined using 1:2:(0.46):(0.46) with boxxyerror fs empty border lw 3 "
+             "  $outlined using 1:2:(0.45):(0.45) with boxxyerror fs empty border lw 4 "
              "lc rgb '#000000' notitle, \\\n"
+             "  $outlined using 1:2:(0.41):(0.41) with boxxyerror fs empty border lw 1.5 "
+             "lc rgb '#FFFFFF' notitle, \\\n"
              "  $outlined using ($1-0.36):($2-0.3):(sprintf('%%d', $3)) with labels "
              "font ',9' tc rgb '#000000' boxed notitle\n",
              n <= MATRIX_LABEL_MAX
@@ -380,17 +398,20 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
 typedef struct {
     int categorical;      /* bool or level set: bins are the categories 0..L-1 */
     int per_value;        /* integer with one bin per value */
+    int integer;          /* integer values in wider bins */
     double lo, width;     /* bin k spans lo + k*width .. lo + (k+1)*width */
+    size_t nbins;
 } axis_geom;
 
 static axis_geom geometry(const cov_var *v, size_t nbins)
 {
-    axis_geom g = {0, 0, 0.0, 1.0};
+    axis_geom g = {0, 0, v->type == COV_INTEGER, 0.0, 1.0, nbins};
     if (v->type == COV_BOOL || v->type == COV_LEVELS) {
         g.categorical = 1;
         g.lo = -0.5;
     } else if (v->type == COV_INTEGER && fabs(v->hi - v->lo + 1 - (double)nbins) < 0.5) {
         g.per_value = 1;
+        g.integer = 0;
         g.lo = v->lo - 0.5;
     } else {
         g.lo = v->lo;
@@ -410,9 +431,19 @@ static double jitter(size_t i, unsigned axis)
     return (double)(z >> 11) / 4503599627370496.0 - 1.0;   /* 2^52 */
 }
 
+/* Where run i's value x is drawn. Categories and single values spread over their cell; an integer
+ * in a wider bin spreads over the part of its bin within 0.4 of it, so that runs of one value do
+ * not pile on a line and each dot stays in the cell it is counted in (coverage.h's binning). */
 static double place(axis_geom g, double x, size_t i, unsigned axis)
 {
-    return g.categorical || g.per_value ? x + JITTER * jitter(i, axis) : x;
+    if (g.categorical || g.per_value) return x + JITTER * jitter(i, axis);
+    if (!g.integer || !(g.width > 0)) return x;
+    double k = floor((x - g.lo) / g.width);
+    if (k > (double)g.nbins - 1) k = (double)g.nbins - 1;
+    if (k < 0) k = 0;
+    double lo = fmax(g.lo + k * g.width, x - 0.4), hi = fmin(g.lo + (k + 1) * g.width, x + 0.4);
+    if (!(hi > lo)) return x;
+    return lo + (hi - lo) * (0.5 + 0.45 * jitter(i, axis));
 }
 
 static void axis_tics(FILE *s, const char *axis, const cov_var *v, axis_geom g, size_t nbins)
@@ -485,10 +516,11 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
         }
     }
     fprintf(s, "EOD\n$planned%zu << EOD\n", rank);
-    size_t nv = f->graph->n_vars;
+    size_t nv = f->graph->n_vars, n_plan = 0;
     for (size_t i = 0; f->planned != NULL && i < f->n_planned; i++) {
         double x = f->planned[i * nv + p->a], y = f->planned[i * nv + p->b];
         if (!isfinite(x) || !isfinite(y)) continue;
+        n_plan++;
         num(s, place(ga, x, i + 7919, 0));   /* another stream than the runs' */
         fputc(' ', s);
         num(s, place(gb, y, i + 7919, 1));
@@ -498,8 +530,11 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
 
     start_plot(s, PLOT_H);
     char na[NAME_SHOWN + 8], nb[NAME_SHOWN + 8], line[512], line2[256];
-    size_t covered = 0;
-    for (size_t k = 0; k < p->na * p->nb; k++) covered += p->count[k] >= min_runs;
+    size_t covered = 0, few = 0;
+    for (size_t k = 0; k < p->na * p->nb; k++) {
+        covered += p->count[k] >= min_runs;
+        few += p->count[k] > 0 && p->count[k] < min_runs;
+    }
     const char *name_a = var_name(f, p->a, na, sizeof na), *name_b = var_name(f, p->b, nb, sizeof nb);
     snprintf(line, sizeof line, "Thin pair %zu: %s by %s", rank + 1, name_a, name_b);
     snprintf(line2, sizeof line2, "%zu of %zu cells hold at least %zu runs; %zu cells are empty",
@@ -513,25 +548,30 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
     fputs("set style textbox opaque fc rgb '#FFFFFF' noborder margins 1,0.5\n", s);
     char runs_title[128], few_title[128], plan_title[128];
     if (shown_runs < present)
-        snprintf(runs_title, sizeof runs_title, "runs (every %zuth of %zu shown)",
+        snprintf(runs_title, sizeof runs_title, "runs (one in %zu of %zu shown)",
                  (present + MAX_POINTS - 1) / MAX_POINTS, present);
     else
         snprintf(runs_title, sizeof runs_title, "runs in the archive (%zu)", present);
-    snprintf(few_title, sizeof few_title, "fewer than %zu runs", min_runs);
-    snprintf(plan_title, sizeof plan_title, "planned runs (%zu)", f->n_planned);
+    if (few > 0) snprintf(few_title, sizeof few_title, "title 'fewer than %zu runs'", min_runs);
+    else snprintf(few_title, sizeof few_title, "notitle");
+    snprintf(plan_title, sizeof plan_title, "planned runs (%zu)", n_plan);
     /* Dots fade when there are many, so dense regions still show their density. */
     const char *dot = shown_runs > 400 ? "#A01E3F66" : shown_runs > 100 ? "#401E3F66" : C_RUNS;
     char plot[2048];
     int len = snprintf(plot, sizeof plot,
         "plot $cells%zu using ($6==0 ? $1 : NaN):2:3:4 with boxxyerror fs solid 1 border lc rgb '"
-        C_EDGE "' fc rgb '" C_EMPTY "' title 'no runs', \\\n"
+        C_EDGE "' fc rgb '" C_EMPTY "' %s, \\\n"
         "  $cells%zu using ($6==1 ? $1 : NaN):2:3:4 with boxxyerror fs solid 1 border lc rgb '"
-        C_EDGE "' fc rgb '" C_FEW "' title '%s', \\\n"
+        C_EDGE "' fc rgb '" C_FEW "' %s, \\\n"
         "  $cells%zu using ($6==2 ? $1 : NaN):2:3:4 with boxxyerror fs empty border lw 1 lc rgb '"
-        C_EDGE "' notitle, \\\n"
-        "  $runs%zu using 1:2 with points pt 7 ps 0.5 lc rgb '%s' title '%s'",
-        rank, rank, few_title, rank, rank, dot, runs_title);
-    if (f->n_planned > 0)
+        C_EDGE "' notitle",
+        rank, p->n_empty > 0 ? "title 'no runs'" : "notitle", rank, few_title, rank);
+    /* An empty datablock makes gnuplot warn, so the runs and the plan are drawn only when there. */
+    if (shown_runs > 0)
+        len += snprintf(plot + len, sizeof plot - (size_t)len,
+                        ", \\\n  $runs%zu using 1:2 with points pt 7 ps 0.5 lc rgb '%s' title '%s'",
+                        rank, dot, runs_title);
+    if (n_plan > 0)
         len += snprintf(plot + len, sizeof plot - (size_t)len,
                         ", \\\n  $planned%zu using 1:2 with points pt 8 ps 1.3 lw 2 lc rgb '" C_PLANNED
                         "' title '%s'", rank, plan_title);
@@ -603,7 +643,8 @@ static int plot_power(FILE *s, const cov_findings *f, const char *dir)
     rows_title(s, "Power of each testable claim at its effect of interest, lowest first", n, total,
                NULL);
     row_tics(s, f, rows, n, NULL);
-    fputs("set xrange [0:1]\nset xtics 0.1 format '%.1f'\nset grid xtics lc rgb '#DDDDDD'\n", s);
+    /* Room right of 1 for the value printed after each whisker. */
+    fputs("set xrange [0:1.1]\nset xtics 0, 0.1, 1 format '%.1f'\nset grid xtics lc rgb '#DDDDDD'\n", s);
     fputs("set xlabel 'power: the chance the test detects the effect of interest'\n", s);
     fputs("set key below horizontal height 1.5\nset errorbars small\n", s);
     fputs("set arrow 1 from ", s);
@@ -720,20 +761,25 @@ static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
         pick[n++] = rows[r].idx;
     }
     /* The x axis: past the largest finite need, or the current size when none is needed. */
-    double need_max = 0, n_max = 0;
+    double need_max = 0, need_min = INFINITY, n_max = 0;
     for (size_t k = 0; k < n; k++) {
         const cov_assessment *it = &f->assess->items[pick[k]];
         double add = it->runs_needed - des[k].n;
         if (isfinite(add) && add > need_max) need_max = add;
+        if (isfinite(add) && add >= 1 && add < need_min) need_min = add;
         n_max = fmax(n_max, des[k].n);
     }
     double span = need_max > 0 ? ceil(need_max * CURVE_HEADROOM) : fmax(20, n_max);
     if ((double)f->n_planned * 1.1 > span) span = ceil((double)f->n_planned * 1.1);
+    /* When one claim needs hundreds of runs and another tens of thousands, a linear axis squeezes
+     * the first against zero; a log axis of added runs (from 1) shows both. */
+    int log_x = need_max > 0 && isfinite(need_min) && need_max / need_min > CURVE_LOG_RATIO;
     for (size_t k = 0; k < n; k++) {
         fprintf(s, "$curve%zu << EOD\n", k);
         double base = des[k].n, last = -1;
         for (int j = 0; j <= CURVE_STEPS; j++) {
-            double add = round(span * j / CURVE_STEPS);
+            double add = log_x ? round(pow(span, (double)j / CURVE_STEPS))
+                               : round(span * j / CURVE_STEPS);
             if (add == last) continue;
             last = add;
             pw_design d = des[k];
@@ -747,29 +793,39 @@ static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
         }
         fputs("EOD\n", s);
     }
-    fputs("$need << EOD\n", s);
+    /* The runs-needed marks, in rising order; neighbours get their labels above and below the
+     * target line alternately, so close needs stay readable. */
+    row_key need[MAX_CURVES];
+    double need_pw[MAX_CURVES];
+    size_t n_need = 0;
     for (size_t k = 0; k < n; k++) {
         const cov_assessment *it = &f->assess->items[pick[k]];
         double add = it->runs_needed - des[k].n;
         if (!(isfinite(add) && add > 0)) continue;
         pw_design d = des[k];
         d.n = it->runs_needed;
-        double pw;
-        if (pw_power(&d, &pw) != PW_OK) pw = target;
-        num(s, add);
+        if (pw_power(&d, &need_pw[k]) != PW_OK) need_pw[k] = target;
+        need[n_need++] = (row_key){k, add};
+    }
+    qsort(need, n_need, sizeof *need, by_key_up);
+    fputs("$need << EOD\n", s);
+    for (size_t j = 0; j < n_need; j++) {
+        num(s, need[j].key);
         fputc(' ', s);
-        num(s, pw);
-        fputc('\n', s);
+        num(s, need_pw[need[j].idx]);
+        fprintf(s, " %zu\n", j % 2);
     }
     fputs("EOD\n", s);
-    start_plot(s, PLOT_H);
-    set_title(s, "Power of the thinnest claims as runs are added",
+    start_plot(s, CURVES_H);
+    set_title(s, "Power of the lowest-powered claims as runs are added",
               "assuming new runs resemble the current ones; large dots: runs needed for the target");
-    fputs("set xlabel 'runs added to the campaign'\nset ylabel 'power at the effect of interest'\n", s);
+    fprintf(s, "set xlabel 'runs added to the campaign%s'\n", log_x ? " (log scale)" : "");
+    fputs("set ylabel 'power at the effect of interest'\n", s);
+    if (log_x) fputs("set logscale x\nset format x '%g'\nset mxtics 10\n", s);
     fputs("set yrange [0:1.04]\nset ytics 0.1 format '%.1f'\nset grid lc rgb '#E4E4E4'\n", s);
-    fputs("set xrange [0:", s);
+    fprintf(s, "set xrange [%d:", log_x ? 1 : 0);
     num(s, span);
-    fputs("]\nset key below horizontal maxcols 2 height 1\n", s);
+    fputs("]\nset key below vertical maxcols 1 height 1\n", s);
     fputs("set arrow 1 from graph 0, first ", s);
     num(s, target);
     fputs(" to graph 1, first ", s);
@@ -804,16 +860,21 @@ static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
                 curve_dash[k], curve_colour[k]);
         cov_gp_quote(ps, label);
     }
-    fputs(", \\\n  $need using 1:2 with points pt 7 ps 1.8 lc rgb '" C_INK
-          "' title 'runs needed', \\\n"
-          "  $need using 1:2:(sprintf('+%.0f', $1)) with labels offset 0,1.2 font ',10' notitle, \\\n"
-          "  keyentry with lines dt 2 lw 2 lc rgb '" C_INK "' title 'target power'", ps);
+    if (n_need > 0)
+        fputs(", \\\n  $need using 1:2 with points pt 7 ps 1.8 lc rgb '" C_INK
+              "' title 'runs needed', \\\n"
+              "  $need using 1:($3==0 ? $2 : NaN):(sprintf('+%.0f', $1)) with labels offset 0,1.2 "
+              "font ',10' notitle, \\\n"
+              "  $need using 1:($3==1 ? $2 : NaN):(sprintf('+%.0f', $1)) with labels offset 0,-1.2 "
+              "font ',10' notitle",
+              ps);
+    fputs(", \\\n  keyentry with lines dt 2 lw 2 lc rgb '" C_INK "' title 'target power'", ps);
     if (f->n_planned > 0)
         fprintf(ps, ", \\\n  keyentry with lines dt 3 lw 2 lc rgb '" C_PLANNED
                     "' title 'planned runs (%zu)'", f->n_planned);
     fputc('\n', ps);
     int rc = fclose(ps) == 0 ? COV_OK : COV_ENOMEM;
-    if (rc == COV_OK) finish_plot(s, dir, "curves", PLOT_H, plot);
+    if (rc == COV_OK) finish_plot(s, dir, "curves", CURVES_H, plot);
     free(plot);
     free(rows);
     return rc;

@@ -437,6 +437,48 @@ static void test_all(const char *dir, size_t n_planned, const char *what)
              n_planned ? "drawn and named in a legend" : "absent when none are planned");
 }
 
+/* Edge cases that must not make gnuplot warn: every claim ample (no runs needed, so no marks),
+ * no run data at all (nothing to scatter), one claim without an MDE. */
+static void test_quiet_edges(const char *tmp)
+{
+    cov_assessment items[N_CLAIMS];
+    memcpy(items, assess_items, sizeof items);
+    for (size_t k = 0; k < N_CLAIMS; k++) {
+        if (items[k].verdict == COV_BLIND) continue;
+        items[k].verdict = COV_AMPLE;
+        items[k].power = 0.95;
+        items[k].runs_needed = (double)items[k].n - 10;
+        items[k].design.effect *= 4;
+    }
+    items[2].mde = items[2].mde_lo = items[2].mde_hi = NAN;
+    cov_assessments a = assessments;
+    a.items = items;
+    cov_findings f = findings(0);
+    f.assess = &a;
+    f.data = NULL;
+    char dir[1200];
+    snprintf(dir, sizeof dir, "%s/edges", tmp);
+    mkdir(dir, 0700);
+    char *note_text = NULL;
+    size_t note_len = 0;
+    FILE *note = open_memstream(&note_text, &note_len);
+    cov_error err = {{0}, {0}};
+    int rc = cov_plot_all(&f, dir, note, &err);
+    fclose(note);
+    gsl_test_int(rc, COV_OK, "edge cases: cov_plot_all succeeds (%s)", err.msg);
+    gsl_test(note_len != 0, "edge cases: gnuplot printed no warning (%s)", note_text ? note_text : "");
+    free(note_text);
+    for (size_t i = 0; i < N_EXPECTED; i++) {
+        char path[1300];
+        snprintf(path, sizeof path, "%s/%s.svg", dir, expected[i]);
+        char *svg = slurp(path, NULL);
+        gsl_test(!is_svg(svg), "edge cases: %s.svg is well formed", expected[i]);
+        if (svg && strcmp(expected[i], "mde") == 0)
+            gsl_test(strstr(svg, "(no MDE)") == NULL, "edge cases: a claim without MDE says so");
+        free(svg);
+    }
+}
+
 static void test_no_gnuplot(const char *tmp)
 {
     char empty[1024], out[1024], fake[1024], noexec[1024];
@@ -526,6 +568,7 @@ int main(void)
         snprintf(dir, sizeof dir, "%s/planned", tmp);
         mkdir(dir, 0700);
         test_all(dir, 3, "with a plan");
+        test_quiet_edges(tmp);
     }
     test_no_gnuplot(tmp);
     if (getenv("SHOAL_KEEP_PLOTS") == NULL) {
