@@ -1,0 +1,98 @@
+#!/bin/sh
+# The demo report in a real browser: headless Chromium (Debian's chromium) loads index.html; every
+# image must load, the claims table must be there and sort, and the screenshot must not be blank.
+# Two negative controls show the checks can fail: a page with a broken image, and a blank page.
+# SKIP only when chromium is missing and cannot be installed. See LICENSE.
+: "${SHOAL:=build/shoal}" "${PYTHON:=/usr/bin/python3}"
+fails=0
+ok() { echo "PASS: $1"; }
+bad() { echo "FAIL: $1"; fails=$((fails + 1)); }
+here=$(pwd)
+tmp=$(mktemp -d) || exit 1
+trap 'rm -rf "$tmp"' EXIT
+
+find_browser() { command -v chromium || command -v chromium-browser; }
+browser=$(find_browser)
+if [ -z "$browser" ]; then
+  if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
+    export DEBIAN_FRONTEND=noninteractive
+    apt-get install -y --no-install-recommends chromium >"$tmp/apt.log" 2>&1 ||
+      { apt-get update >>"$tmp/apt.log" 2>&1 &&
+        apt-get install -y --no-install-recommends chromium >>"$tmp/apt.log" 2>&1; }
+    browser=$(find_browser)
+  fi
+  if [ -z "$browser" ]; then
+    echo "SKIP: chromium is not installed and could not be installed here (needs root and a" \
+         "reachable Debian mirror: apt-get install chromium); the browser check did not run"
+    exit 0
+  fi
+fi
+
+# The machines here have no internet: everything that would reach out is switched off, and each
+# run gets a new, empty profile.
+run_browser() {
+  profile=$(mktemp -d "$tmp/profile.XXXXXX")
+  timeout 180 "$browser" --headless --no-sandbox --disable-gpu --disable-quic --no-first-run \
+    --disable-background-networking --disable-component-update --disable-sync \
+    --user-data-dir="$profile" --hide-scrollbars --window-size=1200,1600 \
+    --virtual-time-budget=5000 "$@" 2>>"$tmp/chromium.log"
+}
+
+# Inject the probe (tests/browser/probe.js) before </body> of a copy of a page.
+with_probe() {
+  awk -v probe="$here/tests/browser/probe.js" \
+    '/<\/body>/ { print "<script>"; while ((getline l < probe) > 0) print l; print "</script>" } { print }' \
+    "$1" >"$2"
+}
+
+"$SHOAL" import fixtures/demo/triage-runs.csv --archive "$tmp/demo.db" >/dev/null 2>&1
+"$SHOAL" survey fixtures/demo/triage.graph "$tmp/demo.db" -o "$tmp/report" >/dev/null 2>&1
+rc=$?
+if [ "$rc" -eq 1 ] && [ -s "$tmp/report/index.html" ]; then ok "the demo survey wrote its report (exit 1)"
+else bad "the demo survey exited $rc or wrote no index.html"; fi
+
+# 1. The page renders: images decoded, inline SVG laid out, claims table present and sortable.
+with_probe "$tmp/report/index.html" "$tmp/report/check.html"
+run_browser --dump-dom "file://$tmp/report/check.html" >"$tmp/dom.html"
+# The marker element, not the probe's own source text, which is in the DOM too.
+marker=$(sed -n 's/.*<pre id="browser-check">\([^<]*\)<\/pre>.*/\1/p' "$tmp/dom.html" | head -1)
+case $marker in
+BROWSER-CHECK-OK*) ok "chromium rendered the report: $marker" ;;
+*) bad "chromium's check of the report: ${marker:-no marker in the DOM ($(tail -3 "$tmp/chromium.log"))}" ;;
+esac
+imgs=$(echo "$marker" | sed -n 's/.*images=\([0-9]*\).*/\1/p')
+files=$(ls "$tmp/report" | grep -c '\.svg$')
+if [ -n "$imgs" ] && [ "$imgs" -eq "$files" ] && [ "$imgs" -gt 0 ]; then
+  ok "every plot file is an image in the page ($imgs of $files)"
+else bad "images in the page ($imgs) differ from the SVG plot files ($files)"; fi
+if grep -q 'id="claims-table"' "$tmp/dom.html" && echo "$marker" | grep -q 'rows=[1-9]'; then
+  ok "the claims table is in the rendered DOM with rows"
+else bad "no claims table with rows in the rendered DOM"; fi
+
+# Negative control: the same probe must notice a broken image.
+printf '<!DOCTYPE html><html><body><table id="claims-table"><thead><tr><th>power</th></tr></thead><tbody><tr><td data-v="1">1</td></tr></tbody></table><img src="data:image/svg+xml;base64,AAAA"></body></html>\n' >"$tmp/broken.html"
+with_probe "$tmp/broken.html" "$tmp/broken-check.html"
+run_browser --dump-dom "file://$tmp/broken-check.html" >"$tmp/dom2.html"
+if grep -q '<pre id="browser-check">BROWSER-CHECK-FAIL image 1 did not load' "$tmp/dom2.html"; then
+  ok "negative control: the probe reports a broken image"
+else bad "negative control: the probe missed a broken image: $(grep -o 'BROWSER-CHECK[^<]*' "$tmp/dom2.html")"; fi
+
+# 2. The screenshot is not blank: many colours, and plenty of pixels off the background
+#    (tests/browser/pngstats.py decodes the PNG with zlib alone).
+run_browser --screenshot="$tmp/shot.png" "file://$tmp/report/index.html" >/dev/null
+set -- $("$PYTHON" tests/browser/pngstats.py "$tmp/shot.png" 2>>"$tmp/chromium.log")
+if [ "$#" -eq 4 ] && [ "$1" -eq 1200 ] && [ "$2" -eq 1600 ]; then ok "the screenshot is 1200 x 1600"
+else bad "the screenshot could not be read or has another size: $*"; fi
+# A rendered report shows text in several colours, tinted panels and anti-aliasing: hundreds of
+# distinct colours and well over 2% of pixels off the background. A blank page has 1 colour, 0%.
+if [ "$#" -eq 4 ] && [ "$3" -ge 20 ] && awk -v s="$4" 'BEGIN { exit !(s > 0.02) }'; then
+  ok "the screenshot is not blank ($3 colours, share off the background $4)"
+else bad "the screenshot looks blank: $*"; fi
+printf '<!DOCTYPE html><html><body style="background:#fff"></body></html>\n' >"$tmp/blank.html"
+run_browser --screenshot="$tmp/blank.png" "file://$tmp/blank.html" >/dev/null
+set -- $("$PYTHON" tests/browser/pngstats.py "$tmp/blank.png" 2>>"$tmp/chromium.log")
+if [ "$#" -eq 4 ] && [ "$3" -lt 20 ] && awk -v s="$4" 'BEGIN { exit !(s <= 0.02) }'; then
+  ok "negative control: a blank page is judged blank ($3 colour, share $4)"
+else bad "negative control: the blank page was not judged blank: $*"; fi
+
+[ "$fails" -eq 0 ]
