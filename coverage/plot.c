@@ -646,7 +646,7 @@ static int plot_power(FILE *s, const cov_findings *f, const char *dir)
     /* Room right of 1 for the value printed after each whisker. */
     fputs("set xrange [0:1.1]\nset xtics 0, 0.1, 1 format '%.1f'\nset grid xtics lc rgb '#DDDDDD'\n", s);
     fputs("set xlabel 'power: the chance the test detects the effect of interest'\n", s);
-    fputs("set key below horizontal height 1.5\nset errorbars small\n", s);
+    fputs("set key below horizontal maxcols 2 height 1.5\nset errorbars small\n", s);
     fputs("set arrow 1 from ", s);
     num(s, target);
     fputs(", graph 0 to ", s);
@@ -715,13 +715,17 @@ static int plot_mde(FILE *s, const cov_findings *f, const char *dir)
     fputc(':', s);
     num(s, hi * 1.6);
     fputs("]\nset grid xtics lc rgb '#E4E4E4'\nset xtics (", s);
-    /* Tics at 1, 2 and 5 times each power of ten in range: a log axis labelled only at decades is
-     * hard to read off. */
+    /* Tics at 1, 2 and 5 times each power of ten over a short range (a log axis labelled only at
+     * decades is hard to read off), at decades over a longer one, and at every other decade beyond
+     * that, so labels never run into each other at 900 px. */
+    double x0 = lo / 1.6, x1 = hi * 1.6, decades = log10(x1 / x0);
+    int per_decade = decades <= 2.5 ? 3 : 1;
+    double step = decades > 8 ? 100 : 10;
     int first = 1;
-    for (double dec = pow(10, floor(log10(lo / 1.6))); dec <= hi * 1.6; dec *= 10)
-        for (int m = 0; m < 3; m++) {
+    for (double dec = pow(10, floor(log10(x0))); dec <= x1; dec *= step)
+        for (int m = 0; m < per_decade; m++) {
             double t = dec * (m == 0 ? 1 : m == 1 ? 2 : 5);
-            if (t < lo / 1.6 || t > hi * 1.6) continue;
+            if (t < x0 || t > x1) continue;
             fputs(first ? "" : ", ", s);
             fprintf(s, "%.6g", t);
             first = 0;
