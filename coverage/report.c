@@ -481,6 +481,7 @@ static const char html_style[] =
     "figure{margin:1em 0;background:#fff;border:1px solid #e1e3dc;padding:.6em}figure img{"
     "max-width:100%;height:auto;display:block}figcaption{color:#4a5058;margin-top:.3em}\n"
     ".note{background:#f3f1e8;border:1px dashed #b9b39b;padding:.5em .9em}\n"
+    "#claims-table td:last-child{min-width:17em}td small{color:#6a7079}\n"
     "ul.cautions li{margin:.35em 0}\n";
 
 /* Sorts the claims table by the clicked column: numbers by data-v, text by its content. */
@@ -544,10 +545,11 @@ static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
         html_num_cell(out, fx, buf);
         num_text(a ? (double)a->n : NAN, "%.0f", buf, sizeof buf);
         html_num_cell(out, a ? (double)a->n : NAN, buf);
-        if (a && isfinite(a->power_lo) && isfinite(a->power_hi))
-            snprintf(buf, sizeof buf, "%.2f (%.2f to %.2f)", a->power, a->power_lo, a->power_hi);
-        else num_text(a ? a->power : NAN, "%.2f", buf, sizeof buf);
-        html_num_cell(out, a ? a->power : NAN, buf);
+        num_text(a ? a->power : NAN, "%.2f", buf, sizeof buf);
+        if (a && isfinite(a->power) && isfinite(a->power_lo) && isfinite(a->power_hi))
+            fprintf(out, "<td class=\"num\" data-v=\"%.9g\">%s<br><small>%.2f to %.2f</small></td>",
+                    a->power, buf, a->power_lo, a->power_hi);
+        else html_num_cell(out, a ? a->power : NAN, buf);
         num_text(a ? a->mde : NAN, "%.4g", buf, sizeof buf);
         html_num_cell(out, a ? a->mde : NAN, buf);
         num_text(a ? a->runs_needed : NAN, "%.0f", buf, sizeof buf);
@@ -671,7 +673,11 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
         html_text(out, info->history_path);
         fputs("</code>.</p>\n", out);
     }
-    double max_runs = 1, max_claims = (double)(f->claims->n ? f->claims->n : 1);
+    /* The vertical scale ends at the testable claims: the most that can ever be ample. */
+    long long count[3];
+    count_verdicts(f, count);
+    double max_runs = 1, max_claims = (double)(count[COV_AMPLE] + count[COV_THIN]);
+    if (max_claims < 1) max_claims = 1;
     for (size_t r = 0; r < info->n_rounds; r++)
         if ((double)info->rounds[r].n_runs > max_runs) max_runs = (double)info->rounds[r].n_runs;
     const double w = 520, h = 230, left = 50, right = 20, top = 15, bottom = 40;
@@ -686,12 +692,17 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
                  "transform=\"rotate(-90 14 %.0f)\">ample claims</text>\n",
             (left + w - right) / 2, h - 6, (top + h - bottom) / 2, (top + h - bottom) / 2);
     for (int t = 0; t <= 2; t++) {
-        double xr = max_runs * t / 2, yc = max_claims * t / 2;
-        double px = left + (w - left - right) * t / 2, py = h - bottom - (h - top - bottom) * t / 2;
+        double xr = max_runs * t / 2, yc = floor(max_claims * t / 2);
+        double px = left + (w - left - right) * t / 2;
+        double py = h - bottom - (h - top - bottom) * yc / max_claims;
         fprintf(out, "<text x=\"%.1f\" y=\"%.0f\" font-size=\"11\" text-anchor=\"middle\">%.0f"
-                     "</text><text x=\"%.0f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">%.3g"
+                     "</text><text x=\"%.0f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">%.0f"
                      "</text>\n", px, h - bottom + 16, xr, left - 6, py + 4, yc);
     }
+    fprintf(out, "<line x1=\"%.0f\" y1=\"%.0f\" x2=\"%.0f\" y2=\"%.0f\" stroke=\"#b35c0c\" "
+                 "stroke-dasharray=\"5 4\"/><text x=\"%.0f\" y=\"%.0f\" font-size=\"11\" "
+                 "text-anchor=\"end\" fill=\"#b35c0c\">all %.0f testable claims</text>\n",
+            left, top, w - right, top, w - right, top + 13, max_claims);
     fputs("<polyline fill=\"none\" stroke=\"#1f6e99\" stroke-width=\"2\" points=\"", out);
     for (size_t r = 0; r < info->n_rounds; r++)
         fprintf(out, "%.1f,%.1f ", left + (w - left - right) * info->rounds[r].n_runs / max_runs,
