@@ -304,14 +304,16 @@ static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, do
     a->power_lo = a->power_hi = a->power;
     a->mde_lo = a->mde_hi = a->mde;
     if (d->test == PW_TEST_TWO_PROP || !(sigma_lo > 0) || !isfinite(sigma_hi)) return PW_OK;
-    /* The upper sigma gives the low power and the high MDE, and the other way round. */
-    double p, mde;
+    /* The upper sigma gives the low power and the high MDE, and the other way round. The t, F
+     * and TOST powers depend on effect and sigma only through effect / sigma, so the MDE scales
+     * with sigma exactly. */
+    double p;
     e.sigma = sigma_hi;
     if (pw_power(&e, &p) == PW_OK) a->power_lo = p;
-    if (pw_mde(&e, &mde) == PW_OK) a->mde_hi = mde;
     e.sigma = sigma_lo;
     if (pw_power(&e, &p) == PW_OK) a->power_hi = p;
-    if (pw_mde(&e, &mde) == PW_OK) a->mde_lo = mde;
+    a->mde_lo = a->mde * sigma_lo / d->sigma;
+    a->mde_hi = a->mde * sigma_hi / d->sigma;
     return PW_OK;
 }
 

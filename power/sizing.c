@@ -4,15 +4,23 @@
 
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_roots.h>
 
 #include "power/power.h"
 
-/* Brent's method stops when the bracket is this small relative to the root: far below the
+/* The MDE search stops when the bracket is this small relative to the root: far below the
  * precision any reported MDE is printed with, and well above the resolution of the power curve. */
 #define MDE_REL_TOL 1e-10
-#define MDE_MAX_ITER 200          /* Brent converges superlinearly; 200 steps is never reached */
-#define BRACKET_MAX_DOUBLINGS 200 /* 2^200 times the first guess covers any finite effect */
+#define ROOT_MAX_ITER 200         /* the root search converges superlinearly; 200 steps is never reached */
+/* Runs needed: the search on continuous n stops within this many runs of the root; the integer
+ * answer is then settled by checking its neighbours. */
+#define RUNS_ABS_TOL 0.25
+/* The bracket around a first guess grows by this factor per step; 200 steps of 1.5 cover any
+ * finite effect or run count from any positive guess. */
+#define BRACKET_GROWTH 1.5
+#define BRACKET_MAX_STEPS 200
+/* The first bracket: Bloom's normal-theory guess is within a few percent of the exact root once
+ * df exceeds about 20, so +-6% usually brackets it at once. */
+#define BRACKET_FIRST 1.06
 
 /* Treatment columns the test uses: L - 1 for a level set, otherwise 1. */
 static double treat_df(const pw_design *d)
@@ -56,6 +64,17 @@ int pw_f2_power(double f2, double u, double v, double alpha, double *power)
     return PW_OK;
 }
 
+/* Whether P(T' < -tc) can exceed FAR_TAIL_NEGLIGIBLE for T' = (Z + ncp) / S, S = sqrt(V / df),
+ * ncp >= 0. For any s0, P(Z + ncp < -tc S) <= P(S < s0) + Phi(-ncp - tc s0); with s0 = 1/2 both
+ * terms are cheap, and when their sum is negligible the costly far-tail series is skipped. */
+#define FAR_TAIL_NEGLIGIBLE 1e-13   /* four orders below the 1e-9 accuracy of the CDFs */
+static int far_tail_matters(double tc, double df, double ncp)
+{
+    if (ncp < 0) return 1;
+    double bound = gsl_cdf_chisq_P(0.25 * df, df) + gsl_cdf_ugaussian_P(-ncp - 0.5 * tc);
+    return !(bound < FAR_TAIL_NEGLIGIBLE);
+}
+
 static double clip_prop(double p)
 {
     return p < PW_PROP_EPS ? PW_PROP_EPS : (p > 1 - PW_PROP_EPS ? 1 - PW_PROP_EPS : p);
@@ -75,7 +94,7 @@ int pw_power(const pw_design *d, double *power)
         if (!isfinite(tc)) return PW_ENOCONV;
         if ((rc = pw_nct_cdf(tc, df, ncp, &lo, &up)) != PW_OK) return rc;
         double p = up;
-        if (d->sides == 2) {
+        if (d->sides == 2 && far_tail_matters(tc, df, ncp)) {
             /* The far tail: a significant estimate of the wrong sign also rejects (as pwr and
              * statsmodels count it). */
             if ((rc = pw_nct_cdf(-tc, df, ncp, &lo, &up)) != PW_OK) return rc;
@@ -120,30 +139,125 @@ int pw_power(const pw_design *d, double *power)
     return PW_EDOM;
 }
 
-/* Power minus target as a function of the effect, for Brent's method. */
+/* A function of one variable for Brent's method: power minus target at an effect or a run count. */
 typedef struct {
     pw_design d;
+    int by_runs;     /* 1: the variable is n; 0: the effect */
     int status;
-} mde_ctx;
+} gap_ctx;
 
-static double power_gap(double effect, void *vp)
+static double power_gap(double v, void *vp)
 {
-    mde_ctx *c = vp;
+    gap_ctx *c = vp;
     double p = 0;
-    c->d.effect = effect;
+    if (c->by_runs) c->d.n = v;
+    else c->d.effect = v;
     int rc = pw_power(&c->d, &p);
+    if (rc == PW_EFEW && c->by_runs) rc = PW_OK;   /* too few runs: power 0 */
     if (rc != PW_OK && c->status == PW_OK) c->status = rc;
     return p - c->d.target;
 }
 
-/* A first guess of the MDE: Bloom's (1995) (z_{1-a/s} + z_{power}) SE, in the normal limit. */
-static double mde_guess(const pw_design *d)
+/* The normal-theory multiplier of Bloom (1995): (z_{1-a/s} + z_{power}) standard errors; for TOST
+ * the margin needs z_{1-a} + z_{(1+power)/2} (both one-sided tests must pass). */
+static double bloom_multiplier(const pw_design *d)
 {
-    double z = gsl_cdf_ugaussian_Qinv(d->alpha / (d->test == PW_TEST_TOST ? 1 : d->sides)) +
-               gsl_cdf_ugaussian_Pinv(d->target);
-    if (d->test == PW_TEST_TWO_PROP) return fmin(0.5, z / sqrt(d->n + 1.0));
-    double se = d->sigma / (d->sd_x_resid * sqrt(d->n > 1 ? d->n : 1.0));
-    return z * se > 0 ? z * se : 1.0;
+    if (d->test == PW_TEST_TOST)
+        return gsl_cdf_ugaussian_Qinv(d->alpha) + gsl_cdf_ugaussian_Pinv((1 + d->target) / 2);
+    double z = gsl_cdf_ugaussian_Qinv(d->alpha / d->sides) + gsl_cdf_ugaussian_Pinv(d->target);
+    /* The F test of L - 1 contrasts needs a larger noncentrality; sqrt(L - 1) is a rough guess
+     * that the bracket search corrects. */
+    if (d->test == PW_TEST_LEVELS_F) z *= sqrt(d->n_levels - 1);
+    return z;
+}
+
+/* The spread per run that turns an effect into a standardised shift: shift = effect * k sqrt(n). */
+static double shift_per_effect(const pw_design *d)
+{
+    switch (d->test) {
+    case PW_TEST_TWO_PROP: {
+        double sp = d->sd_x_resid > 0 ? d->sd_x_resid : sqrt(d->share_treated *
+                                                            (1 - d->share_treated));
+        /* dh/dp = 1 / sqrt(p (1 - p)) near the base rate. */
+        return sp / sqrt(d->p_base * (1 - d->p_base));
+    }
+    case PW_TEST_LEVELS_F: {
+        double unit = d->ncp_per_run > 0 ? d->ncp_per_run : 1.0 / (2.0 * d->n_levels);
+        return sqrt(unit) / d->sigma;
+    }
+    default: return d->sd_x_resid / d->sigma;
+    }
+}
+
+/* The Illinois variant of regula falsi (Dowell & Jarratt 1971) on gap over [lo, hi], whose end
+ * values ga < 0 <= gb are known: superlinear (order about 1.44) on the smooth, monotone power
+ * curve, and no evaluation is repeated. Stops when a step moves less than abs_tol + rel_tol |x|. */
+static int illinois(gap_ctx *c, double a, double ga, double b, double gb, double abs_tol,
+                    double rel_tol, double *root)
+{
+    int side = 0;
+    for (int it = 0; it < ROOT_MAX_ITER; it++) {
+        double x = b - gb * (b - a) / (gb - ga);
+        if (!(x > fmin(a, b) && x < fmax(a, b))) x = 0.5 * (a + b);
+        double gx = power_gap(x, c);
+        if (c->status != PW_OK) return c->status;
+        double tol = abs_tol + rel_tol * fabs(x);
+        if (gx == 0 || fabs(b - a) <= tol) {
+            *root = x;
+            return PW_OK;
+        }
+        if ((gx < 0) == (gb < 0)) {
+            /* x replaces b; a stays: halve its value when it stays twice (the Illinois step). */
+            b = x;
+            gb = gx;
+            if (side == -1) ga /= 2;
+            side = -1;
+        } else {
+            a = b;
+            ga = gb;
+            b = x;
+            gb = gx;
+            side = 1;
+        }
+        if (fabs(b - a) <= tol) {
+            *root = x;
+            return PW_OK;
+        }
+    }
+    return PW_ENOCONV;
+}
+
+/* Grow [lo, hi] around a guess until gap changes sign, within [floor_, cap]; the gaps at the ends
+ * are returned too. Returns 1 when bracketed, 0 when even cap falls short, -1 when the floor
+ * already reaches the target. */
+static int bracket(gap_ctx *c, double guess, double floor_, double cap, double *lo, double *glo,
+                   double *hi, double *ghi)
+{
+    double a = fmax(floor_, fmin(guess / BRACKET_FIRST, cap));
+    double b = fmin(cap, guess * BRACKET_FIRST);
+    if (b <= a) b = fmin(cap, a * BRACKET_GROWTH + 1);
+    double ga = power_gap(a, c);
+    for (int i = 0; ga >= 0 && i < BRACKET_MAX_STEPS; i++) {
+        if (a <= floor_) return -1;
+        b = a;
+        a = fmax(floor_, a / BRACKET_GROWTH);
+        ga = power_gap(a, c);
+    }
+    if (ga >= 0) return -1;
+    double gb = power_gap(b, c);
+    for (int i = 0; gb < 0 && i < BRACKET_MAX_STEPS; i++) {
+        if (b >= cap) return 0;
+        a = b;
+        ga = gb;
+        b = fmin(cap, b * BRACKET_GROWTH);
+        gb = power_gap(b, c);
+    }
+    if (gb < 0) return 0;
+    *lo = a;
+    *glo = ga;
+    *hi = b;
+    *ghi = gb;
+    return 1;
 }
 
 int pw_mde(const pw_design *d, double *mde)
@@ -151,51 +265,24 @@ int pw_mde(const pw_design *d, double *mde)
     int rc = check_design(d);
     if (rc != PW_OK) return rc;
     if (!(d->target > 0 && d->target < 1)) return PW_EDOM;
-    mde_ctx c = {*d, PW_OK};
-    double lo = 0.0, hi = mde_guess(d);
+    gap_ctx c = {*d, 0, PW_OK};
     /* The largest difference two proportions can show: beyond it both are clipped. */
     double cap = d->test == PW_TEST_TWO_PROP ? 2 * fmax(d->p_base, 1 - d->p_base) : INFINITY;
-    if (hi > cap) hi = cap;
-    double g0 = power_gap(lo, &c);
+    double k = shift_per_effect(d) * sqrt(d->n > 1 ? d->n : 1.0);
+    double guess = k > 0 ? bloom_multiplier(d) / k : 1.0;
+    if (!(guess > 0 && isfinite(guess))) guess = 1.0;
+    double lo, hi, glo, ghi;
+    int b = bracket(&c, guess, 0.0, cap, &lo, &glo, &hi, &ghi);
     if (c.status != PW_OK) return c.status;
-    if (g0 >= 0) {   /* the target is at or below the size of the test */
+    if (b < 0) {   /* the target is at or below the size of the test */
         *mde = 0;
         return PW_OK;
     }
-    double ghi = power_gap(hi, &c);
-    for (int i = 0; ghi < 0 && i < BRACKET_MAX_DOUBLINGS; i++) {
-        if (c.status != PW_OK) return c.status;
-        if (hi >= cap) {
-            *mde = INFINITY;
-            return PW_OK;
-        }
-        lo = hi;
-        hi = fmin(2 * hi, cap);
-        ghi = power_gap(hi, &c);
+    if (b == 0) {
+        *mde = INFINITY;
+        return PW_OK;
     }
-    if (c.status != PW_OK) return c.status;
-    if (ghi < 0) return PW_ENOCONV;
-
-    gsl_function fn = {power_gap, &c};
-    gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-    if (s == NULL) return PW_ENOMEM;
-    int status = gsl_root_fsolver_set(s, &fn, lo, hi);
-    double root = NAN;
-    for (int it = 0; status == GSL_SUCCESS && it < MDE_MAX_ITER; it++) {
-        status = gsl_root_fsolver_iterate(s);
-        if (status != GSL_SUCCESS) break;
-        root = gsl_root_fsolver_root(s);
-        double a = gsl_root_fsolver_x_lower(s), b = gsl_root_fsolver_x_upper(s);
-        status = gsl_root_test_interval(a, b, 0.0, MDE_REL_TOL);
-        if (status == GSL_SUCCESS) break;
-        if (status == GSL_CONTINUE) status = GSL_SUCCESS;
-        if (it == MDE_MAX_ITER - 1) status = GSL_EMAXITER;
-    }
-    gsl_root_fsolver_free(s);
-    if (c.status != PW_OK) return c.status;
-    if (status != GSL_SUCCESS || !isfinite(root)) return PW_ENOCONV;
-    *mde = root;
-    return PW_OK;
+    return illinois(&c, lo, glo, hi, ghi, 0.0, MDE_REL_TOL, mde);
 }
 
 /* Power at n runs, or 0 where n leaves no degrees of freedom. */
@@ -215,34 +302,41 @@ int pw_runs_needed(const pw_design *d, double *runs)
 {
     int rc = check_design(d);
     if (rc != PW_OK) return rc;
-    if (!(d->target > 0 && d->target < 1)) return PW_EDOM;
+    if (!(d->target > 0 && d->target < 1) || !(d->effect > 0)) return PW_EDOM;
     /* The fewest runs that leave one residual degree of freedom. */
-    double lo = d->test == PW_TEST_TWO_PROP ? 1.0 : d->n_params + treat_df(d) + 1.0;
-    double p;
-    if ((rc = power_at(d, lo, &p)) != PW_OK) return rc;
-    if (p >= d->target) {
-        *runs = lo;
+    double n_min = d->test == PW_TEST_TWO_PROP ? 1.0 : d->n_params + treat_df(d) + 1.0;
+    gap_ctx c = {*d, 1, PW_OK};
+    /* Normal-theory guess: the shift effect k sqrt(n) reaches Bloom's multiplier. */
+    double k = shift_per_effect(d) * d->effect;
+    double guess = k > 0 ? pow(bloom_multiplier(d) / k, 2) : n_min;
+    if (!(guess >= n_min && isfinite(guess))) guess = n_min;
+    if (guess > PW_MAX_RUNS) guess = PW_MAX_RUNS;
+    double lo, hi, glo, ghi, root;
+    int b = bracket(&c, guess, n_min, PW_MAX_RUNS, &lo, &glo, &hi, &ghi);
+    if (c.status != PW_OK) return c.status;
+    if (b < 0) {
+        *runs = n_min;
         return PW_OK;
     }
-    /* Doubling search for a run count that reaches the target, then bisection on integers. The
-     * power of every test here rises with n at a fixed effect and spread. */
-    double hi = lo;
+    if (b == 0) {
+        *runs = INFINITY;
+        return PW_OK;
+    }
+    if ((rc = illinois(&c, lo, glo, hi, ghi, RUNS_ABS_TOL, 0.0, &root)) != PW_OK) return rc;
+    /* Settle the integer: the smallest whole n at or above the target. The power of every test
+     * here rises with n at a fixed effect and spread, near the target at least. */
+    double r = fmax(n_min, ceil(root)), p;
+    if ((rc = power_at(d, r, &p)) != PW_OK) return rc;
+    while (p < d->target && r < PW_MAX_RUNS) {
+        r += 1;
+        if ((rc = power_at(d, r, &p)) != PW_OK) return rc;
+    }
     for (;;) {
-        hi = hi * 2 > PW_MAX_RUNS ? PW_MAX_RUNS : hi * 2;
-        if ((rc = power_at(d, hi, &p)) != PW_OK) return rc;
-        if (p >= d->target) break;
-        if (hi >= PW_MAX_RUNS) {
-            *runs = INFINITY;
-            return PW_OK;
-        }
-        lo = hi;
+        if (r - 1 < n_min) break;
+        if ((rc = power_at(d, r - 1, &p)) != PW_OK) return rc;
+        if (p < d->target) break;
+        r -= 1;
     }
-    while (hi - lo > 1) {
-        double mid = floor((lo + hi) / 2);
-        if ((rc = power_at(d, mid, &p)) != PW_OK) return rc;
-        if (p >= d->target) hi = mid;
-        else lo = mid;
-    }
-    *runs = hi;
+    *runs = r;
     return PW_OK;
 }

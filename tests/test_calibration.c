@@ -1,0 +1,214 @@
+/* Calibration: predicted power against the rejection rate over simulated campaigns.
+ * See LICENSE. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_randist.h>
+#include <gsl/gsl_rng.h>
+#include <gsl/gsl_test.h>
+
+#include "coverage/internal.h"
+
+/* Campaigns simulated from an invented linear model whose true effects equal the effects of
+ * interest (absence: true effect 0). For each claim kind the mean predicted power over the
+ * campaigns must match the share of campaigns in which the test rejects, within 3 Monte Carlo
+ * standard errors of the difference, sqrt((p (1 - p) + var(predicted)) / R): a false alarm rate
+ * of about 0.27% per kind when the formulas are right. */
+#define CAMPAIGNS 2000          /* SHOAL_SLOW=1: 20000 */
+#define RUNS 120                /* runs per campaign */
+#define SEED 20261202UL
+#define ALPHA 0.05
+#define N_KINDS 5
+
+enum { V_X, V_S, V_B, V_L, V_Z, V_Y1, V_Y2, V_Y3, V_Y4, V_Y5, N_VARS };
+
+static const char *const kind_name[N_KINDS] = {
+    "numeric treatment, coefficient t", "bool treatment, two-sample t", "level set, F test",
+    "bool outcome, two proportions", "absence, TOST"};
+
+/* True effects: chosen so that power sits near 0.5-0.8, where the rate is most informative. */
+static const double effect[N_KINDS] = {0.8, 0.45, 0.63, 0.22, 0.75};
+
+typedef struct {
+    cov_graph g;
+    cov_var vars[N_VARS];
+    cov_claim items[N_KINDS];
+    size_t cond_s;
+    cov_claims cl;
+    cov_data d;
+    double *col[N_VARS];
+    size_t miss[N_VARS];
+    char *levels[3];
+} campaign;
+
+static void campaign_init(campaign *c)
+{
+    static const char *const names[N_VARS] = {"x", "s", "b", "l", "z", "y1", "y2", "y3", "y4",
+                                              "y5"};
+    static char la[] = "a", lb[] = "b", lc[] = "c";
+    memset(c, 0, sizeof *c);
+    c->levels[0] = la;
+    c->levels[1] = lb;
+    c->levels[2] = lc;
+    c->g.path = "invented-calibration.graph";
+    c->g.vars = c->vars;
+    c->g.n_vars = N_VARS;
+    for (int v = 0; v < N_VARS; v++) {
+        cov_var *x = &c->vars[v];
+        x->name = (char *)names[v];
+        x->role = v < V_Y1 ? COV_INPUT : COV_OUTPUT;
+        x->type = COV_REAL;
+        x->lo = 0;
+        x->hi = 1;
+        x->noise_sd = NAN;
+        c->col[v] = malloc(RUNS * sizeof(double));
+    }
+    c->vars[V_B].type = c->vars[V_Y4].type = COV_BOOL;
+    c->vars[V_L].type = COV_LEVELS;
+    c->vars[V_L].levels = c->levels;
+    c->vars[V_L].n_levels = 3;
+    c->cond_s = V_S;
+    size_t pairs[N_KINDS][2] = {{V_X, V_Y1}, {V_B, V_Y2}, {V_L, V_Y3}, {V_B, V_Y4}, {V_Z, V_Y5}};
+    for (int k = 0; k < N_KINDS; k++) {
+        cov_claim *cl = &c->items[k];
+        cl->kind = k == 4 ? COV_CLAIM_ABSENCE : COV_CLAIM_EFFECT;
+        cl->treatment = pairs[k][0];
+        cl->outcome = pairs[k][1];
+        cl->cond = k == 0 ? &c->cond_s : NULL;
+        cl->n_cond = k == 0;
+        cl->effect.value = effect[k];
+        cl->effect.unit = COV_UNIT_RAW;
+        cl->status = COV_TESTABLE;
+    }
+    c->cl.items = c->items;
+    c->cl.n = N_KINDS;
+    c->d.n_runs = RUNS;
+    c->d.n_vars = N_VARS;
+    c->d.col = c->col;
+    c->d.n_missing = c->miss;
+}
+
+static void campaign_free(campaign *c)
+{
+    for (int v = 0; v < N_VARS; v++) free(c->col[v]);
+}
+
+/* One campaign from the invented model. */
+static void simulate(campaign *c, gsl_rng *r)
+{
+    for (size_t i = 0; i < RUNS; i++) {
+        double s = gsl_rng_uniform(r), x = gsl_rng_uniform(r) + 0.5 * s;
+        double b = gsl_rng_uniform(r) < 0.5, l = (double)(i % 3), z = gsl_rng_uniform(r);
+        /* Level means in the least favourable pattern: a at -e/2, b at +e/2, c at the midpoint. */
+        double lmean = l == 0 ? -effect[2] / 2 : (l == 1 ? effect[2] / 2 : 0);
+        c->col[V_X][i] = x;
+        c->col[V_S][i] = s;
+        c->col[V_B][i] = b;
+        c->col[V_L][i] = l;
+        c->col[V_Z][i] = z;
+        c->col[V_Y1][i] = 0.3 * s + effect[0] * x + gsl_ran_gaussian(r, 1);
+        c->col[V_Y2][i] = effect[1] * b + gsl_ran_gaussian(r, 1);
+        c->col[V_Y3][i] = lmean + gsl_ran_gaussian(r, 1);
+        c->col[V_Y4][i] = gsl_rng_uniform(r) < 0.5 + (b - 0.5) * effect[3];
+        c->col[V_Y5][i] = gsl_ran_gaussian(r, 1);
+    }
+}
+
+/* The F test of the level set (no conditioning): between-group over within-group mean squares. */
+static int level_f_rejects(const campaign *c, double alpha)
+{
+    double sum[3] = {0}, cnt[3] = {0}, grand = 0;
+    for (size_t i = 0; i < RUNS; i++) {
+        int l = (int)c->col[V_L][i];
+        sum[l] += c->col[V_Y3][i];
+        cnt[l] += 1;
+        grand += c->col[V_Y3][i] / RUNS;
+    }
+    double ssb = 0, ssw = 0;
+    for (int l = 0; l < 3; l++) ssb += cnt[l] * pow(sum[l] / cnt[l] - grand, 2);
+    for (size_t i = 0; i < RUNS; i++) {
+        int l = (int)c->col[V_L][i];
+        ssw += pow(c->col[V_Y3][i] - sum[l] / cnt[l], 2);
+    }
+    double f = (ssb / 2) / (ssw / (RUNS - 3.0));
+    return gsl_cdf_fdist_Q(f, 2, RUNS - 3.0) < alpha;
+}
+
+/* The arcsine z test of two proportions (Cohen 1988, ch. 6). */
+static int two_prop_rejects(const campaign *c, double alpha)
+{
+    double k[2] = {0}, n[2] = {0};
+    for (size_t i = 0; i < RUNS; i++) {
+        int g = c->col[V_B][i] > 0.5;
+        n[g] += 1;
+        k[g] += c->col[V_Y4][i];
+    }
+    if (n[0] == 0 || n[1] == 0) return 0;
+    double h = 2 * asin(sqrt(k[1] / n[1])) - 2 * asin(sqrt(k[0] / n[0]));
+    double z = h / sqrt(1 / n[0] + 1 / n[1]);
+    return fabs(z) > gsl_cdf_ugaussian_Qinv(alpha / 2);
+}
+
+static int rejects(const campaign *c, const cov_assessment *a, int kind)
+{
+    switch (kind) {
+    case 0:
+    case 1: return fabs(a->estimate / a->se) > gsl_cdf_tdist_Qinv(a->alpha / 2, a->df);
+    case 2: return level_f_rejects(c, a->alpha);
+    case 3: return two_prop_rejects(c, a->alpha);
+    default: {
+        /* TOST (Schuirmann 1987): both one-sided tests against -+margin at level alpha. */
+        double tc = gsl_cdf_tdist_Qinv(a->alpha, a->df), m = a->effect_raw;
+        return (a->estimate + m) / a->se > tc && (a->estimate - m) / a->se < -tc;
+    }
+    }
+}
+
+int main(void)
+{
+    gsl_set_error_handler_off();
+    gsl_test_verbose(1);
+    const char *slow = getenv("SHOAL_SLOW");
+    int R = slow && strcmp(slow, "1") == 0 ? 10 * CAMPAIGNS : CAMPAIGNS;
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng_set(r, SEED);
+    campaign c;
+    campaign_init(&c);
+    cov_power_options opt = {ALPHA, 0.80, 0, 0};
+    double hits[N_KINDS] = {0}, pred[N_KINDS] = {0}, pred2[N_KINDS] = {0};
+    int failed = 0;
+    for (int rep = 0; rep < R && !failed; rep++) {
+        simulate(&c, r);
+        cov_assessments *as = NULL;
+        cov_error err;
+        if (cov_assess(&c.g, &c.cl, &c.d, &opt, &as, &err) != COV_OK) {
+            gsl_test(1, "cov_assess on simulated campaign %d: %s", rep, err.msg);
+            failed = 1;
+            break;
+        }
+        for (int k = 0; k < N_KINDS; k++) {
+            const cov_assessment *a = &as->items[k];
+            hits[k] += rejects(&c, a, k);
+            pred[k] += a->power;
+            pred2[k] += a->power * a->power;
+        }
+        cov_assessments_free(as);
+    }
+    for (int k = 0; k < N_KINDS && !failed; k++) {
+        double rate = hits[k] / R, mean = pred[k] / R;
+        double var_pred = pred2[k] / R - mean * mean;
+        double se = sqrt((rate * (1 - rate) + (var_pred > 0 ? var_pred : 0)) / R);
+        gsl_test(!(fabs(rate - mean) <= 3 * se),
+                 "calibration, %s: mean predicted power %.4f vs rejection rate %.4f over %d "
+                 "simulated campaigns of %d runs (tolerance 3 MC SE = %.4f)", kind_name[k],
+                 mean, rate, R, RUNS, 3 * se);
+        gsl_test(!(mean > 0.3 && mean < 0.95), "calibration, %s: power %.3f lies where the check "
+                 "can tell (0.3 to 0.95)", kind_name[k], mean);
+    }
+    campaign_free(&c);
+    gsl_rng_free(r);
+    return gsl_test_summary();
+}
