@@ -39,6 +39,8 @@ typedef struct {
     cov_graph *g;
     size_t cap_vars, cap_edges;
     index_list *children;   /* per variable, parallel to g->vars */
+    size_t *slot;           /* name hash table: variable index + 1, 0 for empty */
+    size_t n_slots;         /* a power of two, kept at least twice the variable count */
     int seen_default_effect, seen_margin, seen_design;
     cov_error *err;
 } parser;
@@ -282,6 +284,51 @@ static int lex_line(parser *p, const char *s, const char *e)
     return push_token(p, T_END, NULL, 0, col);
 }
 
+/* ---- name look-up ---------------------------------------------------------------------------- */
+
+/* FNV-1a (Fowler, Noll & Vo), a simple string hash that spreads short names well. */
+static size_t name_hash(const char *s)
+{
+    unsigned long long h = 1469598103934665603ULL;
+    for (; *s; s++) h = (h ^ (unsigned char)*s) * 1099511628211ULL;
+    return (size_t)h;
+}
+
+/* Index of the variable called name, or -1: open addressing with linear probing. */
+static long lookup(const parser *p, const char *name)
+{
+    if (p->n_slots == 0) return -1;
+    for (size_t i = name_hash(name) & (p->n_slots - 1);; i = (i + 1) & (p->n_slots - 1)) {
+        size_t k = p->slot[i];
+        if (k == 0) return -1;
+        if (strcmp(p->g->vars[k - 1].name, name) == 0) return (long)(k - 1);
+    }
+}
+
+static void slot_put(parser *p, size_t var)
+{
+    size_t i = name_hash(p->g->vars[var].name) & (p->n_slots - 1);
+    while (p->slot[i] != 0) i = (i + 1) & (p->n_slots - 1);
+    p->slot[i] = var + 1;
+}
+
+/* Enter the newest variable, doubling the table when it would pass half full. */
+static int index_var(parser *p)
+{
+    size_t n = p->g->n_vars;
+    if (2 * n > p->n_slots) {
+        size_t ns = p->n_slots ? 2 * p->n_slots : 64;
+        size_t *slot = calloc(ns, sizeof *slot);
+        if (slot == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+        free(p->slot);
+        p->slot = slot;
+        p->n_slots = ns;
+        for (size_t v = 0; v + 1 < n; v++) slot_put(p, v);
+    }
+    slot_put(p, n - 1);
+    return COV_OK;
+}
+
 /* ---- parsing helpers ------------------------------------------------------------------------- */
 
 static token *peek(parser *p) { return &p->tok[p->pos]; }
@@ -351,7 +398,7 @@ static int take_name(parser *p, const char *what, token **out)
 /* Names of the declared variables, for suggestions. */
 static int resolve(parser *p, const token *t, size_t *out)
 {
-    long k = cov_graph_find(p->g, t->text);
+    long k = lookup(p, t->text);
     if (k >= 0) {
         *out = (size_t)k;
         return COV_OK;
@@ -415,7 +462,7 @@ static int add_var(parser *p, const char *name, cov_var **out)
     p->children[g->n_vars] = (index_list){NULL, 0, 0};
     g->n_vars++;
     *out = v;
-    return COV_OK;
+    return index_var(p);
 }
 
 /* `[LO, HI]` with LO < HI; whole numbers for integers. */
@@ -487,7 +534,7 @@ static int parse_declaration(parser *p, cov_role role)
     token *name = NULL;
     int rc = take_name(p, "a variable name", &name);
     if (rc) return rc;
-    long prior = cov_graph_find(p->g, name->text);
+    long prior = lookup(p, name->text);
     if (prior >= 0)
         return perr(p, name->col, "found a second declaration of '%s', expected each variable "
                     "declared once (first declared at line %d)", name->text,
@@ -708,7 +755,9 @@ static int add_edge(parser *p, const token *ft, size_t from, const token *tt, si
     if (g->vars[to].role == COV_INPUT)
         return perr(p, tt->col, "found an edge into the input '%s', expected edges into outputs "
                     "or hidden variables only (the tester sets inputs)", g->vars[to].name);
-    for (size_t i = 0; i < g->n_edges; i++)
+    int dup = 0;
+    for (size_t i = 0; i < p->children[from].n; i++) dup |= p->children[from].item[i] == to;
+    for (size_t i = 0; dup && i < g->n_edges; i++)
         if (g->edges[i].from == from && g->edges[i].to == to)
             return perr(p, tt->col, "found a second edge %s -> %s, expected each edge once (first "
                         "at line %d)", g->vars[from].name, g->vars[to].name, g->edges[i].line);
@@ -760,8 +809,8 @@ static int parse_edges(parser *p)
          * names were resolved above, so these look-ups succeed. */
         for (size_t i = prev_start; i < prev_end; i += 2)
             for (size_t j = cur_start; j < p->pos; j += 2) {
-                size_t from = (size_t)cov_graph_find(p->g, p->tok[i].text);
-                size_t to = (size_t)cov_graph_find(p->g, p->tok[j].text);
+                size_t from = (size_t)lookup(p, p->tok[i].text);
+                size_t to = (size_t)lookup(p, p->tok[j].text);
                 rc = add_edge(p, &p->tok[i], from, &p->tok[j], to);
                 if (rc) return rc;
             }
@@ -819,7 +868,7 @@ static int parse_statement(parser *p)
                     "(input, output, hidden, default, design, hold) or an edge", t->text);
     tok_kind after = p->tok[p->pos + 1].kind;
     if (after == T_ARROW || after == T_COMMA) return parse_edges(p);
-    if (cov_graph_find(p->g, t->text) >= 0)
+    if (lookup(p, t->text) >= 0)
         return expect_fail(p, &p->tok[p->pos + 1], "'->' or ',' after a variable name");
     const char *near = nearest(t->text, statement_words, N_STATEMENT, sizeof statement_words[0]);
     if (near != NULL)
@@ -902,6 +951,7 @@ int cov_graph_parse_text(const char *name, const char *text, cov_graph **out, co
     free(p.tok);
     for (size_t i = 0; i < g->n_vars; i++) free(p.children[i].item);
     free(p.children);
+    free(p.slot);
     *out = g;
     return COV_OK;
 fail:
@@ -909,6 +959,7 @@ fail:
     free(p.tok);
     for (size_t i = 0; i < g->n_vars; i++) free(p.children[i].item);
     free(p.children);
+    free(p.slot);
     cov_graph_free(g);
     return rc;
 }
