@@ -31,7 +31,7 @@
 #define PLAN_REAL_GRID 1e-6
 /* --budget auto: a need is recomputed at the current run count once that count has grown by this
  * factor (the run count changes the test's degrees of freedom, so the need falls slowly). */
-#define PLAN_NEED_REFRESH 1.25
+#define PLAN_NEED_REFRESH 1.5
 /* --budget auto: when the exact power of a claim whose need was met is still short, its need is
  * raised by this factor and the search goes on; at most PLAN_MAX_BUMPS times in all. */
 #define PLAN_NEED_BUMP 1.02
@@ -100,6 +100,7 @@ struct plan_state {
     size_t min_runs;
     size_t *gap_vars, n_gap_vars;
     double *cand_gap;         /* n_cand: distance to the nearest run in the unit cube */
+    struct delta_cache *dc;
 };
 
 static unsigned parity32(uint32_t x)
@@ -401,14 +402,70 @@ static int design_from_noise(const cov_graph *g, const cov_claim *cl, const cov_
     return 0;
 }
 
-/* q_req^2 / q_mul: the coded information at which claim i reaches its target at n runs. */
-static double need_at(const claim_work *w, double n)
+/* The standardised noncentrality delta = effect q / sigma a test needs, cached by what else it
+ * depends on (test, level, sides, target, levels and residual degrees of freedom): claims of one
+ * family share it, and the exact search (a few dozen power evaluations, each an Owen's Q quadrature
+ * for equivalence tests) then runs once per distinct key instead of once per claim. Degrees of
+ * freedom above PLAN_DF_EXACT are rounded down to a grid of ratio PLAN_DF_RATIO: fewer degrees of
+ * freedom need a larger delta, so the rounding errs on the safe side, by well under 0.1% in delta
+ * there. */
+#define PLAN_DF_EXACT 100.0
+#define PLAN_DF_RATIO 1.01
+
+typedef struct {
+    int test, sides;
+    double alpha, target, n_levels, df, delta;
+} delta_entry;
+
+struct delta_cache {
+    delta_entry *e;
+    size_t n, cap;
+};
+
+static double delta_needed(struct delta_cache *dc, const pw_design *pd, double n)
+{
+    double k = pd->test == PW_TEST_LEVELS_F ? pd->n_levels - 1.0 : 1.0;
+    double df = n - pd->n_params - k;
+    if (!(df >= 1.0)) df = 1.0;
+    if (df > PLAN_DF_EXACT)
+        df = PLAN_DF_EXACT * pow(PLAN_DF_RATIO, floor(log(df / PLAN_DF_EXACT) / log(PLAN_DF_RATIO)));
+    else df = floor(df);
+    double nl = pd->test == PW_TEST_LEVELS_F ? pd->n_levels : 0.0;
+    for (size_t i = 0; i < dc->n; i++) {
+        const delta_entry *e = &dc->e[i];
+        if (e->test == (int)pd->test && e->sides == pd->sides && e->alpha == pd->alpha &&
+            e->target == pd->target && e->n_levels == nl && e->df == df)
+            return e->delta;
+    }
+    pw_design unit = *pd;
+    unit.effect = 1.0;
+    unit.sigma = 1.0;
+    double q = NAN;
+    if (pw_design_q_needed(&unit, df + pd->n_params + k, &q) != PW_OK) q = INFINITY;
+    if (dc->n == dc->cap) {
+        size_t nc = dc->cap ? 2 * dc->cap : 32;
+        delta_entry *ne = realloc(dc->e, nc * sizeof *ne);
+        if (ne == NULL) return q;
+        dc->e = ne;
+        dc->cap = nc;
+    }
+    dc->e[dc->n++] = (delta_entry){(int)pd->test, pd->sides, pd->alpha, pd->target, nl, df, q};
+    return q;
+}
+
+/* q_req^2 / q_mul: the coded information at which a claim reaches its target at n runs. */
+static double need_at(struct delta_cache *dc, const claim_work *w, double n)
 {
     /* Below one residual degree of freedom the test has no power at all; size it there instead. */
     double k = w->pd.test == PW_TEST_LEVELS_F ? w->pd.n_levels - 1.0 : 1.0;
     if (n < w->pd.n_params + k + 2.0) n = w->pd.n_params + k + 2.0;
     double q = NAN;
-    if (pw_design_q_needed(&w->pd, n, &q) != PW_OK) return INFINITY;
+    if (w->pd.test == PW_TEST_TWO_PROP) {
+        /* Two proportions depend on the base rate, not on effect / sigma alone: no cache. */
+        if (pw_design_q_needed(&w->pd, n, &q) != PW_OK) return INFINITY;
+    } else {
+        q = delta_needed(dc, &w->pd, n) * w->pd.sigma / w->pd.effect;
+    }
     return q * q / w->q_mul;
 }
 
@@ -546,6 +603,7 @@ static void state_free(struct plan_state *st)
     free(st->cand_gap);
     free(st->L.first);
     free(st->L.count);
+    if (st->dc != NULL) free(st->dc->e);
 }
 
 void cov_plan_free(cov_plan *p)
@@ -641,20 +699,22 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
             continue;
         }
         it->mode = COV_PLAN_STEERED;
-        pw_aug_set_need(st->aug, w->target, need_at(w, w->n_base));
+        pw_aug_set_need(st->aug, w->target, need_at(st->dc, w, w->n_base));
     }
     return COV_OK;
 }
 
 /* ---- the greedy search ------------------------------------------------------------------------- */
 
-static void refresh_needs(struct plan_state *st, const cov_plan *p, double added)
+static void refresh_needs(struct plan_state *st, const cov_plan *p, double added, int only_active)
 {
     for (size_t j = 0; j < p->n; j++) {
         const cov_plan_claim *it = &p->items[j];
         if (it->mode != COV_PLAN_STEERED || it->unreachable) continue;
         const claim_work *w = &st->w[it->claim];
-        pw_aug_set_need(st->aug, w->target, need_at(w, w->n_base + added));
+        /* Needs only fall as runs are added, so a claim that has met its need stays met. */
+        if (!only_active || pw_aug_active(st->aug, w->target))
+            pw_aug_set_need(st->aug, w->target, need_at(st->dc, w, w->n_base + added));
     }
 }
 
@@ -715,6 +775,8 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     st.c = c;
     st.d = d != NULL && d->n_runs > 0 ? d : NULL;
     st.opt = opt;
+    struct delta_cache dc = {NULL, 0, 0};
+    st.dc = &dc;
     int rc = COV_ENOMEM;
     double *bound = NULL, *part = NULL;
     unsigned char *fresh = NULL;
@@ -765,7 +827,7 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         if (budget >= 0 && planned >= (size_t)budget) break;
         if (budget < 0 && pw_aug_n_active(st.aug) == 0 && planned >= assumed_configs) {
             /* Needs are met: confirm with the exact power, and raise any need that fell short. */
-            refresh_needs(&st, p, (double)planned * k_rep);
+            refresh_needs(&st, p, (double)planned * k_rep, 0);
             int short_any = 0;
             for (size_t j = 0; j < p->n; j++) {
                 cov_plan_claim *it = &p->items[j];
@@ -824,7 +886,7 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
             for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
         if ((double)p->n_configs >= PLAN_NEED_REFRESH * (double)(last_refresh + 4)) {
             last_refresh = p->n_configs;
-            refresh_needs(&st, p, (double)p->n_configs * k_rep);
+            refresh_needs(&st, p, (double)p->n_configs * k_rep, 1);
             for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
         }
     }
