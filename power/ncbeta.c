@@ -16,6 +16,13 @@
 /* Terms on each side of the Poisson mode before giving up. The weights have SD sqrt(lambda / 2);
  * nine SDs reach 1e-18 of the mass, so 2e5 terms serve lambda up to about 1e9. */
 #define NCB_MAX_TERMS 200000
+/* The continued fraction stops when a step changes it by under one ulp. */
+#define BETA_CF_EPS DBL_EPSILON
+/* Guard against a zero denominator in Lentz's method (Press et al. 2007, sec. 5.2). */
+#define BETA_CF_TINY 1e-300
+/* Steps of the fraction before giving up: it needs O(sqrt(max(a, b))) steps, about 3000 for
+ * shapes of 5e5 (df 1e6) with room for the Poisson terms' extra shape. */
+#define BETA_CF_MAX_ITER 100000
 /* Switch between the direct form of the deviance term and its series (Loader 2000, bd0). */
 #define BD0_SERIES_SHARE 0.1
 /* Stirling's series for the log-gamma remainder is used above this argument; below it the
@@ -66,6 +73,23 @@ double pw_log_dpois(double x, double lambda)
     return -stirlerr(x) - bd0(x, lambda) - 0.5 * log(2.0 * M_PI * x);
 }
 
+/* Loader's (2000) binomial term for k successes and m failures, given as such so that a small m
+ * beside a large k is not taken as the difference of two rounded numbers; log(m / n) replaces his
+ * log1p(-k / n) for the same reason (it lost 1e-12 relative at k / n near 1 - 4e-5). */
+static double log_binom_term(double k, double m, double p, double q)
+{
+    double n = k + m;
+    double lc = stirlerr(n) - stirlerr(k) - stirlerr(m) - bd0(k, n * p) - bd0(m, n * q);
+    double lf = log(2.0 * M_PI) + log(k) + log(m) - log(n);
+    /* Loader's form assumes p + q = 1. Rounded separately they miss by eps = p + q - 1 (formed
+     * without loss as (p - 1) + q), which the form turns into an error n eps; and a p near 1 is
+     * itself uncertain by an ulp, which p^k magnifies k times. Taking the smaller of p and q as
+     * exact and the larger as its complement removes both: to first order in eps the log term
+     * changes by eps (n - k / p) (or eps (n - m / q)). */
+    double corr = p >= q ? ((p - 1.0) + q) * (n - k / p) : ((q - 1.0) + p) * (n - m / q);
+    return lc - 0.5 * lf + corr;
+}
+
 double pw_log_dbinom(double k, double n, double p, double q)
 {
     if (k < 0.0 || k > n)
@@ -78,25 +102,81 @@ double pw_log_dbinom(double k, double n, double p, double q)
         return n * log(q);
     if (k == n)
         return n * log(p);
-    double lc = stirlerr(n) - stirlerr(k) - stirlerr(n - k) - bd0(k, n * p) - bd0(n - k, n * q);
-    double lf = log(2.0 * M_PI) + log(k) + log1p(-k / n);
-    return lc - 0.5 * lf;
+    return log_binom_term(k, n - k, p, q);
+}
+
+double pw_log_beta_step(double x, double y, double a, double b)
+{
+    if (x <= 0.0 || y <= 0.0)
+        return -INFINITY;
+    return log(b / (a + b)) + log_binom_term(a, b, x, y);
+}
+
+/* The continued fraction for I_x(a, b) / (x^a y^b / (a B(a, b))) (A&S 26.5.8), evaluated by the
+ * modified Lentz method (Press et al. 2007, Numerical Recipes 3rd ed., sec. 6.4, whose betacf this
+ * follows; GSL's gsl_sf_beta_inc uses the same fraction). It converges fast for
+ * x < (a + 1) / (a + b + 2), in about sqrt(max(a, b)) steps. */
+static int beta_cf(double a, double b, double x, double *cf)
+{
+    double qab = a + b, qap = a + 1.0, qam = a - 1.0;
+    double c = 1.0, d = 1.0 - qab * x / qap;
+    if (fabs(d) < BETA_CF_TINY)
+        d = BETA_CF_TINY;
+    d = 1.0 / d;
+    double h = d;
+    for (int m = 1; m <= BETA_CF_MAX_ITER; m++) {
+        double m2 = 2.0 * m;
+        double aa = m * (b - m) * x / ((qam + m2) * (a + m2));
+        d = 1.0 + aa * d;
+        if (fabs(d) < BETA_CF_TINY)
+            d = BETA_CF_TINY;
+        c = 1.0 + aa / c;
+        if (fabs(c) < BETA_CF_TINY)
+            c = BETA_CF_TINY;
+        d = 1.0 / d;
+        h *= d * c;
+        aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
+        d = 1.0 + aa * d;
+        if (fabs(d) < BETA_CF_TINY)
+            d = BETA_CF_TINY;
+        c = 1.0 + aa / c;
+        if (fabs(c) < BETA_CF_TINY)
+            c = BETA_CF_TINY;
+        d = 1.0 / d;
+        double del = d * c;
+        h *= del;
+        if (fabs(del - 1.0) <= BETA_CF_EPS) {
+            *cf = h;
+            return PW_OK;
+        }
+    }
+    return PW_ENOCONV;
 }
 
 int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double *up)
 {
-    /* GSL's continued fraction (gsl_sf_beta_inc) works on x directly below (a + 1) / (a + b + 2)
-     * and on 1 - x above it, forming 1 - x itself, which loses every digit of a y near 1e-14.
-     * So call it with whichever of x and y lies on its direct side, and take the other tail as
-     * the complement: on the direct side the value returned stays below 0.96 for shapes from 1/4
-     * to 1e6 (checked on a grid with scipy.special.betainc), so the complement loses at most about
-     * one digit, and a tail that is really small is always the one computed directly. */
-    gsl_sf_result r;
+    /* Evaluate the fraction on whichever of x and y lies on its fast side and take the other tail
+     * as the complement: on the fast side the value stays below 0.96 for shapes from 1/4 to 1e6
+     * (checked on a grid with scipy.special.betainc), so the complement loses at most about one
+     * digit, and a tail that is really small is always the one computed directly. The prefactor
+     * x^a y^b / (a B(a, b)) comes from Loader's binomial term with x and y both given, so neither
+     * a y near 1e-14 nor an x near 1 raised to a large power loses digits (GSL forms 1 - x and
+     * a ln x, which costs up to 1e-12 relative at shapes near 1e5). */
+    if (x <= 0.0 || y <= 0.0) {
+        *lo = x <= 0.0 ? 0.0 : 1.0;
+        *up = x <= 0.0 ? 1.0 : 0.0;
+        return PW_OK;
+    }
     int direct_x = x < (a + 1.0) / (a + b + 2.0);
-    int s = direct_x ? gsl_sf_beta_inc_e(a, b, x, &r) : gsl_sf_beta_inc_e(b, a, y, &r);
-    if (s != GSL_SUCCESS && s != GSL_EUNDRFLW)
-        return s == GSL_EDOM ? PW_EDOM : PW_ENOCONV;
-    double v = s == GSL_EUNDRFLW ? 0.0 : r.val;
+    double cf, v;
+    int s = direct_x ? beta_cf(a, b, x, &cf) : beta_cf(b, a, y, &cf);
+    if (s != PW_OK)
+        return s;
+    if (direct_x)
+        v = exp(pw_log_beta_step(x, y, a, b)) * cf;
+    else
+        v = exp(pw_log_beta_step(y, x, b, a)) * cf;
+    v = fmin(fmax(v, 0.0), 1.0);
     *lo = direct_x ? v : 1.0 - v;
     *up = direct_x ? 1.0 - v : v;
     return PW_OK;
@@ -129,8 +209,8 @@ static int ncbeta_tails(double x, double y, double a, double b, double lambda, d
     int s = pw_beta_inc_pair(x, y, a + k, b, &i0, &ic0);
     if (s != PW_OK)
         return s;
-    double lx = log(x);
-    double g0 = log(b / (a + k + b)) + pw_log_dbinom(a + k, a + k + b, x, y);
+    double lx = x < 0.5 ? log(x) : log1p(-y);   /* x near 1: from the exact y */
+    double g0 = pw_log_beta_step(x, y, a + k, b);
 
     double lo_sum = 0.0, up_sum = 0.0;
     double w = w0, ib = i0, icb = ic0, g = g0;

@@ -23,15 +23,6 @@
  * Owen's Q by quadrature of positive terms (power/owen.c), accurate relative to itself. */
 #define NCT_CANCEL_SHARE 1e-3
 
-/* log of the step g(a) = x^a y^b / (a B(a, b)) of the recurrence I_x(a + 1, b) = I_x(a, b) - g(a)
- * (Abramowitz & Stegun 26.5.16), as b / (a + b) times the binomial term, which Loader's form keeps
- * accurate for large a and b. Kept in logs so a step that underflows at the mode can still grow to
- * matter further out. */
-static double log_step(double x, double y, double a, double b)
-{
-    return log(b / (a + b)) + pw_log_dbinom(a, a + b, x, y);
-}
-
 /* Both tails for t >= 0 (any ncp). Guenther (1978), as in AS 243:
  *   P(T <= t) = Phi(-d) + 1/2 sum_j [p_j I_x(j + 1/2, nu/2) + q_j I_x(j + 1, nu/2)],
  *   P(T > t)  =           1/2 sum_j [p_j I_y(nu/2, j + 1/2) + q_j I_y(nu/2, j + 1)],
@@ -46,12 +37,25 @@ static int nct_nonneg(double t, double nu, double d, double *lower, double *uppe
         *upper = gsl_cdf_ugaussian_Q(-d);
         return PW_OK;
     }
-    if (!isfinite(tt)) {
+    if (isinf(t)) {
         *lower = 1.0;
         *upper = 0.0;
         return PW_OK;
     }
-    double x = tt / (tt + nu), y = nu / (tt + nu);
+    double x, y;
+    if (tt < nu) {
+        x = tt / (tt + nu);
+        y = nu / (tt + nu);
+    } else {                     /* through r = nu / t^2, so that t^2 cannot overflow */
+        double s = sqrt(nu) / t, r = s * s;
+        x = 1.0 / (1.0 + r);
+        y = r / (1.0 + r);
+        if (y == 0.0) {          /* r underflowed: the upper tail is below about 1e-154 */
+            *lower = 1.0;
+            *upper = 0.0;
+            return PW_OK;
+        }
+    }
     double b = 0.5 * nu;
     double lam = 0.5 * d * d;
     double k = floor(lam);
@@ -70,8 +74,8 @@ static int nct_nonneg(double t, double nu, double d, double *lower, double *uppe
         s = pw_beta_inc_pair(x, y, k + 1.0, b, &iq0, &icq0);
     if (s != PW_OK)
         return s;
-    double lx = log(x);
-    double gp0 = log_step(x, y, k + 0.5, b), gq0 = log_step(x, y, k + 1.0, b);
+    double lx = x < 0.5 ? log(x) : log1p(-y);   /* x near 1: from the exact y */
+    double gp0 = pw_log_beta_step(x, y, k + 0.5, b), gq0 = pw_log_beta_step(x, y, k + 1.0, b);
 
     /* Sums of absolute values, one per tail: each tail stops on its own relative bound, so a tiny
      * tail beside a large one keeps its relative accuracy (the terms can alternate when d < 0). */

@@ -52,6 +52,10 @@ double pw_log_dbinom(double k, double n, double p, double q);
  * with x + y = 1 both given exactly, each accurate even when x or y is below 1e-14 (GSL's
  * gsl_sf_beta_inc called on the side where it does not form 1 - x). PW_OK, PW_EDOM or PW_ENOCONV. */
 int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double *up);
+/* Library-internal (power/ncbeta.c): log of x^a y^b / (a B(a, b)), the step of the recurrence
+ * I_x(a + 1, b) = I_x(a, b) - step (Abramowitz & Stegun 26.5.16), by Loader's binomial term with
+ * x and y = 1 - x both given; -INFINITY when x or y is 0. */
+double pw_log_beta_step(double x, double y, double a, double b);
 
 /* Noncentral chi-squared with df > 0 and lambda >= 0 (Ding 1992, AS 275, and the Poisson mixture). */
 int pw_ncchisq_cdf(double x, double df, double lambda, double *lower, double *upper);

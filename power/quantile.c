@@ -19,6 +19,9 @@
 /* Brent iterations before giving up: bisection alone would need about 1100 halvings to go from the
  * widest double bracket to 4 ulps; Brent's interpolation takes far fewer on these smooth CDFs. */
 #define QUANTILE_MAX_ITER 2000
+/* At a true root the CDF misses p by the density times a few ulps of x, relative to p far below
+ * this; a bracket closed on a discontinuity misses it by order p. */
+#define QUANTILE_RESIDUAL 1e-8
 /* Doublings of the bracket before giving up: 1100 doublings of a unit step pass DBL_MAX. */
 #define QUANTILE_MAX_EXPAND 1100
 
@@ -126,10 +129,15 @@ static int solve(struct target *tg, double guess, int positive, double epsabs, d
         double xl = gsl_root_fsolver_x_lower(solver), xu = gsl_root_fsolver_x_upper(solver);
         if (gsl_root_test_interval(xl, xu, epsabs, QUANTILE_EPSREL) == GSL_SUCCESS
             || gap(r, tg) == 0.0) {
+            double residual = fabs(gap(r, tg));
             if (tg->status != PW_OK) {
                 s = tg->status;
                 goto fail;
             }
+            /* A bracket can also close on a jump (a tail that underflows to 0): there the CDF
+             * misses p by about p itself, so such a "root" is refused. */
+            if (!(residual <= QUANTILE_RESIDUAL * tg->p))
+                goto fail;
             *x = r;
             s = PW_OK;
             break;
