@@ -381,12 +381,15 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
              "lc rgb '#000000' notitle, \\\n"
              "  $outlined using 1:2:(0.41):(0.41) with boxxyerror fs empty border lw 1.5 "
              "lc rgb '#FFFFFF' notitle, \\\n"
-             "  $outlined using ($1-0.36):($2-0.3):(sprintf('%%d', $3)) with labels "
-             "font ',9' tc rgb '#000000' boxed notitle\n",
+             "  $outlined using ($1-%s):($2-%s):(sprintf('%%d', $3)) with labels "
+             "font ',%d' tc rgb '#000000' boxed notitle\n",
              n <= MATRIX_LABEL_MAX
                  ? ", \\\n  $pairs using 1:2:(sprintf('%.0f%%', 100*$3)):4 with labels tc rgb variable"
                    " notitle"
-                 : "");
+                 : "",
+             /* In a large matrix the number covers its small cell, which is outlined anyway. */
+             n <= MATRIX_LABEL_MAX ? "0.36" : "0", n <= MATRIX_LABEL_MAX ? "0.3" : "0",
+             n <= MATRIX_LABEL_MAX ? 9 : 7);
     fputs("set style textbox opaque fc rgb '#FFFFFF' noborder margins 1,1\n", s);
     finish_plot(s, dir, "pairs", PLOT_H, plot);
     return COV_OK;
@@ -611,6 +614,26 @@ static void row_tics(FILE *s, const cov_findings *f, const row_key *rows, size_t
     fprintf(s, ")\nset yrange [%zu.5:0.5]\n", n);
 }
 
+/* Legend entries for the verdict colours present among the shown rows: "ample" and "too thin",
+ * each drawn as `sample` (a gnuplot style) and titled with `prefix` in front. */
+static void verdict_keys(char *out, size_t size, const cov_findings *f, const row_key *rows,
+                         size_t n, const char *sample, const char *prefix)
+{
+    int ample = 0, thin = 0;
+    for (size_t r = 0; r < n; r++) {
+        if (f->assess->items[rows[r].idx].verdict == COV_AMPLE) ample = 1;
+        else thin = 1;
+    }
+    int len = 0;
+    out[0] = '\0';
+    if (ample)
+        len = snprintf(out, size, ", \\\n  keyentry with %s lc rgb '" C_AMPLE "' title '%sample'",
+                       sample, prefix);
+    if (thin && len >= 0 && (size_t)len < size)
+        snprintf(out + len, size - (size_t)len,
+                 ", \\\n  keyentry with %s lc rgb '" C_THIN "' title '%stoo thin'", sample, prefix);
+}
+
 static void rows_title(FILE *s, const char *what, size_t shown_n, size_t total, const char *line2)
 {
     char line[256];
@@ -652,18 +675,17 @@ static int plot_power(FILE *s, const cov_findings *f, const char *dir)
     fputs(", graph 0 to ", s);
     num(s, target);
     fputs(", graph 1 nohead dt 2 lw 2 lc rgb '" C_INK "' front\n", s);
-    char plot[1024];
+    char plot[1536], keys[512];
+    verdict_keys(keys, sizeof keys, f, rows, n, "boxes fs solid 1 noborder", "");
     snprintf(plot, sizeof plot,
              "plot $power using ($2/2):1:($2/2):(0.36):5 with boxxyerror fs solid 1 noborder "
              "lc rgb variable notitle, \\\n"
              "  $power using 2:1:3:4 with xerrorbars pt 7 ps 0.4 lw 1.2 lc rgb '" C_INK
              "' title 'uncertainty range', \\\n"
              "  $power using 4:1:(sprintf('%%.2f', $2)) with labels left offset 0.6,0 font ',9' "
-             "notitle, \\\n"
-             "  keyentry with boxes fs solid 1 noborder lc rgb '" C_AMPLE "' title 'ample', \\\n"
-             "  keyentry with boxes fs solid 1 noborder lc rgb '" C_THIN "' title 'too thin', \\\n"
+             "notitle%s, \\\n"
              "  keyentry with lines dt 2 lw 2 lc rgb '" C_INK "' title 'target power %.2f'\n",
-             target);
+             keys, target);
     finish_plot(s, dir, "power", h, plot);
     free(rows);
     return COV_OK;
@@ -733,14 +755,13 @@ static int plot_mde(FILE *s, const cov_findings *f, const char *dir)
     fputs(") format '%g'\n", s);
     fputs("set xlabel 'effect, in outcome units per unit of treatment (log scale)'\n", s);
     fputs("set key below horizontal height 1.5\nset errorbars small\n", s);
-    char plot[1536];
+    char plot[1536], keys[512];
+    verdict_keys(keys, sizeof keys, f, rows, n, "points pt 7 ps 1.1", "MDE, ");
     snprintf(plot, sizeof plot,
              "plot $mde using 2:1:($3-$2):(0) with vectors nohead lw 5 lc rgb '#DADADA' notitle, \\\n"
              "  $mde using 3:1:4:5:6 with xerrorbars pt 7 ps 1.1 lw 1.2 lc rgb variable notitle, \\\n"
              "  $mde using 2:1 with points pt 12 ps 1.7 lw 1.5 lc rgb '" C_INK
-             "' title 'effect of interest', \\\n"
-             "  keyentry with points pt 7 ps 1.1 lc rgb '" C_AMPLE "' title 'MDE, ample', \\\n"
-             "  keyentry with points pt 7 ps 1.1 lc rgb '" C_THIN "' title 'MDE, too thin'\n");
+             "' title 'effect of interest'%s\n", keys);
     finish_plot(s, dir, "mde", h, plot);
     free(rows);
     return COV_OK;

@@ -479,6 +479,129 @@ static void test_quiet_edges(const char *tmp)
     }
 }
 
+/* A larger invented campaign: 24 real inputs, two outputs, 48 claims, 276 pairs. The row plots
+ * must keep to their 30 worst claims and say so; the matrix drops its per-cell labels. */
+#define BIG_IN 24
+#define BIG_VARS (BIG_IN + 2)
+#define BIG_RUNS 300
+#define BIG_CLAIMS (2 * BIG_IN)
+#define BIG_PAIRS (BIG_IN * (BIG_IN - 1) / 2)
+static void test_big(const char *tmp)
+{
+    static cov_var bv[BIG_VARS];
+    static char names[BIG_VARS][16];
+    static double cols[BIG_VARS][BIG_RUNS];
+    static double *bcol[BIG_VARS];
+    static size_t bin_in[BIG_IN], bworst[BIG_PAIRS], bcounts[BIG_PAIRS][BINS * BINS];
+    static cov_pair bpairs[BIG_PAIRS];
+    static cov_claim bclaims[BIG_CLAIMS];
+    static cov_assessment bitems[BIG_CLAIMS];
+    for (size_t v = 0; v < BIG_VARS; v++) {
+        snprintf(names[v], sizeof names[v], v < BIG_IN ? "knob_%02zu" : "out_%zu", v < BIG_IN ? v : v - BIG_IN);
+        bv[v] = (cov_var){names[v], v < BIG_IN ? COV_INPUT : COV_OUTPUT, COV_REAL, 0, 1, NULL, 0,
+                          1.0, 0, NAN, (int)v + 1, 1};
+        for (size_t i = 0; i < BIG_RUNS; i++) cols[v][i] = uniform01() * (v % 2 ? 0.7 : 1.0);
+        bcol[v] = cols[v];
+    }
+    cov_graph bg = {"invented-big.graph", bv, BIG_VARS, NULL, 0, {0.25, COV_UNIT_SD},
+                    {0.1, COV_UNIT_SD}, 0};
+    size_t k = 0;
+    for (size_t a = 0; a < BIG_IN; a++) {
+        bin_in[a] = a;
+        for (size_t b = a + 1; b < BIG_IN; b++, k++) {
+            cov_pair *p = &bpairs[k];
+            *p = (cov_pair){a, b, BINS, BINS, bcounts[k], 0, 0};
+            for (size_t i = 0; i < BIG_RUNS; i++) {
+                long ia = bin(&bv[a], cols[a][i]), ib = bin(&bv[b], cols[b][i]);
+                if (ia >= 0 && ib >= 0) p->count[(size_t)ia * BINS + (size_t)ib]++;
+            }
+            size_t covered = 0;
+            for (size_t c = 0; c < BINS * BINS; c++) {
+                covered += p->count[c] >= MIN_RUNS;
+                p->n_empty += p->count[c] == 0;
+            }
+            p->share = (double)covered / (BINS * BINS);
+            bworst[k] = k;
+        }
+    }
+    for (size_t i = 1; i < BIG_PAIRS; i++)
+        for (size_t j = i; j > 0 && bpairs[bworst[j]].share < bpairs[bworst[j - 1]].share; j--) {
+            size_t t = bworst[j];
+            bworst[j] = bworst[j - 1];
+            bworst[j - 1] = t;
+        }
+    cov_coverage bc = coverage;
+    bc.inputs = bin_in;
+    bc.n_inputs = BIG_IN;
+    bc.pairs = bpairs;
+    bc.n_pairs = BIG_PAIRS;
+    bc.worst = bworst;
+    for (size_t c = 0; c < BIG_CLAIMS; c++) {
+        bclaims[c] = (cov_claim){COV_CLAIM_EFFECT, c % BIG_IN, BIG_IN + c / BIG_IN, NULL, 0,
+                                 {0.2, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1};
+        cov_assessment *it = &bitems[c];
+        memset(it, 0, sizeof *it);
+        it->claim = c;
+        it->n = BIG_RUNS;
+        it->effect_raw = 0.05 + 0.01 * (double)c;
+        it->alpha = 0.05 / BIG_CLAIMS;
+        pw_design d = {.test = PW_TEST_COEF_T, .alpha = it->alpha, .sides = 2, .target = 0.8,
+                       .effect = it->effect_raw, .sigma = 1, .sd_x_resid = 0.29, .n = BIG_RUNS,
+                       .n_params = 1, .ncp_per_run = NAN};
+        pw_power(&d, &it->power);
+        pw_mde(&d, &it->mde);
+        pw_runs_needed(&d, &it->runs_needed);
+        it->power_lo = it->power_hi = it->power;
+        it->mde_lo = it->mde_hi = it->mde;
+        it->verdict = it->power >= 0.8 ? COV_AMPLE : COV_THIN;
+        it->has_design = 1;
+        it->design = d;
+    }
+    cov_claims bcl = {bclaims, BIG_CLAIMS};
+    cov_assessments ba = assessments;
+    ba.items = bitems;
+    ba.n = BIG_CLAIMS;
+    ba.n_testable = BIG_CLAIMS;
+    cov_data bd = {0};
+    bd.n_runs = BIG_RUNS;
+    bd.n_vars = BIG_VARS;
+    bd.col = bcol;
+    cov_options opt;
+    cov_options_default(&opt);
+    cov_findings f = {&opt, &bg, &bcl, &bd, &ba, &bc, NULL, NULL, 0};
+
+    char dir[1200];
+    snprintf(dir, sizeof dir, "%s/big", tmp);
+    mkdir(dir, 0700);
+    char *note_text = NULL;
+    size_t note_len = 0;
+    FILE *note = open_memstream(&note_text, &note_len);
+    cov_error err = {{0}, {0}};
+    int rc = cov_plot_all(&f, dir, note, &err);
+    fclose(note);
+    gsl_test_int(rc, COV_OK, "24 inputs, 48 claims: cov_plot_all succeeds (%s)", err.msg);
+    gsl_test(note_len != 0, "24 inputs, 48 claims: gnuplot printed no warning (%s)",
+             note_text ? note_text : "");
+    free(note_text);
+    for (size_t i = 0; i < N_EXPECTED; i++) {
+        char path[1300];
+        snprintf(path, sizeof path, "%s/%s.svg", dir, expected[i]);
+        char *svg = slurp(path, NULL);
+        gsl_test(!is_svg(svg), "24 inputs, 48 claims: %s.svg is well formed", expected[i]);
+        if (svg && (strcmp(expected[i], "power") == 0 || strcmp(expected[i], "mde") == 0)) {
+            gsl_test(strstr(svg, "the 30 worst of 48") == NULL,
+                     "24 inputs, 48 claims: %s shows the 30 worst claims and says so", expected[i]);
+            /* The first claims have the smallest effects, hence the lowest power: claim 0 is
+             * shown, claim 47 (the largest effect, the highest power) is not. */
+            gsl_test(strstr(svg, "knob_00 -&gt; out_0") == NULL && strstr(svg, "knob_00 -> out_0") == NULL,
+                     "24 inputs, 48 claims: %s shows the weakest claim", expected[i]);
+            gsl_test(strstr(svg, "knob_23 -> out_1") != NULL, "24 inputs, 48 claims: %s leaves out "
+                     "the strongest claim", expected[i]);
+        }
+        free(svg);
+    }
+}
+
 static void test_no_gnuplot(const char *tmp)
 {
     char empty[1024], out[1024], fake[1024], noexec[1024];
@@ -569,6 +692,7 @@ int main(void)
         mkdir(dir, 0700);
         test_all(dir, 3, "with a plan");
         test_quiet_edges(tmp);
+        test_big(tmp);
     }
     test_no_gnuplot(tmp);
     if (getenv("SHOAL_KEEP_PLOTS") == NULL) {
