@@ -217,6 +217,8 @@ static void claim_label(const cov_graph *g, const cov_claim *cl, char *buf, size
              cl->kind == COV_CLAIM_EFFECT ? "->" : "-/->", g->vars[cl->outcome].name);
 }
 
+static const char *mode_word(const cov_plan_claim *it);
+
 static void print_prob(FILE *out, double x)
 {
     if (isnan(x)) fprintf(out, " %10s", "-");
@@ -246,8 +248,7 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
     for (size_t j = 0; j < p->n; j++) {
         const cov_plan_claim *it = &p->items[j];
         claim_label(g, &c->items[it->claim], label, sizeof label);
-        const char *how = it->mode == COV_PLAN_STEERED ? "steered"
-                          : it->mode == COV_PLAN_ASSUMED ? "assumed" : "unsized";
+        const char *how = mode_word(it);
         fprintf(out, "%-*.*s  %-8s %9.0f", (int)width, (int)width, label, how, it->n_now);
         print_prob(out, it->power_now);
         fprintf(out, " %9.0f", it->n_after);
@@ -288,6 +289,48 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
                 p->capped ? "; --budget auto stopped at the cap" : "");
 }
 
+static const char *mode_word(const cov_plan_claim *it)
+{
+    return it->mode == COV_PLAN_STEERED ? "steered" : it->mode == COV_PLAN_ASSUMED ? "assumed"
+                                                                                   : "unsized";
+}
+
+static void print_json(FILE *out, const cov_options *o, const cov_graph *g, const cov_claims *c,
+                       const cov_plan *p, const char *path)
+{
+    fprintf(out, "{\"schema_version\": 1, \"graph\": ");
+    cov_emit_json_string(out, o->graph_path);
+    fprintf(out, ", \"plan_file\": ");
+    cov_emit_json_string(out, path);
+    fprintf(out, ", \"configurations\": %zu, \"replicates\": %d, \"runs\": %zu, "
+                 "\"candidates\": %zu, \"capped\": %s, \"target_power\": ",
+            p->n_configs, p->replicates, p->n_configs * (size_t)p->replicates, p->n_candidates,
+            p->capped ? "true" : "false");
+    cov_emit_json_number(out, o->power.target);
+    fputs(", \"claims\": [", out);
+    for (size_t j = 0; j < p->n; j++) {
+        const cov_plan_claim *it = &p->items[j];
+        const cov_claim *cl = &c->items[it->claim];
+        fprintf(out, "%s\n  {\"kind\": \"%s\", \"treatment\": ", j ? "," : "",
+                cl->kind == COV_CLAIM_EFFECT ? "effect" : "absence");
+        cov_emit_json_string(out, g->vars[cl->treatment].name);
+        fputs(", \"outcome\": ", out);
+        cov_emit_json_string(out, g->vars[cl->outcome].name);
+        fprintf(out, ", \"how\": \"%s\", \"from_noise\": %s, \"runs_now\": ", mode_word(it),
+                it->from_noise ? "true" : "false");
+        cov_emit_json_number(out, it->n_now);
+        fputs(", \"power_now\": ", out);
+        cov_emit_json_number(out, it->power_now);
+        fputs(", \"runs_after\": ", out);
+        cov_emit_json_number(out, it->n_after);
+        fputs(", \"power_after\": ", out);
+        cov_emit_json_number(out, it->power_after);
+        fprintf(out, ", \"reaches\": %s, \"unreachable\": %s}", it->reaches ? "true" : "false",
+                it->unreachable ? "true" : "false");
+    }
+    fputs("\n]}\n", out);
+}
+
 int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err)
 {
     (void)note;
@@ -317,7 +360,8 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
     if ((rc = cov_plan_write_csv(g, p, path, err)) != COV_OK) goto done;
     size_t n_testable = 0;
     for (size_t i = 0; i < c->n; i++) n_testable += c->items[i].status == COV_TESTABLE;
-    if (!o->quiet) print_report(out, o, g, c, p, n_testable, path);
+    if (!o->quiet && o->format == COV_FMT_JSON) print_json(out, o, g, c, p, path);
+    else if (!o->quiet) print_report(out, o, g, c, p, n_testable, path);
     int all = 1;
     for (size_t j = 0; j < p->n; j++) all &= p->items[j].reaches;
     *adequate = all;

@@ -125,7 +125,7 @@ int main(int argc, char **argv)
 {
     gsl_set_error_handler_off();
     if (argc != 7 && argc != 8) {
-        fprintf(stderr, "usage: bench_plan compare|gen N_IN N_OUT N_PAR N0 SEED [mixed]\n"
+        fprintf(stderr, "usage: bench_plan compare|time|gen N_IN N_OUT N_PAR N0 SEED [mixed]\n"
                         "  default: bool inputs feed every output; mixed: drawn like the reals\n"
                         "  gen writes GRAPH text to bench-plan.graph and runs to bench-plan.csv\n");
         return 2;
@@ -216,6 +216,12 @@ int main(int argc, char **argv)
         return 2;
     }
     double t_plan = now_s() - t0;
+    if (strcmp(argv[1], "time") == 0) {
+        printf("inputs %d outputs %d claims %zu runs %zu: assess_seconds %.3f plan_seconds %.3f "
+               "plan_auto %zu capped %d\n",
+               m.n_in, m.n_out, c->n, n0, t_assess, t_plan, p->n_configs, p->capped);
+        return 0;
+    }
 
     /* Judges and the lower bound: with half the runs at each end of a numeric treatment's domain
      * (or balanced bool groups) q^2 = n (range/2)^2 (n/4), the most n runs can hold; the largest
