@@ -19,8 +19,11 @@
 #define COV_THREEWAY_MAX_TRIPLES 2000
 /* Inputs up to which --way 0 (auto) adds 3-way coverage (issue 4). */
 #define COV_THREEWAY_AUTO_INPUTS 20
-/* Discrepancy is O(n^2 d): above this many runs it is computed on a fixed-seed subsample. */
+/* Discrepancy is O(n^2 d): above this many runs it is computed on a fixed-seed subsample; with
+ * many numeric inputs the subsample shrinks so that n^2 d / 2 stays under COV_CD_MAX_WORK (the
+ * work of 4,000 runs in 16 dimensions). */
 #define COV_CD_MAX_RUNS 4000
+#define COV_CD_MAX_WORK 1.28e8
 /* Gap points kept for the plots and the plan (issue 4). */
 #define COV_N_GAPS 20
 
@@ -192,39 +195,176 @@ static int choose_triples(pass_state *s, size_t K, unsigned long seed, int *samp
     return COV_OK;
 }
 
+/* Grouped counting. Inputs are taken two at a time; a group's code is the cell of its own pair
+ * ((na+1)(nb+1) values, missing included). One increment in the joint table of two groups counts
+ * a run for four input pairs at once, so the pass makes about K^2/8 increments per run instead of
+ * K^2/2; the pair tables are summed out of the group tables at the end. Used when every group has
+ * at most COV_GROUP_MAX_CODES codes, which keeps a joint table (4 bytes a cell) within a typical
+ * 64 KB L2 slice; otherwise each pair is counted on its own. */
+#define COV_GROUP_MAX_CODES 128
+/* Runs per block in grouped counting: codes of a block (K x 2 bytes and K/2 bytes a run) stay in
+ * L2/L3 while every group pair is counted from them. */
+#define COV_GROUP_BLOCK 16384
+
+typedef struct {
+    size_t n_groups;
+    size_t (*member)[2];   /* input positions; member[g][1] == SIZE_MAX for a lone input */
+    size_t *codes;         /* codes per group: (na+1)(nb+1), or na+1 */
+    uint32_t **joint;      /* per group pair g1 < g2: codes[g1] x codes[g2] counters */
+    uint32_t **own;        /* per group: counts of its codes (its own pair's table) */
+    uint8_t *gcode;        /* n_groups x COV_GROUP_BLOCK */
+} grouping;
+
+static void grouping_free(grouping *gr)
+{
+    size_t np = gr->n_groups * (gr->n_groups - (gr->n_groups > 0)) / 2;
+    if (gr->joint != NULL)
+        for (size_t q = 0; q < np; q++) free(gr->joint[q]);
+    if (gr->own != NULL)
+        for (size_t q = 0; q < gr->n_groups; q++) free(gr->own[q]);
+    free(gr->joint);
+    free(gr->own);
+    free(gr->member);
+    free(gr->codes);
+    free(gr->gcode);
+}
+
+/* Set up the groups; returns COV_OK with n_groups == 0 when grouping does not apply. */
+static int grouping_init(grouping *gr, const pass_state *s)
+{
+    memset(gr, 0, sizeof *gr);
+    const size_t K = s->K, G = (K + 1) / 2;
+    if (K < 4) return COV_OK;   /* too few pairs to gain anything */
+    for (size_t g = 0; g < G; g++) {
+        size_t c = s->bn[2 * g].nb + 1;
+        if (2 * g + 1 < K) c *= s->bn[2 * g + 1].nb + 1;
+        if (c > COV_GROUP_MAX_CODES) return COV_OK;
+    }
+    gr->member = malloc(G * sizeof *gr->member);
+    gr->codes = malloc(G * sizeof *gr->codes);
+    gr->joint = calloc(G * (G - 1) / 2 + 1, sizeof *gr->joint);
+    gr->own = calloc(G, sizeof *gr->own);
+    gr->gcode = malloc(G * COV_GROUP_BLOCK);
+    gr->n_groups = G;
+    if (!gr->member || !gr->codes || !gr->joint || !gr->own || !gr->gcode) return COV_ENOMEM;
+    for (size_t g = 0; g < G; g++) {
+        gr->member[g][0] = 2 * g;
+        gr->member[g][1] = 2 * g + 1 < K ? 2 * g + 1 : SIZE_MAX;
+        gr->codes[g] = (s->bn[2 * g].nb + 1) * (2 * g + 1 < K ? s->bn[2 * g + 1].nb + 1 : 1);
+        if ((gr->own[g] = calloc(gr->codes[g], sizeof **gr->own)) == NULL) return COV_ENOMEM;
+    }
+    for (size_t a = 0, q = 0; a < G; a++)
+        for (size_t b = a + 1; b < G; b++, q++)
+            if ((gr->joint[q] = calloc(gr->codes[a] * gr->codes[b], sizeof **gr->joint)) == NULL)
+                return COV_ENOMEM;
+    return COV_OK;
+}
+
+/* Position of pair (a, b), a < b, among the K (K - 1) / 2 pairs in row order. */
+static size_t pair_pos(size_t K, size_t a, size_t b) { return a * K - a * (a + 1) / 2 + (b - a - 1); }
+
+/* Sum the group tables out into the input pairs' tables. */
+static void grouping_finish(const grouping *gr, pass_state *s)
+{
+    const size_t K = s->K, G = gr->n_groups;
+    for (size_t g = 0; g < G; g++)
+        if (gr->member[g][1] != SIZE_MAX) {
+            uint32_t *pc = s->pc[pair_pos(K, gr->member[g][0], gr->member[g][1])];
+            for (size_t c = 0; c < gr->codes[g]; c++) pc[c] += gr->own[g][c];
+        }
+    for (size_t g1 = 0, q = 0; g1 < G; g1++)
+        for (size_t g2 = g1 + 1; g2 < G; g2++, q++) {
+            const uint32_t *t = gr->joint[q];
+            size_t m1 = gr->member[g1][1] == SIZE_MAX ? 1 : 2;
+            size_t m2 = gr->member[g2][1] == SIZE_MAX ? 1 : 2;
+            size_t w1 = m1 == 2 ? s->bn[gr->member[g1][1]].nb + 1 : 1;   /* code = x * w1 + y */
+            size_t w2 = m2 == 2 ? s->bn[gr->member[g2][1]].nb + 1 : 1;
+            for (size_t x = 0; x < gr->codes[g1]; x++) {
+                size_t part1[2] = {x / w1, x % w1};
+                for (size_t y = 0; y < gr->codes[g2]; y++) {
+                    uint32_t v = t[x * gr->codes[g2] + y];
+                    if (v == 0) continue;
+                    size_t part2[2] = {y / w2, y % w2};
+                    for (size_t i = 0; i < m1; i++)
+                        for (size_t j = 0; j < m2; j++) {
+                            size_t a = gr->member[g1][i], b = gr->member[g2][j];
+                            size_t stride = s->bn[b].nb + 1;
+                            s->pc[pair_pos(K, a, b)][part1[i] * stride + part2[j]] += v;
+                        }
+                }
+            }
+        }
+}
+
 /* The one pass: per block of runs, every input's bin once, then every pair's (and counted
- * triple's) cell incremented, and the numeric inputs' unit-cube values kept for later. */
-static void count_pass(const cov_data *d, const size_t *inputs, pass_state *s, uint16_t *codes)
+ * triple's) cell incremented, directly or through the groups. */
+static int count_pass(const cov_data *d, const size_t *inputs, pass_state *s)
 {
     const size_t K = s->K, n = d->n_runs;
-    for (size_t i0 = 0; i0 < n; i0 += COV_BLOCK) {
-        size_t m = n - i0 < COV_BLOCK ? n - i0 : COV_BLOCK;
+    grouping gr;
+    int rc = grouping_init(&gr, s);
+    const size_t blk = gr.n_groups > 0 ? COV_GROUP_BLOCK : COV_BLOCK;
+    uint16_t *codes = malloc((K ? K : 1) * blk * sizeof *codes);
+    if (rc != COV_OK || codes == NULL) {
+            grouping_free(&gr);
+        return COV_ENOMEM;
+    }
+    for (size_t i0 = 0; i0 < n; i0 += blk) {
+        size_t m = n - i0 < blk ? n - i0 : blk;
         for (size_t k = 0; k < K; k++) {
             const double *x = d->col[inputs[k]] + i0;
-            uint16_t *ck = codes + k * COV_BLOCK;
+            uint16_t *ck = codes + k * blk;
             const binner *b = &s->bn[k];
             for (size_t i = 0; i < m; i++) ck[i] = bin_code(b, x[i]);
         }
-        size_t p = 0;
-        for (size_t a = 0; a < K; a++) {
-            const uint16_t *ca = codes + a * COV_BLOCK;
-            for (size_t b = a + 1; b < K; b++, p++) {
-                const uint16_t *cb = codes + b * COV_BLOCK;
-                uint32_t *cnt = s->pc[p];
-                const size_t stride = s->bn[b].nb + 1;
-                for (size_t i = 0; i < m; i++) cnt[(size_t)ca[i] * stride + cb[i]]++;
+        if (gr.n_groups > 0) {
+            for (size_t g = 0; g < gr.n_groups; g++) {
+                uint8_t *gc = gr.gcode + g * COV_GROUP_BLOCK;
+                const uint16_t *ca = codes + gr.member[g][0] * blk;
+                uint32_t *own = gr.own[g];
+                if (gr.member[g][1] == SIZE_MAX) {
+                    for (size_t i = 0; i < m; i++) gc[i] = (uint8_t)ca[i];
+                } else {
+                    const uint16_t *cb = codes + gr.member[g][1] * blk;
+                    const size_t w = s->bn[gr.member[g][1]].nb + 1;
+                    for (size_t i = 0; i < m; i++) gc[i] = (uint8_t)(ca[i] * w + cb[i]);
+                }
+                for (size_t i = 0; i < m; i++) own[gc[i]]++;
+            }
+            for (size_t g1 = 0, q = 0; g1 < gr.n_groups; g1++) {
+                const uint8_t *c1 = gr.gcode + g1 * COV_GROUP_BLOCK;
+                for (size_t g2 = g1 + 1; g2 < gr.n_groups; g2++, q++) {
+                    const uint8_t *c2 = gr.gcode + g2 * COV_GROUP_BLOCK;
+                    uint32_t *t = gr.joint[q];
+                    const size_t w = gr.codes[g2];
+                    for (size_t i = 0; i < m; i++) t[c1[i] * w + c2[i]]++;
+                }
+            }
+        } else {
+            size_t p = 0;
+            for (size_t a = 0; a < K; a++) {
+                const uint16_t *ca = codes + a * blk;
+                for (size_t b = a + 1; b < K; b++, p++) {
+                    const uint16_t *cb = codes + b * blk;
+                    uint32_t *cnt = s->pc[p];
+                    const size_t stride = s->bn[b].nb + 1;
+                    for (size_t i = 0; i < m; i++) cnt[(size_t)ca[i] * stride + cb[i]]++;
+                }
             }
         }
         for (size_t t = 0; t < s->n_tri; t++) {
-            const uint16_t *ca = codes + s->tri[t][0] * COV_BLOCK;
-            const uint16_t *cb = codes + s->tri[t][1] * COV_BLOCK;
-            const uint16_t *cc = codes + s->tri[t][2] * COV_BLOCK;
+            const uint16_t *ca = codes + s->tri[t][0] * blk;
+            const uint16_t *cb = codes + s->tri[t][1] * blk;
+            const uint16_t *cc = codes + s->tri[t][2] * blk;
             const size_t sb = s->bn[s->tri[t][1]].nb + 1, sc = s->bn[s->tri[t][2]].nb + 1;
             uint32_t *cnt = s->tc[t];
             for (size_t i = 0; i < m; i++)
                 cnt[((size_t)ca[i] * sb + cb[i]) * sc + cc[i]]++;
         }
     }
+    if (gr.n_groups > 0) grouping_finish(&gr, s);
+    grouping_free(&gr);
+    return COV_OK;
 }
 
 /* Numeric inputs scaled to the unit cube, complete runs only (n_complete x n_numeric, row-major). */
@@ -254,7 +394,9 @@ static int numeric_points(const cov_graph *g, const cov_data *d, const size_t *n
 }
 
 /* Centred L2 discrepancy of the complete numeric points; a fixed-seed subsample (Algorithm S)
- * above COV_CD_MAX_RUNS runs. */
+ * above the limit. The subsample's CD^2 is compared with random points of the same number: a
+ * random subsample of a structured design looks more random than the design, so above the limit
+ * the figure mainly detects clumping and empty regions. */
 static int discrepancy(const double *pts, size_t n, size_t nn, unsigned long seed, cov_coverage *c)
 {
     c->cd_n = n;
@@ -262,12 +404,15 @@ static int discrepancy(const double *pts, size_t n, size_t nn, unsigned long see
         c->cd2 = c->cd2_random = NAN;
         return COV_OK;
     }
-    if (n <= COV_CD_MAX_RUNS) {
+    size_t limit = COV_CD_MAX_RUNS;
+    if ((double)limit * (double)limit * (double)nn / 2 > COV_CD_MAX_WORK)
+        limit = (size_t)sqrt(2 * COV_CD_MAX_WORK / (double)nn);
+    if (n <= limit) {
         c->cd2 = cov_cd2(pts, n, nn);
         c->cd2_random = cov_cd2_random(n, nn);
         return COV_OK;
     }
-    double *sub = malloc((size_t)COV_CD_MAX_RUNS * nn * sizeof *sub);
+    double *sub = malloc(limit * nn * sizeof *sub);
     gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
     if (sub == NULL || r == NULL) {
         free(sub);
@@ -276,8 +421,8 @@ static int discrepancy(const double *pts, size_t n, size_t nn, unsigned long see
     }
     gsl_rng_set(r, seed ^ 0xcd2UL);
     size_t m = 0;
-    for (size_t i = 0; i < n && m < COV_CD_MAX_RUNS; i++)
-        if ((double)(n - i) * gsl_rng_uniform(r) < (double)(COV_CD_MAX_RUNS - m))
+    for (size_t i = 0; i < n && m < limit; i++)
+        if ((double)(n - i) * gsl_rng_uniform(r) < (double)(limit - m))
             memcpy(sub + nn * m++, pts + nn * i, nn * sizeof *sub);
     c->cd2 = cov_cd2(sub, m, nn);
     c->cd2_random = cov_cd2_random(m, nn);
@@ -294,7 +439,6 @@ int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_covera
     int rc = COV_ENOMEM;
     pass_state s;
     memset(&s, 0, sizeof s);
-    uint16_t *codes = NULL;
     double *pts = NULL;
     cov_coverage *c = calloc(1, sizeof *c);
     *out = NULL;
@@ -379,9 +523,7 @@ int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_covera
         }
         c->n_triples = s.n_tri;
     }
-    codes = malloc((K ? K : 1) * COV_BLOCK * sizeof *codes);
-    if (codes == NULL) goto fail;
-    count_pass(d, c->inputs, &s, codes);
+    if (count_pass(d, c->inputs, &s) != COV_OK) goto fail;
 
     /* Marginal counts come from the pair tables' margins when there are pairs (the missing column
      * included), so the runs are read once; a lone input is counted directly. */
@@ -401,7 +543,7 @@ int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_covera
             /* Pair (k, other): k is the row when it is the smaller position. */
             size_t other = k == 0 ? 1 : 0;
             size_t a = k < other ? k : other, b = k < other ? other : k;
-            size_t p = a * K - a * (a + 1) / 2 + (b - a - 1);
+            size_t p = pair_pos(K, a, b);
             size_t sb = s.bn[b].nb + 1;
             for (size_t r = 0; r <= s.bn[a].nb; r++)
                 for (size_t q = 0; q < sb; q++) {
@@ -480,13 +622,11 @@ int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_covera
         if (rc != COV_OK) goto fail;
     }
     free(pts);
-    free(codes);
     pass_free(&s);
     *out = c;
     return COV_OK;
 fail:
     free(pts);
-    free(codes);
     pass_free(&s);
     cov_coverage_free(c);
     if (rc == COV_ENOMEM) cov_fail(err, COV_ENOMEM, "", "out of memory measuring coverage");

@@ -310,7 +310,7 @@ def main():
 
     for k in range(12):
         specs, rows = random_campaign(rng)
-        bins = int(rng.integers(3, 11))
+        bins = int(rng.integers(3, 15))   # above 10 bins the pairs are counted one by one
         m = int(rng.integers(1, 6))
         way = int(rng.choice([0, 2, 3]))
         label = "random campaign %d (%d inputs, %d runs, m=%d, bins=%d)" % (

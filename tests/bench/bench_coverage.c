@@ -1,0 +1,157 @@
+/* Benchmark of `shoal coverage` against one bare SQLite scan of the same columns, and a writer
+ * of the invented archive it runs on. See LICENSE. */
+#include <errno.h>
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#include <gsl/gsl_errno.h>
+#include <sqlite3.h>
+
+#include "coverage/internal.h"
+
+/* Median of three runs, as issue 4 asks. */
+#define REPEATS 3
+
+static volatile double sink_out;
+
+static double now(void)
+{
+    struct timespec t;
+    clock_gettime(CLOCK_MONOTONIC, &t);
+    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+static long arg(const char *s)
+{
+    char *end = NULL;
+    errno = 0;
+    long v = strtol(s, &end, 10);
+    if (errno || end == s || *end || v <= 0) {
+        fprintf(stderr, "bench_coverage: expected a positive whole number, got '%s'\n", s);
+        exit(2);
+    }
+    return v;
+}
+
+/* splitmix64 (Steele, Lea & Flood 2014): the same invented stream on every machine. */
+static uint64_t next(uint64_t *s)
+{
+    uint64_t z = (*s += 0x9E3779B97F4A7C15ULL);
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
+    return z ^ (z >> 31);
+}
+
+/* Write table runs(c1..cK) of uniform values on [0, 1000) in one transaction. */
+static int generate(const char *db_path, long rows, long cols, uint64_t seed)
+{
+    sqlite3 *db = NULL;
+    sqlite3_stmt *st = NULL;
+    size_t len = 64 + 24 * (size_t)cols;
+    char *sql = malloc(len), *ins = malloc(len);
+    size_t a = (size_t)snprintf(sql, len, "CREATE TABLE runs (");
+    size_t b = (size_t)snprintf(ins, len, "INSERT INTO runs VALUES (");
+    for (long j = 0; j < cols; j++) {
+        a += (size_t)snprintf(sql + a, len - a, "%sc%ld REAL", j ? ", " : "", j + 1);
+        b += (size_t)snprintf(ins + b, len - b, "%s?", j ? ", " : "");
+    }
+    snprintf(sql + a, len - a, ")");
+    snprintf(ins + b, len - b, ")");
+    int rc = 1;
+    if (sqlite3_open(db_path, &db) != SQLITE_OK
+        || sqlite3_exec(db, "PRAGMA journal_mode=OFF; PRAGMA synchronous=OFF;", 0, 0, 0)
+        || sqlite3_exec(db, sql, 0, 0, 0) || sqlite3_exec(db, "BEGIN", 0, 0, 0)
+        || sqlite3_prepare_v2(db, ins, -1, &st, NULL) != SQLITE_OK)
+        goto done;
+    for (long i = 0; i < rows; i++) {
+        for (long j = 0; j < cols; j++)
+            sqlite3_bind_double(st, (int)j + 1, (double)(next(&seed) >> 11) * 0x1p-53 * 1000);
+        if (sqlite3_step(st) != SQLITE_DONE) goto done;
+        sqlite3_reset(st);
+    }
+    if (sqlite3_exec(db, "COMMIT", 0, 0, 0)) goto done;
+    rc = 0;
+done:
+    if (rc) fprintf(stderr, "bench_coverage: %s\n", sqlite3_errmsg(db));
+    sqlite3_finalize(st);
+    sqlite3_close(db);
+    free(sql);
+    free(ins);
+    return rc;
+}
+
+/* The baseline: one SELECT of the columns, sqlite3_step over every row, each value read once. */
+static double bare_scan(const char *db_path, long cols)
+{
+    sqlite3 *db = NULL;
+    sqlite3_stmt *st = NULL;
+    size_t len = 64 + 16 * (size_t)cols;
+    char *sql = malloc(len);
+    size_t a = (size_t)snprintf(sql, len, "SELECT ");
+    for (long j = 0; j < cols; j++) a += (size_t)snprintf(sql + a, len - a, "%sc%ld", j ? ", " : "", j + 1);
+    snprintf(sql + a, len - a, " FROM runs");
+    double t0 = now(), sum = 0;
+    if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READONLY, NULL) != SQLITE_OK
+        || sqlite3_prepare_v2(db, sql, -1, &st, NULL) != SQLITE_OK) {
+        fprintf(stderr, "bench_coverage: %s\n", sqlite3_errmsg(db));
+        exit(1);
+    }
+    while (sqlite3_step(st) == SQLITE_ROW)
+        for (int j = 0; j < (int)cols; j++) sum += sqlite3_column_double(st, j);
+    sqlite3_finalize(st);
+    sqlite3_close(db);
+    free(sql);
+    sink_out += sum;
+    return now() - t0;
+}
+
+int main(int argc, char **argv)
+{
+    gsl_set_error_handler_off();
+    if (argc == 6 && strcmp(argv[1], "generate") == 0)
+        return generate(argv[2], arg(argv[3]), arg(argv[4]), (uint64_t)arg(argv[5]));
+    if (argc != 5 || strcmp(argv[1], "time") != 0) {
+        fprintf(stderr, "usage: bench_coverage generate ARCHIVE.db ROWS COLS SEED\n"
+                        "       bench_coverage time GRAPH ARCHIVE.db COLS\n");
+        return 2;
+    }
+    long cols = arg(argv[4]);
+    double scan[REPEATS], cmd[REPEATS];
+    cov_options o;
+    cov_options_default(&o);
+    o.graph_path = argv[2];
+    o.archive_path = argv[3];
+    o.format = COV_FMT_JSON;
+    FILE *devnull = fopen("/dev/null", "w");
+    if (devnull == NULL) return 1;
+    for (int r = 0; r < REPEATS; r++) {
+        scan[r] = bare_scan(argv[3], cols);
+        double t0 = now();
+        int adequate;
+        cov_error err;
+        int rc = cov_cmd_coverage(&o, devnull, NULL, &adequate, &err);
+        cmd[r] = now() - t0;
+        if (rc != COV_OK) {
+            fprintf(stderr, "bench_coverage: %s %s\n", err.where, err.msg);
+            return 1;
+        }
+    }
+    fclose(devnull);
+    qsort(scan, REPEATS, sizeof *scan, cmp_double);
+    qsort(cmd, REPEATS, sizeof *cmd, cmp_double);
+    printf("bare SQLite scan of %ld columns: median %.3f s (of %d)\n", cols, scan[REPEATS / 2],
+           REPEATS);
+    printf("shoal coverage (whole command):  median %.3f s (of %d)\n", cmd[REPEATS / 2], REPEATS);
+    printf("ratio %.2f (target <= 2)\n", cmd[REPEATS / 2] / scan[REPEATS / 2]);
+    return cmd[REPEATS / 2] <= 2 * scan[REPEATS / 2] ? 0 : 3;
+}
