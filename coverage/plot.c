@@ -607,6 +607,8 @@ static void row_tics(FILE *s, const cov_findings *f, const row_key *rows, size_t
         claim_label(f, it->claim, label, sizeof label);
         if (suffix_nan_mde != NULL && !isfinite(it->mde))
             strncat(label, suffix_nan_mde, sizeof label - strlen(label) - 1);
+        else if (suffix_nan_mde != NULL && !(it->mde > 0))   /* an exact fit: a log axis has no 0 */
+            strncat(label, " (MDE 0: no noise)", sizeof label - strlen(label) - 1);
         if (r) fputs(", ", s);
         cov_gp_quote_tic(s, label);
         fprintf(s, " %zu", r + 1);

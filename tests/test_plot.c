@@ -659,6 +659,18 @@ static void test_no_gnuplot(const char *tmp)
     gsl_test_int(rc, COV_ENOPLOT, "gnuplot error: cov_gp_run returns COV_ENOPLOT");
     gsl_test(strstr(err.msg, "no_such_variable_here") == NULL && strstr(err.msg, "undefined") == NULL,
              "gnuplot error: its message is passed on (%s)", err.msg);
+
+    /* With descriptors 3..9 taken, the shell cannot name one for gnuplot's messages: the failure
+     * must still be reported, by its exit status. */
+    FILE *hold[8];
+    size_t n_hold = 0;
+    while (n_hold < 8 && (hold[n_hold] = fopen("/dev/null", "r")) != NULL) n_hold++;
+    memset(&err, 0, sizeof err);
+    rc = cov_gp_run(bad, strlen(bad), NULL, &err);
+    gsl_test(rc != COV_ENOPLOT || strstr(err.msg, "exit status 1") == NULL,
+             "gnuplot error with no free low descriptor: still COV_ENOPLOT with the status (%s)",
+             err.msg);
+    for (size_t i = 0; i < n_hold; i++) fclose(hold[i]);
 }
 
 int main(void)
