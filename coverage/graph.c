@@ -140,7 +140,10 @@ static int push_token(parser *p, tok_kind kind, char *text, double num, int col)
     return COV_OK;
 }
 
-static int is_word_start(int c) { return (c >= 'A' && c <= 'Z') || (c >= 'a' && c <= 'z') || c == '_'; }
+static int is_word_start(int c)
+{
+    return (c >= 'A' && c <= 'Z') || (c >= 'a' && c <= 'z') || c == '_';
+}
 static int is_digit(int c) { return c >= '0' && c <= '9'; }
 static int is_word_char(int c) { return is_word_start(c) || is_digit(c) || c == '.'; }
 
@@ -233,8 +236,9 @@ static int lex_line(parser *p, const char *s, const char *e)
             char *end = NULL;
             errno = 0;
             double v = strtod(text, &end);
-            /* strtod also reads hexadecimal, inf and nan: the format allows decimal numbers only. */
-            if (errno != 0 || end != text + len || !isfinite(v) || strpbrk(text, "xXnNiI") != NULL) {
+            /* strtod also reads hexadecimal, inf and nan: the format has decimal numbers only. */
+            if (errno != 0 || end != text + len || !isfinite(v) ||
+                strpbrk(text, "xXnNiI") != NULL) {
                 int rc = perr(p, start_col, "found '%s', expected a decimal number", text);
                 free(text);
                 return rc;
@@ -429,7 +433,8 @@ static int take_amount(parser *p, const char *what, cov_amount *out)
     token *t = NULL;
     int rc = take_number(p, what, &t);
     if (rc) return rc;
-    if (!(t->num > 0)) return perr(p, t->col, "found %s, expected %s greater than 0", t->text, what);
+    if (!(t->num > 0))
+        return perr(p, t->col, "found %s, expected %s greater than 0", t->text, what);
     out->value = t->num;
     out->unit = COV_UNIT_RAW;
     if (is_word(peek(p), "sd")) {
@@ -513,7 +518,8 @@ static int take_levels(parser *p, cov_var *v)
             v->levels = l;
         }
         v->levels[v->n_levels] = strdup(t->text);
-        if (v->levels[v->n_levels] == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
+        if (v->levels[v->n_levels] == NULL)
+            return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
         v->n_levels++;
         if (peek(p)->kind == T_COMMA) {
             next(p);
@@ -575,7 +581,8 @@ static int parse_declaration(parser *p, cov_role role)
         hi = 1;
     } else if (role == COV_INPUT || peek(p)->kind == T_LBRACK) {
         if (role == COV_OUTPUT)
-            return expect_fail(p, peek(p), "'noise' or the end of the line (outputs take no range)");
+            return expect_fail(p, peek(p),
+                               "'noise' or the end of the line (outputs take no range)");
         rc = take_range(p, ty, &lo, &hi);
         if (rc) return rc;
     }
@@ -831,7 +838,8 @@ static int parse_edges(parser *p)
             next(p);
             have_sign = 1;
         } else if (is_word(t, "effect")) {
-            if (have_effect) return perr(p, t->col, "found a second 'effect', expected one at most");
+            if (have_effect)
+                return perr(p, t->col, "found a second 'effect', expected one at most");
             next(p);
             rc = take_amount(p, "a smallest effect of interest", &eff);
             if (rc) return rc;

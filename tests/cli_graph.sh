@@ -35,16 +35,27 @@ if [ "$rc" -eq 2 ] && grep -q "no-such.graph" "$tmp/err"; then ok "claims on a m
 else bad "claims on a missing file: exit $rc, $(cat "$tmp/err")"; fi
 "$SHOAL" claims >/dev/null 2>&1
 rc=$?
-if [ "$rc" -eq 2 ]; then ok "claims without a graph exits 2"; else bad "claims without a graph exits $rc"; fi
+if [ "$rc" -eq 2 ]; then ok "claims without a graph exits 2"
+else bad "claims without a graph exits $rc"; fi
+
+# A NUL byte is not text: exit 2 at its position.
+printf 'input x real [0, 1]\noutput \000y real\n' >"$tmp/nul.graph"
+"$SHOAL" claims "$tmp/nul.graph" >/dev/null 2>"$tmp/err"
+rc=$?
+if [ "$rc" -eq 2 ] && grep -qF "nul.graph:2:8: found a NUL byte" "$tmp/err"
+then ok "claims on a file with a NUL byte exits 2 at 2:8"
+else bad "claims on a NUL byte: exit $rc, $(cat "$tmp/err")"; fi
 
 # Good graphs: the bundled clinic example and, when present, the demo graph.
 for g in fixtures/graphs/clinic.graph fixtures/demo/triage.graph; do
   [ -f "$g" ] || { echo "SKIP: $g is not there yet"; continue; }
   "$SHOAL" claims "$g" >"$tmp/table" 2>"$tmp/err"
   rc=$?
-  if [ "$rc" -eq 0 ]; then ok "claims $g exits 0"; else bad "claims $g exits $rc: $(cat "$tmp/err")"; fi
-  if head -1 "$tmp/table" | grep -q "^kind  *treatment  *outcome  *separating set  *effect of interest  *status"
-  then ok "claims $g prints the table header"; else bad "claims $g table header: $(head -1 "$tmp/table")"; fi
+  if [ "$rc" -eq 0 ]; then ok "claims $g exits 0"
+  else bad "claims $g exits $rc: $(cat "$tmp/err")"; fi
+  hdr="^kind  *treatment  *outcome  *separating set  *effect of interest  *status"
+  if head -1 "$tmp/table" | grep -q "$hdr"; then ok "claims $g prints the table header"
+  else bad "claims $g table header: $(head -1 "$tmp/table")"; fi
   "$SHOAL" claims --json "$g" >"$tmp/json" 2>"$tmp/err"
   rc=$?
   if [ "$rc" -eq 0 ] && "$PYTHON" -c 'import json,sys; json.load(sys.stdin)' <"$tmp/json"
@@ -60,7 +71,8 @@ assert len(doc["claims"]) == len(rows) > 0, "table and JSON list different claim
 for c in doc["claims"]:
     assert c["kind"] in ("effect", "absence")
     assert isinstance(c["treatment"], str) and isinstance(c["outcome"], str)
-    assert isinstance(c["conditioning"], list) and all(isinstance(n, str) for n in c["conditioning"])
+    assert isinstance(c["conditioning"], list)
+    assert all(isinstance(n, str) for n in c["conditioning"])
     assert isinstance(c["effect_of_interest"], (int, float)) and c["effect_of_interest"] > 0
     assert c["effect_unit"] in ("raw", "sd") and c["sign"] in (-1, 0, 1)
     assert c["status"] in ("testable", "untestable")
