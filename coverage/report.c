@@ -883,10 +883,12 @@ static int cov_report_markdown(const cov_findings *f, const cov_report_info *inf
               "`--history` file given).\n\n", out);
     fputs("| round | when (UTC) | runs | ample | thin | untestable |\n|---:|---|---:|---:|---:|---:|\n",
           out);
-    for (size_t r = 0; r < info->n_rounds; r++)
-        fprintf(out, "| %zu | %s | %lld | %lld | %lld | %lld |\n", r + 1, info->rounds[r].at,
-                info->rounds[r].n_runs, info->rounds[r].n_ample, info->rounds[r].n_thin,
-                info->rounds[r].n_blind);
+    for (size_t r = 0; r < info->n_rounds; r++) {
+        fprintf(out, "| %zu | ", r + 1);
+        md_text(out, info->rounds[r].at);
+        fprintf(out, " | %lld | %lld | %lld | %lld |\n", info->rounds[r].n_runs,
+                info->rounds[r].n_ample, info->rounds[r].n_thin, info->rounds[r].n_blind);
+    }
     fputs("\n## Read with care\n\n", out);
     for (size_t k = 0; k < N_CAUTIONS; k++) fprintf(out, "- %s\n", cautions[k]);
     free(order);
