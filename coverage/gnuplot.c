@@ -56,22 +56,27 @@ static size_t utf8_len(const unsigned char *s)
     return 0;
 }
 
+/* What a literal is for: text drawn in a plot, the label of an explicit tic, or a file name. */
+enum quote_use { QUOTE_TEXT, QUOTE_TIC, QUOTE_PATH };
+
 /* gnuplot does no backquote, macro or backslash processing inside single quotes and reads '' as one
  * quote (gnuplot 5.4 manual, "Syntax" and "Substitution"), so a single-quoted literal carries any
- * text safely once line breaks are gone. Invalid UTF-8 would make the SVG output ill-formed. */
-static void quote(FILE *f, const char *s, int tic)
+ * text safely once line breaks are gone. Invalid UTF-8 in drawn text would make the SVG output
+ * ill-formed, so it is replaced; a file name keeps its bytes, since any other byte names another
+ * file (callers refuse names with control characters). */
+static void quote(FILE *f, const char *s, enum quote_use use)
 {
     fputc('\'', f);
     const unsigned char *p = (const unsigned char *)(s ? s : "");
     while (*p) {
-        size_t len = utf8_len(p);
+        size_t len = use == QUOTE_PATH ? 1 : utf8_len(p);
         if (len == 0 || *p < 0x20 || *p == 0x7F) {
             fputc('?', f);
             p++;
         } else if (*p == '\'') {
             fputs("''", f);
             p++;
-        } else if (*p == '%' && tic) {
+        } else if (*p == '%' && use == QUOTE_TIC) {
             fputs("%%", f);
             p++;
         } else {
@@ -84,14 +89,19 @@ static void quote(FILE *f, const char *s, int tic)
 
 void cov_gp_quote(FILE *f, const char *s)
 {
-    quote(f, s, 0);
+    quote(f, s, QUOTE_TEXT);
 }
 
 /* gnuplot formats the position of an explicit tic through its label, as a printf-like format
  * (gnuplot 5.4, gen_tics: "Bad format character" on a lone '%'), so '%' is doubled there. */
 void cov_gp_quote_tic(FILE *f, const char *s)
 {
-    quote(f, s, 1);
+    quote(f, s, QUOTE_TIC);
+}
+
+void cov_gp_quote_path(FILE *f, const char *s)
+{
+    quote(f, s, QUOTE_PATH);
 }
 
 /* Write s as a single-quoted shell word: POSIX sh takes everything between single quotes literally. */

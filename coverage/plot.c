@@ -274,7 +274,7 @@ static void set_output(FILE *s, const char *dir, const char *base, const char *e
     fputs("set output ", s);
     if (path != NULL) {
         snprintf(path, len, "%s%s/%s.%s", dir[0] == '/' ? "" : "./", dir, base, ext);
-        cov_gp_quote(s, path);
+        cov_gp_quote_path(s, path);
     } else {
         cov_gp_quote(s, "");   /* the write fails in gnuplot; the missing file is then reported */
     }

@@ -300,6 +300,13 @@ static void test_quote(void)
     gsl_test(t == NULL || strcmp(t, "'it''s 5%%'") != 0, "cov_gp_quote_tic doubles %% too (got %s)",
              t ? t : "(null)");
     free(t);
+    t = NULL;
+    m = open_memstream(&t, &tlen);
+    cov_gp_quote_path(m, "/tmp/it's/\xff.svg");
+    fclose(m);
+    gsl_test(t == NULL || strcmp(t, "'/tmp/it''s/\xff.svg'") != 0,
+             "cov_gp_quote_path keeps a file name's bytes, doubling the quote");
+    free(t);
     char *q = quoted(NULL);
     gsl_test(q == NULL || strcmp(q, "''") != 0, "cov_gp_quote: NULL is the empty literal");
     free(q);
@@ -696,8 +703,8 @@ int main(void)
     } else {
         test_round_trip(tmp);
         char dir[1200];
-        /* A directory whose name needs quoting, like the variables. */
-        snprintf(dir, sizeof dir, "%s/it's;dir", tmp);
+        /* A directory whose name needs quoting, like the variables, and is not UTF-8. */
+        snprintf(dir, sizeof dir, "%s/it's;dir-\xe9", tmp);
         mkdir(dir, 0700);
         test_all(dir, 0, "no plan");
         snprintf(dir, sizeof dir, "%s/planned", tmp);
