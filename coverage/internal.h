@@ -270,6 +270,9 @@ void cov_gp_quote(FILE *f, const char *s);
 /* The same for the label of an explicit tic (set xtics ('label' 1)), which gnuplot reads as a
  * format: '%' is doubled as well. */
 void cov_gp_quote_tic(FILE *f, const char *s);
+/* The same for a file name: bytes kept as they are (not checked as UTF-8), ' doubled; control
+ * characters still become '?', so callers refuse names holding them. */
+void cov_gp_quote_path(FILE *f, const char *s);
 /* Find an executable "gnuplot" on PATH; writes its path into path. 0 when found, else -1. */
 int cov_gp_find(char *path, size_t size);
 /* Run gnuplot (with -d: no init files) on the script of len bytes fed through a pipe. COV_OK when
