@@ -58,6 +58,11 @@ typedef struct {
     size_t *index_col;   /* level-set outputs: global column of the level index; SIZE_MAX */
     size_t *sample;      /* runs for diagnostics on the fast path */
     size_t n_sample;
+    double *mode_share;  /* per complete variable: share of its most common value on the sample */
+    /* Scratch reused from claim to claim: large blocks allocated afresh each time cost more in
+     * page faults than the diagnostics themselves. */
+    double *ws_y, *ws_fit, *ws_keys;
+    size_t ws_rows, ws_kk;
 } assess_ctx;
 
 static int is_recorded(const cov_data *d, size_t v)
@@ -114,6 +119,29 @@ static void ctx_free(assess_ctx *x)
     free(x->base);
     free(x->index_col);
     free(x->sample);
+    free(x->mode_share);
+    free(x->ws_y);
+    free(x->ws_fit);
+    free(x->ws_keys);
+}
+
+/* Make the scratch hold rows x kk keys. */
+static int ctx_scratch(assess_ctx *x, size_t rows, size_t kk)
+{
+    if (rows <= x->ws_rows && kk <= x->ws_kk) return COV_OK;
+    rows = rows > x->ws_rows ? rows : x->ws_rows;
+    kk = kk > x->ws_kk ? kk : x->ws_kk;
+    free(x->ws_y);
+    free(x->ws_fit);
+    free(x->ws_keys);
+    x->ws_y = malloc((rows ? rows : 1) * sizeof *x->ws_y);
+    x->ws_fit = malloc((rows ? rows : 1) * sizeof *x->ws_fit);
+    x->ws_keys = malloc((rows ? rows : 1) * (kk ? kk : 1) * sizeof *x->ws_keys);
+    x->ws_rows = x->ws_kk = 0;
+    if (x->ws_y == NULL || x->ws_fit == NULL || x->ws_keys == NULL) return COV_ENOMEM;
+    x->ws_rows = rows;
+    x->ws_kk = kk;
+    return COV_OK;
 }
 
 /* Accumulate the global centred cross-products of every recorded variable without missing cells,
@@ -151,6 +179,16 @@ static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
     }
     x->n_sample = m;
     if (K == 0 || n == 0) return COV_OK;
+    /* The share of each complete variable's most common value on the sample: the outcome check
+     * of the fast path, and a variable whose values are all distinct rules out replicates. */
+    x->mode_share = malloc(g->n_vars * sizeof *x->mode_share);
+    if (x->mode_share == NULL || ctx_scratch(x, m, 1) != COV_OK) return COV_ENOMEM;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        x->mode_share[v] = NAN;
+        if (x->base[v] == SIZE_MAX) continue;
+        for (size_t r = 0; r < m; r++) x->ws_y[r] = d->col[v][x->sample[r]];
+        if (pw_mode_share(x->ws_y, m, &x->mode_share[v]) == PW_ENOMEM) return COV_ENOMEM;
+    }
     if (pw_moments_alloc(K, &x->global) != PW_OK) return COV_ENOMEM;
     double *row = malloc(K * sizeof *row);
     if (row == NULL) return COV_ENOMEM;
@@ -299,7 +337,7 @@ static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, do
         a->mde = INFINITY;
         rc = PW_OK;
     }
-    if (rc == PW_OK) rc = pw_runs_needed(&e, &a->runs_needed);
+    if (rc == PW_OK) rc = pw_runs_needed_from(&e, a->mde, &a->runs_needed);
     if (rc != PW_OK) return rc;
     a->power_lo = a->power_hi = a->power;
     a->mde_lo = a->mde_hi = a->mde;
@@ -427,9 +465,9 @@ static void global_index(const assess_ctx *x, const layout *lay, size_t *idx)
 }
 
 /* A claim whose outcome given the treatment and separating set was fitted: everything else. */
-static int assess_fitted(const assess_ctx *x, const cov_claim *c, const layout *lay,
+static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
                          const pw_moments *m, const size_t *idx, const size_t *rows,
-                         size_t n_rows, const cov_power_options *opt, double alpha,
+                         size_t n_rows, int fast, const cov_power_options *opt, double alpha,
                          cov_assessment *a)
 {
     const cov_graph *g = x->g;
@@ -437,7 +475,7 @@ static int assess_fitted(const assess_ctx *x, const cov_claim *c, const layout *
     const cov_var *yv = &g->vars[c->outcome], *xv = &g->vars[c->treatment];
     size_t k = lay->k, t = lay->t;
     pw_xfit *fit = NULL;
-    double *yy = NULL, *fitted = NULL, *keys = NULL, *row = NULL;
+    double *yy, *fitted, *keys, *row = NULL;
     int rc = COV_ENOMEM;
     if (pw_xfit_solve(m, idx, k, t, &fit) != PW_OK) goto fail;
     double n = m->n;
@@ -525,14 +563,14 @@ static int assess_fitted(const assess_ctx *x, const cov_claim *c, const layout *
 
     /* Residual diagnostics on the diagnostic rows. */
     size_t mrows = n_rows, kk = lay->n_terms - 1;
-    yy = malloc((mrows ? mrows : 1) * sizeof *yy);
-    fitted = malloc((mrows ? mrows : 1) * sizeof *fitted);
-    keys = malloc((mrows ? mrows : 1) * (kk ? kk : 1) * sizeof *keys);
     row = malloc((k + 1) * sizeof *row);
-    if (yy == NULL || fitted == NULL || keys == NULL || row == NULL) {
+    if (row == NULL || ctx_scratch(x, mrows, kk) != COV_OK) {
         rc = COV_ENOMEM;
         goto fail;
     }
+    yy = x->ws_y;
+    fitted = x->ws_fit;
+    keys = x->ws_keys;
     for (size_t r = 0; r < mrows; r++) {
         size_t i = rows[r];
         fill_row(d, lay, i, row);
@@ -544,10 +582,19 @@ static int assess_fitted(const assess_ctx *x, const cov_claim *c, const layout *
     }
     a->n_diag = mrows;
     pw_resid_diag rd;
-    pw_lof lof;
-    int drc = pw_resid_diagnose(yy, fitted, mrows, &rd);
-    int lrc = pw_lack_of_fit(keys, kk, yy, fitted, mrows, 1.0 + (double)fit->rank, &lof);
-    if (drc == PW_ENOMEM || lrc == PW_ENOMEM) {
+    pw_lof lof = {0, 0, 0, NAN, NAN, NAN};
+    double mode_share = NAN;
+    int drc = pw_resid_diagnose(yy, fitted, mrows, &rd), lrc = PW_EFEW, mrc = PW_OK;
+    /* Replicates need every key variable to repeat a value; on the fast path a variable whose
+     * sampled values are all distinct rules them out without grouping the rows. */
+    int may_repeat = 1;
+    for (size_t j = 0; fast && j < kk; j++)
+        if (x->mode_share[lay->terms[j].var] * (double)mrows <= 1.0) may_repeat = 0;
+    if (may_repeat)
+        lrc = pw_lack_of_fit(keys, kk, yy, fitted, mrows, 1.0 + (double)fit->rank, &lof);
+    if (fast && x->index_col[c->outcome] == SIZE_MAX) mode_share = x->mode_share[c->outcome];
+    else mrc = pw_mode_share(yy, mrows, &mode_share);
+    if (drc == PW_ENOMEM || lrc == PW_ENOMEM || mrc == PW_ENOMEM) {
         rc = COV_ENOMEM;
         goto fail;
     }
@@ -564,10 +611,10 @@ static int assess_fitted(const assess_ctx *x, const cov_claim *c, const layout *
                      "misses", lof.f, lof.p, lof.groups);
         }
     }
-    if (rd.mode_share >= COV_MODE_SHARE) {
+    if (mode_share >= COV_MODE_SHARE) {
         a->noise_flag = 1;
         note_add(&a->noise_note, "one value in %.0f%% of runs: the residual SD says little about "
-                 "the noise", 100 * rd.mode_share);
+                 "the noise", 100 * mode_share);
     }
     if (rd.excess_kurtosis > COV_KURTOSIS_FLAG) {
         a->noise_flag = 1;
@@ -623,9 +670,6 @@ static int assess_fitted(const assess_ctx *x, const cov_claim *c, const layout *
     rc = COV_OK;
 fail:
     pw_xfit_free(fit);
-    free(yy);
-    free(fitted);
-    free(keys);
     free(row);
     return rc;
 }
@@ -642,7 +686,7 @@ static void assessment_init(cov_assessment *a, size_t claim)
 }
 
 /* One claim: pick the fast path or accumulate its own complete cases, then fit and size it. */
-static int assess_claim(const assess_ctx *x, const cov_claim *c, const cov_power_options *opt,
+static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_options *opt,
                         double alpha, cov_assessment *a)
 {
     const cov_graph *g = x->g;
@@ -673,7 +717,7 @@ static int assess_claim(const assess_ctx *x, const cov_claim *c, const cov_power
     if (fast) {
         global_index(x, &lay, idx);
         a->n = d->n_runs;
-        rc = assess_fitted(x, c, &lay, x->global, idx, x->sample, x->n_sample, opt, alpha, a);
+        rc = assess_fitted(x, c, &lay, x->global, idx, x->sample, x->n_sample, 1, opt, alpha, a);
         goto fail;
     }
     /* Complete cases of this claim: count them, then accumulate and sample in one more pass. */
@@ -698,7 +742,7 @@ static int assess_claim(const assess_ctx *x, const cov_claim *c, const cov_power
         pw_moments_add(local, row);
         if (sample_keep(r, &want, left--)) rows[n_rows++] = i;
     }
-    rc = assess_fitted(x, c, &lay, local, idx, rows, n_rows, opt, alpha, a);
+    rc = assess_fitted(x, c, &lay, local, idx, rows, n_rows, 0, opt, alpha, a);
 fail:
     free(lay.terms);
     free(idx);

@@ -13,24 +13,27 @@
  * at this level; below it the ratio is not computed (it needs a sort). */
 #define PW_THIRDS_P 0.05
 
-/* FNV-1a over the bytes of kk doubles, with -0 folded into +0 so equal values hash equally. */
+/* A hash of kk doubles: each 64-bit pattern (with -0 folded into +0, so equal values hash
+ * equally) mixed by the splitmix64 finaliser (Steele, Lea & Flood 2014). */
 static uint64_t key_hash(const double *key, size_t kk)
 {
-    uint64_t h = 1469598103934665603ULL;
+    uint64_t h = 0x9E3779B97F4A7C15ULL;
     for (size_t j = 0; j < kk; j++) {
         double v = key[j] == 0 ? 0.0 : key[j];
-        unsigned char b[sizeof v];
-        memcpy(b, &v, sizeof v);
-        for (size_t c = 0; c < sizeof v; c++) {
-            h ^= b[c];
-            h *= 1099511628211ULL;
-        }
+        uint64_t b;
+        memcpy(&b, &v, sizeof b);
+        h ^= b + 0x9E3779B97F4A7C15ULL + (h << 6) + (h >> 2);
+        h ^= h >> 30;
+        h *= 0xBF58476D1CE4E5B9ULL;
+        h ^= h >> 27;
+        h *= 0x94D049BB133111EBULL;
+        h ^= h >> 31;
     }
     return h;
 }
 
 /* Number the distinct rows of keys (m rows of kk values): group[i] is the group of row i, groups
- * numbered from 0 in order of first appearance. Open addressing on an FNV-1a hash. */
+ * numbered from 0 in order of first appearance. Open addressing. */
 static int group_rows(const double *keys, size_t kk, size_t m, size_t *group, size_t *n_groups)
 {
     size_t cap = 16;
@@ -67,37 +70,36 @@ static int cmp_double(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
+int pw_mode_share(const double *y, size_t m, double *share)
+{
+    *share = NAN;
+    if (m == 0) return PW_EFEW;
+    size_t *group = malloc(m * sizeof *group);
+    double *count = calloc(m, sizeof *count);
+    size_t n_groups = 0;
+    int rc = PW_ENOMEM;
+    if (group == NULL || count == NULL || group_rows(y, 1, m, group, &n_groups) != PW_OK)
+        goto fail;
+    double best = 0;
+    for (size_t i = 0; i < m; i++) {
+        count[group[i]] += 1;
+        if (count[group[i]] > best) best = count[group[i]];
+    }
+    *share = best / (double)m;
+    rc = PW_OK;
+fail:
+    free(group);
+    free(count);
+    return rc;
+}
+
 int pw_resid_diagnose(const double *y, const double *fitted, size_t m, pw_resid_diag *out)
 {
     out->excess_kurtosis = NAN;
     out->bp_lm = NAN;
     out->bp_p = NAN;
     out->third_ratio = NAN;
-    out->mode_share = NAN;
     if (m < 4) return PW_EFEW;
-    double *sorted = malloc(m * sizeof *sorted);
-    if (sorted == NULL) return PW_ENOMEM;
-
-    /* Share of the most common outcome value, by grouping equal values. */
-    size_t *group = malloc(m * sizeof *group);
-    if (group == NULL) {
-        free(sorted);
-        return PW_ENOMEM;
-    }
-    size_t n_groups = 0;
-    if (group_rows(y, 1, m, group, &n_groups) != PW_OK) {
-        free(sorted);
-        free(group);
-        return PW_ENOMEM;
-    }
-    memset(sorted, 0, m * sizeof *sorted);
-    double best = 0;
-    for (size_t i = 0; i < m; i++) {
-        sorted[group[i]] += 1;
-        if (sorted[group[i]] > best) best = sorted[group[i]];
-    }
-    free(group);
-    out->mode_share = best / (double)m;
 
     /* Moments of the residuals, two-pass about their mean. */
     double mean = 0, zbar = 0;
@@ -135,6 +137,8 @@ int pw_resid_diagnose(const double *y, const double *fitted, size_t m, pw_resid_
     if (out->bp_p < PW_THIRDS_P) {
         /* Residual variance of the highest third of fitted values against the lowest; only
          * needed to qualify a significant test, and it costs a sort. */
+        double *sorted = malloc(m * sizeof *sorted);
+        if (sorted == NULL) return PW_ENOMEM;
         memcpy(sorted, fitted, m * sizeof *sorted);
         qsort(sorted, m, sizeof *sorted, cmp_double);
         double cut1 = sorted[m / 3], cut2 = sorted[(2 * m) / 3];
@@ -154,8 +158,8 @@ int pw_resid_diagnose(const double *y, const double *fitted, size_t m, pw_resid_
             double v_lo = s_lo / (double)n_lo, v_hi = s_hi / (double)n_hi;
             out->third_ratio = v_hi > v_lo ? v_hi / v_lo : v_lo / v_hi;
         }
+        free(sorted);
     }
-    free(sorted);
     return PW_OK;
 }
 

@@ -147,15 +147,16 @@ void pw_xfit_free(pw_xfit *f);
 /* Residual diagnostics of a fit on m rows (power/diag.c): excess kurtosis of the residuals
  * y - fitted; Koenker's (1981) studentised Breusch-Pagan (1979) LM statistic with the fitted values
  * as variance regressor (chi-squared, 1 df) and its p value; the ratio (>= 1) of residual variances
- * between the highest and lowest thirds of the fitted values; the share of y taken by its most
- * common value. Fields NAN when undefined. Returns PW_OK, PW_EFEW (m < 4), PW_ENOMEM. */
+ * between the highest and lowest thirds of the fitted values (computed only when the test's p is
+ * below 0.05, else NAN). Fields NAN when undefined. Returns PW_OK, PW_EFEW (m < 4), PW_ENOMEM. */
 typedef struct {
     double excess_kurtosis;
     double bp_lm, bp_p;
     double third_ratio;
-    double mode_share;
 } pw_resid_diag;
 int pw_resid_diagnose(const double *y, const double *fitted, size_t m, pw_resid_diag *out);
+/* The share of the m values y taken by the most common one. PW_OK, PW_EFEW (m = 0), PW_ENOMEM. */
+int pw_mode_share(const double *y, size_t m, double *share);
 
 /* Pure error and the lack-of-fit F test from rows that repeat a configuration: rows with equal
  * keys (m rows of kk values, row-major) are replicates. n_coef is the fitted coefficients
@@ -232,6 +233,9 @@ int pw_mde(const pw_design *d, double *mde);
  * PW_MAX_RUNS reaches it. */
 #define PW_MAX_RUNS 1e9
 int pw_runs_needed(const pw_design *d, double *runs);
+/* The same, given the MDE at d->n (from pw_mde), which places the first guess within a run or
+ * two when df is large; mde NAN falls back to pw_runs_needed's own guess. */
+int pw_runs_needed_from(const pw_design *d, double mde, double *runs);
 
 /* ---------------------------------------------------------------------------------------------
  * Optimal-design arithmetic for planning runs (power/design.c). Matrices are row-major. */

@@ -18,9 +18,6 @@
  * finite effect or run count from any positive guess. */
 #define BRACKET_GROWTH 1.5
 #define BRACKET_MAX_STEPS 200
-/* The first bracket: Bloom's normal-theory guess is within a few percent of the exact root once
- * df exceeds about 20, so +-6% usually brackets it at once. */
-#define BRACKET_FIRST 1.06
 
 /* Treatment columns the test uses: L - 1 for a level set, otherwise 1. */
 static double treat_df(const pw_design *d)
@@ -158,17 +155,34 @@ static double power_gap(double v, void *vp)
     return p - c->d.target;
 }
 
-/* The normal-theory multiplier of Bloom (1995): (z_{1-a/s} + z_{power}) standard errors; for TOST
- * the margin needs z_{1-a} + z_{(1+power)/2} (both one-sided tests must pass). */
-static double bloom_multiplier(const pw_design *d)
+/* Bloom's (1995) multiplier, with t quantiles at df residual degrees of freedom (z when df is
+ * not positive): (t_{1-a/s} + t_{power}) standard errors; for TOST the margin needs
+ * t_{1-a} + t_{(1+power)/2} (both one-sided tests must pass at a true effect of 0). */
+static double bloom_multiplier(const pw_design *d, double df)
 {
-    if (d->test == PW_TEST_TOST)
-        return gsl_cdf_ugaussian_Qinv(d->alpha) + gsl_cdf_ugaussian_Pinv((1 + d->target) / 2);
-    double z = gsl_cdf_ugaussian_Qinv(d->alpha / d->sides) + gsl_cdf_ugaussian_Pinv(d->target);
+    double p_crit = d->test == PW_TEST_TOST ? d->alpha : d->alpha / d->sides;
+    double p_pow = d->test == PW_TEST_TOST ? (1 + d->target) / 2 : d->target;
+    double z = df > 0 ? gsl_cdf_tdist_Qinv(p_crit, df) + gsl_cdf_tdist_Pinv(p_pow, df)
+                      : gsl_cdf_ugaussian_Qinv(p_crit) + gsl_cdf_ugaussian_Pinv(p_pow);
     /* The F test of L - 1 contrasts needs a larger noncentrality; sqrt(L - 1) is a rough guess
      * that the bracket search corrects. */
     if (d->test == PW_TEST_LEVELS_F) z *= sqrt(d->n_levels - 1);
     return z;
+}
+
+/* Residual degrees of freedom at n runs (0 for the two-proportion test, which has none). */
+static double resid_df(const pw_design *d, double n)
+{
+    if (d->test == PW_TEST_TWO_PROP) return 0;
+    return n - d->n_params - treat_df(d);
+}
+
+/* Relative half-width of the first bracket around a guess from Bloom's multiplier: the guess
+ * is off by O(1/df) (the t quantiles stand in for the noncentral t), plus a floor. */
+static double first_width(const pw_design *d, double df)
+{
+    if (d->test == PW_TEST_TWO_PROP || d->test == PW_TEST_LEVELS_F || !(df > 0)) return 0.06;
+    return fmin(0.06, 2.0 / df + 1e-4);
 }
 
 /* The spread per run that turns an effect into a standardised shift: shift = effect * k sqrt(n). */
@@ -228,19 +242,21 @@ static int illinois(gap_ctx *c, double a, double ga, double b, double gb, double
 }
 
 /* Grow [lo, hi] around a guess until gap changes sign, within [floor_, cap]; the gaps at the ends
- * are returned too. Returns 1 when bracketed, 0 when even cap falls short, -1 when the floor
- * already reaches the target. */
-static int bracket(gap_ctx *c, double guess, double floor_, double cap, double *lo, double *glo,
-                   double *hi, double *ghi)
+ * are returned too. The first bracket is guess (1 -+ width); each miss moves the failing end out
+ * and quadruples the width. Returns 1 when bracketed, 0 when even cap falls short, -1 when the
+ * floor already reaches the target. */
+static int bracket(gap_ctx *c, double guess, double width, double floor_, double cap, double *lo,
+                   double *glo, double *hi, double *ghi)
 {
-    double a = fmax(floor_, fmin(guess / BRACKET_FIRST, cap));
-    double b = fmin(cap, guess * BRACKET_FIRST);
+    double a = fmax(floor_, fmin(guess * (1 - width), cap));
+    double b = fmin(cap, guess * (1 + width));
     if (b <= a) b = fmin(cap, a * BRACKET_GROWTH + 1);
     double ga = power_gap(a, c);
     for (int i = 0; ga >= 0 && i < BRACKET_MAX_STEPS; i++) {
         if (a <= floor_) return -1;
         b = a;
-        a = fmax(floor_, a / BRACKET_GROWTH);
+        width = fmin(4 * width, 0.5);
+        a = fmax(floor_, a * (1 - width));
         ga = power_gap(a, c);
     }
     if (ga >= 0) return -1;
@@ -249,7 +265,8 @@ static int bracket(gap_ctx *c, double guess, double floor_, double cap, double *
         if (b >= cap) return 0;
         a = b;
         ga = gb;
-        b = fmin(cap, b * BRACKET_GROWTH);
+        width = fmin(4 * width, BRACKET_GROWTH - 1);
+        b = fmin(cap, b * (1 + width));
         gb = power_gap(b, c);
     }
     if (gb < 0) return 0;
@@ -269,10 +286,11 @@ int pw_mde(const pw_design *d, double *mde)
     /* The largest difference two proportions can show: beyond it both are clipped. */
     double cap = d->test == PW_TEST_TWO_PROP ? 2 * fmax(d->p_base, 1 - d->p_base) : INFINITY;
     double k = shift_per_effect(d) * sqrt(d->n > 1 ? d->n : 1.0);
-    double guess = k > 0 ? bloom_multiplier(d) / k : 1.0;
+    double df = resid_df(d, d->n);
+    double guess = k > 0 ? bloom_multiplier(d, df) / k : 1.0;
     if (!(guess > 0 && isfinite(guess))) guess = 1.0;
     double lo, hi, glo, ghi;
-    int b = bracket(&c, guess, 0.0, cap, &lo, &glo, &hi, &ghi);
+    int b = bracket(&c, guess, first_width(d, df), 0.0, cap, &lo, &glo, &hi, &ghi);
     if (c.status != PW_OK) return c.status;
     if (b < 0) {   /* the target is at or below the size of the test */
         *mde = 0;
@@ -300,19 +318,33 @@ static int power_at(const pw_design *d, double n, double *p)
 
 int pw_runs_needed(const pw_design *d, double *runs)
 {
+    return pw_runs_needed_from(d, NAN, runs);
+}
+
+int pw_runs_needed_from(const pw_design *d, double mde, double *runs)
+{
     int rc = check_design(d);
     if (rc != PW_OK) return rc;
     if (!(d->target > 0 && d->target < 1) || !(d->effect > 0)) return PW_EDOM;
     /* The fewest runs that leave one residual degree of freedom. */
     double n_min = d->test == PW_TEST_TWO_PROP ? 1.0 : d->n_params + treat_df(d) + 1.0;
     gap_ctx c = {*d, 1, PW_OK};
-    /* Normal-theory guess: the shift effect k sqrt(n) reaches Bloom's multiplier. */
-    double k = shift_per_effect(d) * d->effect;
-    double guess = k > 0 ? pow(bloom_multiplier(d) / k, 2) : n_min;
+    double guess, width;
+    if (mde > 0 && isfinite(mde) && d->n > n_min && d->test != PW_TEST_TWO_PROP) {
+        /* The t, F and TOST powers depend on n through effect sqrt(n) / sigma and through df;
+         * matching the first keeps the power of the MDE at n, and df moves it by O(1/df). */
+        guess = d->n * (mde / d->effect) * (mde / d->effect);
+        width = first_width(d, fmin(resid_df(d, d->n), resid_df(d, guess)));
+    } else {
+        /* Normal-theory guess: the shift effect k sqrt(n) reaches Bloom's multiplier. */
+        double k = shift_per_effect(d) * d->effect;
+        guess = k > 0 ? pow(bloom_multiplier(d, 0) / k, 2) : n_min;
+        width = 0.06;
+    }
     if (!(guess >= n_min && isfinite(guess))) guess = n_min;
     if (guess > PW_MAX_RUNS) guess = PW_MAX_RUNS;
     double lo, hi, glo, ghi, root;
-    int b = bracket(&c, guess, n_min, PW_MAX_RUNS, &lo, &glo, &hi, &ghi);
+    int b = bracket(&c, guess, width, n_min, PW_MAX_RUNS, &lo, &glo, &hi, &ghi);
     if (c.status != PW_OK) return c.status;
     if (b < 0) {
         *runs = n_min;
@@ -322,7 +354,8 @@ int pw_runs_needed(const pw_design *d, double *runs)
         *runs = INFINITY;
         return PW_OK;
     }
-    if ((rc = illinois(&c, lo, glo, hi, ghi, RUNS_ABS_TOL, 0.0, &root)) != PW_OK) return rc;
+    if (hi - lo <= 1) root = hi;
+    else if ((rc = illinois(&c, lo, glo, hi, ghi, RUNS_ABS_TOL, 0.0, &root)) != PW_OK) return rc;
     /* Settle the integer: the smallest whole n at or above the target. The power of every test
      * here rises with n at a fixed effect and spread, near the target at least. */
     double r = fmax(n_min, ceil(root)), p;
