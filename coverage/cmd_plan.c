@@ -243,7 +243,7 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
     }
     if (width > 60) width = 60;
     fprintf(out, "%-*s  %-8s %9s %10s %9s %10s  %s\n", (int)width, "claim", "how", "runs now",
-            "power now", "runs after", "predicted", "");
+            "power now", "runs after", "predicted", "outlook");
     size_t n_assumed = 0, n_unsized = 0, n_unreach = 0, n_noise = 0;
     for (size_t j = 0; j < p->n; j++) {
         const cov_plan_claim *it = &p->items[j];
@@ -262,6 +262,10 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
         n_unreach += it->unreachable != 0;
         n_noise += it->from_noise != 0;
     }
+    if (c->n > n_testable)
+        fprintf(out, "\n%zu untestable claim%s left out: no runs can test %s (see shoal claims).\n",
+                c->n - n_testable, c->n - n_testable == 1 ? "" : "s",
+                c->n - n_testable == 1 ? "it" : "them");
     if (n_assumed > 0)
         fprintf(out, "\nassumed (not steered): %zu claim%s with an output as treatment or in the "
                      "separating set. The plan cannot set outputs, so it assumes new runs add "

@@ -75,6 +75,7 @@ typedef struct {
     int have_pd;
     double q_mul;             /* q^2 = info * q_mul (coded information to the test's q^2) */
     size_t target;            /* in the pw_aug, for steered claims */
+    int steered;
     double n_base;            /* runs the current figures rest on */
     double runs_needed;       /* assumed claims: total runs for the target */
 } claim_work;
@@ -179,7 +180,8 @@ static int cand_push(struct plan_state *st, size_t *cap, const double *vals)
 }
 
 /* The candidate set: scrambled Sobol points, the same rounded to the domain ends (corners), the
- * centre and one-at-a-time extremes, and every combination of the level sets steered claims use. */
+ * centre and one-at-a-time extremes, and every combination of the level sets that thin steered
+ * claims use. */
 static int build_candidates(struct plan_state *st, unsigned long seed)
 {
     const cov_graph *g = st->g;
@@ -251,7 +253,9 @@ static int build_candidates(struct plan_state *st, unsigned long seed)
     size_t rot = 0;
     for (size_t i = 0; i < st->c->n; i++) {
         const cov_claim *cl = &st->c->items[i];
-        if (cl->status != COV_TESTABLE) continue;
+        /* Only the claims still short of their need (the thin ones) ask for their combinations. */
+        if (cl->status != COV_TESTABLE || !st->w[i].steered || !pw_aug_active(st->aug, st->w[i].target))
+            continue;
         size_t n_lv = 0;
         for (size_t m = 0; m <= cl->n_cond; m++) {
             size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
@@ -699,6 +703,7 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
             continue;
         }
         it->mode = COV_PLAN_STEERED;
+        w->steered = 1;
         pw_aug_set_need(st->aug, w->target, need_at(st->dc, w, w->n_base));
     }
     return COV_OK;
