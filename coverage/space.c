@@ -363,6 +363,7 @@ static int count_pass(const cov_data *d, const size_t *inputs, pass_state *s)
         }
     }
     if (gr.n_groups > 0) grouping_finish(&gr, s);
+    free(codes);
     grouping_free(&gr);
     return COV_OK;
 }

@@ -53,7 +53,7 @@ static int mode_campaign(void)
     int way;
     if (scanf("%zu %zu %zu %zu %d", &K, &n, &bins, &min_runs, &way) != 5 || K > MAX_K) return 2;
     static cov_var vars[MAX_K];
-    static char names[MAX_K][8];
+    static char names[MAX_K][24];
     static double *cols[MAX_K];
     static size_t n_missing[MAX_K], n_outside[MAX_K];
     for (int l = 0; l < 64; l++) lv_names[l] = "level";

@@ -27,7 +27,7 @@ typedef struct {
     cov_var vars[32];
     double *cols[32];
     size_t n_missing[32], n_outside[32];
-    char names[32][16];
+    char names[32][32];
 } fixture;
 
 static void fx_init(fixture *f, size_t n_runs)
@@ -220,7 +220,7 @@ static void test_threeway_sampling(void)
     fixture f;
     fx_init(&f, 6);
     for (size_t v = 0; v < 25; v++) {
-        char nm[8];
+        char nm[24];
         snprintf(nm, sizeof nm, "x%zu", v);
         fx_var(&f, nm, COV_INPUT, COV_BOOL, 0, 1);
     }
@@ -314,7 +314,7 @@ static void test_gaps(void)
 {
     /* One run at the centre of [0,1]: the farthest probe is near a corner, so the fill distance is
      * just under 1/2 (probes are 4096 shifted Sobol points, spacing 2^-12). */
-    double centre = 0.5, fill, gaps[20], gd[20];
+    double centre = 0.5, fill, gaps[20 * 3], gd[20];   /* room for 20 gaps in 3-D below */
     size_t ng;
     int sub;
     int rc = cov_fill_gaps(&centre, 1, 1, 7, 20, &fill, gaps, gd, &ng, &sub);
@@ -517,7 +517,7 @@ static void test_support_numeric_and_propensity(void)
     size_t X = fx_var(&f, "X", COV_INPUT, COV_REAL, 0, 1);
     size_t S[4];
     for (size_t k = 0; k < 4; k++) {
-        char nm[8];
+        char nm[24];
         snprintf(nm, sizeof nm, "s%zu", k);
         S[k] = fx_var(&f, nm, COV_INPUT, COV_REAL, 0, 1);
     }
@@ -531,6 +531,7 @@ static void test_support_numeric_and_propensity(void)
         f.cols[B][i] = f.cols[S[1]][i] > 0.5;   /* separated by s1 */
         f.cols[Y][i] = gsl_rng_uniform(r);
     }
+    gsl_rng_free(r);
     size_t one[1] = {S[0]};
     cov_claim cl[3] = {claim_of(X, Y, one, 1), claim_of(B, Y, S, 4), claim_of(B, Y, S, 4)};
     cov_claims cs = {cl, 2};
