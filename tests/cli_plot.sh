@@ -10,7 +10,8 @@ ok() { echo "PASS: $1"; }
 bad() { echo "FAIL: $1"; fails=$((fails + 1)); }
 check() { if [ "$1" -eq 0 ]; then ok "$2"; else bad "$2"; fi; }
 tmp=$(mktemp -d) || exit 1
-trap 'rm -rf "$tmp"' EXIT
+trap '[ -n "${KEEP:-}" ] || rm -rf "$tmp"' EXIT
+[ -n "${KEEP:-}" ] && echo "note: files kept in $tmp"
 
 if ! command -v gnuplot >/dev/null 2>&1; then
   echo "SKIP: gnuplot is not on PATH (Debian: apt-get install gnuplot-nox); the plot files were not checked"
