@@ -294,6 +294,69 @@ def check_space_filling(specs, rows, res, label):
           "%s: the %d gap distances are the largest probe distances" % (label, len(got)))
 
 
+def check_command(rng):
+    """`shoal coverage --json` on an invented archive made with `shoal import`: the figures agree
+    with the brute force, an out-of-domain cell is reported, and the gates set the exit status."""
+    import json
+    import shutil
+    import tempfile
+    shoal = os.environ.get("SHOAL", os.path.join(BUILD, "shoal"))
+    if not os.path.exists(shoal):
+        print("SKIP: %s is not built" % shoal)
+        return
+    tmp = tempfile.mkdtemp(prefix="shoal-ref-coverage-")
+    try:
+        graph = os.path.join(tmp, "invented.graph")
+        with open(graph, "w") as f:
+            f.write("# invented\ninput load real [0, 10]\ninput crew integer [1, 4]\n"
+                    "input mode levels {a, b, c}\ninput rush bool\noutput delay real\n"
+                    "default effect 0.2 sd\ndefault margin 0.1 sd\n"
+                    "load -> delay\ncrew -> delay\nrush -> delay\n")
+        n = 300
+        specs = [("real", 0.0, 10.0), ("integer", 1.0, 4.0), ("levels", 3), ("bool",)]
+        rows = []
+        with open(os.path.join(tmp, "runs.csv"), "w") as f:
+            f.write("load,crew,mode,rush,delay\n")
+            for i in range(n):
+                load = float(rng.random() * 10)
+                if i == 7:
+                    load = 12.5                      # outside [0, 10]: a data error
+                crew, mode, rush = int(rng.integers(1, 5)), int(rng.integers(0, 3)), int(rng.random() < 0.3)
+                f.write("%r,%d,%s,%d,%r\n" % (load, crew, "abc"[mode], rush, float(rng.random())))
+                rows.append([load if load <= 10 else float("nan"), float(crew), float(mode), float(rush)])
+        db = os.path.join(tmp, "runs.db")
+        r = subprocess.run([shoal, "import", os.path.join(tmp, "runs.csv"), "--archive", db],
+                           capture_output=True, text=True, check=False)
+        check(r.returncode == 0, "shoal import of the invented runs: exit %d %s" % (r.returncode, r.stderr.strip()))
+        r = subprocess.run([shoal, "coverage", graph, db, "--json"], capture_output=True, text=True,
+                           check=False)
+        check(r.returncode == 0, "shoal coverage --json exits 0 without gates (got %d)" % r.returncode)
+        out = json.loads(r.stdout)
+        share2, _ = brute_tway(specs, rows, 10, 5, 2)
+        share3, _ = brute_tway(specs, rows, 10, 5, 3)
+        check(out["schema_version"] == 1 and abs(out["pairwise"]["share"] - share2) < 1e-9,
+              "shoal coverage --json: pairwise share %.6f equals brute force %.6f"
+              % (out["pairwise"]["share"], share2))
+        check(out["threeway"] is not None and abs(out["threeway"]["share"] - share3) < 1e-9,
+              "shoal coverage --json: 3-way share equals brute force (4 inputs <= 20)")
+        check(out["data_errors"]["cells_outside_domain"] == 1,
+              "shoal coverage --json: the out-of-domain load is reported as a data error")
+        claims = json.loads(subprocess.run([shoal, "claims", graph, "--json"], capture_output=True,
+                                           text=True, check=False).stdout)["claims"]
+        check(len(out["support"]) == len(claims) and
+              all(a["treatment"] == b["treatment"] for a, b in zip(out["support"], claims)),
+              "shoal coverage --json: one support entry per claim, in claim order")
+        gate = lambda *a: subprocess.run([shoal, "coverage", graph, db, "-q"] + list(a),
+                                         capture_output=True, check=False).returncode
+        check(gate("--need-pairwise", "%.6f" % max(share2 - 0.01, 0)) == 0,
+              "--need-pairwise just below the share: exit 0")
+        check(gate("--need-pairwise", "%.6f" % min(share2 + 0.01, 1)) == 1 or share2 >= 0.99,
+              "--need-pairwise just above the share: exit 1")
+        check(gate("--need-marginal", "1.5") == 2, "--need-marginal 1.5 is a usage error: exit 2")
+    finally:
+        shutil.rmtree(tmp)
+
+
 def main():
     if not os.path.exists(PROBE):
         print("SKIP: %s is not built (make check builds it)" % PROBE)
@@ -335,6 +398,12 @@ def main():
     res = parse(run_probe("campaign", campaign_text([("real", 0.0, 1.0)], rows, 10, 5, 0)))
     check(res["cd2"][2] == 1 and res["cd2"][3] == 4000,
           "4500 runs: discrepancy flagged as subsampled, on 4000 runs")
+    # More than 11 codes per input: pairs are counted one by one rather than through groups.
+    specs = [("real", 0.0, 1.0)] * 5
+    rows = [[float(v) for v in rng.random(5) ** 2] for _ in range(500)]
+    check_campaign(specs, rows, 12, 3, 2, "5 inputs at 12 bins (per-pair counting)")
+
+    check_command(rng)
     print("%d failed" % failed)
     return 1 if failed else 0
 
