@@ -4,6 +4,7 @@
 : "${BUILD:=build}" "${SHOAL:=$BUILD/shoal}"
 BENCH="$BUILD/bench/bench_plan"
 [ -x "$BENCH" ] || { echo "bench_plan: build $BENCH first (make bench)"; exit 1; }
+BENCH=$(cd "$(dirname "$BENCH")" && pwd)/$(basename "$BENCH")
 status=0
 median3() { sort -g | sed -n 2p; }
 
@@ -55,7 +56,7 @@ done
 # read, assessment of every claim and the plan), median of 3.
 dir=$(mktemp -d)
 trap 'rm -rf "$dir"' EXIT
-( cd "$dir" && "$OLDPWD/$BENCH" gen 64 16 4 120 7 >/dev/null ) || { echo "gen failed"; exit 1; }
+( cd "$dir" && "$BENCH" gen 64 16 4 120 7 >/dev/null ) || { echo "gen failed"; exit 1; }
 "$SHOAL" import "$dir/bench-plan.csv" --archive "$dir/b.db" >/dev/null || exit 1
 claims=$("$SHOAL" claims "$dir/bench-plan.graph" --csv | tail -n +2 | wc -l)
 : >"$dir/times"
