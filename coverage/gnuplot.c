@@ -1,4 +1,4 @@
-/* The gnuplot pipe: finding gnuplot on PATH, quoting user text as gnuplot literals, running a script.
+/* The gnuplot pipe: finding gnuplot on PATH, quoting user text for it, running a script.
  * See LICENSE. */
 #include <errno.h>
 #include <fcntl.h>
@@ -104,7 +104,7 @@ void cov_gp_quote_path(FILE *f, const char *s)
     quote(f, s, QUOTE_PATH);
 }
 
-/* Write s as a single-quoted shell word: POSIX sh takes everything between single quotes literally. */
+/* Write s as a single-quoted shell word: POSIX sh takes all between single quotes literally. */
 static void shell_quote(FILE *f, const char *s)
 {
     fputc('\'', f);
@@ -164,7 +164,8 @@ int cov_gp_run(const char *script, size_t len, FILE *note, cov_error *err)
     char exe[4096];
     if (cov_gp_find(exe, sizeof exe) != 0)
         return cov_fail(err, COV_ENOPLOT, "",
-                        "gnuplot was not found on PATH (install gnuplot, e.g. Debian's gnuplot-nox)");
+                        "gnuplot was not found on PATH "
+                        "(install gnuplot, e.g. Debian's gnuplot-nox)");
 
     int rc = COV_ENOPLOT;
     int fds[2] = {-1, -1};
@@ -223,7 +224,8 @@ int cov_gp_run(const char *script, size_t len, FILE *note, cov_error *err)
         fds[1] = -1;
     }
     if (gp == NULL) {
-        rc = cov_fail(err, COV_ENOPLOT, "", "could not start gnuplot (%s): %s", exe, strerror(errno));
+        rc = cov_fail(err, COV_ENOPLOT, "", "could not start gnuplot (%s): %s", exe,
+                      strerror(errno));
         goto fail;
     }
     const size_t chunk = 1 << 16;
@@ -254,8 +256,8 @@ int cov_gp_run(const char *script, size_t len, FILE *note, cov_error *err)
     }
     if (!WIFEXITED(status) || WEXITSTATUS(status) != 0 || write_failed) {
         int code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-        rc = cov_fail(err, COV_ENOPLOT, "", "gnuplot (%s) failed with exit status %d%s%s", exe, code,
-                      line[0] ? ": " : "", line);
+        rc = cov_fail(err, COV_ENOPLOT, "", "gnuplot (%s) failed with exit status %d%s%s", exe,
+                      code, line[0] ? ": " : "", line);
         goto fail;
     }
     /* Success, but gnuplot may have warned (a skipped data set, a missing font): pass it on. */

@@ -33,14 +33,15 @@
  * as hue, so the plots survive the common colour-vision deficiencies (deutan, protan, tritan) and
  * greyscale printing; shapes and dash types carry the same distinctions again. */
 #define C_AMPLE   "#2B5C9E"   /* ample: dark blue, CIE L* about 39 */
-#define C_THIN    "#E3872D"   /* thin: orange, L* about 65; blue against orange survives deutan/protan */
+#define C_THIN    "#E3872D"   /* thin: orange, L* about 65; blue against orange survives deutan and
+                                 protan vision, the lightness gap tritan vision and grey */
 #define C_RUNS    "#1E3F66"   /* archive runs: navy dots */
 #define C_PLANNED "#C8471B"   /* planned runs: vermilion open triangles, another shape and hue */
 #define C_EMPTY   "#BEBEBE"   /* empty cell: mid grey, no hue to confuse */
 #define C_FEW     "#F6DDB4"   /* cell with some runs but fewer than the minimum: pale sand */
 #define C_EDGE    "#8C8C8C"   /* cell borders */
 #define C_INK     "#222222"   /* reference lines, markers of the effect of interest */
-/* Power curves: navy, vermilion, sky, gold; L* about 25, 48, 67, 82, with distinct dashes and points. */
+/* Power curves: navy, vermilion, sky, gold; L* about 25, 48, 67, 82; distinct dashes and points. */
 static const char *const curve_colour[MAX_CURVES] = {"#1B3A6B", "#C8471B", "#5AA9D6", "#E9C46A"};
 static const int curve_dash[MAX_CURVES] = {1, 2, 4, 5};
 static const int curve_point[MAX_CURVES] = {7, 5, 9, 13};
@@ -175,15 +176,17 @@ static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
     case PLOT_PAIRS:
         snprintf(out, size,
                  "Pairwise coverage: for every pair of inputs, the share of its cells that hold at "
-                 "least %zu runs. Darker is thinner; the outlined pairs are drawn cell by cell next.",
+                 "least %zu runs. Darker is thinner; the outlined pairs are drawn cell by cell "
+                 "next.",
                  min_runs);
         return;
     case PLOT_PAIR: {
         const cov_pair *p = &f->coverage->pairs[f->coverage->worst[r.arg]];
         snprintf(out, size,
-                 "Thin pair %zu: %s by %s. Each cell shows its run count; grey cells hold no run, "
+                 "%s pair %zu: %s by %s. Each cell shows its run count; grey cells hold no run, "
                  "sand cells fewer than %zu; dots are runs%s.",
-                 r.arg + 1, var_name(f, p->a, a, sizeof a), var_name(f, p->b, b, sizeof b), min_runs,
+                 p->share < 1 ? "Thin" : "Every pair is covered;", r.arg + 1,
+                 var_name(f, p->a, a, sizeof a), var_name(f, p->b, b, sizeof b), min_runs,
                  f->n_planned ? ", triangles the planned runs" : "");
         return;
     }
@@ -194,14 +197,14 @@ static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
         return;
     case PLOT_MDE:
         snprintf(out, size,
-                 "Smallest detectable effect (dot, with its uncertainty range) beside the effect of "
-                 "interest (diamond), log scale. A claim is sized well when its dot lies left of its "
-                 "diamond.");
+                 "Smallest detectable effect (dot, with its uncertainty range) beside the effect "
+                 "of interest (diamond), log scale. A claim is sized well when its dot lies left "
+                 "of its diamond.");
         return;
     case PLOT_CURVES:
         snprintf(out, size,
-                 "Power of the thinnest claims as runs like the current ones are added; the large "
-                 "dots mark the runs each needs to reach the target%s.",
+                 "Power of the lowest-powered claims as runs like the current ones are added; the "
+                 "large dots mark the runs each needs to reach the target%s.",
                  f->n_planned ? ", the dotted line the planned runs" : "");
         return;
     }
@@ -257,7 +260,7 @@ fail:
     return cov_fail(err, COV_ENOMEM, "", "out of memory listing the plots");
 }
 
-/* ---- script pieces ------------------------------------------------------------------------- */
+/* ---- script pieces --------------------------------------------------------------------------- */
 
 static void num(FILE *s, double x)
 {
@@ -266,7 +269,8 @@ static void num(FILE *s, double x)
 }
 
 /* "set output 'DIR/BASE.EXT'". A relative dir gets "./" in front, because gnuplot reads an output
- * name starting with '|' as a command to pipe into and one starting with '~' as a home directory. */
+ * name starting with '|' as a command to pipe into and one starting with '~' as a home
+ * directory. */
 static void set_output(FILE *s, const char *dir, const char *base, const char *ext)
 {
     size_t len = strlen(dir) + strlen(base) + strlen(ext) + 8;
@@ -354,9 +358,10 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
     }
     fputs("EOD\n", s);
     start_plot(s, PLOT_H);
-    snprintf(line, sizeof line, "Pairwise coverage: share of each pair's cells with at least %zu runs",
-             c->opt.min_runs);
-    set_title(s, line, "outlined and numbered: the thinnest pairs, drawn cell by cell in the next plots");
+    snprintf(line, sizeof line, "Pairwise coverage: share of each pair's cells with at least %zu "
+             "runs", c->opt.min_runs);
+    set_title(s, line,
+              "outlined and numbered: the thinnest pairs, drawn cell by cell in the next plots");
     fputs("set size ratio -1\nset xtics scale 0 rotate by 40 right (", s);
     for (size_t i = 0; i + 1 < n; i++) {
         if (i) fputs(", ", s);
@@ -384,8 +389,8 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
              "  $outlined using ($1-%s):($2-%s):(sprintf('%%d', $3)) with labels "
              "font ',%d' tc rgb '#000000' boxed notitle\n",
              n <= MATRIX_LABEL_MAX
-                 ? ", \\\n  $pairs using 1:2:(sprintf('%.0f%%', 100*$3)):4 with labels tc rgb variable"
-                   " notitle"
+                 ? ", \\\n  $pairs using 1:2:(sprintf('%.0f%%', 100*$3)):4 with labels "
+                   "tc rgb variable notitle"
                  : "",
              /* In a large matrix the number covers its small cell, which is outlined anyway. */
              n <= MATRIX_LABEL_MAX ? "0.36" : "0", n <= MATRIX_LABEL_MAX ? "0.3" : "0",
@@ -395,7 +400,7 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
     return COV_OK;
 }
 
-/* ---- 2. the cell grid of one thin pair --------------------------------------------------------- */
+/* ---- 2. the cell grid of one thin pair ------------------------------------------------------- */
 
 /* How one input's bins sit on its axis. */
 typedef struct {
@@ -424,7 +429,8 @@ static axis_geom geometry(const cov_var *v, size_t nbins)
 }
 
 /* A reproducible number in [-1, 1) for run i on axis `axis` (splitmix64 finaliser, Steele, Lea &
- * Flood 2014), so the jitter looks random but the plots are identical from one survey to the next. */
+ * Flood 2014), so the jitter looks random but the plots are the same from one survey to the
+ * next. */
 static double jitter(size_t i, unsigned axis)
 {
     uint64_t z = (uint64_t)i * 2 + axis + 0x9E3779B97F4A7C15ULL;
@@ -538,8 +544,10 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
         covered += p->count[k] >= min_runs;
         few += p->count[k] > 0 && p->count[k] < min_runs;
     }
-    const char *name_a = var_name(f, p->a, na, sizeof na), *name_b = var_name(f, p->b, nb, sizeof nb);
-    snprintf(line, sizeof line, "Thin pair %zu: %s by %s", rank + 1, name_a, name_b);
+    const char *name_a = var_name(f, p->a, na, sizeof na);
+    const char *name_b = var_name(f, p->b, nb, sizeof nb);
+    snprintf(line, sizeof line, "%s %zu: %s by %s", p->share < 1 ? "Thin pair" : "Pair", rank + 1,
+             name_a, name_b);
     snprintf(line2, sizeof line2, "%zu of %zu cells hold at least %zu runs; %zu cells are empty",
              covered, p->na * p->nb, min_runs, p->n_empty);
     set_title(s, line, line2);
@@ -576,8 +584,8 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
                         rank, dot, runs_title);
     if (n_plan > 0)
         len += snprintf(plot + len, sizeof plot - (size_t)len,
-                        ", \\\n  $planned%zu using 1:2 with points pt 8 ps 1.3 lw 2 lc rgb '" C_PLANNED
-                        "' title '%s'", rank, plan_title);
+                        ", \\\n  $planned%zu using 1:2 with points pt 8 ps 1.3 lw 2 "
+                        "lc rgb '" C_PLANNED "' title '%s'", rank, plan_title);
     if (p->na * p->nb <= GRID_LABEL_MAX)
         snprintf(plot + len, sizeof plot - (size_t)len,
                  ", \\\n  $cells%zu using ($1-$3):($2+$4):(sprintf('%%d', $5)) with labels left "
@@ -589,7 +597,7 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
     return COV_OK;
 }
 
-/* ---- 3. power bars ------------------------------------------------------------------------------ */
+/* ---- 3. power bars --------------------------------------------------------------------------- */
 
 static int row_height(size_t rows)
 {
@@ -598,7 +606,8 @@ static int row_height(size_t rows)
 }
 
 /* ytics naming each row by its claim. */
-static void row_tics(FILE *s, const cov_findings *f, const row_key *rows, size_t n, const char *suffix_nan_mde)
+static void row_tics(FILE *s, const cov_findings *f, const row_key *rows, size_t n,
+                     const char *suffix_nan_mde)
 {
     fputs("set ytics scale 0 (", s);
     for (size_t r = 0; r < n; r++) {
@@ -639,7 +648,8 @@ static void verdict_keys(char *out, size_t size, const cov_findings *f, const ro
 static void rows_title(FILE *s, const char *what, size_t shown_n, size_t total, const char *line2)
 {
     char line[256];
-    if (shown_n < total) snprintf(line, sizeof line, "%s (the %zu worst of %zu)", what, shown_n, total);
+    if (shown_n < total)
+        snprintf(line, sizeof line, "%s (the %zu worst of %zu)", what, shown_n, total);
     else snprintf(line, sizeof line, "%s", what);
     set_title(s, line, line2);
 }
@@ -669,7 +679,8 @@ static int plot_power(FILE *s, const cov_findings *f, const char *dir)
                NULL);
     row_tics(s, f, rows, n, NULL);
     /* Room right of 1 for the value printed after each whisker. */
-    fputs("set xrange [0:1.1]\nset xtics 0, 0.1, 1 format '%.1f'\nset grid xtics lc rgb '#DDDDDD'\n", s);
+    fputs("set xrange [0:1.1]\nset xtics 0, 0.1, 1 format '%.1f'\n", s);
+    fputs("set grid xtics lc rgb '#DDDDDD'\n", s);
     fputs("set xlabel 'power: the chance the test detects the effect of interest'\n", s);
     fputs("set key below horizontal maxcols 2 height 1.5\nset errorbars small\n", s);
     fputs("set arrow 1 from ", s);
@@ -693,7 +704,7 @@ static int plot_power(FILE *s, const cov_findings *f, const char *dir)
     return COV_OK;
 }
 
-/* ---- 4. MDE beside the effect of interest ------------------------------------------------------- */
+/* ---- 4. MDE beside the effect of interest ---------------------------------------------------- */
 
 static int plot_mde(FILE *s, const cov_findings *f, const char *dir)
 {
@@ -760,8 +771,10 @@ static int plot_mde(FILE *s, const cov_findings *f, const char *dir)
     char plot[1536], keys[512];
     verdict_keys(keys, sizeof keys, f, rows, n, "points pt 7 ps 1.1", "MDE, ");
     snprintf(plot, sizeof plot,
-             "plot $mde using 2:1:($3-$2):(0) with vectors nohead lw 5 lc rgb '#DADADA' notitle, \\\n"
-             "  $mde using 3:1:4:5:6 with xerrorbars pt 7 ps 1.1 lw 1.2 lc rgb variable notitle, \\\n"
+             "plot $mde using 2:1:($3-$2):(0) with vectors nohead lw 5 lc rgb '#DADADA' "
+             "notitle, \\\n"
+             "  $mde using 3:1:4:5:6 with xerrorbars pt 7 ps 1.1 lw 1.2 lc rgb variable "
+             "notitle, \\\n"
              "  $mde using 2:1 with points pt 12 ps 1.7 lw 1.5 lc rgb '" C_INK
              "' title 'effect of interest'%s\n", keys);
     finish_plot(s, dir, "mde", h, plot);
@@ -769,7 +782,7 @@ static int plot_mde(FILE *s, const cov_findings *f, const char *dir)
     return COV_OK;
 }
 
-/* ---- 5. power over added runs -------------------------------------------------------------------- */
+/* ---- 5. power over added runs ---------------------------------------------------------------- */
 
 static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
 {
@@ -845,7 +858,8 @@ static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
     fputs("EOD\n", s);
     start_plot(s, CURVES_H);
     set_title(s, "Power of the lowest-powered claims as runs are added",
-              "assuming new runs resemble the current ones; large dots: runs needed for the target");
+              "assuming new runs resemble the current ones; "
+              "large dots: runs needed for the target");
     fprintf(s, "set xlabel 'runs added to the campaign%s'\n", log_x ? " (log scale)" : "");
     fputs("set ylabel 'power at the effect of interest'\n", s);
     if (log_x) fputs("set logscale x\nset format x '%g'\nset mxtics 10\n", s);
@@ -877,9 +891,11 @@ static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
         size_t used = strlen(label);
         double add = it->runs_needed - des[k].n;
         if (!isfinite(it->runs_needed))
-            snprintf(label + used, sizeof label - used, ": %.2f now, target out of reach", it->power);
+            snprintf(label + used, sizeof label - used, ": %.2f now, target out of reach",
+                     it->power);
         else if (add > 0)
-            snprintf(label + used, sizeof label - used, ": %.2f now, needs %.0f more", it->power, add);
+            snprintf(label + used, sizeof label - used, ": %.2f now, needs %.0f more", it->power,
+                     add);
         else
             snprintf(label + used, sizeof label - used, ": %.2f now", it->power);
         fprintf(ps, "%s$curve%zu using 1:2 with linespoints pointinterval 16 pt %d ps 1 lw 2.5 "
@@ -907,7 +923,7 @@ static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
     return rc;
 }
 
-/* ---- all of them ----------------------------------------------------------------------------------- */
+/* ---- all of them ----------------------------------------------------------------------------- */
 
 int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *err)
 {
@@ -919,10 +935,6 @@ int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *
             return cov_fail(err, COV_ENOPLOT, "",
                             "the report directory's name holds a control character, which cannot "
                             "be passed to gnuplot");
-    char exe[4096];
-    if (cov_gp_find(exe, sizeof exe) != 0)
-        return cov_fail(err, COV_ENOPLOT, "",
-                        "gnuplot was not found on PATH (install gnuplot, e.g. Debian's gnuplot-nox)");
     char *script = NULL;
     size_t len = 0;
     FILE *s = open_memstream(&script, &len);

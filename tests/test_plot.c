@@ -13,7 +13,7 @@
 
 #include "coverage/internal.h"
 
-/* ---- an invented campaign: four inputs, two outputs, names chosen to break naive quoting ------ */
+/* ---- an invented campaign: four inputs, two outputs, names chosen to break naive quoting ----- */
 
 #define N_RUNS 90
 #define N_VARS 6
@@ -218,7 +218,7 @@ static cov_findings findings(size_t n_planned)
     return f;
 }
 
-/* ---- helpers ---------------------------------------------------------------------------------- */
+/* ---- helpers --------------------------------------------------------------------------------- */
 
 static char *slurp(const char *path, size_t *len)
 {
@@ -271,7 +271,7 @@ static int file_nonempty(const char *path)
     return stat(path, &st) == 0 && st.st_size > 0;
 }
 
-/* ---- the tests ---------------------------------------------------------------------------------- */
+/* ---- the tests ------------------------------------------------------------------------------- */
 
 /* Quoting by the rule of the gnuplot 5.4 manual ("Syntax: quote marks"): in a single-quoted string
  * only '' is special. Exact expected strings, written out by hand. */
@@ -283,7 +283,8 @@ static void test_quote(void)
         {"a\nb\tc\x7f", "'a?b?c?'", "control characters replaced: no line break reaches gnuplot"},
         {"\xc3\xa9t\xc3\xa9", "'\xc3\xa9t\xc3\xa9'", "valid UTF-8 kept"},
         {"x\xff\xc0\xafy", "'x???y'", "invalid UTF-8 bytes and an overlong form replaced"},
-        {"`touch x` @GPVAL_TERM \\n", "'`touch x` @GPVAL_TERM \\n'", "backquote, macro, backslash kept"},
+        {"`touch x` @GPVAL_TERM \\n", "'`touch x` @GPVAL_TERM \\n'",
+         "backquote, macro, backslash kept"},
         {"''", "''''''", "two quotes become four inside the literal"},
     };
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
@@ -313,8 +314,8 @@ static void test_quote(void)
 }
 
 /* Round trip through gnuplot itself (the Debian gnuplot-nox 5.4 package is the reference): every
- * tricky string set as a title must come out literally in the SVG, and a backquoted command must not
- * run. */
+ * tricky string set as a label must come out literally in the SVG, and a backquoted command must
+ * not run. */
 static void test_round_trip(const char *tmp)
 {
     const char *strings[] = {"it's;\"odd\"", "<script>alert(1)</script>", "a_b^c {x} @GPVAL_TERM",
@@ -340,9 +341,11 @@ static void test_round_trip(const char *tmp)
     if (chdir(tmp) != 0) gsl_test(1, "chdir to the scratch directory");
     cov_error err = {{0}, {0}};
     int rc = cov_gp_run(script, len, NULL, &err);
-    gsl_test_int(rc, COV_OK, "gnuplot runs a script of quoted tricky strings cleanly (%s)", err.msg);
+    gsl_test_int(rc, COV_OK, "gnuplot runs a script of quoted tricky strings cleanly (%s)",
+                 err.msg);
     struct stat st;
-    gsl_test(stat("pwned-by-plot", &st) == 0, "a backquoted command in a quoted string does not run");
+    gsl_test(stat("pwned-by-plot", &st) == 0,
+             "a backquoted command in a quoted string does not run");
     if (cwd[0] && chdir(cwd) != 0) gsl_test(1, "chdir back");
     char *svg = slurp(path, NULL);
     gsl_test(svg == NULL, "gnuplot wrote the round-trip SVG");
@@ -369,7 +372,8 @@ static void test_list(void)
     int rc = cov_plot_list(&f, &p, &err);
     gsl_test_int(rc, COV_OK, "cov_plot_list succeeds");
     if (rc != COV_OK) return;
-    gsl_test_int((int)p->n, (int)N_EXPECTED, "cov_plot_list: matrix, 4 thin pairs, power, MDE, curves");
+    gsl_test_int((int)p->n, (int)N_EXPECTED,
+                 "cov_plot_list: matrix, 4 thin pairs, power, MDE, curves");
     for (size_t i = 0; i < p->n && i < N_EXPECTED; i++) {
         gsl_test(strcmp(p->items[i].name, expected[i]) != 0, "plot %zu is named %s (got %s)", i + 1,
                  expected[i], p->items[i].name);
@@ -405,9 +409,11 @@ static void test_all(const char *dir, size_t n_planned, const char *what)
     int rc = cov_plot_all(&f, dir, note, &err);
     fclose(note);
     gsl_test_int(rc, COV_OK, "%s: cov_plot_all succeeds (%s)", what, err.msg);
-    gsl_test(note_len != 0, "%s: gnuplot printed no warning (%s)", what, note_text ? note_text : "");
+    gsl_test(note_len != 0, "%s: gnuplot printed no warning (%s)", what,
+             note_text ? note_text : "");
     free(note_text);
-    int odd_seen = 0, script_seen = 0, level_seen = 0, pct_seen = 0, raw_script = 0, planned_seen = 0;
+    int odd_seen = 0, script_seen = 0, level_seen = 0, pct_seen = 0, raw_script = 0;
+    int planned_seen = 0;
     char odd_xml[64], script_xml[64];
     xml_text(NAME_ODD, odd_xml, sizeof odd_xml);
     xml_text(NAME_SCRIPT, script_xml, sizeof script_xml);
@@ -473,7 +479,8 @@ static void test_quiet_edges(const char *tmp)
     int rc = cov_plot_all(&f, dir, note, &err);
     fclose(note);
     gsl_test_int(rc, COV_OK, "edge cases: cov_plot_all succeeds (%s)", err.msg);
-    gsl_test(note_len != 0, "edge cases: gnuplot printed no warning (%s)", note_text ? note_text : "");
+    gsl_test(note_len != 0, "edge cases: gnuplot printed no warning (%s)",
+             note_text ? note_text : "");
     free(note_text);
     for (size_t i = 0; i < N_EXPECTED; i++) {
         char path[1300];
@@ -504,7 +511,8 @@ static void test_big(const char *tmp)
     static cov_claim bclaims[BIG_CLAIMS];
     static cov_assessment bitems[BIG_CLAIMS];
     for (size_t v = 0; v < BIG_VARS; v++) {
-        snprintf(names[v], sizeof names[v], v < BIG_IN ? "knob_%02zu" : "out_%zu", v < BIG_IN ? v : v - BIG_IN);
+        if (v < BIG_IN) snprintf(names[v], sizeof names[v], "knob_%02zu", v);
+        else snprintf(names[v], sizeof names[v], "out_%zu", v - BIG_IN);
         bv[v] = (cov_var){names[v], v < BIG_IN ? COV_INPUT : COV_OUTPUT, COV_REAL, 0, 1, NULL, 0,
                           1.0, 0, NAN, (int)v + 1, 1};
         for (size_t i = 0; i < BIG_RUNS; i++) cols[v][i] = uniform01() * (v % 2 ? 0.7 : 1.0);
@@ -600,7 +608,8 @@ static void test_big(const char *tmp)
                      "24 inputs, 48 claims: %s shows the 30 worst claims and says so", expected[i]);
             /* The first claims have the smallest effects, hence the lowest power: claim 0 is
              * shown, claim 47 (the largest effect, the highest power) is not. */
-            gsl_test(strstr(svg, "knob_00 -&gt; out_0") == NULL && strstr(svg, "knob_00 -> out_0") == NULL,
+            gsl_test(strstr(svg, "knob_00 -&gt; out_0") == NULL &&
+                         strstr(svg, "knob_00 -> out_0") == NULL,
                      "24 inputs, 48 claims: %s shows the weakest claim", expected[i]);
             gsl_test(strstr(svg, "knob_23 -> out_1") != NULL, "24 inputs, 48 claims: %s leaves out "
                      "the strongest claim", expected[i]);
@@ -647,13 +656,17 @@ static void test_no_gnuplot(const char *tmp)
     /* A gnuplot that fails: its status and last message line reach the error. */
     snprintf(file, sizeof file, "%s/gnuplot", fake);
     g = fopen(file, "w");
-    if (g) { fputs("#!/bin/sh\necho 'first line' >&2\necho 'fake plotter broke' >&2\nexit 3\n", g); fclose(g); }
+    if (g) {
+        fputs("#!/bin/sh\necho 'first line' >&2\necho 'fake plotter broke' >&2\nexit 3\n", g);
+        fclose(g);
+    }
     chmod(file, 0700);
     setenv("PATH", fake, 1);
     memset(&err, 0, sizeof err);
     rc = cov_plot_all(&f, out, NULL, &err);
     gsl_test_int(rc, COV_ENOPLOT, "failing gnuplot: cov_plot_all returns COV_ENOPLOT");
-    gsl_test(strstr(err.msg, "exit status 3") == NULL || strstr(err.msg, "fake plotter broke") == NULL,
+    gsl_test(strstr(err.msg, "exit status 3") == NULL ||
+                 strstr(err.msg, "fake plotter broke") == NULL,
              "failing gnuplot: the message gives its status and last line (%s)", err.msg);
 
     setenv("PATH", saved, 1);
@@ -664,7 +677,8 @@ static void test_no_gnuplot(const char *tmp)
     const char *bad = "print 1\nplot no_such_variable_here\n";
     rc = cov_gp_run(bad, strlen(bad), NULL, &err);
     gsl_test_int(rc, COV_ENOPLOT, "gnuplot error: cov_gp_run returns COV_ENOPLOT");
-    gsl_test(strstr(err.msg, "no_such_variable_here") == NULL && strstr(err.msg, "undefined") == NULL,
+    gsl_test(strstr(err.msg, "no_such_variable_here") == NULL &&
+                 strstr(err.msg, "undefined") == NULL,
              "gnuplot error: its message is passed on (%s)", err.msg);
 
     /* With descriptors 3..9 taken, the shell cannot name one for gnuplot's messages: the failure
