@@ -203,6 +203,8 @@ typedef struct {
     double *gram;      /* p * p: X'X + ridge I, kept exactly */
     double *inv;       /* p * p: its inverse, updated by Sherman-Morrison */
     size_t n_active;   /* active targets in this group */
+    size_t *tg;        /* the group's targets */
+    size_t n_tg, cap_tg;
 } aug_group;
 
 typedef struct {
@@ -238,6 +240,7 @@ void pw_aug_free(pw_aug *a)
         free(a->groups[g].cols);
         free(a->groups[g].gram);
         free(a->groups[g].inv);
+        free(a->groups[g].tg);
     }
     free(a->groups);
     free(a->targets);
@@ -269,7 +272,7 @@ int pw_aug_add_group(pw_aug *a, const size_t *cols, size_t p, const double *gram
         a->scratch = p;
     }
     aug_group gr = {p, malloc(p * sizeof(size_t)), malloc(p * p * sizeof(double)),
-                    malloc(p * p * sizeof(double)), 0};
+                    malloc(p * p * sizeof(double)), 0, NULL, 0, 0};
     if (gr.cols == NULL || gr.gram == NULL || gr.inv == NULL) goto nomem;
     memcpy(gr.cols, cols, p * sizeof *cols);
     for (size_t i = 0; i < p * p; i++) gr.gram[i] = gram != NULL ? gram[i] : 0.0;
@@ -308,6 +311,14 @@ int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, double ne
         a->cap_targets = cap;
     }
     aug_group *gr = &a->groups[group];
+    if (gr->n_tg == gr->cap_tg) {
+        size_t cap = gr->cap_tg ? 2 * gr->cap_tg : 4;
+        size_t *ng = realloc(gr->tg, cap * sizeof *ng);
+        if (ng == NULL) return PW_ENOMEM;
+        gr->tg = ng;
+        gr->cap_tg = cap;
+    }
+    gr->tg[gr->n_tg++] = a->n_targets;
     aug_target t = {group, first, k, pw_block_info(gr->inv, gr->p, first, k), need};
     a->targets[a->n_targets] = t;
     if (target_active(&t)) gr->n_active++;
@@ -341,23 +352,22 @@ int pw_aug_score(pw_aug *a, const double *row, double w, double *score)
     *score = 0.0;
     if (!(w > 0.0)) return PW_EDOM;
     double total = 0.0;
-    /* Targets are visited group by group; one product u = A^-1 x per group serves them all. */
-    size_t g_done = (size_t)-1;
-    double xu = 0.0;
-    for (size_t i = 0; i < a->n_targets; i++) {
-        aug_target *t = &a->targets[i];
-        if (!target_active(t)) continue;
-        aug_group *gr = &a->groups[t->group];
-        if (t->group != g_done) {
-            for (size_t j = 0; j < gr->p; j++) a->x[j] = row[gr->cols[j]];
-            pw_sm_direction(gr->inv, gr->p, a->x, a->u, &xu);
-            g_done = t->group;
+    /* One product u = A^-1 x per group with an active target serves all of its targets. */
+    for (size_t g = 0; g < a->n_groups; g++) {
+        aug_group *gr = &a->groups[g];
+        if (gr->n_active == 0) continue;
+        double xu = 0.0;
+        for (size_t j = 0; j < gr->p; j++) a->x[j] = row[gr->cols[j]];
+        pw_sm_direction(gr->inv, gr->p, a->x, a->u, &xu);
+        for (size_t m = 0; m < gr->n_tg; m++) {
+            aug_target *t = &a->targets[gr->tg[m]];
+            if (!target_active(t)) continue;
+            double after = pw_block_info_after(gr->inv, gr->p, t->first, t->k, a->u, xu, w);
+            double gain = after - t->info, missing = t->need - t->info;
+            if (!(gain > 0.0)) continue;
+            double cover = gain < missing ? gain / missing : 1.0;
+            total += cover * (1.0 + missing / t->need);
         }
-        double after = pw_block_info_after(gr->inv, gr->p, t->first, t->k, a->u, xu, w);
-        double gain = after - t->info, missing = t->need - t->info;
-        if (!(gain > 0.0)) continue;
-        double cover = gain < missing ? gain / missing : 1.0;
-        total += cover * (1.0 + missing / t->need);
     }
     *score = total;
     return PW_OK;
