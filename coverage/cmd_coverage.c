@@ -111,15 +111,16 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
         const cov_marginal *mg = &c->marginal[k];
         const cov_var *v = &g->vars[mg->var];
         fprintf(out, "  %-20s %.3f of %zu bins", v->name, mg->share, mg->n_bins);
-        int first = 1;
+        size_t shown = 0, short_bins = 0;
         for (size_t b = 0; b < mg->n_bins; b++) {
             if (mg->count[b] >= m) continue;
+            if (short_bins++ >= SHOW_CELLS) continue;
             char lab[96];
             bin_label(v, bins, b, lab, sizeof lab);
-            fprintf(out, "%s%s %s (%zu)", first ? "; short: " : ", ", lab,
+            fprintf(out, "%s%s %s (%zu)", shown++ ? ", " : "; short: ", lab,
                     mg->count[b] ? "thin" : "empty", mg->count[b]);
-            first = 0;
         }
+        if (short_bins > shown) fprintf(out, ", ... (%zu short bins in all)", short_bins);
         fputc('\n', out);
     }
 

@@ -17,6 +17,11 @@
 /* 3-way counting costs runs x triples increments and cells of memory: above this many triples
  * (C(20, 3) = 1140 is the default limit's count) a fixed-seed random sample of them is counted. */
 #define COV_THREEWAY_MAX_TRIPLES 2000
+/* Counter cells (4 bytes each) allowed for the 3-way tables and for the 2-way tables: 400 MB and
+ * 1 GB. Many inputs with many bins (--bins up to 1000) would otherwise exhaust memory; beyond the
+ * 3-way limit fewer triples are sampled, beyond the 2-way limit the user is asked for fewer bins. */
+#define COV_THREEWAY_MAX_CELLS 1e8
+#define COV_PAIR_MAX_CELLS 2.5e8
 /* Inputs up to which --way 0 (auto) adds 3-way coverage (issue 4). */
 #define COV_THREEWAY_AUTO_INPUTS 20
 /* Discrepancy is O(n^2 d): above this many runs it is computed on a fixed-seed subsample; with
@@ -167,6 +172,16 @@ static int choose_triples(pass_state *s, size_t K, unsigned long seed, int *samp
 {
     size_t total = K < 3 ? 0 : K * (K - 1) * (K - 2) / 6;
     size_t want = total <= COV_THREEWAY_MAX_TRIPLES ? total : COV_THREEWAY_MAX_TRIPLES;
+    /* The largest table a triple can need bounds how many fit in COV_THREEWAY_MAX_CELLS. */
+    double top[3] = {0, 0, 0};
+    for (size_t k = 0; k < K; k++) {
+        double c = (double)(s->bn[k].nb + 1);
+        if (c > top[0]) top[2] = top[1], top[1] = top[0], top[0] = c;
+        else if (c > top[1]) top[2] = top[1], top[1] = c;
+        else if (c > top[2]) top[2] = c;
+    }
+    double fit = COV_THREEWAY_MAX_CELLS / (top[0] * top[1] * top[2]);
+    if ((double)want > fit) want = (size_t)fit;
     *sampled = want < total;
     s->n_tri = 0;
     if (want == 0) return COV_OK;
@@ -501,6 +516,15 @@ int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_covera
     /* Counters: one per pair, and per counted triple. */
     s.n_pairs = K < 2 ? 0 : K * (K - 1) / 2;
     c->n_pairs = s.n_pairs;
+    double pair_cells = 0;
+    for (size_t a = 0; a < K; a++)
+        for (size_t b = a + 1; b < K; b++)
+            pair_cells += (double)(s.bn[a].nb + 1) * (double)(s.bn[b].nb + 1);
+    if (pair_cells > COV_PAIR_MAX_CELLS) {
+        rc = cov_fail(err, COV_EINPUT, "", "%zu inputs at %zu bins need %.3g pair cells (limit "
+                      "%.3g): use fewer --bins", K, opt->bins, pair_cells, COV_PAIR_MAX_CELLS);
+        goto fail;
+    }
     s.pc = calloc(s.n_pairs ? s.n_pairs : 1, sizeof *s.pc);
     c->pairs = calloc(s.n_pairs ? s.n_pairs : 1, sizeof *c->pairs);
     c->worst = malloc((s.n_pairs ? s.n_pairs : 1) * sizeof *c->worst);
