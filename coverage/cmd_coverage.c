@@ -149,7 +149,8 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
                 c->threeway_share, c->n_triples,
                 c->threeway_sampled ? " (a fixed-seed sample of all triples)" : "");
     else
-        fprintf(out, "3-way coverage: not measured (more than 20 inputs; ask with --way 3)\n");
+        fprintf(out, "3-way coverage: not measured (more than 20 inputs: ask with --way 3; or too "
+                "many bins for 3-way tables)\n");
 
     fprintf(out, "\nspace filling of the %zu numeric inputs (%zu complete runs):\n", c->n_numeric,
             c->n_complete);
