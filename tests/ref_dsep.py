@@ -158,7 +158,11 @@ def check_graph(idx, tmp, rng, n):
     independent = rng.random() < 0.4
     path = os.path.join(tmp, "g%03d.graph" % idx)
     order, effects = write_graph(path, rng, edges, names, role, decl, independent)
-    res = subprocess.run([shoal, "claims", "--json", path], capture_output=True, text=True)
+    try:
+        res = subprocess.run([shoal, "claims", "--json", path], capture_output=True, text=True)
+    except OSError as e:
+        fail("%s: cannot run %s: %s" % (path, shoal, e))
+        return
     if res.returncode != 0:
         fail("%s: exit %d: %s" % (path, res.returncode, res.stderr.strip()))
         return
