@@ -1,7 +1,7 @@
 #!/bin/sh
 # `shoal claims` through the command line: each bad graph in fixtures/graphs exits 2 naming
 # file:line:column, and good graphs list their claims as a table, CSV and JSON. See LICENSE.
-#
+
 # Each fixtures/graphs/bad_*.graph starts with "# expect: LINE:COL TEXT": the position and a piece
 # of the message, written by hand from the format's rules (README.md, "The graph file"). The JSON
 # is checked with Python's json module (the reference parser of RFC 8259 text here).

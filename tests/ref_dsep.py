@@ -1,6 +1,6 @@
 # Cross-check of `shoal claims --json` against networkx 2.8.8 (nx.d_separated) on random DAGs.
 # See LICENSE.
-#
+
 # Source of truth: networkx 2.8.8 `d_separated` (Debian python3-networkx), which tests
 # d-separation by pruning leaves and checking weak connectivity (Darwiche 2009). The claim
 # definitions checked here are those of README.md "Claims". Every comparison is exact (sets and

@@ -1,7 +1,7 @@
 #!/bin/sh
 # Benchmark of the graph area: parsing a large graph file and deriving every claim of a large
 # graph, each the median of 5 runs against a target. See LICENSE.
-#
+
 # Targets (why): a 5,000-variable, 15,000-edge file parses in under 1 s, so the parser is never
 # what a user waits for; the claims of an invented 300-variable, 900-edge graph (about 32,000
 # claims, far beyond a hand-written model) are derived and printed as JSON in under 2 s.
