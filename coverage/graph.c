@@ -845,6 +845,12 @@ static int parse_edges(parser *p)
             if (rc) return rc;
             have_effect = 1;
         } else {
+            static const char *const notes[] = {"expect", "effect"};
+            const char *near = t->kind == T_WORD ? nearest(t->text, notes, 2, sizeof notes[0])
+                                                 : NULL;
+            if (near != NULL)
+                return perr(p, t->col, "found the unknown word '%s', expected 'expect', 'effect' "
+                            "or the end of the line; did you mean '%s'?", t->text, near);
             return expect_fail(p, t, "'->', ',', 'expect', 'effect' or the end of the line");
         }
     }

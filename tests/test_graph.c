@@ -247,6 +247,7 @@ static const struct bad_case bad_cases[] = {
     {"zero effect", DECL_XY "x -> y effect 0\n", "5:15", "greater than 0"},
     {"negative effect", DECL_XY "x -> y effect -0.5\n", "5:15", "greater than 0"},
     {"trailing word after an edge", DECL_XY "x -> y sometimes\n", "5:8", "'sometimes'"},
+    {"misspelt annotation", DECL_XY "x -> y efect 2\n", "5:8", "did you mean 'effect'?"},
     {"two effects", DECL_XY "x -> y effect 1 effect 2\n", "5:17", "second 'effect'"},
     {"name without an arrow", DECL_XY "x y\n", "5:3", "'->' or ','"},
     {"arrow without a target", DECL_XY "x ->\n", "5:5", "after '->'"},
