@@ -156,6 +156,14 @@ static int move_into_place(const char *tmp, const char *dir, cov_error *err)
 
 /* ---- the terminal verdict -------------------------------------------------------------------- */
 
+/* Write user text to the terminal with control characters shown as '?', so that a name in the
+ * graph cannot move the cursor or change the terminal's state. */
+static void term_text(FILE *out, const char *s)
+{
+    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++)
+        fputc(*p < 0x20 || *p == 0x7f ? '?' : *p, out);
+}
+
 static const char *verdict_colour(cov_verdict v)
 {
     return v == COV_AMPLE ? C_AMPLE : v == COV_THIN ? C_THIN : C_BLIND;
@@ -175,8 +183,11 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
     int col = o->color;
     long long count[3] = {0, 0, 0};
     for (size_t i = 0; i < f->claims->n; i++) count[f->assess->items[i].verdict]++;
-    fprintf(out, "%sshoal survey%s %s on %s: %zu runs in %zu batch%s\n", col ? C_BOLD : "",
-            col ? C_RESET : "", g->path, o->archive_path, f->data->n_runs, f->data->n_batches,
+    fprintf(out, "%sshoal survey%s ", col ? C_BOLD : "", col ? C_RESET : "");
+    term_text(out, g->path);
+    fputs(" on ", out);
+    term_text(out, o->archive_path);
+    fprintf(out, ": %zu runs in %zu batch%s\n", f->data->n_runs, f->data->n_batches,
             f->data->n_batches == 1 ? "" : "es");
     fprintf(out, "claims: %zu  %s%lld ample%s  %s%lld thin%s  %s%lld untestable%s\n", f->claims->n,
             col ? C_AMPLE : "", count[COV_AMPLE], col ? C_RESET : "", col ? C_THIN : "",
@@ -212,9 +223,11 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
                 continue;
             }
             if (shown++ == 0) fputs("\nthinnest first:\n", out);
-            fprintf(out, "  %s%-10s%s %s %s %s", col ? verdict_colour(a->verdict) : "",
-                    cov_verdict_word(a->verdict), col ? C_RESET : "", g->vars[c->treatment].name,
-                    c->kind == COV_CLAIM_EFFECT ? "->" : "_||_", g->vars[c->outcome].name);
+            fprintf(out, "  %s%-10s%s ", col ? verdict_colour(a->verdict) : "",
+                    cov_verdict_word(a->verdict), col ? C_RESET : "");
+            term_text(out, g->vars[c->treatment].name);
+            fputs(c->kind == COV_CLAIM_EFFECT ? " -> " : " _||_ ", out);
+            term_text(out, g->vars[c->outcome].name);
             /* The assessment's reason already gives power and runs needed; say them here only
              * when it is silent. */
             if (a->verdict == COV_THIN && a->reason == NULL) {
@@ -227,17 +240,28 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
             }
             const char *why = a->reason ? a->reason : c->reason;
             if (why == NULL && f->support->items[i].reason) why = f->support->items[i].reason;
-            fprintf(out, "\n             %s\n", why ? why : "");
+            fputs("\n             ", out);
+            term_text(out, why);
+            fputc('\n', out);
         }
         if (left > 0) fprintf(out, "  ... and %zu more in the report\n", left);
         free(order);
     }
-    if (info->plot_note) fprintf(out, "\nplots skipped: %s\n", info->plot_note);
-    fprintf(out, "\nreport: %s/index.html (also report.md, summary.json, claims.csv)\n", dir);
-    if (info->store == COV_HISTORY_NONE)
+    if (info->plot_note) {
+        fputs("\nplots skipped: ", out);
+        term_text(out, info->plot_note);
+        fputc('\n', out);
+    }
+    fputs("\nreport: ", out);
+    term_text(out, dir);
+    fputs("/index.html (also report.md, summary.json, claims.csv)\n", out);
+    if (info->store == COV_HISTORY_NONE) {
         fputs("history: not kept (the archive is not shoal's own; --history FILE keeps it)\n", out);
-    else
-        fprintf(out, "history: round %zu, kept in %s\n", info->n_rounds, info->history_path);
+    } else {
+        fprintf(out, "history: round %zu, kept in ", info->n_rounds);
+        term_text(out, info->history_path);
+        fputc('\n', out);
+    }
 }
 
 /* ---- the command ----------------------------------------------------------------------------- */
@@ -384,6 +408,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
 
     if (!o.quiet) {
         if (o.format == COV_FMT_JSON) cov_report_summary_json(&f, &info, out);
+        else if (o.format == COV_FMT_CSV) cov_report_claims_csv(&f, out);
         else print_verdict(&f, &info, dir, out);
     }
     *adequate = info.adequate;

@@ -233,6 +233,8 @@ int cov_report_write(const cov_findings *f, const cov_report_info *info, const c
                      cov_error *err);
 /* summary.json alone, to any stream (`shoal survey --json` prints it to stdout). */
 void cov_report_summary_json(const cov_findings *f, const cov_report_info *info, FILE *out);
+/* claims.csv alone, to any stream (`shoal survey --csv`). */
+void cov_report_claims_csv(const cov_findings *f, FILE *out);
 /* Ordering of claims for the terminal and the report: thin first by rising power, then
  * untestable, then ample by rising power. Fills order (f->claims->n entries). */
 void cov_report_order(const cov_findings *f, size_t *order);

@@ -338,7 +338,7 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
 
 /* ---- claims.csv ------------------------------------------------------------------------------ */
 
-static void write_csv(FILE *out, const cov_findings *f)
+void cov_report_claims_csv(const cov_findings *f, FILE *out)
 {
     fputs("index,kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,"
           "steerable,verdict,n,power,power_lo,power_hi,mde,effect_raw,runs_needed,why\n", out);
@@ -926,7 +926,7 @@ int cov_report_write(const cov_findings *f, const cov_report_info *info, const c
     if ((rc = close_checked(out, dir, "summary.json", err)) != COV_OK) return rc;
 
     if ((out = open_in(dir, "claims.csv", err, &rc)) == NULL) return rc;
-    write_csv(out, f);
+    cov_report_claims_csv(f, out);
     if ((rc = close_checked(out, dir, "claims.csv", err)) != COV_OK) return rc;
 
     /* A test hook: fail halfway through, to check that no half-written report is left behind. */

@@ -78,6 +78,9 @@ rc=$?
 "$PYTHON" -c 'import json,sys; d=json.load(open(sys.argv[1])); e=json.load(open(sys.argv[2])); assert d["counts"]==e["counts"]' \
   "$tmp/json" "$tmp/r-json/summary.json" 2>/dev/null
 check $([ $? -eq 0 ] && [ "$rc" -eq 1 ]; echo $?) "--json prints summary.json on stdout and keeps exit 1"
+"$SHOAL" survey "$demo_graph" "$tmp/demo.db" -o "$tmp/r-csv" --csv >"$tmp/csv" 2>/dev/null
+rc=$?
+check $([ "$rc" -eq 1 ] && cmp -s "$tmp/csv" "$tmp/r-csv/claims.csv"; echo $?) "--csv prints claims.csv on stdout and keeps exit 1"
 "$SHOAL" survey "$demo_graph" "$tmp/demo.db" -o "$tmp/r-quiet" --quiet >"$tmp/out" 2>"$tmp/err"
 rc=$?
 check $([ "$rc" -eq 1 ] && [ ! -s "$tmp/out" ] && [ ! -s "$tmp/err" ]; echo $?) "--quiet prints nothing and still exits 1"
