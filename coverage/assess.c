@@ -59,6 +59,11 @@ typedef struct {
     size_t *sample;      /* runs for diagnostics on the fast path */
     size_t n_sample;
     double *mode_share;  /* per complete variable: share of its most common value on the sample */
+    /* The sampled runs of every complete variable, gathered once into short contiguous columns
+     * (rows 0 .. n_sample - 1): the diagnostics of each claim then read memory in order instead of
+     * jumping through million-row columns. */
+    cov_data sampled;
+    size_t *sample_ids;  /* 0 .. n_sample - 1 */
     /* Scratch reused from claim to claim: large blocks allocated afresh each time cost more in
      * page faults than the diagnostics themselves. */
     double *ws_y, *ws_fit, *ws_keys;
@@ -120,6 +125,10 @@ static void ctx_free(assess_ctx *x)
     free(x->index_col);
     free(x->sample);
     free(x->mode_share);
+    if (x->sampled.col != NULL)
+        for (size_t v = 0; v < x->sampled.n_vars; v++) free(x->sampled.col[v]);
+    free(x->sampled.col);
+    free(x->sample_ids);
     free(x->ws_y);
     free(x->ws_fit);
     free(x->ws_keys);
@@ -182,12 +191,19 @@ static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
     /* The share of each complete variable's most common value on the sample: the outcome check
      * of the fast path, and a variable whose values are all distinct rules out replicates. */
     x->mode_share = malloc(g->n_vars * sizeof *x->mode_share);
-    if (x->mode_share == NULL || ctx_scratch(x, m, 1) != COV_OK) return COV_ENOMEM;
+    x->sampled.col = calloc(g->n_vars, sizeof *x->sampled.col);
+    x->sample_ids = malloc(m * sizeof *x->sample_ids);
+    if (x->mode_share == NULL || x->sampled.col == NULL || x->sample_ids == NULL) return COV_ENOMEM;
+    x->sampled.n_vars = g->n_vars;
+    x->sampled.n_runs = m;
+    for (size_t r = 0; r < m; r++) x->sample_ids[r] = r;
     for (size_t v = 0; v < g->n_vars; v++) {
         x->mode_share[v] = NAN;
         if (x->base[v] == SIZE_MAX) continue;
-        for (size_t r = 0; r < m; r++) x->ws_y[r] = d->col[v][x->sample[r]];
-        if (pw_mode_share(x->ws_y, m, &x->mode_share[v]) == PW_ENOMEM) return COV_ENOMEM;
+        double *sc = x->sampled.col[v] = malloc(m * sizeof *sc);
+        if (sc == NULL) return COV_ENOMEM;
+        for (size_t r = 0; r < m; r++) sc[r] = d->col[v][x->sample[r]];
+        if (pw_mode_share(sc, m, &x->mode_share[v]) == PW_ENOMEM) return COV_ENOMEM;
     }
     if (pw_moments_alloc(K, &x->global) != PW_OK) return COV_ENOMEM;
     double *row = malloc(K * sizeof *row);
@@ -466,12 +482,11 @@ static void global_index(const assess_ctx *x, const layout *lay, size_t *idx)
 
 /* A claim whose outcome given the treatment and separating set was fitted: everything else. */
 static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
-                         const pw_moments *m, const size_t *idx, const size_t *rows,
-                         size_t n_rows, int fast, const cov_power_options *opt, double alpha,
-                         cov_assessment *a)
+                         const pw_moments *m, const size_t *idx, const cov_data *d,
+                         const size_t *rows, size_t n_rows, int fast,
+                         const cov_power_options *opt, double alpha, cov_assessment *a)
 {
     const cov_graph *g = x->g;
-    const cov_data *d = x->d;
     const cov_var *yv = &g->vars[c->outcome], *xv = &g->vars[c->treatment];
     size_t k = lay->k, t = lay->t;
     pw_xfit *fit = NULL;
@@ -717,7 +732,8 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
     if (fast) {
         global_index(x, &lay, idx);
         a->n = d->n_runs;
-        rc = assess_fitted(x, c, &lay, x->global, idx, x->sample, x->n_sample, 1, opt, alpha, a);
+        rc = assess_fitted(x, c, &lay, x->global, idx, &x->sampled, x->sample_ids, x->n_sample, 1,
+                           opt, alpha, a);
         goto fail;
     }
     /* Complete cases of this claim: count them, then accumulate and sample in one more pass. */
@@ -742,7 +758,7 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
         pw_moments_add(local, row);
         if (sample_keep(r, &want, left--)) rows[n_rows++] = i;
     }
-    rc = assess_fitted(x, c, &lay, local, idx, rows, n_rows, 0, opt, alpha, a);
+    rc = assess_fitted(x, c, &lay, local, idx, d, rows, n_rows, 0, opt, alpha, a);
 fail:
     free(lay.terms);
     free(idx);
