@@ -69,7 +69,7 @@ static problems count_problems(const cov_graph *g, const cov_data *d)
     return p;
 }
 
-static void print_table(const cov_options *o, const cov_graph *g, cov_archive *a,
+static void print_table(const cov_graph *g, cov_archive *a,
                         const cov_data *d, const cov_batch *b, size_t nb, problems p, FILE *out)
 {
     fprintf(out, "archive   %s (table %s%s)\n", cov_archive_path(a), cov_archive_table(a),
@@ -139,7 +139,6 @@ static void print_table(const cov_options *o, const cov_graph *g, cov_archive *a
         fprintf(out, " %zu recorded variable%s ha%s no values at all", p.vars_empty,
                 p.vars_empty == 1 ? "" : "s", p.vars_empty == 1 ? "s" : "ve");
     fputc('\n', out);
-    (void)o;
 }
 
 static void print_json(const cov_graph *g, cov_archive *a, const cov_data *d, const cov_batch *b,
@@ -160,8 +159,23 @@ static void print_json(const cov_graph *g, cov_archive *a, const cov_data *d, co
         fprintf(out, "%s\n    {\"name\": ", first ? "" : ",");
         first = 0;
         cov_emit_json_string(out, var->name);
-        fprintf(out, ", \"role\": \"%s\", \"type\": \"%s\", \"missing\": %zu, ",
-                role_word(var->role), type_word(var->type), d->n_missing[v]);
+        fprintf(out, ", \"role\": \"%s\", \"type\": \"%s\", ", role_word(var->role),
+                type_word(var->type));
+        if (var->type == COV_LEVELS) {
+            fprintf(out, "\"levels\": [");
+            for (size_t k = 0; k < var->n_levels; k++) {
+                if (k) fprintf(out, ", ");
+                cov_emit_json_string(out, var->levels[k]);
+            }
+            fprintf(out, "], ");
+        } else if (var->role == COV_INPUT && isfinite(var->lo) && isfinite(var->hi)) {
+            fprintf(out, "\"domain\": [");
+            cov_emit_json_number(out, var->lo);
+            fprintf(out, ", ");
+            cov_emit_json_number(out, var->hi);
+            fprintf(out, "], ");
+        }
+        fprintf(out, "\"missing\": %zu, ", d->n_missing[v]);
         if (var->role == COV_INPUT) fprintf(out, "\"outside\": %zu, ", d->n_outside[v]);
         fprintf(out, "\"examples\": [");
         int fe = 1;
@@ -224,7 +238,7 @@ int cov_cmd_check(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     if (o->quiet) goto done;
     if (o->format == COV_FMT_JSON) print_json(g, a, d, b, nb, p, out);
     else if (o->format == COV_FMT_CSV) print_csv(g, d, out);
-    else print_table(o, g, a, d, b, nb, p, out);
+    else print_table(g, a, d, b, nb, p, out);
 done:
     cov_batches_free(b, nb);
     cov_data_free(d);

@@ -15,9 +15,9 @@
 /* Report progress this often: often enough to move a bar, rarely enough to cost nothing. */
 #define PROGRESS_EVERY_ROWS 65536
 /* Rows gathered row-major before they are copied into the columns: writing 80 columns a cell at a
- * time defeats the processor's store prefetch, while a block of 256 rows (160 KiB for 80 columns)
+ * time defeats the processor's store prefetch, while a block of 64 rows (40 KiB for 80 columns)
  * stays in cache and is copied out one column at a time. */
-#define STAGE_ROWS 256
+#define STAGE_ROWS 64
 /* First guess at the run count when the table's rowids say nothing useful. */
 #define START_CAPACITY 1024
 
