@@ -16,6 +16,14 @@
 /* Terms on each side of the Poisson mode before giving up. The weights have SD sqrt(lambda / 2);
  * nine SDs reach 1e-18 of the mass, so 2e5 terms serve lambda up to about 1e9. */
 #define NCB_MAX_TERMS 200000
+/* From this half-noncentrality on, the weights beyond FAR_SDS standard deviations of the Poisson
+ * mode hold less than DBL_MIN: with sqrt(L) >= 1000, Bennett's inequality gives
+ * P(|J - L| >= 40 sqrt L) <= 2 exp(-800 / (1 + 40 / (3 sqrt L))) < 1e-340 (Boucheron, Lugosi &
+ * Massart 2013, sec. 2.7). A tail whose incomplete beta is already negligible at that distance is
+ * then settled without summing out to where the weights underflow, which for L near 1e8 would
+ * take more terms than NCB_MAX_TERMS. */
+#define FAR_MIN_L 1e6
+#define FAR_SDS 40.0
 /* The continued fraction stops when a step changes it by under one ulp. */
 #define BETA_CF_EPS DBL_EPSILON
 /* Guard against a zero denominator in Lentz's method (Press et al. 2007, sec. 5.2). */
@@ -28,6 +36,13 @@
 /* Stirling's series for the log-gamma remainder is used above this argument; below it the
  * remainder is taken from lgamma directly, which is accurate there to a few ulps. */
 #define STIRLERR_SERIES_FROM 15.0
+
+/* A weight below the smallest normal double is taken as 0: multiplied by ratios above 1/2, the
+ * smallest subnormal rounds back to itself, and the series would never see its tail vanish. */
+static double flush(double w)
+{
+    return fabs(w) < DBL_MIN ? 0.0 : w;
+}
 
 /* Remainder of Stirling's formula, ln Gamma(n + 1) - (n + 1/2) ln n + n - ln sqrt(2 pi)
  * (Loader 2000, "Fast and accurate computation of binomial probabilities", eq. 2 and sec. 3). */
@@ -182,6 +197,13 @@ int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double 
     return PW_OK;
 }
 
+/* Whether a tail's remaining terms, bounded in all by far (see FAR_MIN_L), are negligible beside
+ * its sum so far, or below anything a double can hold. */
+static int far_negligible(double far, double sum)
+{
+    return far <= fmax(NCB_SERIES_EPS * sum, 2.0 * DBL_MIN);
+}
+
 /* sum_j Pois(j; L) I_x(a + j, b) and sum_j Pois(j; L) I_y(b, a + j), L = lambda / 2, summed from
  * the Poisson mode both ways (Chattamvelli & Shanmugam 1997, AS 310; Frick 1990, AS R84 gives the
  * error bound on the neglected weights). The incomplete betas move by the step
@@ -212,6 +234,17 @@ static int ncbeta_tails(double x, double y, double a, double b, double lambda, d
     double lx = x < 0.5 ? log(x) : log1p(-y);   /* x near 1: from the exact y */
     double g0 = pw_log_beta_step(x, y, a + k, b);
 
+    /* For large L: I_x at the window's low end and its complement at the high end bound every
+     * term of their tail inside the window; outside it the weights are below DBL_MIN. */
+    double far_lo = 1.0, far_up = 1.0;   /* 1: no shortcut (also when the fraction fails) */
+    if (L >= FAR_MIN_L) {
+        double span = ceil(FAR_SDS * sqrt(L)), i_far, ic_far;
+        if (pw_beta_inc_pair(x, y, a + k - span, b, &i_far, &ic_far) == PW_OK)
+            far_lo = fmin(i_far + DBL_MIN, 1.0);
+        if (pw_beta_inc_pair(x, y, a + k + span, b, &i_far, &ic_far) == PW_OK)
+            far_up = fmin(ic_far + DBL_MIN, 1.0);
+    }
+
     double lo_sum = 0.0, up_sum = 0.0;
     double w = w0, ib = i0, icb = ic0, g = g0;
     int converged = 0;
@@ -223,13 +256,14 @@ static int ncbeta_tails(double x, double y, double a, double b, double lambda, d
         ib = fmax(ib - step, 0.0);
         icb = fmin(icb + step, 1.0);
         g += lx + log(a + j + b) - log(a + j + 1.0);
-        w *= L / (j + 1.0);
+        w = flush(w * L / (j + 1.0));
         /* Past the mode the weight ratios are below r = L / (j + 2): the neglected weights sum to
          * at most w / (1 - r); I_x only falls from here and its complement is at most 1. */
         double r = L / (j + 2.0);
         if (r < 1.0) {
             double rest = w / (1.0 - r);
-            if (rest * ib <= NCB_SERIES_EPS * lo_sum && rest <= NCB_SERIES_EPS * up_sum) {
+            if (rest * ib <= NCB_SERIES_EPS * lo_sum
+                && (rest <= NCB_SERIES_EPS * up_sum || far_negligible(far_up, up_sum))) {
                 converged = 1;
                 break;
             }
@@ -250,7 +284,7 @@ static int ncbeta_tails(double x, double y, double a, double b, double lambda, d
         double step = exp(g);
         ib = fmin(ib + step, 1.0);
         icb = fmax(icb - step, 0.0);
-        w *= (j + 1.0) / L;
+        w = flush(w * (j + 1.0) / L);
         lo_sum += w * ib;
         up_sum += w * icb;
         if (j <= 0.0) {
@@ -260,7 +294,8 @@ static int ncbeta_tails(double x, double y, double a, double b, double lambda, d
         double r = j / L;                  /* below the mode, w_{j-1} / w_j = j / L */
         if (r < 1.0) {
             double rest = w * r / (1.0 - r);
-            if (rest <= NCB_SERIES_EPS * lo_sum && rest * icb <= NCB_SERIES_EPS * up_sum)
+            if ((rest <= NCB_SERIES_EPS * lo_sum || far_negligible(far_lo, lo_sum))
+                && rest * icb <= NCB_SERIES_EPS * up_sum)
                 converged = 1;
         }
     }

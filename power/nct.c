@@ -21,7 +21,27 @@
 /* With d < 0 the upper-tail terms alternate in sign. When the tail is below this share of the sum
  * of their absolute values, more than three digits have cancelled, so the tail is recomputed as
  * Owen's Q by quadrature of positive terms (power/owen.c), accurate relative to itself. */
+/* From this L = ncp^2 / 2 on, the p and q weights beyond FAR_SDS standard deviations of the mode
+ * hold less than DBL_MIN (Bennett's inequality, as in power/ncbeta.c), so a tail whose incomplete
+ * betas are negligible at that distance is settled without summing out to where the weights
+ * underflow (more terms than NCT_MAX_TERMS once |ncp| passes about 5e3). */
+#define FAR_MIN_L 1e6
+#define FAR_SDS 40.0
 #define NCT_CANCEL_SHARE 1e-3
+
+/* A weight below the smallest normal double is taken as 0: multiplied by ratios above 1/2, the
+ * smallest subnormal rounds back to itself, and the series would never see its tail vanish. */
+static double flush(double w)
+{
+    return fabs(w) < DBL_MIN ? 0.0 : w;
+}
+
+/* Whether a tail's remaining terms, bounded in all by far (see FAR_MIN_L), are negligible beside
+ * the absolute sum of its terms so far, or below anything a double can hold. */
+static int far_negligible(double far, double scale)
+{
+    return far <= fmax(NCT_SERIES_EPS * scale, 4.0 * DBL_MIN);
+}
 
 /* Both tails for t >= 0 (any ncp). Guenther (1978), as in AS 243:
  *   P(T <= t) = Phi(-d) + 1/2 sum_j [p_j I_x(j + 1/2, nu/2) + q_j I_x(j + 1, nu/2)],
@@ -77,6 +97,20 @@ static int nct_nonneg(double t, double nu, double d, double *lower, double *uppe
     double lx = x < 0.5 ? log(x) : log1p(-y);   /* x near 1: from the exact y */
     double gp0 = pw_log_beta_step(x, y, k + 0.5, b), gq0 = pw_log_beta_step(x, y, k + 1.0, b);
 
+    /* For large L: I_x at the window's low end and its complement at the high end bound every
+     * term of their tail inside the window (both weight sequences sum to at most 1 in absolute
+     * value); outside it the weights are below DBL_MIN. 2 means no shortcut. */
+    double far_lo = 2.0, far_up = 2.0;
+    if (lam >= FAR_MIN_L) {
+        double span = ceil(FAR_SDS * sqrt(lam)), i1, ic1, i2, ic2;
+        if (pw_beta_inc_pair(x, y, k - span + 0.5, b, &i1, &ic1) == PW_OK
+            && pw_beta_inc_pair(x, y, k - span + 1.0, b, &i2, &ic2) == PW_OK)
+            far_lo = 2.0 * (fmax(i1, i2) + DBL_MIN);
+        if (pw_beta_inc_pair(x, y, k + span + 0.5, b, &i1, &ic1) == PW_OK
+            && pw_beta_inc_pair(x, y, k + span + 1.0, b, &i2, &ic2) == PW_OK)
+            far_up = 2.0 * (fmax(ic1, ic2) + DBL_MIN);
+    }
+
     /* Sums of absolute values, one per tail: each tail stops on its own relative bound, so a tiny
      * tail beside a large one keeps its relative accuracy (the terms can alternate when d < 0). */
     double lo_sum = 0.0, up_sum = 0.0, up_scale = 0.0;
@@ -98,15 +132,15 @@ static int nct_nonneg(double t, double nu, double d, double *lower, double *uppe
         icq = fmin(icq + sq, 1.0);
         gp += lx + log(j + 0.5 + b) - log(j + 1.5);
         gq += lx + log(j + 1.0 + b) - log(j + 2.0);
-        p *= lam / (j + 1.0);
-        q *= lam / (j + 1.5);
+        p = flush(p * lam / (j + 1.0));
+        q = flush(q * lam / (j + 1.5));
         /* Past the mode the weight ratios are below r = L / (j + 2), so the neglected weights sum
          * to at most (p + |q|) / (1 - r); I_x only falls from here and its complement is <= 1. */
         double r = lam / (j + 2.0);
         if (r < 1.0) {
             double rest = (p + fabs(q)) / (1.0 - r);
             if (rest * fmax(ip, iq) <= NCT_SERIES_EPS * lo_scale
-                && rest <= NCT_SERIES_EPS * up_scale) {
+                && (rest <= NCT_SERIES_EPS * up_scale || far_negligible(far_up, up_scale))) {
                 converged = 1;
                 break;
             }
@@ -136,8 +170,8 @@ static int nct_nonneg(double t, double nu, double d, double *lower, double *uppe
         icp = fmax(icp - sp, 0.0);
         iq = fmin(iq + sq, 1.0);
         icq = fmax(icq - sq, 0.0);
-        p *= (j + 1.0) / lam;
-        q *= (j + 1.5) / lam;
+        p = flush(p * (j + 1.0) / lam);
+        q = flush(q * (j + 1.5) / lam);
         lo_sum += p * ip + q * iq;
         up_sum += p * icp + q * icq;
         lo_scale += fabs(p * ip) + fabs(q * iq);
@@ -150,7 +184,7 @@ static int nct_nonneg(double t, double nu, double d, double *lower, double *uppe
         double r = (j + 0.5) / lam;
         if (r < 1.0) {
             double rest = (p + fabs(q)) * r / (1.0 - r);
-            if (rest <= NCT_SERIES_EPS * lo_scale
+            if ((rest <= NCT_SERIES_EPS * lo_scale || far_negligible(far_lo, lo_scale))
                 && rest * fmax(icp, icq) <= NCT_SERIES_EPS * up_scale)
                 converged = 1;
         }

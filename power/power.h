@@ -30,7 +30,10 @@ const char *pw_strerror(int status);
  * Returns PW_OK, PW_EDOM or PW_ENOCONV. */
 
 /* Noncentral t with df > 0 degrees of freedom and noncentrality ncp (any real).
- * Method: Lenth (1989) AS 243 (Guenther's 1978 series), summed from the Poisson mode both ways. */
+ * Method: Lenth (1989) AS 243 (Guenther's 1978 series), summed from the Poisson mode both ways;
+ * t < 0 by reflection. Where t and ncp differ in sign the small tail's series alternates, and once
+ * more than three digits would cancel that tail comes from Owen's Q by quadrature (about 25 us
+ * instead of about 5), so it keeps about ten significant digits however small it is. */
 int pw_nct_cdf(double t, double df, double ncp, double *lower, double *upper);
 
 /* Noncentral beta with shapes a, b > 0 and noncentrality lambda >= 0, at x in [0, 1].
@@ -49,25 +52,31 @@ int pw_ncf_cdf(double f, double df1, double df2, double lambda, double *lower, d
 double pw_log_dpois(double x, double lambda);
 double pw_log_dbinom(double k, double n, double p, double q);
 /* Library-internal (power/ncbeta.c): I_x(a, b) into *lo and its complement I_y(b, a) into *up,
- * with x + y = 1 both given exactly, each accurate even when x or y is below 1e-14 (GSL's
- * gsl_sf_beta_inc called on the side where it does not form 1 - x). PW_OK, PW_EDOM or PW_ENOCONV. */
+ * with x + y = 1 both given, each accurate even when x or y is below 1e-14: the continued fraction
+ * (Numerical Recipes' betacf, as in GSL) on whichever side converges, with Loader's prefactor.
+ * PW_OK or PW_ENOCONV. */
 int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double *up);
 /* Library-internal (power/ncbeta.c): log of x^a y^b / (a B(a, b)), the step of the recurrence
  * I_x(a + 1, b) = I_x(a, b) - step (Abramowitz & Stegun 26.5.16), by Loader's binomial term with
  * x and y = 1 - x both given; -INFINITY when x or y is 0. */
 double pw_log_beta_step(double x, double y, double a, double b);
 
-/* Noncentral chi-squared with df > 0 and lambda >= 0 (Ding 1992, AS 275, and the Poisson mixture). */
+/* Noncentral chi-squared with df > 0 and lambda >= 0 (Ding 1992, AS 275, and the Poisson mixture).
+ * All the mixtures sum at most 2e5 terms each side of the Poisson mode: enough for lambda up to
+ * about 1e9 (|ncp| up to about 3e4 for the t); beyond that they return PW_ENOCONV. */
 int pw_ncchisq_cdf(double x, double df, double lambda, double *lower, double *upper);
 
 /* Quantiles by Brent root finding (gsl_root_fsolver_brent): the x with P(X <= x) = p when upper is
- * 0, or P(X > x) = p when upper is 1. p in (0, 1). */
+ * 0, or P(X > x) = p when upper is 1. p in (0, 1), else PW_EDOM. The bracket grows by doubling from
+ * a guess (ncp, the mean); PW_ENOCONV when it cannot be found within the doubles or when it closes
+ * on a jump (a tail underflowing to 0) rather than a root. */
 int pw_nct_quantile(double p, int upper, double df, double ncp, double *x);
 int pw_ncf_quantile(double p, int upper, double df1, double df2, double lambda, double *x);
 int pw_ncchisq_quantile(double p, int upper, double df, double lambda, double *x);
 
-/* Owen's Q function Q_nu(t, delta; 0, R) (Owen 1965), by GSL adaptive quadrature (QAG) over the
- * chi density. nu > 0, R >= 0. */
+/* Owen's Q function Q_nu(t, delta; 0, R) (Owen 1965), by GSL adaptive quadrature (QAGP) over the
+ * chi density, around the mode of the log-concave integrand (to 1e-10 relative). nu > 0, R >= 0
+ * (INFINITY allowed: then Q is the noncentral t CDF at t). */
 int pw_owen_q(double nu, double t, double delta, double R, double *q);
 
 /* Exact power of the two one-sided tests procedure (Schuirmann 1987) through Owen's Q (Phillips
