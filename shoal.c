@@ -34,7 +34,8 @@ static const struct command commands[] = {
      "power GRAPH ARCHIVE [--alpha A] [--power P] [--family bonferroni|none] [--one-sided]"},
     {"coverage", cov_cmd_coverage, 2, 2,
      "coverage GRAPH ARCHIVE [--min-runs M] [--bins B] [--way 2|3] [--need-pairwise S]"},
-    {"survey", cov_cmd_survey, 2, 2, "survey GRAPH ARCHIVE [-o DIR] [--history FILE]"},
+    {"survey", cov_cmd_survey, 2, 2,
+     "survey GRAPH ARCHIVE [-o DIR] [--history FILE] [--plan FILE] [--json] [--quiet]"},
     {"plan", cov_cmd_plan, 1, 2, "plan GRAPH [ARCHIVE] --budget N|auto [-o FILE] [--replicates K]"},
 };
 #define N_COMMANDS (sizeof commands / sizeof commands[0])
@@ -62,6 +63,7 @@ static void usage(FILE *f)
             "  --seed S              seed for subsampling, probes and planned seeds\n"
             "  -o, --output PATH     survey: report directory; plan: CSV file\n"
             "  --history FILE        survey: history side file for a read-only archive\n"
+            "  --plan FILE           survey: overlay the runs of a plan file on the plots\n"
             "  --csv, --json         machine-readable output\n"
             "  -q, --quiet           print nothing; the exit status says it\n"
             "  -h, --help, --version\n"
@@ -99,7 +101,7 @@ static int parse_long(const char *opt, const char *text, long lo, long hi, long 
 enum long_only {
     OPT_TABLE = 256, OPT_ARCHIVE, OPT_ALPHA, OPT_POWER, OPT_FAMILY, OPT_ONE_SIDED, OPT_MIN_RUNS,
     OPT_BINS, OPT_WAY, OPT_NEED_MARGINAL, OPT_NEED_PAIRWISE, OPT_NEED_THREEWAY, OPT_BUDGET,
-    OPT_REPLICATES, OPT_SEED, OPT_HISTORY, OPT_CSV, OPT_JSON, OPT_VERSION
+    OPT_REPLICATES, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION
 };
 
 static const struct option long_options[] = {
@@ -120,6 +122,7 @@ static const struct option long_options[] = {
     {"seed", required_argument, NULL, OPT_SEED},
     {"output", required_argument, NULL, 'o'},
     {"history", required_argument, NULL, OPT_HISTORY},
+    {"plan", required_argument, NULL, OPT_PLAN},
     {"csv", no_argument, NULL, OPT_CSV},
     {"json", no_argument, NULL, OPT_JSON},
     {"quiet", no_argument, NULL, 'q'},
@@ -186,6 +189,7 @@ static int apply_option(int c, const char *arg, cov_options *o)
         return 0;
     case 'o': o->out_path = arg; return 0;
     case OPT_HISTORY: o->history_path = arg; return 0;
+    case OPT_PLAN: o->plan_path = arg; return 0;
     case OPT_CSV: o->format = COV_FMT_CSV; return 0;
     case OPT_JSON: o->format = COV_FMT_JSON; return 0;
     case 'q': o->quiet = 1; return 0;

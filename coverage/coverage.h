@@ -335,6 +335,7 @@ typedef struct {
     double need_marginal, need_pairwise, need_threeway;   /* gates, NAN when unset */
     long budget;                  /* plan: runs to plan; -1 for auto */
     int replicates;               /* plan: seeds per configuration */
+    const char *plan_path;        /* survey: a plan file whose runs the plots overlay, or NULL */
 } cov_options;
 
 /* Fill o with the defaults written in README.md. */
