@@ -31,6 +31,8 @@
 /* Steps of the fraction before giving up: it needs O(sqrt(max(a, b))) steps, about 3000 for
  * shapes of 5e5 (df 1e6) with room for the Poisson terms' extra shape. */
 #define BETA_CF_MAX_ITER 100000
+/* Cap on that series' terms: each shrinks by v^2 < 0.01, so 8 reach rounding; 100 is slack. */
+#define BD0_MAX_TERMS 100
 /* Switch between the direct form of the deviance term and its series (Loader 2000, bd0). */
 #define BD0_SERIES_SHARE 0.1
 /* Stirling's series for the log-gamma remainder is used above this argument; below it the
@@ -65,7 +67,8 @@ static double bd0(double x, double np)
         double v = (x - np) / (x + np);
         double s = (x - np) * v, ej = 2.0 * x * v;
         v *= v;
-        for (int j = 1; j < 1000; j++) {   /* |v| < 0.05: about 7 terms reach rounding */
+        for (int j = 1; j < BD0_MAX_TERMS; j++) {
+            /* the ratio is v^2 < 0.01: about 8 terms reach rounding */
             ej *= v;
             double s1 = s + ej / (2 * j + 1);
             if (s1 == s)

@@ -15,18 +15,18 @@
  * rounding error (AS 243 uses an absolute 1e-12, which is too coarse for 1e-12 tail values). */
 #define NCT_SERIES_EPS 1e-17
 /* Terms taken on each side of the Poisson mode before giving up. The Poisson weights have SD
- * sqrt(ncp^2 / 2); nine SDs reach 1e-18 of the mass, so 2e5 terms serve |ncp| up to about 3e4,
- * far beyond any power computation (power is 1 to double precision long before). */
+ * sqrt(ncp^2 / 2); nine SDs reach 1e-18 of the mass, so 2e5 terms serve |ncp| up to about 3e4
+ * (with the FAR_SDS shortcut below), far beyond any power computation. */
 #define NCT_MAX_TERMS 200000
-/* With d < 0 the upper-tail terms alternate in sign. When the tail is below this share of the sum
- * of their absolute values, more than three digits have cancelled, so the tail is recomputed as
- * Owen's Q by quadrature of positive terms (power/owen.c), accurate relative to itself. */
 /* From this L = ncp^2 / 2 on, the p and q weights beyond FAR_SDS standard deviations of the mode
  * hold less than DBL_MIN (Bennett's inequality, as in power/ncbeta.c), so a tail whose incomplete
  * betas are negligible at that distance is settled without summing out to where the weights
  * underflow (more terms than NCT_MAX_TERMS once |ncp| passes about 5e3). */
 #define FAR_MIN_L 1e6
 #define FAR_SDS 40.0
+/* With d < 0 the upper-tail terms alternate in sign. When the tail is below this share of the sum
+ * of their absolute values, more than three digits have cancelled, so the tail is recomputed as
+ * Owen's Q by quadrature of positive terms (power/owen.c), accurate relative to itself. */
 #define NCT_CANCEL_SHARE 1e-3
 
 /* A weight below the smallest normal double is taken as 0: multiplied by ratios above 1/2, the

@@ -7,9 +7,9 @@ BUILD). Prints PASS/FAIL lines.
   fixed seed 20261202), drawing the estimate and its standard error as in the model (estimate
   ~ N(theta, se^2), estimated se = se * sqrt(chi2_df / df)); one case simulates raw two-sample data
   and the pooled t test instead. Tolerance 3.5 Monte Carlo standard errors, sqrt(p (1 - p) / N) at
-  the exact p: a correct value fails a case with probability 4.7e-4, and any of the 8 cases with
-  probability below 4e-3 (the false-alarm rate of this file at its fixed seed is therefore 0 or 1
-  and was 0 when written).
+  the exact p: a correct value fails a case with probability 4.7e-4, and one of the 8 cases with
+  probability below 4e-3 (the false-alarm rate; with the seed fixed the outcome is deterministic,
+  and the seed was chosen before the first run).
 * Quadrature: scipy.integrate.quad of Phillips' integral over the chi density (an independent
   integrator, REFERENCES.md 5 used the same check) to 1e-11 absolute, 100 times inside the
   issue's 1e-9 target (quad is asked for 1e-12 relative).
