@@ -481,7 +481,8 @@ static const char html_style[] =
     "figure{margin:1em 0;background:#fff;border:1px solid #e1e3dc;padding:.6em}figure img{"
     "max-width:100%;height:auto;display:block}figcaption{color:#4a5058;margin-top:.3em}\n"
     ".note{background:#f3f1e8;border:1px dashed #b9b39b;padding:.5em .9em}\n"
-    "#claims-table td:last-child{min-width:17em}td small{color:#6a7079}\n"
+    "#claims-table td:last-child{min-width:14em}td small{color:#6a7079;white-space:nowrap}\n"
+    ".wide{overflow-x:auto}\n"
     "ul.cautions li{margin:.35em 0}\n";
 
 /* Sorts the claims table by the clicked column: numbers by data-v, text by its content. */
@@ -510,7 +511,7 @@ static void html_num_cell(FILE *out, double x, const char *text)
 
 static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
 {
-    fputs("<table id=\"claims-table\" class=\"sortable\"><thead><tr>"
+    fputs("<div class=\"wide\"><table id=\"claims-table\" class=\"sortable\"><thead><tr>"
           "<th data-type=\"num\">#</th><th>verdict</th><th>kind</th><th>treatment</th>"
           "<th>outcome</th><th>adjusted for</th><th>effect of interest</th>"
           "<th data-type=\"num\">in outcome units</th><th data-type=\"num\">runs used</th>"
@@ -558,7 +559,7 @@ static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
         html_text(out, reason_of(f, i) ? reason_of(f, i) : "");
         fputs("</td></tr>\n", out);
     }
-    fputs("</tbody></table>\n", out);
+    fputs("</tbody></table></div>\n", out);
 }
 
 static void html_plots(FILE *out, const cov_findings *f, const cov_report_info *info,
