@@ -77,7 +77,7 @@ static size_t fx_claim(fixture *f, cov_claim_kind kind, size_t x, size_t y, cons
     c->kind = kind;
     c->treatment = x;
     c->outcome = y;
-    memcpy(f->conds[i], s, ns * sizeof *s);
+    if (ns > 0) memcpy(f->conds[i], s, ns * sizeof *s);
     c->cond = f->conds[i];
     c->n_cond = ns;
     c->effect.value = effect;
