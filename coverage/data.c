@@ -20,6 +20,9 @@
 #define STAGE_ROWS 64
 /* First guess at the run count when the table's rowids say nothing useful. */
 #define START_CAPACITY 1024
+/* The rowid span overstates the run count when rows were deleted; beyond this many rows the
+ * columns grow by doubling instead of trusting it. */
+#define MAX_FIRST_CAPACITY ((size_t)1 << 22)
 
 static int ascii_casecmp(const char *a, const char *b)
 {
@@ -349,7 +352,7 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     if (stage == NULL) goto nomem;
 
     size_t est = estimate_rows(db, qt);
-    size_t cap = est > 0 ? est : START_CAPACITY;
+    size_t cap = est == 0 ? START_CAPACITY : est < MAX_FIRST_CAPACITY ? est : MAX_FIRST_CAPACITY;
     if (grow(d, g, cap, with_batch)) goto nomem;
     reader r = {a, g, 0, err};
     size_t n = 0;
