@@ -299,6 +299,8 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     cov_supports *sp = NULL;
     cov_round *rounds = NULL;
     size_t n_rounds = 0;
+    double *planned = NULL;
+    size_t n_planned = 0;
     char tmp[4096] = "", gate[256], plot_msg[sizeof err->msg + 64], at[32];
     int rc;
     *adequate = 0;
@@ -313,6 +315,10 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     step_note(&o, note, "reading the graph");
     if ((rc = cov_graph_parse_file(o.graph_path, &g, err)) != COV_OK) goto fail;
     if ((rc = cov_claims_derive(g, &claims, err)) != COV_OK) goto fail;
+    /* A plan file is read before the archive, so a bad one stops the survey early. */
+    if (o.plan_path != NULL &&
+        (rc = cov_plan_read_csv(g, o.plan_path, &planned, &n_planned, err)) != COV_OK)
+        goto fail;
     if ((rc = cov_archive_open(o.archive_path, o.table, &ar, err)) != COV_OK) goto fail;
     int owned = cov_archive_owned(ar);
     rc = cov_data_read(ar, g, o.progress && note && !o.quiet ? progress_note : NULL, note, &d, err);
@@ -347,7 +353,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     if ((rc = cov_coverage_measure(g, d, &o.coverage, &cv, err)) != COV_OK) goto fail;
     if ((rc = cov_support_measure(g, claims, d, &o.coverage, &sp, err)) != COV_OK) goto fail;
 
-    cov_findings f = {&o, g, claims, d, as, cv, sp, NULL, 0};
+    cov_findings f = {&o, g, claims, d, as, cv, sp, planned, n_planned};
     int all_ample = 1;
     for (size_t i = 0; i < as->n; i++)
         if (as->items[i].verdict == COV_THIN) all_ample = 0;
@@ -416,6 +422,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
 fail:
     if (tmp[0] != '\0') remove_flat_dir(tmp);
     free(rounds);
+    free(planned);
     cov_supports_free(sp);
     cov_coverage_free(cv);
     cov_assessments_free(as);
