@@ -87,6 +87,12 @@ run "empty header name: file:1:column" 2 "$F/bad-empty-header.csv:1:5:" \
 if cmp -s "$db" "$tmp/before.db"; then pass "failed imports leave the archive unchanged"
 else fail "a failed import changed the archive"; fi
 run "a missing CSV file is bad input" 2 "cannot open" "$SHOAL" import "$tmp/none.csv" --archive "$db"
+echo "plain text, not a database, long enough to be read as one" >"$tmp/text.db"
+cp "$tmp/text.db" "$tmp/text-copy.db"
+run "importing into a file that is not SQLite is bad input" 2 "not an SQLite database" \
+  "$SHOAL" import "$F/comma.csv" --archive "$tmp/text.db"
+if cmp -s "$tmp/text.db" "$tmp/text-copy.db"; then pass "the file that is not SQLite is left alone"
+else fail "import changed a file that is not SQLite"; fi
 run "import without --archive is a usage error" 2 "import needs --archive" "$SHOAL" import "$F/comma.csv"
 
 # Header names with quotes and semicolons become quoted SQL identifiers.
