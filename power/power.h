@@ -32,7 +32,7 @@ const char *pw_strerror(int status);
 /* Noncentral t with df > 0 degrees of freedom and noncentrality ncp (any real).
  * Method: Lenth (1989) AS 243 (Guenther's 1978 series), summed from the Poisson mode both ways;
  * t < 0 by reflection. Where t and ncp differ in sign the small tail's series alternates, and once
- * more than three digits would cancel that tail comes from Owen's Q by quadrature (about 25 us
+ * more than six digits would cancel that tail comes from Owen's Q by quadrature (about 25 us
  * instead of about 5), so it keeps about ten significant digits however small it is. */
 int pw_nct_cdf(double t, double df, double ncp, double *lower, double *upper);
 
@@ -312,6 +312,9 @@ size_t pw_aug_n_active(const pw_aug *a);
  * need the runs would cover (capped at 1), weighted by 1 + the share still missing so the targets
  * furthest below their need count most. 0 when nothing is active. */
 int pw_aug_score(pw_aug *a, const double *row, double w, double *score);
+/* About how many floating-point operations one pw_aug_score call costs now (groups with an active
+ * target: p^2 for A^-1 x, a few per target), so callers can budget their rescoring. */
+double pw_aug_score_cost(const pw_aug *a);
 /* Add w runs at row to every group (Sherman-Morrison, with a fresh Cholesky inverse of the kept
  * cross-products every PW_AUG_REFRESH commits to stop rounding drift). */
 #define PW_AUG_REFRESH 64
