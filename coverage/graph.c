@@ -1,8 +1,6 @@
 /* The graph file: a line-oriented description of the model's variables and expected effects.
  * See LICENSE. */
-#include <errno.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -14,18 +12,6 @@
 /* Names longer than this are not compared for "did you mean": the suggestion is a courtesy. */
 #define SUGGEST_MAX_LEN 128
 
-typedef enum {
-    T_END, T_WORD, T_QUOTED, T_NUMBER, T_ARROW, T_COMMA, T_LBRACK, T_RBRACK, T_LBRACE, T_RBRACE,
-    T_PLUS, T_MINUS
-} tok_kind;
-
-typedef struct {
-    tok_kind kind;
-    char *text;     /* T_WORD, T_QUOTED, T_NUMBER: owned, unescaped */
-    double num;     /* T_NUMBER */
-    int col;        /* 1-based, in characters (UTF-8 continuation bytes do not count) */
-} token;
-
 typedef struct {
     size_t *item;
     size_t n, cap;
@@ -34,8 +20,8 @@ typedef struct {
 typedef struct {
     const char *name;
     int line;
-    token *tok;
-    size_t n_tok, cap_tok, pos;
+    cov_tokens toks;        /* the current line's tokens */
+    size_t pos;             /* the next token to read */
     cov_graph *g;
     size_t cap_vars, cap_edges;
     index_list *children;   /* per variable, parallel to g->vars */
@@ -44,6 +30,9 @@ typedef struct {
     int seen_default_effect, seen_margin, seen_design;
     cov_error *err;
 } parser;
+
+/* Every parse error names the graph file, the current line and a column. */
+#define perr(p, col, ...) cov_graph_fail((p)->err, (p)->name, (p)->line, (col), __VA_ARGS__)
 
 static const char *const reserved_words[] = {
     "input", "output", "hidden", "real", "integer", "bool", "levels", "noise", "default", "effect",
@@ -59,19 +48,6 @@ static int is_reserved(const char *w)
     for (size_t i = 0; i < N_RESERVED; i++)
         if (strcmp(w, reserved_words[i]) == 0) return 1;
     return 0;
-}
-
-static int perr(parser *p, int col, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
-static int perr(parser *p, int col, const char *fmt, ...)
-{
-    if (p->err != NULL) {
-        snprintf(p->err->where, sizeof p->err->where, "%s:%d:%d", p->name, p->line, col);
-        va_list ap;
-        va_start(ap, fmt);
-        vsnprintf(p->err->msg, sizeof p->err->msg, fmt, ap);
-        va_end(ap);
-    }
-    return COV_EINPUT;
 }
 
 /* Levenshtein distance (Levenshtein 1966; the two-row dynamic programme of Wagner & Fischer 1974),
@@ -113,179 +89,6 @@ static const char *nearest(const char *word, const char *const *cand, size_t n_c
     size_t limit = strlen(word) / 3;
     if (limit < 2) limit = 2;
     return best != NULL && best_d <= limit ? best : NULL;
-}
-
-/* ---- lexing ---------------------------------------------------------------------------------- */
-
-static void tokens_clear(parser *p)
-{
-    for (size_t i = 0; i < p->n_tok; i++) free(p->tok[i].text);
-    p->n_tok = 0;
-    p->pos = 0;
-}
-
-static int push_token(parser *p, tok_kind kind, char *text, double num, int col)
-{
-    if (p->n_tok == p->cap_tok) {
-        size_t cap = p->cap_tok ? 2 * p->cap_tok : 16;
-        token *t = realloc(p->tok, cap * sizeof *t);
-        if (t == NULL) {
-            free(text);
-            return cov_fail(p->err, COV_ENOMEM, "", "out of memory reading the graph");
-        }
-        p->tok = t;
-        p->cap_tok = cap;
-    }
-    p->tok[p->n_tok++] = (token){kind, text, num, col};
-    return COV_OK;
-}
-
-static int is_word_start(int c)
-{
-    return (c >= 'A' && c <= 'Z') || (c >= 'a' && c <= 'z') || c == '_';
-}
-static int is_digit(int c) { return c >= '0' && c <= '9'; }
-static int is_word_char(int c) { return is_word_start(c) || is_digit(c) || c == '.'; }
-
-/* Split one line [s, e) into tokens. */
-static int lex_line(parser *p, const char *s, const char *e)
-{
-    int col = 1;
-    const char *q = s;
-    while (q < e) {
-        unsigned char c = (unsigned char)*q;
-        int start_col = col;
-        if (c == ' ' || c == '\t') {
-            q++;
-            col++;
-            continue;
-        }
-        if (c == '#') break;
-        if (c == '"') {
-            size_t cap = (size_t)(e - q);
-            char *buf = malloc(cap + 1);
-            if (buf == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
-            size_t n = 0;
-            const char *r = q + 1;
-            int closed = 0;
-            while (r < e) {
-                if (*r == '"') {
-                    closed = 1;
-                    r++;
-                    break;
-                }
-                if (*r == '\\') {
-                    if (r + 1 < e && (r[1] == '"' || r[1] == '\\')) {
-                        buf[n++] = r[1];
-                        r += 2;
-                        continue;
-                    }
-                    int bad_col = start_col;
-                    for (const char *k = q; k < r; k++)
-                        if (((unsigned char)*k & 0xC0) != 0x80) bad_col++;
-                    free(buf);
-                    if (r + 1 >= e)
-                        return perr(p, bad_col, "found a backslash at the end of the line, "
-                                    "expected \\\" or \\\\ inside a quoted name");
-                    return perr(p, bad_col, "found the escape \\%c, expected \\\" or \\\\ inside "
-                                "a quoted name", r[1]);
-                }
-                buf[n++] = *r++;
-            }
-            if (!closed) {
-                free(buf);
-                return perr(p, start_col, "found an unterminated quoted name, expected a closing "
-                            "'\"' before the end of the line");
-            }
-            buf[n] = '\0';
-            if (n == 0) {
-                free(buf);
-                return perr(p, start_col, "found an empty quoted name \"\", expected at least one "
-                            "character");
-            }
-            for (const char *k = q; k < r; k++)
-                if (((unsigned char)*k & 0xC0) != 0x80) col++;
-            q = r;
-            int rc = push_token(p, T_QUOTED, buf, 0, start_col);
-            if (rc) return rc;
-            continue;
-        }
-        if (c == '-' && q + 1 < e && q[1] == '>') {
-            int rc = push_token(p, T_ARROW, NULL, 0, start_col);
-            if (rc) return rc;
-            q += 2;
-            col += 2;
-            continue;
-        }
-        int signed_num = (c == '-' || c == '+') && q + 1 < e &&
-                         (is_digit((unsigned char)q[1]) ||
-                          (q[1] == '.' && q + 2 < e && is_digit((unsigned char)q[2])));
-        if (is_digit(c) || signed_num || (c == '.' && q + 1 < e && is_digit((unsigned char)q[1]))) {
-            const char *r = q + 1;
-            while (r < e) {
-                int d = (unsigned char)*r;
-                if (is_word_char(d)) r++;
-                else if ((d == '+' || d == '-') && (r[-1] == 'e' || r[-1] == 'E')) r++;
-                else break;
-            }
-            size_t len = (size_t)(r - q);
-            char *text = malloc(len + 1);
-            if (text == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
-            memcpy(text, q, len);
-            text[len] = '\0';
-            char *end = NULL;
-            errno = 0;
-            double v = strtod(text, &end);
-            /* strtod also reads hexadecimal, inf and nan: the format has decimal numbers only. */
-            if (errno != 0 || end != text + len || !isfinite(v) ||
-                strpbrk(text, "xXnNiI") != NULL) {
-                int rc = perr(p, start_col, "found '%s', expected a decimal number", text);
-                free(text);
-                return rc;
-            }
-            q = r;
-            col += (int)len;
-            int rc = push_token(p, T_NUMBER, text, v, start_col);
-            if (rc) return rc;
-            continue;
-        }
-        if (is_word_start(c)) {
-            const char *r = q + 1;
-            while (r < e && is_word_char((unsigned char)*r)) r++;
-            size_t len = (size_t)(r - q);
-            char *text = malloc(len + 1);
-            if (text == NULL) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
-            memcpy(text, q, len);
-            text[len] = '\0';
-            q = r;
-            col += (int)len;
-            int rc = push_token(p, T_WORD, text, 0, start_col);
-            if (rc) return rc;
-            continue;
-        }
-        tok_kind k;
-        switch (c) {
-        case ',': k = T_COMMA; break;
-        case '[': k = T_LBRACK; break;
-        case ']': k = T_RBRACK; break;
-        case '{': k = T_LBRACE; break;
-        case '}': k = T_RBRACE; break;
-        case '+': k = T_PLUS; break;
-        case '-': k = T_MINUS; break;
-        default: {
-            /* Quote the whole UTF-8 sequence so the message shows the character the user typed. */
-            size_t len = 1;
-            while (q + len < e && len < 4 && ((unsigned char)q[len] & 0xC0) == 0x80) len++;
-            return perr(p, start_col, "found the character '%.*s', expected a name, a number or "
-                        "one of -> , [ ] { } + -", (int)len, q);
-        }
-        }
-        int rc = push_token(p, k, NULL, 0, start_col);
-        if (rc) return rc;
-        q++;
-        col++;
-    }
-    return push_token(p, T_END, NULL, 0, col);
 }
 
 /* ---- name look-up ---------------------------------------------------------------------------- */
@@ -335,43 +138,24 @@ static int index_var(parser *p)
 
 /* ---- parsing helpers ------------------------------------------------------------------------- */
 
-static token *peek(parser *p) { return &p->tok[p->pos]; }
-static token *next(parser *p)
+static cov_token *peek(parser *p) { return &p->toks.tok[p->pos]; }
+static cov_token *next(parser *p)
 {
-    token *t = &p->tok[p->pos];
-    if (t->kind != T_END) p->pos++;
+    cov_token *t = &p->toks.tok[p->pos];
+    if (t->kind != COV_TOK_END) p->pos++;
     return t;
 }
 
-/* A short description of a token for "found ..." messages. */
-static const char *describe(const token *t, char *buf, size_t size)
-{
-    switch (t->kind) {
-    case T_END: snprintf(buf, size, "the end of the line"); break;
-    case T_WORD: snprintf(buf, size, "'%s'", t->text); break;
-    case T_QUOTED: snprintf(buf, size, "the name \"%s\"", t->text); break;
-    case T_NUMBER: snprintf(buf, size, "the number %s", t->text); break;
-    case T_ARROW: snprintf(buf, size, "'->'"); break;
-    case T_COMMA: snprintf(buf, size, "','"); break;
-    case T_LBRACK: snprintf(buf, size, "'['"); break;
-    case T_RBRACK: snprintf(buf, size, "']'"); break;
-    case T_LBRACE: snprintf(buf, size, "'{'"); break;
-    case T_RBRACE: snprintf(buf, size, "'}'"); break;
-    case T_PLUS: snprintf(buf, size, "'+'"); break;
-    case T_MINUS: snprintf(buf, size, "'-'"); break;
-    }
-    return buf;
-}
-
-static int expect_fail(parser *p, const token *t, const char *expected)
+static int expect_fail(parser *p, const cov_token *t, const char *expected)
 {
     char buf[160];
-    return perr(p, t->col, "found %s, expected %s", describe(t, buf, sizeof buf), expected);
+    return perr(p, t->col, "found %s, expected %s", cov_token_describe(t, buf, sizeof buf),
+                expected);
 }
 
-static int expect_kind(parser *p, tok_kind kind, const char *expected)
+static int expect_kind(parser *p, cov_tok_kind kind, const char *expected)
 {
-    token *t = peek(p);
+    cov_token *t = peek(p);
     if (t->kind != kind) return expect_fail(p, t, expected);
     next(p);
     return COV_OK;
@@ -379,28 +163,28 @@ static int expect_kind(parser *p, tok_kind kind, const char *expected)
 
 static int expect_end(parser *p)
 {
-    return expect_kind(p, T_END, "the end of the line");
+    return expect_kind(p, COV_TOK_END, "the end of the line");
 }
 
-static int is_word(const token *t, const char *w)
+static int is_word(const cov_token *t, const char *w)
 {
-    return t->kind == T_WORD && strcmp(t->text, w) == 0;
+    return t->kind == COV_TOK_WORD && strcmp(t->text, w) == 0;
 }
 
 /* A name token: a bare word that is not reserved, or a quoted string. */
-static int take_name(parser *p, const char *what, token **out)
+static int take_name(parser *p, const char *what, cov_token **out)
 {
-    token *t = peek(p);
-    if (t->kind == T_WORD && is_reserved(t->text))
+    cov_token *t = peek(p);
+    if (t->kind == COV_TOK_WORD && is_reserved(t->text))
         return perr(p, t->col, "found the reserved word '%s', expected %s (quote it, \"%s\", to "
                     "use it as a name)", t->text, what, t->text);
-    if (t->kind != T_WORD && t->kind != T_QUOTED) return expect_fail(p, t, what);
+    if (t->kind != COV_TOK_WORD && t->kind != COV_TOK_QUOTED) return expect_fail(p, t, what);
     *out = next(p);
     return COV_OK;
 }
 
 /* Names of the declared variables, for suggestions. */
-static int resolve(parser *p, const token *t, size_t *out)
+static int resolve(parser *p, const cov_token *t, size_t *out)
 {
     long k = lookup(p, t->text);
     if (k >= 0) {
@@ -417,10 +201,10 @@ static int resolve(parser *p, const token *t, size_t *out)
                 "before this line with input, output or hidden", t->text);
 }
 
-static int take_number(parser *p, const char *expected, token **out)
+static int take_number(parser *p, const char *expected, cov_token **out)
 {
-    token *t = peek(p);
-    if (t->kind != T_NUMBER) return expect_fail(p, t, expected);
+    cov_token *t = peek(p);
+    if (t->kind != COV_TOK_NUMBER) return expect_fail(p, t, expected);
     *out = next(p);
     return COV_OK;
 }
@@ -430,7 +214,7 @@ static int is_whole(double x) { return x == floor(x) && fabs(x) <= GRAPH_MAX_WHO
 /* An amount: a positive number, then optionally `sd`. */
 static int take_amount(parser *p, const char *what, cov_amount *out)
 {
-    token *t = NULL;
+    cov_token *t = NULL;
     int rc = take_number(p, what, &t);
     if (rc) return rc;
     if (!(t->num > 0))
@@ -473,12 +257,12 @@ static int add_var(parser *p, const char *name, cov_var **out)
 /* `[LO, HI]` with LO < HI; whole numbers for integers. */
 static int take_range(parser *p, cov_type type, double *lo, double *hi)
 {
-    token *open = peek(p), *a = NULL, *b = NULL;
-    int rc = expect_kind(p, T_LBRACK, "'[' starting the range [LO, HI]");
+    cov_token *open = peek(p), *a = NULL, *b = NULL;
+    int rc = expect_kind(p, COV_TOK_LBRACK, "'[' starting the range [LO, HI]");
     if (!rc) rc = take_number(p, "the lower end LO of [LO, HI]", &a);
-    if (!rc) rc = expect_kind(p, T_COMMA, "',' between LO and HI");
+    if (!rc) rc = expect_kind(p, COV_TOK_COMMA, "',' between LO and HI");
     if (!rc) rc = take_number(p, "the upper end HI of [LO, HI]", &b);
-    if (!rc) rc = expect_kind(p, T_RBRACK, "']' closing the range");
+    if (!rc) rc = expect_kind(p, COV_TOK_RBRACK, "']' closing the range");
     if (rc) return rc;
     if (type == COV_INTEGER) {
         if (!is_whole(a->num))
@@ -499,12 +283,12 @@ static int take_range(parser *p, cov_type type, double *lo, double *hi)
 /* `{a, b, ...}`: at least two distinct level names. */
 static int take_levels(parser *p, cov_var *v)
 {
-    token *open = peek(p);
-    int rc = expect_kind(p, T_LBRACE, "'{' starting the list of levels");
+    cov_token *open = peek(p);
+    int rc = expect_kind(p, COV_TOK_LBRACE, "'{' starting the list of levels");
     if (rc) return rc;
     size_t cap = 0;
     for (;;) {
-        token *t = NULL;
+        cov_token *t = NULL;
         rc = take_name(p, "a level name", &t);
         if (rc) return rc;
         for (size_t i = 0; i < v->n_levels; i++)
@@ -521,11 +305,11 @@ static int take_levels(parser *p, cov_var *v)
         if (v->levels[v->n_levels] == NULL)
             return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
         v->n_levels++;
-        if (peek(p)->kind == T_COMMA) {
+        if (peek(p)->kind == COV_TOK_COMMA) {
             next(p);
             continue;
         }
-        rc = expect_kind(p, T_RBRACE, "',' or '}' in the list of levels");
+        rc = expect_kind(p, COV_TOK_RBRACE, "',' or '}' in the list of levels");
         if (rc) return rc;
         break;
     }
@@ -537,7 +321,7 @@ static int take_levels(parser *p, cov_var *v)
 static int parse_declaration(parser *p, cov_role role)
 {
     next(p);
-    token *name = NULL;
+    cov_token *name = NULL;
     int rc = take_name(p, "a variable name", &name);
     if (rc) return rc;
     long prior = lookup(p, name->text);
@@ -545,7 +329,7 @@ static int parse_declaration(parser *p, cov_role role)
         return perr(p, name->col, "found a second declaration of '%s', expected each variable "
                     "declared once (first declared at line %d)", name->text,
                     p->g->vars[prior].line);
-    token *type = peek(p);
+    cov_token *type = peek(p);
     static const char *const types[] = {"real", "integer", "bool", "levels"};
     cov_type ty;
     if (is_word(type, "real")) ty = COV_REAL;
@@ -553,12 +337,12 @@ static int parse_declaration(parser *p, cov_role role)
     else if (is_word(type, "bool")) ty = COV_BOOL;
     else if (is_word(type, "levels")) ty = COV_LEVELS;
     else {
-        const char *near = type->kind == T_WORD ? nearest(type->text, types, 4, sizeof types[0])
-                                                 : NULL;
+        const char *near = type->kind == COV_TOK_WORD
+                               ? nearest(type->text, types, 4, sizeof types[0]) : NULL;
         char buf[160];
         if (near != NULL)
             return perr(p, type->col, "found %s, expected a type: real, integer, bool or levels; "
-                        "did you mean '%s'?", describe(type, buf, sizeof buf), near);
+                        "did you mean '%s'?", cov_token_describe(type, buf, sizeof buf), near);
         return expect_fail(p, type, "a type: real, integer, bool or levels");
     }
     next(p);
@@ -571,7 +355,7 @@ static int parse_declaration(parser *p, cov_role role)
     v->col = name->col;
     double lo = NAN, hi = NAN;
     if (ty == COV_LEVELS) {
-        if (role != COV_HIDDEN || peek(p)->kind == T_LBRACE) rc = take_levels(p, v);
+        if (role != COV_HIDDEN || peek(p)->kind == COV_TOK_LBRACE) rc = take_levels(p, v);
         if (rc) return rc;
         lo = 0;
         hi = (double)v->n_levels - 1;
@@ -579,7 +363,7 @@ static int parse_declaration(parser *p, cov_role role)
     } else if (ty == COV_BOOL) {
         lo = 0;
         hi = 1;
-    } else if (role == COV_INPUT || peek(p)->kind == T_LBRACK) {
+    } else if (role == COV_INPUT || peek(p)->kind == COV_TOK_LBRACK) {
         if (role == COV_OUTPUT)
             return expect_fail(p, peek(p),
                                "'noise' or the end of the line (outputs take no range)");
@@ -592,14 +376,14 @@ static int parse_declaration(parser *p, cov_role role)
     }
     if (role == COV_OUTPUT && is_word(peek(p), "noise")) {
         next(p);
-        token *sd = NULL;
+        cov_token *sd = NULL;
         rc = take_number(p, "the noise SD after 'noise'", &sd);
         if (rc) return rc;
         if (!(sd->num > 0))
             return perr(p, sd->col, "found %s, expected a noise SD greater than 0", sd->text);
         v->noise_sd = sd->num;
     }
-    if (peek(p)->kind != T_END) {
+    if (peek(p)->kind != COV_TOK_END) {
         if (role == COV_OUTPUT) return expect_fail(p, peek(p), "'noise SD' or the end of the line");
         return expect_end(p);
     }
@@ -609,14 +393,14 @@ static int parse_declaration(parser *p, cov_role role)
 static int parse_default(parser *p)
 {
     next(p);
-    token *what = peek(p);
+    cov_token *what = peek(p);
     if (is_word(what, "effect")) {
         next(p);
         if (p->seen_default_effect)
             return perr(p, what->col, "found a second 'default effect', expected one at most");
         p->seen_default_effect = 1;
         int rc = take_amount(p, "a smallest effect of interest", &p->g->default_effect);
-        return rc ? rc : expect_kind(p, T_END, "'sd' or the end of the line");
+        return rc ? rc : expect_kind(p, COV_TOK_END, "'sd' or the end of the line");
     }
     if (is_word(what, "margin")) {
         next(p);
@@ -624,14 +408,14 @@ static int parse_default(parser *p)
             return perr(p, what->col, "found a second 'default margin', expected one at most");
         p->seen_margin = 1;
         int rc = take_amount(p, "an equivalence margin", &p->g->margin);
-        return rc ? rc : expect_kind(p, T_END, "'sd' or the end of the line");
+        return rc ? rc : expect_kind(p, COV_TOK_END, "'sd' or the end of the line");
     }
     return expect_fail(p, what, "'effect' or 'margin' after 'default'");
 }
 
 static int parse_design(parser *p)
 {
-    token *first = next(p);
+    cov_token *first = next(p);
     if (!is_word(peek(p), "independent"))
         return expect_fail(p, peek(p), "'independent' after 'design'");
     next(p);
@@ -645,7 +429,7 @@ static int parse_design(parser *p)
 static int parse_hold(parser *p)
 {
     next(p);
-    token *name = NULL;
+    cov_token *name = NULL;
     size_t k;
     int rc = take_name(p, "the name of an input to hold", &name);
     if (!rc) rc = resolve(p, name, &k);
@@ -656,11 +440,11 @@ static int parse_hold(parser *p)
                     v->role == COV_OUTPUT ? "output" : "hidden variable", v->name);
     if (v->held)
         return perr(p, name->col, "found a second 'hold' for '%s', expected one at most", v->name);
-    token *val = peek(p);
+    cov_token *val = peek(p);
     char buf[160];
     double x = NAN;
     if (v->type == COV_LEVELS) {
-        if (val->kind != T_WORD && val->kind != T_QUOTED)
+        if (val->kind != COV_TOK_WORD && val->kind != COV_TOK_QUOTED)
             return expect_fail(p, val, "a level name of the input");
         for (size_t i = 0; i < v->n_levels; i++)
             if (strcmp(v->levels[i], val->text) == 0) x = (double)i;
@@ -668,12 +452,12 @@ static int parse_hold(parser *p)
             return perr(p, val->col, "found the level '%s', which '%s' does not declare; expected "
                         "one of its levels", val->text, v->name);
     } else if (v->type == COV_BOOL) {
-        if (is_word(val, "true") || (val->kind == T_NUMBER && val->num == 1)) x = 1;
-        else if (is_word(val, "false") || (val->kind == T_NUMBER && val->num == 0)) x = 0;
+        if (is_word(val, "true") || (val->kind == COV_TOK_NUMBER && val->num == 1)) x = 1;
+        else if (is_word(val, "false") || (val->kind == COV_TOK_NUMBER && val->num == 0)) x = 0;
         else return perr(p, val->col, "found %s, expected true or false for the bool input '%s'",
-                         describe(val, buf, sizeof buf), v->name);
+                         cov_token_describe(val, buf, sizeof buf), v->name);
     } else {
-        if (val->kind != T_NUMBER) return expect_fail(p, val, "a number");
+        if (val->kind != COV_TOK_NUMBER) return expect_fail(p, val, "a number");
         if (v->type == COV_INTEGER && !is_whole(val->num))
             return perr(p, val->col, "found %s, expected a whole number for the integer input '%s'",
                         val->text, v->name);
@@ -753,7 +537,7 @@ fail:
     return rc;
 }
 
-static int add_edge(parser *p, const token *ft, size_t from, const token *tt, size_t to)
+static int add_edge(parser *p, const cov_token *ft, size_t from, const cov_token *tt, size_t to)
 {
     cov_graph *g = p->g;
     if (from == to)
@@ -790,35 +574,35 @@ static int parse_edges(parser *p)
     int rc = COV_OK;
     /* Check every name of the first list. */
     for (;;) {
-        token *t = NULL;
+        cov_token *t = NULL;
         size_t k;
         rc = take_name(p, "a variable name", &t);
         if (!rc) rc = resolve(p, t, &k);
         if (rc) return rc;
-        if (peek(p)->kind != T_COMMA) break;
+        if (peek(p)->kind != COV_TOK_COMMA) break;
         next(p);
     }
     prev_end = p->pos;
-    if (peek(p)->kind != T_ARROW) return expect_fail(p, peek(p), "',' or '->'");
-    while (peek(p)->kind == T_ARROW) {
+    if (peek(p)->kind != COV_TOK_ARROW) return expect_fail(p, peek(p), "',' or '->'");
+    while (peek(p)->kind == COV_TOK_ARROW) {
         next(p);
         size_t cur_start = p->pos;
         for (;;) {
-            token *t = NULL;
+            cov_token *t = NULL;
             size_t k;
             rc = take_name(p, "a variable name after '->'", &t);
             if (!rc) rc = resolve(p, t, &k);
             if (rc) return rc;
-            if (peek(p)->kind != T_COMMA) break;
+            if (peek(p)->kind != COV_TOK_COMMA) break;
             next(p);
         }
         /* Every name of the left list to every name of the right list, left names outermost. The
          * names were resolved above, so these look-ups succeed. */
         for (size_t i = prev_start; i < prev_end; i += 2)
             for (size_t j = cur_start; j < p->pos; j += 2) {
-                size_t from = (size_t)lookup(p, p->tok[i].text);
-                size_t to = (size_t)lookup(p, p->tok[j].text);
-                rc = add_edge(p, &p->tok[i], from, &p->tok[j], to);
+                size_t from = (size_t)lookup(p, p->toks.tok[i].text);
+                size_t to = (size_t)lookup(p, p->toks.tok[j].text);
+                rc = add_edge(p, &p->toks.tok[i], from, &p->toks.tok[j], to);
                 if (rc) return rc;
             }
         prev_start = cur_start;
@@ -826,14 +610,14 @@ static int parse_edges(parser *p)
     }
     int sign = 0, have_sign = 0, have_effect = 0;
     cov_amount eff = {NAN, COV_UNIT_RAW};
-    while (peek(p)->kind != T_END) {
-        token *t = peek(p);
+    while (peek(p)->kind != COV_TOK_END) {
+        cov_token *t = peek(p);
         if (is_word(t, "expect")) {
             if (have_sign) return perr(p, t->col, "found a second 'expect', expected one at most");
             next(p);
-            token *s = peek(p);
-            if (s->kind == T_PLUS) sign = 1;
-            else if (s->kind == T_MINUS) sign = -1;
+            cov_token *s = peek(p);
+            if (s->kind == COV_TOK_PLUS) sign = 1;
+            else if (s->kind == COV_TOK_MINUS) sign = -1;
             else return expect_fail(p, s, "'+' or '-' after 'expect'");
             next(p);
             have_sign = 1;
@@ -846,8 +630,8 @@ static int parse_edges(parser *p)
             have_effect = 1;
         } else {
             static const char *const notes[] = {"expect", "effect"};
-            const char *near = t->kind == T_WORD ? nearest(t->text, notes, 2, sizeof notes[0])
-                                                 : NULL;
+            const char *near = t->kind == COV_TOK_WORD
+                                   ? nearest(t->text, notes, 2, sizeof notes[0]) : NULL;
             if (near != NULL)
                 return perr(p, t->col, "found the unknown word '%s', expected 'expect', 'effect' "
                             "or the end of the line; did you mean '%s'?", t->text, near);
@@ -865,10 +649,10 @@ static int parse_edges(parser *p)
 
 static int parse_statement(parser *p)
 {
-    token *t = peek(p);
-    if (t->kind == T_END) return COV_OK;
-    if (t->kind == T_QUOTED) return parse_edges(p);
-    if (t->kind != T_WORD)
+    cov_token *t = peek(p);
+    if (t->kind == COV_TOK_END) return COV_OK;
+    if (t->kind == COV_TOK_QUOTED) return parse_edges(p);
+    if (t->kind != COV_TOK_WORD)
         return expect_fail(p, t, "a statement (input, output, hidden, default, design, hold) or an "
                            "edge");
     if (is_word(t, "input")) return parse_declaration(p, COV_INPUT);
@@ -880,10 +664,10 @@ static int parse_statement(parser *p)
     if (is_reserved(t->text))
         return perr(p, t->col, "found '%s' at the start of a statement, expected a statement "
                     "(input, output, hidden, default, design, hold) or an edge", t->text);
-    tok_kind after = p->tok[p->pos + 1].kind;
-    if (after == T_ARROW || after == T_COMMA) return parse_edges(p);
+    cov_tok_kind after = p->toks.tok[p->pos + 1].kind;
+    if (after == COV_TOK_ARROW || after == COV_TOK_COMMA) return parse_edges(p);
     if (lookup(p, t->text) >= 0)
-        return expect_fail(p, &p->tok[p->pos + 1], "'->' or ',' after a variable name");
+        return expect_fail(p, &p->toks.tok[p->pos + 1], "'->' or ',' after a variable name");
     const char *near = nearest(t->text, statement_words, N_STATEMENT, sizeof statement_words[0]);
     if (near != NULL)
         return perr(p, t->col, "found the unknown word '%s', expected a statement or an edge; "
@@ -940,8 +724,9 @@ int cov_graph_parse_text(const char *name, const char *text, cov_graph **out, co
         const char *stop = e ? e : s + strlen(s);
         const char *lend = stop;
         if (lend > s && lend[-1] == '\r') lend--;
-        tokens_clear(&p);
-        rc = lex_line(&p, s, lend);
+        cov_tokens_clear(&p.toks);
+        p.pos = 0;
+        rc = cov_graph_lex_line(&p.toks, p.name, p.line, s, lend, err);
         if (!rc) rc = parse_statement(&p);
         if (rc) goto fail;
         s = e ? e + 1 : stop;
@@ -961,16 +746,16 @@ int cov_graph_parse_text(const char *name, const char *text, cov_graph **out, co
             goto fail;
         }
     }
-    tokens_clear(&p);
-    free(p.tok);
+    cov_tokens_clear(&p.toks);
+    free(p.toks.tok);
     for (size_t i = 0; i < g->n_vars; i++) free(p.children[i].item);
     free(p.children);
     free(p.slot);
     *out = g;
     return COV_OK;
 fail:
-    tokens_clear(&p);
-    free(p.tok);
+    cov_tokens_clear(&p.toks);
+    free(p.toks.tok);
     for (size_t i = 0; i < g->n_vars; i++) free(p.children[i].item);
     free(p.children);
     free(p.slot);
@@ -981,50 +766,9 @@ fail:
 int cov_graph_parse_file(const char *path, cov_graph **out, cov_error *err)
 {
     *out = NULL;
-    FILE *f = fopen(path, "rb");
-    if (f == NULL)
-        return cov_fail(err, COV_EIO, path, "cannot open the graph file: %s", strerror(errno));
-    char *buf = NULL;
-    size_t len = 0, cap = 0;
-    int rc = COV_OK;
-    for (;;) {
-        if (cap - len < 4096) {
-            cap = cap ? 2 * cap : 65536;
-            char *nb = realloc(buf, cap + 1);
-            if (nb == NULL) {
-                rc = cov_fail(err, COV_ENOMEM, path, "out of memory reading the graph file");
-                goto fail;
-            }
-            buf = nb;
-        }
-        size_t got = fread(buf + len, 1, cap - len, f);
-        len += got;
-        if (got == 0) break;
-    }
-    if (ferror(f)) {
-        rc = cov_fail(err, COV_EIO, path, "cannot read the graph file: %s", strerror(errno));
-        goto fail;
-    }
-    buf[len] = '\0';
-    const char *nul = memchr(buf, '\0', len);
-    if (nul != NULL) {
-        int line = 1, col = 1;
-        for (const char *q = buf; q < nul; q++) {
-            if (*q == '\n') {
-                line++;
-                col = 1;
-            } else if (((unsigned char)*q & 0xC0) != 0x80) {
-                col++;
-            }
-        }
-        char where[512];
-        snprintf(where, sizeof where, "%s:%d:%d", path, line, col);
-        rc = cov_fail(err, COV_EINPUT, where, "found a NUL byte, expected UTF-8 text");
-        goto fail;
-    }
-    rc = cov_graph_parse_text(path, buf, out, err);
-fail:
-    free(buf);
-    fclose(f);
+    char *text = NULL;
+    int rc = cov_graph_read_text(path, &text, err);
+    if (rc == COV_OK) rc = cov_graph_parse_text(path, text, out, err);
+    free(text);
     return rc;
 }

@@ -18,7 +18,46 @@ void cov_emit_csv_field(FILE *f, const char *s);
 /* Write a number for CSV: %.10g, empty for NAN. */
 void cov_emit_csv_number(FILE *f, double x);
 
-/* ---- graph and d-separation (coverage/graph.c, coverage/dsep.c, coverage/claims.c) ----------- */
+/* ---- graph and d-separation (coverage/graph.c, coverage/graph_lex.c, coverage/dsep.c, ...) --- */
+
+/* The graph file's tokens (coverage/graph_lex.c), which coverage/graph.c parses line by line. */
+typedef enum {
+    COV_TOK_END, COV_TOK_WORD, COV_TOK_QUOTED, COV_TOK_NUMBER, COV_TOK_ARROW, COV_TOK_COMMA,
+    COV_TOK_LBRACK, COV_TOK_RBRACK, COV_TOK_LBRACE, COV_TOK_RBRACE, COV_TOK_PLUS, COV_TOK_MINUS
+} cov_tok_kind;
+
+typedef struct {
+    cov_tok_kind kind;
+    char *text;     /* COV_TOK_WORD, COV_TOK_QUOTED, COV_TOK_NUMBER: owned, unescaped */
+    double num;     /* COV_TOK_NUMBER */
+    int col;        /* 1-based, in characters (UTF-8 continuation bytes do not count) */
+} cov_token;
+
+/* A growable array of tokens; the caller frees tok after a last cov_tokens_clear. */
+typedef struct {
+    cov_token *tok;
+    size_t n, cap;
+} cov_tokens;
+
+/* Read the whole file at path into *text, NUL-terminated and malloc'd (the caller frees it).
+ * Returns COV_OK; COV_EIO when it cannot be opened or read; COV_EINPUT with err->where
+ * "path:line:column" when it holds a NUL byte; COV_ENOMEM. */
+int cov_graph_read_text(const char *path, char **text, cov_error *err);
+/* Append the tokens of line number `line` [s, e) of the graph file `name` to toks, closed by a
+ * COV_TOK_END; a '#' starts a comment to the end of the line. Returns COV_OK; COV_EINPUT with
+ * err->where "name:line:column" for a character, number or quoted name it cannot read;
+ * COV_ENOMEM. */
+int cov_graph_lex_line(cov_tokens *toks, const char *name, int line, const char *s, const char *e,
+                       cov_error *err);
+/* Free the texts of the tokens in toks and empty it, keeping its array for the next line. */
+void cov_tokens_clear(cov_tokens *toks);
+/* Describe t for a "found ..." message ("the end of the line", "'->'", "the number 3") into buf of
+ * size bytes; returns buf. */
+const char *cov_token_describe(const cov_token *t, char *buf, size_t size);
+/* Fill err with the message fmt and err->where "name:line:col" (err may be NULL); returns
+ * COV_EINPUT. */
+int cov_graph_fail(cov_error *err, const char *name, int line, int col, const char *fmt, ...)
+    __attribute__((format(printf, 5, 6)));
 
 #define COV_NO_NODE ((size_t)-1)
 
