@@ -362,10 +362,11 @@ static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, do
      * and TOST powers depend on effect and sigma only through effect / sigma, so the MDE scales
      * with sigma exactly. */
     double p;
+    /* Power falls as sigma grows: a power of exactly 1 (or 0) at sigma bounds the other side. */
     e.sigma = sigma_hi;
-    if (pw_power(&e, &p) == PW_OK) a->power_lo = p;
+    if (a->power > 0 && pw_power(&e, &p) == PW_OK) a->power_lo = p;
     e.sigma = sigma_lo;
-    if (pw_power(&e, &p) == PW_OK) a->power_hi = p;
+    if (a->power < 1 && pw_power(&e, &p) == PW_OK) a->power_hi = p;
     a->mde_lo = a->mde * sigma_lo / d->sigma;
     a->mde_hi = a->mde * sigma_hi / d->sigma;
     return PW_OK;
@@ -434,7 +435,12 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     a->sd_treatment_resid = d->sd_x_resid;
     a->has_design = 1;
     int rc = size_claim(a, d, NAN, NAN);
-    if (rc != PW_OK) return COV_ENUMERIC;
+    if (rc == PW_ENOMEM) return COV_ENOMEM;
+    if (rc != PW_OK) {
+        a->verdict = COV_THIN;
+        note_add(&a->reason, "the power computation failed (%s)", pw_strerror(rc));
+        return COV_OK;
+    }
     a->power_lo = a->power_hi = a->power;
     decide(a, c, opt->target);
     if (a->verdict == COV_THIN) {
@@ -677,8 +683,17 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     double sigma_lo = sqrt(nu * s2 / gsl_cdf_chisq_Qinv(tail, nu));
     double sigma_hi = sqrt(nu * s2 / gsl_cdf_chisq_Pinv(tail, nu));
     a->has_design = 1;
-    if (size_claim(a, dz, sigma_lo, sigma_hi) != PW_OK) {
-        rc = COV_ENUMERIC;
+    int src = size_claim(a, dz, sigma_lo, sigma_hi);
+    if (src == PW_ENOMEM) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    if (src != PW_OK) {
+        /* One claim's numerics failing should not hide every other claim's figures. */
+        a->verdict = COV_THIN;
+        note_add(&a->reason, "the power computation failed (%s), so the claim cannot be shown "
+                 "ample", pw_strerror(src));
+        rc = COV_OK;
         goto fail;
     }
     decide(a, c, opt->target);
