@@ -114,8 +114,9 @@ const char *cov_csv_field(const cov_csv *c, size_t i, size_t *len);
 /* The line on which the current row starts. */
 long cov_csv_line(const cov_csv *c);
 
-/* The open archive's read-only SQLite connection (owned by the archive: never close it). Callers
- * that write history into an owned archive open a separate read-write connection of their own. */
+/* The open archive's read-only SQLite connection (owned by the archive: never close it). It is
+ * opened with SQLITE_OPEN_NOMUTEX: use it from one thread at a time. Callers that write history
+ * into an owned archive open a separate read-write connection of their own. */
 struct sqlite3;
 struct sqlite3 *cov_archive_db(cov_archive *a);
 /* The table of runs, as given to cov_archive_open, and its column names in declared order. */
