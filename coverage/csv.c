@@ -1,5 +1,5 @@
-/* A streaming CSV reader after RFC 4180 (header row, quoted fields, CRLF or LF), with the
- * delimiter (comma, tab or semicolon) detected from the header line and a UTF-8 BOM skipped. See LICENSE. */
+/* A streaming CSV reader after RFC 4180 (header row, quoted fields, CRLF or LF); the delimiter is
+ * detected from the header line and a UTF-8 BOM is skipped. See LICENSE. */
 #include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -19,7 +19,7 @@ struct cov_csv {
     size_t len, pos;
     int eof;
     char delim;
-    unsigned char special[256];  /* 1 for bytes that end an unquoted run: delim, quote, CR, LF, NUL */
+    unsigned char special[256];  /* 1 for bytes ending an unquoted run: delim, quote, CR, LF, NUL */
     long line, col;              /* position of the next byte: 1-based line, 1-based character */
     char *rec;                   /* the current record's fields, each NUL-terminated */
     size_t rec_len, rec_cap;

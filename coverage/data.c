@@ -308,7 +308,8 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     qt = cov_sql_ident(cov_archive_table(a));
     if (qt == NULL) goto nomem;
     size_t len = strlen(qt) + 64;
-    for (size_t k = 0; k < n_rec; k++) len += 2 * strlen(cov_archive_column(a, (size_t)colidx[k])) + 4;
+    for (size_t k = 0; k < n_rec; k++)
+        len += 2 * strlen(cov_archive_column(a, (size_t)colidx[k])) + 4;
     len += 32;
     sql = malloc(len);
     if (sql == NULL) goto nomem;

@@ -27,8 +27,10 @@ run() {
 
 db=$tmp/ward.db
 run "import comma CSV creates the archive as batch 1" 0 \
-  "imported 4 rows from $F/comma.csv into $db as batch 1" "$SHOAL" import "$F/comma.csv" --archive "$db"
-run "import tab-separated file appends batch 2" 0 "as batch 2" "$SHOAL" import "$F/tab.tsv" --archive "$db"
+  "imported 4 rows from $F/comma.csv into $db as batch 1" \
+  "$SHOAL" import "$F/comma.csv" --archive "$db"
+run "import tab-separated file appends batch 2" 0 "as batch 2" \
+  "$SHOAL" import "$F/tab.tsv" --archive "$db"
 run "import semicolon file with an extra column appends batch 3" 0 "as batch 3" \
   "$SHOAL" import "$F/semicolon.csv" --archive "$db"
 run "import CRLF file with a UTF-8 BOM appends batch 4" 0 "as batch 4" \
@@ -36,9 +38,12 @@ run "import CRLF file with a UTF-8 BOM appends batch 4" 0 "as batch 4" \
 run "import quoted fields with an embedded newline appends batch 5" 0 "imported 2 rows" \
   "$SHOAL" import "$F/quoted.csv" --archive "$db"
 run "import -q prints nothing" 0 "" "$SHOAL" import -q "$F/comma.csv" --archive "$tmp/quiet.db"
-if [ -s "$tmp/out" ]; then fail "import -q wrote to stdout"; else pass "import -q wrote nothing to stdout"; fi
-run "check of a clean archive passes (exit 0)" 0 "check passed" "$SHOAL" check "$F/ward.graph" "$db"
-run "check counts runs and batches" 0 "runs      12 in 5 batches" "$SHOAL" check "$F/ward.graph" "$db"
+if [ -s "$tmp/out" ]; then fail "import -q wrote to stdout"
+else pass "import -q wrote nothing to stdout"; fi
+run "check of a clean archive passes (exit 0)" 0 "check passed" \
+  "$SHOAL" check "$F/ward.graph" "$db"
+run "check counts runs and batches" 0 "runs      12 in 5 batches" \
+  "$SHOAL" check "$F/ward.graph" "$db"
 
 # The stored rows against Python's csv module (RFC 4180 reader of the standard library) and its
 # sqlite3 module: every cell must match, numbers compared as numbers, empty fields as NULL.
@@ -93,7 +98,8 @@ run "importing into a file that is not SQLite is bad input" 2 "not an SQLite dat
   "$SHOAL" import "$F/comma.csv" --archive "$tmp/text.db"
 if cmp -s "$tmp/text.db" "$tmp/text-copy.db"; then pass "the file that is not SQLite is left alone"
 else fail "import changed a file that is not SQLite"; fi
-run "import without --archive is a usage error" 2 "import needs --archive" "$SHOAL" import "$F/comma.csv"
+run "import without --archive is a usage error" 2 "import needs --archive" \
+  "$SHOAL" import "$F/comma.csv"
 
 # Header names with quotes and semicolons become quoted SQL identifiers.
 run "header with quotes and semicolons imports" 0 "imported 2 rows" \
@@ -103,7 +109,7 @@ import sqlite3, sys
 con = sqlite3.connect(sys.argv[1])
 cols = [r[1] for r in con.execute("PRAGMA table_info(\"odd \"\"t\"\"; x\")")]
 sys.exit(0 if cols == ["it'"'"'s; \"odd\"", "plain;x", "a,b", "shoal_batch"] else 1)' "$tmp/odd.db"
-then pass "column names with quotes, semicolons and commas stored intact (read back by Python sqlite3)"
+then pass "names with quotes, semicolons and commas stored intact (read back by Python sqlite3)"
 else fail "column names with quotes and semicolons not stored intact"; fi
 
 # Data checks through shoal check.
@@ -111,23 +117,27 @@ for name in outside nonnumeric bad-bool bad-level missing-column empty-output; d
   rm -f "$tmp/$name.db"
   "$SHOAL" import -q "$F/$name.csv" --archive "$tmp/$name.db" || fail "import of $name.csv"
 done
-run "inputs outside the domain: not adequate (exit 1)" 1 "check failed: 2 inputs have values outside" \
+run "inputs outside the domain: not adequate (exit 1)" 1 \
+  "check failed: 2 inputs have values outside" \
   "$SHOAL" check "$F/ward.graph" "$tmp/outside.db"
 run "out-of-domain example names row and value" 1 "arrivals, row 2: 14, outside [2, 12]" \
   "$SHOAL" check "$F/ward.graph" "$tmp/outside.db"
-run "non-whole integer input is out of domain" 1 "staff, row 3: 2.5, not a whole number in [1, 9]" \
+run "non-whole integer input is out of domain" 1 \
+  "staff, row 3: 2.5, not a whole number in [1, 9]" \
   "$SHOAL" check "$F/ward.graph" "$tmp/outside.db"
 run "non-numeric cell: row and column, found and expected (exit 2)" 2 \
   "nonnumeric.db: row 2, column arrivals: found 'abc', expected a number" \
   "$SHOAL" check "$F/ward.graph" "$tmp/nonnumeric.db"
-run "bool other than 0/1/true/false (exit 2)" 2 "row 1, column fast: found 'yes', expected 0, 1, true or false" \
+run "bool other than 0/1/true/false (exit 2)" 2 \
+  "row 1, column fast: found 'yes', expected 0, 1, true or false" \
   "$SHOAL" check "$F/ward.graph" "$tmp/bad-bool.db"
 run "undeclared level names it and the declared ones (exit 2)" 2 \
   "found the level 'west', expected one of the declared levels: north, south, east" \
   "$SHOAL" check "$F/ward.graph" "$tmp/bad-level.db"
 run "missing columns are all named (exit 2)" 2 "recorded variables 'staff', 'site';" \
   "$SHOAL" check "$F/ward.graph" "$tmp/missing-column.db"
-run "an output with no values at all: not adequate (exit 1)" 1 "1 recorded variable has no values" \
+run "an output with no values at all: not adequate (exit 1)" 1 \
+  "1 recorded variable has no values" \
   "$SHOAL" check "$F/ward.graph" "$tmp/empty-output.db"
 run "a missing archive is bad input" 2 "cannot open the archive" \
   "$SHOAL" check "$F/ward.graph" "$tmp/none.db"
@@ -140,8 +150,8 @@ if "$PYTHON" -c '
 import json, sys
 d = json.load(open(sys.argv[1]))
 v = {x["name"]: x for x in d["variables"]}
-ok = (d["schema_version"] == 1 and d["runs"] == 3 and d["adequate"] is False and d["owned"] is True
-      and v["arrivals"]["outside"] == 1 and v["arrivals"]["examples"][0]["row"] == 2
+ok = (d["schema_version"] == 1 and d["runs"] == 3 and d["adequate"] is False
+      and d["owned"] is True and v["arrivals"]["outside"] == 1 and v["arrivals"]["examples"][0]["row"] == 2
       and v["arrivals"]["examples"][0]["value"] == 14 and "outside" not in v["wait"]
       and len(d["batches"]) == 1 and d["batches"][0]["rows"] == 3)
 sys.exit(0 if ok else 1)' "$tmp/out"

@@ -59,7 +59,8 @@ status=0
 verdict=$(awk -v sw="$sw" -v sc="$sc" -v qw="$qw" -v qc="$qc" -v t="$IMPORT_TARGET" 'BEGIN {
   printf "ratio wall %.2f, cpu %.2f (target <= %.1f): %s", sw / qw, sc / qc, t,
          sc / qc <= t ? "met" : "MISSED" }')
-echo "import (median of $REPEATS): shoal import ${sw} s wall ${sc} s cpu, sqlite3 .import ${qw} s wall ${qc} s cpu; $verdict"
+echo "import (median of $REPEATS): shoal import ${sw} s wall ${sc} s cpu," \
+  "sqlite3 .import ${qw} s wall ${qc} s cpu; $verdict"
 case "$verdict" in *MISSED*) status=1 ;; esac
 
 out=$("$BUILD/bench/bench_scan" "$tmp/shoal.db" "$COLS") || exit 1
