@@ -66,6 +66,8 @@ static void ok(int cond, const char *fmt, ...)
 
 /* ---- the CSV reader ------------------------------------------------------------------------- */
 
+static char last_delim;
+
 /* Read a whole CSV text; returns the status, and the fields joined as "a|b|c/d|e|f/" so one
  * string comparison checks every field of every row. */
 static int read_csv(const char *text, char *joined, size_t n, cov_error *err)
@@ -77,6 +79,7 @@ static int read_csv(const char *text, char *joined, size_t n, cov_error *err)
     if (rc) return rc;
     size_t at = 0;
     joined[0] = '\0';
+    last_delim = cov_csv_delimiter(c);
     for (size_t i = 0; i < cov_csv_n_fields(c); i++)
         at += (size_t)snprintf(joined + at, n - at, "%s%s", i ? "|" : "", cov_csv_header(c, i));
     at += (size_t)snprintf(joined + at, n - at, "/");
@@ -124,8 +127,10 @@ static void test_csv(void)
     expect_csv("RFC 4180 CRLF line breaks", "a,b\r\n1,2\r\n3,4\r\n", "a|b/1|2/3|4/");
     expect_csv("tab-separated detected from the header", "a\tb\tc\n1,5\t2\t3\n",
                "a|b|c/1,5|2|3/");
+    gsl_test_int(last_delim, '\t', "the detected delimiter is the tab");
     expect_csv("semicolon-separated detected (decimal commas stay in the field)",
                "x;y\n1,5;2,25\n", "x|y/1,5|2,25/");
+    gsl_test_int(last_delim, ';', "the detected delimiter is the semicolon");
     /* RFC 4180 section 2.6 and 2.7: quoted fields may hold delimiters, line breaks and doubled
      * quotes. */
     expect_csv("RFC 4180 quoted fields with delimiter, doubled quote, newline",
@@ -385,6 +390,17 @@ static void test_open(void)
            "the batch list gives ids and row counts in order");
     }
     cov_batches_free(b, nb);
+    cov_var lv[1] = {{0}};
+    lv[0].name = "load";
+    lv[0].role = COV_OUTPUT;
+    lv[0].type = COV_REAL;
+    lv[0].lo = lv[0].hi = lv[0].noise_sd = NAN;
+    cov_graph lg = {"invented.graph", lv, 1, NULL, 0, {NAN, COV_UNIT_RAW}, {NAN, COV_UNIT_RAW}, 0};
+    cov_data *d = NULL;
+    rc = cov_data_read(a, &lg, NULL, NULL, &d, &err);
+    ok(rc == COV_OK && d->n_runs == 3 && d->col[0][1] == -300 && d->n_batches == 2,
+       "reading the archive gives 3 runs in 2 batches (%s)", err.msg);
+    cov_data_free(d);
     int wr = sqlite3_exec(cov_archive_db(a), "CREATE TABLE t(x)", NULL, NULL, NULL);
     ok(wr != SQLITE_OK, "the archive's connection refuses to write");
     cov_archive_close(a);
