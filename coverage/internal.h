@@ -191,6 +191,9 @@ double cov_cd2_random(size_t n, size_t d);
 int cov_probe_points(size_t n, size_t d, unsigned long seed, double *out);
 /* Probe points the fill distance uses for d numeric inputs. */
 size_t cov_probe_count(size_t d);
+/* Runs cov_fill_gaps measures distances to when given n runs in d dimensions: n, or the size of
+ * the fixed-seed subsample that keeps the search within its work limit. */
+size_t cov_gap_runs(size_t n, size_t d);
 
 /* Fill distance of the n runs pts (row-major, n x d, unit cube) over cov_probe_count(d) probes:
  * the largest distance from a probe to its nearest run, and up to max_gaps probes farthest from
