@@ -183,6 +183,14 @@ static void kd_nearest(const kdtree *t, size_t lo, size_t hi, const double *q, d
     }
 }
 
+size_t cov_gap_runs(size_t n, size_t d)
+{
+    size_t np = cov_probe_count(d);
+    if (d <= COV_KD_USEFUL_DIMS || (double)np * (double)n * (double)d <= COV_GAP_MAX_WORK) return n;
+    size_t keep = (size_t)(COV_GAP_MAX_WORK / ((double)np * (double)d));
+    return keep < 1 ? 1 : keep;
+}
+
 int cov_fill_gaps(const double *pts, size_t n, size_t d, unsigned long seed, size_t max_gaps,
                   double *fill, double *gaps, double *gap_dist, size_t *n_gaps, int *subsampled)
 {
@@ -200,12 +208,8 @@ int cov_fill_gaps(const double *pts, size_t n, size_t d, unsigned long seed, siz
 
     /* Runs to search: all of them, or a fixed-seed subsample (Knuth's Algorithm S) when the tree
      * cannot prune and the brute-force work would pass COV_GAP_MAX_WORK. */
-    size_t keep = n;
-    if (d > COV_KD_USEFUL_DIMS && (double)np * (double)n * (double)d > COV_GAP_MAX_WORK) {
-        keep = (size_t)(COV_GAP_MAX_WORK / ((double)np * (double)d));
-        if (keep < 1) keep = 1;
-        *subsampled = 1;
-    }
+    size_t keep = cov_gap_runs(n, d);
+    *subsampled = keep < n;
     t.pts = malloc(keep * d * sizeof *t.pts);
     t.dim = calloc(keep, 1);
     t.split = malloc(keep * sizeof *t.split);

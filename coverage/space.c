@@ -217,9 +217,10 @@ static int choose_triples(pass_state *s, size_t K, unsigned long seed, int *samp
  * at most COV_GROUP_MAX_CODES codes, which keeps a joint table (4 bytes a cell) within a typical
  * 64 KB L2 slice; otherwise each pair is counted on its own. */
 #define COV_GROUP_MAX_CODES 128
-/* Runs per block in grouped counting: codes of a block (K x 2 bytes and K/2 bytes a run) stay in
- * L2/L3 while every group pair is counted from them. */
-#define COV_GROUP_BLOCK 16384
+/* Runs per block in grouped counting. Each group pair is counted into a 16-bit scratch table
+ * (at most 128 x 128 cells, 32 KB: it stays in the L1 cache), which a block of up to 65,535 runs
+ * cannot overflow, and then added to its 32-bit totals. */
+#define COV_GROUP_BLOCK 65535
 
 typedef struct {
     size_t n_groups;
@@ -228,6 +229,7 @@ typedef struct {
     uint32_t **joint;      /* per group pair g1 < g2: codes[g1] x codes[g2] counters */
     uint32_t **own;        /* per group: counts of its codes (its own pair's table) */
     uint8_t *gcode;        /* n_groups x COV_GROUP_BLOCK */
+    uint16_t *scratch;     /* one joint table's counts within a block */
 } grouping;
 
 static void grouping_free(grouping *gr)
@@ -242,6 +244,7 @@ static void grouping_free(grouping *gr)
     free(gr->member);
     free(gr->codes);
     free(gr->gcode);
+    free(gr->scratch);
 }
 
 /* Set up the groups; returns COV_OK with n_groups == 0 when grouping does not apply. */
@@ -260,8 +263,10 @@ static int grouping_init(grouping *gr, const pass_state *s)
     gr->joint = calloc(G * (G - 1) / 2 + 1, sizeof *gr->joint);
     gr->own = calloc(G, sizeof *gr->own);
     gr->gcode = malloc(G * COV_GROUP_BLOCK);
+    gr->scratch = malloc(COV_GROUP_MAX_CODES * COV_GROUP_MAX_CODES * sizeof *gr->scratch);
     gr->n_groups = G;
-    if (!gr->member || !gr->codes || !gr->joint || !gr->own || !gr->gcode) return COV_ENOMEM;
+    if (!gr->member || !gr->codes || !gr->joint || !gr->own || !gr->gcode || !gr->scratch)
+        return COV_ENOMEM;
     for (size_t g = 0; g < G; g++) {
         gr->member[g][0] = 2 * g;
         gr->member[g][1] = 2 * g + 1 < K ? 2 * g + 1 : SIZE_MAX;
@@ -351,8 +356,11 @@ static int count_pass(const cov_data *d, const size_t *inputs, pass_state *s)
                 for (size_t g2 = g1 + 1; g2 < gr.n_groups; g2++, q++) {
                     const uint8_t *c2 = gr.gcode + g2 * COV_GROUP_BLOCK;
                     uint32_t *t = gr.joint[q];
-                    const size_t w = gr.codes[g2];
-                    for (size_t i = 0; i < m; i++) t[c1[i] * w + c2[i]]++;
+                    uint16_t *sc = gr.scratch;
+                    const size_t w = gr.codes[g2], cells = gr.codes[g1] * w;
+                    memset(sc, 0, cells * sizeof *sc);
+                    for (size_t i = 0; i < m; i++) sc[c1[i] * w + c2[i]]++;
+                    for (size_t x = 0; x < cells; x++) t[x] += sc[x];
                 }
             }
         } else {
@@ -383,70 +391,119 @@ static int count_pass(const cov_data *d, const size_t *inputs, pass_state *s)
     return COV_OK;
 }
 
-/* Numeric inputs scaled to the unit cube, complete runs only (n_complete x n_numeric, row-major). */
-static int numeric_points(const cov_graph *g, const cov_data *d, const size_t *numeric,
-                          size_t nn, double **out, size_t *n_out)
+/* The runs with every numeric input present and inside its domain; NULL when out of memory. */
+static size_t *complete_rows(const cov_graph *g, const cov_data *d, const size_t *numeric,
+                             size_t nn, size_t *n_out)
 {
-    *out = NULL;
-    *n_out = 0;
-    if (nn == 0) return COV_OK;
-    double *pts = malloc((d->n_runs ? d->n_runs : 1) * nn * sizeof *pts);
-    if (pts == NULL) return COV_ENOMEM;
-    size_t m = 0;
-    for (size_t i = 0; i < d->n_runs; i++) {
-        double *row = pts + m * nn;
-        size_t k;
-        for (k = 0; k < nn; k++) {
-            const cov_var *v = &g->vars[numeric[k]];
-            double x = d->col[numeric[k]][i];
-            if (!(x >= v->lo && x <= v->hi)) break;
-            row[k] = (x - v->lo) / (v->hi - v->lo);
-        }
-        if (k == nn) m++;
+    /* Column by column, so each pass streams one column. */
+    size_t *rows = malloc((d->n_runs ? d->n_runs : 1) * sizeof *rows), m = 0;
+    unsigned char *ok = malloc(d->n_runs ? d->n_runs : 1);
+    if (rows == NULL || ok == NULL) {
+        free(rows);
+        free(ok);
+        return NULL;
     }
-    *out = pts;
+    memset(ok, 1, d->n_runs);
+    for (size_t k = 0; k < nn; k++) {
+        const cov_var *v = &g->vars[numeric[k]];
+        const double *x = d->col[numeric[k]], lo = v->lo, hi = v->hi;
+        for (size_t i = 0; i < d->n_runs; i++) ok[i] &= x[i] >= lo && x[i] <= hi;
+    }
+    for (size_t i = 0; i < d->n_runs; i++)
+        if (ok[i]) rows[m++] = i;
+    free(ok);
     *n_out = m;
-    return COV_OK;
+    return rows;
 }
 
-/* Centred L2 discrepancy of the complete numeric points; a fixed-seed subsample (Algorithm S)
- * above the limit. The subsample's CD^2 is compared with random points of the same number: a
- * random subsample of a structured design looks more random than the design, so above the limit
- * the figure mainly detects clumping and empty regions. */
-static int discrepancy(const double *pts, size_t n, size_t nn, unsigned long seed, cov_coverage *c)
+/* A fixed-seed sample of want of the n rows, in run order (Knuth, TAOCP vol. 2, 3.4.2,
+ * Algorithm S); a copy of all of them when want >= n. */
+static size_t *sample_rows(const size_t *rows, size_t n, size_t want, unsigned long seed,
+                           size_t *m_out)
 {
-    c->cd_n = n;
-    if (n == 0 || nn == 0) {
-        c->cd2 = c->cd2_random = NAN;
-        return COV_OK;
+    size_t keep = want < n ? want : n, m = 0;
+    size_t *out = malloc((keep ? keep : 1) * sizeof *out);
+    if (out == NULL) return NULL;
+    if (keep == n) {
+        memcpy(out, rows, n * sizeof *out);
+        *m_out = n;
+        return out;
     }
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    if (r == NULL) {
+        free(out);
+        return NULL;
+    }
+    gsl_rng_set(r, seed);
+    for (size_t i = 0; i < n && m < keep; i++)
+        if ((double)(n - i) * gsl_rng_uniform(r) < (double)(keep - m)) out[m++] = rows[i];
+    gsl_rng_free(r);
+    *m_out = m;
+    return out;
+}
+
+/* The numeric inputs of the given runs scaled to the unit cube (m x nn, row-major). */
+static double *unit_points(const cov_graph *g, const cov_data *d, const size_t *numeric,
+                           size_t nn, const size_t *rows, size_t m)
+{
+    double *pts = malloc((m ? m : 1) * nn * sizeof *pts);
+    if (pts == NULL) return NULL;
+    for (size_t i = 0; i < m; i++)
+        for (size_t k = 0; k < nn; k++) {
+            const cov_var *v = &g->vars[numeric[k]];
+            pts[i * nn + k] = (d->col[numeric[k]][rows[i]] - v->lo) / (v->hi - v->lo);
+        }
+    return pts;
+}
+
+/* Centred L2 discrepancy of the complete numeric runs; a fixed-seed subsample above the limit.
+ * The subsample's CD^2 is compared with random points of the same number: a random subsample of
+ * a structured design looks more random than the design, so above the limit the figure mainly
+ * detects clumping and empty regions. Then the fill distance and gaps, on a subsample when the
+ * probe search would be too long (see coverage/gaps.c). */
+static int space_filling(const cov_graph *g, const cov_data *d, unsigned long seed,
+                         cov_coverage *c)
+{
+    const size_t nn = c->n_numeric;
+    size_t n = 0, m = 0;
+    size_t *rows = NULL, *sub = NULL;
+    double *pts = NULL;
+    int rc = COV_ENOMEM;
+    c->cd_n = 0;
+    if (nn == 0) return COV_OK;
+    if ((rows = complete_rows(g, d, c->numeric, nn, &n)) == NULL) goto done;
+    c->n_complete = n;
+    rc = COV_OK;
+    if (n == 0) goto done;
+    rc = COV_ENOMEM;
     size_t limit = COV_CD_MAX_RUNS;
     if ((double)limit * (double)limit * (double)nn / 2 > COV_CD_MAX_WORK)
         limit = (size_t)sqrt(2 * COV_CD_MAX_WORK / (double)nn);
-    if (n <= limit) {
-        c->cd2 = cov_cd2(pts, n, nn);
-        c->cd2_random = cov_cd2_random(n, nn);
-        return COV_OK;
-    }
-    double *sub = malloc(limit * nn * sizeof *sub);
-    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
-    if (sub == NULL || r == NULL) {
-        free(sub);
-        gsl_rng_free(r);
-        return COV_ENOMEM;
-    }
-    gsl_rng_set(r, seed ^ 0xcd2UL);
-    size_t m = 0;
-    for (size_t i = 0; i < n && m < limit; i++)
-        if ((double)(n - i) * gsl_rng_uniform(r) < (double)(limit - m))
-            memcpy(sub + nn * m++, pts + nn * i, nn * sizeof *sub);
-    c->cd2 = cov_cd2(sub, m, nn);
+    if ((sub = sample_rows(rows, n, limit, seed ^ 0xcd2UL, &m)) == NULL) goto done;
+    if ((pts = unit_points(g, d, c->numeric, nn, sub, m)) == NULL) goto done;
+    c->cd2 = cov_cd2(pts, m, nn);
     c->cd2_random = cov_cd2_random(m, nn);
-    c->cd_subsampled = 1;
+    c->cd_subsampled = m < n;
     c->cd_n = m;
     free(sub);
-    gsl_rng_free(r);
-    return COV_OK;
+    free(pts);
+    sub = NULL, pts = NULL;
+
+    size_t want = cov_gap_runs(n, nn);
+    if ((sub = sample_rows(rows, n, want, seed ^ 0x6a95UL, &m)) == NULL) goto done;
+    if ((pts = unit_points(g, d, c->numeric, nn, sub, m)) == NULL) goto done;
+    c->gaps = malloc(COV_N_GAPS * nn * sizeof *c->gaps);
+    c->gap_dist = malloc(COV_N_GAPS * sizeof *c->gap_dist);
+    if (c->gaps == NULL || c->gap_dist == NULL) goto done;
+    c->n_probes = cov_probe_count(nn);
+    rc = cov_fill_gaps(pts, m, nn, seed, COV_N_GAPS, &c->fill_distance, c->gaps, c->gap_dist,
+                       &c->n_gaps, &c->gaps_subsampled);
+    if (m < n) c->gaps_subsampled = 1;
+done:
+    free(rows);
+    free(sub);
+    free(pts);
+    return rc;
 }
 
 int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_coverage_options *opt,
@@ -455,7 +512,6 @@ int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_covera
     int rc = COV_ENOMEM;
     pass_state s;
     memset(&s, 0, sizeof s);
-    double *pts = NULL;
     cov_coverage *c = calloc(1, sizeof *c);
     *out = NULL;
     if (c == NULL) goto fail;
@@ -632,26 +688,11 @@ int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_covera
     if ((rc = cov_dependence_fill(g, d, c)) != COV_OK) goto fail;
 
     /* Space filling: discrepancy and gaps on the complete numeric runs in the unit cube. */
-    rc = COV_ENOMEM;
-    if (numeric_points(g, d, c->numeric, c->n_numeric, &pts, &c->n_complete) != COV_OK) goto fail;
-    if ((rc = discrepancy(pts, c->n_complete, c->n_numeric, opt->seed, c)) != COV_OK) goto fail;
-    if (c->n_numeric > 0 && c->n_complete > 0) {
-        rc = COV_ENOMEM;
-        c->gaps = malloc(COV_N_GAPS * c->n_numeric * sizeof *c->gaps);
-        c->gap_dist = malloc(COV_N_GAPS * sizeof *c->gap_dist);
-        if (c->gaps == NULL || c->gap_dist == NULL) goto fail;
-        c->n_probes = cov_probe_count(c->n_numeric);
-        rc = cov_fill_gaps(pts, c->n_complete, c->n_numeric, opt->seed, COV_N_GAPS,
-                           &c->fill_distance, c->gaps, c->gap_dist, &c->n_gaps,
-                           &c->gaps_subsampled);
-        if (rc != COV_OK) goto fail;
-    }
-    free(pts);
+    if ((rc = space_filling(g, d, opt->seed, c)) != COV_OK) goto fail;
     pass_free(&s);
     *out = c;
     return COV_OK;
 fail:
-    free(pts);
     pass_free(&s);
     cov_coverage_free(c);
     if (rc == COV_ENOMEM) cov_fail(err, COV_ENOMEM, "", "out of memory measuring coverage");
