@@ -35,6 +35,10 @@
 /* Doublings of the search interval for the mode before giving up (2^1100 passes DBL_MAX). */
 #define OWEN_MAX_DOUBLE 1100
 
+/* From this nu on the chi density is taken through Loader's Poisson term (k = nu / 2 - 1 >= 0);
+ * below it the direct formula involves only small numbers. */
+#define OWEN_LOADER_NU 2.0
+
 enum kind { OWEN_Q, TOST_BAND };
 
 struct chi_args {
@@ -73,7 +77,15 @@ static double log_integrand(double x, const struct chi_args *ca)
 {
     if (x < 0.0 || (x == 0.0 && ca->nu > 1.0))
         return -INFINITY;
-    double lchi = (ca->nu == 1.0 ? 0.0 : (ca->nu - 1.0) * log(x)) - 0.5 * x * x + ca->log_norm;
+    double lchi;
+    if (ca->nu >= OWEN_LOADER_NU)
+        /* With u = x^2 / 2 the chi density is x times the Poisson-form term u^k e^{-u} / k!,
+         * k = nu / 2 - 1, which Loader's form gives to full relative accuracy; the direct sum of
+         * (nu - 1) ln x, -x^2 / 2 and the constant cancels terms near 7e6 at nu = 1e6 and loses
+         * about 1e-9. */
+        lchi = log(x) + pw_log_dpois(0.5 * ca->nu - 1.0, 0.5 * x * x);
+    else
+        lchi = (ca->nu == 1.0 ? 0.0 : (ca->nu - 1.0) * log(x)) - 0.5 * x * x + ca->log_norm;
     double s = ca->slope * x;
     if (ca->kind == OWEN_Q)   /* Owen (1965): Phi(t x / sqrt(nu) - delta) */
         return log_Phi(s - ca->delta) + lchi;

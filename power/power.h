@@ -32,8 +32,8 @@ const char *pw_strerror(int status);
 /* Noncentral t with df > 0 degrees of freedom and noncentrality ncp (any real).
  * Method: Lenth (1989) AS 243 (Guenther's 1978 series), summed from the Poisson mode both ways;
  * t < 0 by reflection. Where t and ncp differ in sign the small tail's series alternates, and once
- * more than six digits would cancel that tail comes from Owen's Q by quadrature (about 25 us
- * instead of about 5), so it keeps about ten significant digits however small it is. */
+ * more than five digits would cancel that tail comes from Owen's Q by quadrature (about 25 us
+ * instead of about 5), so it keeps about nine significant digits however small it is. */
 int pw_nct_cdf(double t, double df, double ncp, double *lower, double *upper);
 
 /* Noncentral beta with shapes a, b > 0 and noncentrality lambda >= 0, at x in [0, 1].

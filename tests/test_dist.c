@@ -74,7 +74,7 @@ static void identities(void)
         pw_nct_cdf(-1e-150, 3.0, d0[j], &lo2, &up2);
         gsl_test_rel(lo, gsl_cdf_ugaussian_P(-d0[j]), 1e-14, "nct F(+0; 10, %g) = Phi(-d)", d0[j]);
         gsl_test_rel(up, gsl_cdf_ugaussian_Q(-d0[j]), 1e-14, "nct Q(+0; 10, %g) = Phi(d)", d0[j]);
-        /* t < 0 reflects to ncp -d, where the series' terms alternate and up to six digits may
+        /* t < 0 reflects to ncp -d, where the series' terms alternate and up to five digits may
          * cancel before Owen's Q takes over (NCT_CANCEL_SHARE): 1e-9 relative. */
         gsl_test_rel(lo2, gsl_cdf_ugaussian_P(-d0[j]), 1e-9, "nct F(-0; 3, %g) = Phi(-d)", d0[j]);
     }
