@@ -27,6 +27,9 @@
 #define PLAN_COVER_WEIGHT 0.05
 /* Runs of the archive the distance bonus measures against (a fixed-seed sample beyond that). */
 #define PLAN_GAP_SAMPLE 2000
+/* Rescore every candidate after each added run when that costs at most this many floating-point
+ * operations (about a millisecond); beyond it, rescore lazily. */
+#define PLAN_FULL_FLOPS 2e6
 /* Real values are drawn on a grid of this share of the domain, so that they print short. */
 #define PLAN_REAL_GRID 1e-6
 /* --budget auto: a need is recomputed at the current run count once that count has grown by this
@@ -894,6 +897,16 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
             refresh_needs(&st, p, (double)p->n_configs * k_rep, 1);
             for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
         }
+        /* Balance makes claim scores rise as well as fall (a run on the scarce side of a bool gains
+         * as the other side fills), so stale scores are not strict bounds while a claim is short:
+         * every candidate is rescored after each run when that costs little (exact greedy), and
+         * lazily otherwise. Coverage scores alone only fall, so lazy evaluation is exact then. */
+        if (pw_aug_n_active(st.aug) > 0 &&
+            (double)st.n_cand * (pw_aug_score_cost(st.aug) + (double)st.n_pairs) <= PLAN_FULL_FLOPS)
+            for (size_t k = 0; k < st.n_cand; k++) {
+                if ((rc = score_candidate(&st, k, k_rep, &part[k], &bound[k])) != COV_OK) goto fail;
+                fresh[k] = 1;
+            }
     }
     if (budget < 0 && p->capped)
         for (size_t j = 0; j < p->n; j++)

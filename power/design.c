@@ -338,6 +338,15 @@ size_t pw_aug_n_active(const pw_aug *a)
     return n;
 }
 
+double pw_aug_score_cost(const pw_aug *a)
+{
+    double cost = 0.0;
+    for (size_t g = 0; g < a->n_groups; g++)
+        if (a->groups[g].n_active > 0)
+            cost += (double)(a->groups[g].p * a->groups[g].p + a->groups[g].n_tg * 8);
+    return cost;
+}
+
 void pw_aug_set_need(pw_aug *a, size_t target, double need)
 {
     aug_target *t = &a->targets[target];
