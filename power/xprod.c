@@ -55,6 +55,61 @@ void pw_moments_add(pw_moments *m, const double *row)
     m->n = n1;
 }
 
+/* Register tile of the block cross-product: this many columns j are accumulated at once while
+ * the rows stream past, so the running sums stay in registers instead of the k x k matrix. */
+#define TILE 8
+
+#if defined(__GNUC__) && !defined(__clang__)
+__attribute__((optimize("O3")))
+#endif
+int pw_moments_add_block(pw_moments *m, const double *rows, size_t nb)
+{
+    size_t k = m->k;
+    if (nb == 0) return PW_OK;
+    double *dev = malloc(nb * k * sizeof *dev), *mb = calloc(k, sizeof *mb);
+    if (dev == NULL || mb == NULL) {
+        free(dev);
+        free(mb);
+        return PW_ENOMEM;
+    }
+    /* Two passes within the block: its mean, then deviations from it. */
+    for (size_t r = 0; r < nb; r++)
+        for (size_t i = 0; i < k; i++) mb[i] += rows[r * k + i];
+    for (size_t i = 0; i < k; i++) mb[i] /= (double)nb;
+    for (size_t r = 0; r < nb; r++)
+        for (size_t i = 0; i < k; i++) dev[r * k + i] = rows[r * k + i] - mb[i];
+    /* Merge with what came before (Chan, Golub & LeVeque 1983, eq. 2.1):
+     * C = C_a + C_b + (n_a n_b / n) delta delta', delta = mean_b - mean_a. */
+    double na = m->n, n = na + (double)nb, w = na * (double)nb / n;
+    for (size_t i = 0; i < k; i++) {
+        double di = mb[i] - m->mean[i];
+        double *ci = m->xprod + i * k;
+        for (size_t j0 = i; j0 < k; j0 += TILE) {
+            double acc[TILE] = {0};
+            size_t nj = k - j0 < TILE ? k - j0 : TILE;
+            if (nj == TILE) {
+                for (size_t r = 0; r < nb; r++) {
+                    const double *dr = dev + r * k;
+                    double a = dr[i];
+                    for (size_t t = 0; t < TILE; t++) acc[t] += a * dr[j0 + t];
+                }
+            } else {
+                for (size_t r = 0; r < nb; r++) {
+                    const double *dr = dev + r * k;
+                    for (size_t t = 0; t < nj; t++) acc[t] += dr[i] * dr[j0 + t];
+                }
+            }
+            for (size_t t = 0; t < nj; t++)
+                ci[j0 + t] += acc[t] + w * di * (mb[j0 + t] - m->mean[j0 + t]);
+        }
+    }
+    for (size_t i = 0; i < k; i++) m->mean[i] += (mb[i] - m->mean[i]) * (double)nb / n;
+    m->n = n;
+    free(dev);
+    free(mb);
+    return PW_OK;
+}
+
 double pw_moments_at(const pw_moments *m, size_t i, size_t j)
 {
     return i <= j ? m->xprod[i * m->k + j] : m->xprod[j * m->k + i];

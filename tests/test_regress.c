@@ -136,6 +136,30 @@ done:
     pw_moments_free(m);
 }
 
+/* Block accumulation (Chan, Golub & LeVeque's merge) gives the row-by-row co-moments. */
+static void test_moments_block(gsl_rng *r)
+{
+    enum { N = 1000, K = 5 };
+    static double rows[N * K];
+    pw_moments *a = NULL, *b = NULL;
+    pw_moments_alloc(K, &a);
+    pw_moments_alloc(K, &b);
+    for (size_t i = 0; i < N * K; i++) rows[i] = 1e4 + gsl_ran_gaussian(r, 1.0 + (double)(i % K));
+    for (size_t i = 0; i < N; i++) pw_moments_add(a, rows + i * K);
+    for (size_t i = 0; i < N; i += 128) pw_moments_add_block(b, rows + i * K, N - i < 128 ? N - i : 128);
+    double worst = 0;
+    for (size_t i = 0; i < K; i++)
+        for (size_t j = i; j < K; j++) {
+            double scale = sqrt(pw_moments_at(a, i, i) * pw_moments_at(a, j, j));
+            worst = fmax(worst, fabs(pw_moments_at(a, i, j) - pw_moments_at(b, i, j)) / scale);
+        }
+    gsl_test(!(worst < SOLVER_TOL && b->n == N), "block and row-by-row co-moments agree (worst "
+             "%.2g relative to the SDs, offset 1e4)", worst);
+    gsl_test_rel(b->mean[2], a->mean[2], 1e-14, "block and row-by-row means agree");
+    pw_moments_free(a);
+    pw_moments_free(b);
+}
+
 /* An aliased predictor is dropped, and the rest is the fit without it. */
 static void test_aliased(gsl_rng *r)
 {
@@ -398,6 +422,7 @@ int main(void)
     gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
     gsl_rng_set(r, SEED);
     test_xfit_vs_qr(r);
+    test_moments_block(r);
     test_aliased(r);
     test_assess_numeric(r);
     test_assess_kinds(r);
