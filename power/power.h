@@ -121,8 +121,8 @@ int pw_moments_alloc(size_t k, pw_moments **out);   /* PW_OK or PW_ENOMEM */
 void pw_moments_free(pw_moments *m);
 void pw_moments_add(pw_moments *m, const double *row);   /* row: k values, none NaN */
 /* Add nb rows at once (row-major, nb * k values, none NaN): the block's own centred cross-products
- * merged by Chan, Golub & LeVeque (1983). The same figures as nb calls of pw_moments_add, several
- * times faster. PW_OK or PW_ENOMEM. */
+ * merged by Chan, Golub & LeVeque (1983). The same figures as nb calls of pw_moments_add (to
+ * rounding), and faster: the block's products stay in cache. PW_OK or PW_ENOMEM. */
 int pw_moments_add_block(pw_moments *m, const double *rows, size_t nb);
 /* The centred cross-product of columns i and j of m, either order. */
 double pw_moments_at(const pw_moments *m, size_t i, size_t j);
@@ -210,6 +210,15 @@ typedef struct {
     double ncp_per_run;  /* PW_TEST_LEVELS_F: noncentrality per run per (effect / sigma)^2 under the
                             least favourable pattern; NAN or <= 0: balanced groups, 1 / (2 L) */
 } pw_design;
+
+/* A level-set treatment with t + 1 levels present, M = X_T'(I - H)X_T its t * t information
+ * matrix given the other columns (power/levels.c). For every pair of levels the pattern "these two
+ * differ by one unit, the others sit at their midpoint" gives the F noncentrality per unit of
+ * (effect / sigma)^2 as b' M b; *q_min is its smallest value over pairs. *v_max is the largest
+ * variance factor c' M^-1 c of a pairwise contrast, the pair in *wi, *wj (0 = reference level).
+ * Returns PW_OK, PW_ESING (M not positive definite), PW_ENOMEM. */
+int pw_level_pattern(const double *M, size_t t, double *q_min, double *v_max, size_t *wi,
+                     size_t *wj);
 
 /* How the figures are formed (documented in README.md, "shoal power"):
  * - PW_TEST_COEF_T: df = n - n_params - 1, ncp = effect sd_x_resid sqrt(n) / sigma; power of the
