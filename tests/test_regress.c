@@ -160,6 +160,33 @@ static void test_moments_block(gsl_rng *r)
     pw_moments_free(b);
 }
 
+/* Level patterns with unequal groups and no conditioning: M = diag(n_l) - n n' / N over the
+ * dummies, so b' M b = sum_l n_l (mu_l - mu_bar)^2 (the between-groups sum of squares, Searle
+ * 1971, sec. 3.5) and a pairwise contrast has variance factor 1/n_i + 1/n_j. */
+static void test_level_pattern(void)
+{
+    const double cnt[3] = {10, 20, 30}, N = 60;
+    double M[4] = {cnt[1] - cnt[1] * cnt[1] / N, -cnt[1] * cnt[2] / N, -cnt[1] * cnt[2] / N,
+                   cnt[2] - cnt[2] * cnt[2] / N};
+    double q_min = NAN, v_max = NAN;
+    size_t wi = 9, wj = 9;
+    int rc = pw_level_pattern(M, 2, &q_min, &v_max, &wi, &wj);
+    double best = INFINITY;
+    for (int i = 0; i < 3; i++)
+        for (int j = i + 1; j < 3; j++) {
+            double mu[3] = {0, 0, 0}, bar = 0, ss = 0;
+            mu[i] = -0.5;
+            mu[j] = 0.5;
+            for (int l = 0; l < 3; l++) bar += cnt[l] * mu[l] / N;
+            for (int l = 0; l < 3; l++) ss += cnt[l] * (mu[l] - bar) * (mu[l] - bar);
+            best = fmin(best, ss);
+        }
+    gsl_test(rc, "pw_level_pattern on groups of 10, 20, 30");
+    gsl_test_rel(q_min, best, 1e-12, "least favourable noncentrality = smallest between-groups SS");
+    gsl_test_rel(v_max, 1.0 / 10 + 1.0 / 20, 1e-12, "widest pairwise contrast: 1/10 + 1/20");
+    gsl_test(!(wi == 0 && wj == 1), "the widest contrast is between the two smallest groups");
+}
+
 /* An aliased predictor is dropped, and the rest is the fit without it. */
 static void test_aliased(gsl_rng *r)
 {
@@ -423,6 +450,7 @@ int main(void)
     gsl_rng_set(r, SEED);
     test_xfit_vs_qr(r);
     test_moments_block(r);
+    test_level_pattern();
     test_aliased(r);
     test_assess_numeric(r);
     test_assess_kinds(r);
