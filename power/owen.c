@@ -74,7 +74,7 @@ static double log_between(double a, double b)
         return lb + log1p(-exp(la - lb));
     }
     /* (Phi(b) - 1/2) + (1/2 - Phi(a)), each half by erf, which stays accurate near 0 */
-    return log(0.5 * (gsl_sf_erf(b / M_SQRT2) + gsl_sf_erf(-a / M_SQRT2)));
+    return log(0.5 * (erf(b / M_SQRT2) + erf(-a / M_SQRT2)));
 }
 
 /* log of the integrand: the normal factor times the chi density
