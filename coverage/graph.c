@@ -1,4 +1,5 @@
-/* The graph file: a line-oriented description of the model's variables and expected effects.
+/* The graph file's parser: a line-oriented description of the model's variables and expected
+ * effects, read from the tokens of coverage/graph_lex.c.
  * See LICENSE. */
 #include <math.h>
 #include <stdio.h>

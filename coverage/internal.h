@@ -282,12 +282,13 @@ void cov_report_claims_csv(const cov_findings *f, FILE *out);
  * untestable, then ample by rising power. Fills order (f->claims->n entries). */
 void cov_report_order(const cov_findings *f, size_t *order);
 
-/* Plots (coverage/plot.c), drawn by gnuplot through a pipe (coverage/gnuplot.c). Each plot is
- * written twice into the report directory: NAME.svg (svg terminal, to inline) and NAME.png
- * (pngcairo). The names, in report order: "pairs" (pairwise coverage matrix, when >= 2 inputs),
- * "pair-1" .. "pair-4" (cell grids of the thinnest pairs), then, when some claim is testable,
- * "power" (power bars), "mde" (MDE beside the effect of interest) and "curves" (power over added
- * runs). The SVG files start with an XML declaration and a DOCTYPE, which inlining must drop. */
+/* Plots (coverage/plot.c, coverage/plot_claims.c), drawn by gnuplot through a pipe
+ * (coverage/gnuplot.c). Each plot is written twice into the report directory: NAME.svg (svg
+ * terminal, to inline) and NAME.png (pngcairo). The names, in report order: "pairs" (pairwise
+ * coverage matrix, when >= 2 inputs), "pair-1" .. "pair-4" (cell grids of the thinnest pairs),
+ * then, when some claim is testable, "power" (power bars), "mde" (MDE beside the effect of
+ * interest) and "curves" (power over added runs). The SVG files start with an XML declaration
+ * and a DOCTYPE, which inlining must drop. */
 typedef struct {
     char *name;       /* file name without extension: "pairs", "pair-1", "power", ... */
     char *caption;    /* one plain sentence; holds user names unescaped, so escape it for HTML */
@@ -308,6 +309,37 @@ void cov_plots_free(cov_plots *p);
  * plain message when gnuplot is not on PATH, fails, or leaves a file unwritten (the caller carries
  * on without plots); COV_ENOMEM. gnuplot's warnings, if any, go to note (may be NULL). */
 int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *err);
+
+/* Shared by the two plot files: coverage/plot.c (the list, the script pieces, the coverage plots)
+ * and coverage/plot_claims.c (the claim plots). The usual plot height in pixels; the bytes of a
+ * name shown in tics and titles before "..."; the ink of reference lines and markers of the effect
+ * of interest; the colour of planned runs (vermilion open triangles, another shape and hue). */
+#define COV_PLOT_H 560
+#define COV_PLOT_NAME_SHOWN 28
+#define COV_PLOT_INK "#222222"
+#define COV_PLOT_PLANNED "#C8471B"
+
+/* Write x to a gnuplot script as %.9g, or NaN when it is not finite (gnuplot skips the point). */
+void cov_plot_num(FILE *s, double x);
+/* Start a plot: reset, UTF-8 and the SVG terminal at 900 x height pixels, border and tics inked. */
+void cov_plot_start(FILE *s, int height);
+/* Draw the plot command `plot` into DIR/BASE.svg, then again into DIR/BASE.png (pngcairo). */
+void cov_plot_finish(FILE *s, const char *dir, const char *base, int height, const char *plot);
+/* "set title 'line1'" with an optional second line (line2 may be NULL), both quoted for gnuplot. */
+void cov_plot_title(FILE *s, const char *line1, const char *line2);
+/* The name of variable v, cut at a UTF-8 boundary after COV_PLOT_NAME_SHOWN bytes with "..." into
+ * buf (size at least COV_PLOT_NAME_SHOWN + 4) when long; otherwise the name itself. */
+const char *cov_plot_var_name(const cov_findings *f, size_t v, char *buf, size_t size);
+
+/* The claim plots (coverage/plot_claims.c). How many claims each would show: testable ones
+ * (power), those with a positive effect of interest (mde), those whose test cov_assess_design can
+ * give again (curves); a plot is drawn only when its count is positive. */
+void cov_plot_claim_counts(const cov_findings *f, size_t *power, size_t *mde, size_t *curves);
+/* Write the datablock and commands of the "power", "mde" or "curves" plot of f into the script s,
+ * drawing into dir. Each needs f->assess and f->claims. Returns COV_OK or COV_ENOMEM. */
+int cov_plot_power(FILE *s, const cov_findings *f, const char *dir);
+int cov_plot_mde(FILE *s, const cov_findings *f, const char *dir);
+int cov_plot_curves(FILE *s, const cov_findings *f, const char *dir);
 
 /* Write s as a gnuplot string literal: single-quoted, ' doubled, control characters and invalid
  * UTF-8 bytes replaced by '?'. The only way user text reaches gnuplot. s may be NULL (""). */

@@ -1,4 +1,5 @@
-/* The survey's plots: gnuplot scripts with inline datablocks, written as SVG and PNG.
+/* The survey's plots: their list, the gnuplot script pieces with inline datablocks, the coverage
+ * plots (pairs matrix, pair grids) and the run that writes every plot as SVG and PNG.
  * See LICENSE. */
 #include <math.h>
 #include <stdint.h>
@@ -9,42 +10,23 @@
 
 #include "coverage/internal.h"
 
-/* Layout: 900 x 560 reads well beside text in a report and on a laptop screen. */
+/* Layout: 900 x 560 (COV_PLOT_H) reads well beside text in a report and on a laptop screen. */
 #define PLOT_W 900
-#define PLOT_H 560
-/* Row plots (power, MDE) show at most this many claims, the worst ones, so the labels stay legible;
- * each row takes ROW_PX pixels beyond the fixed margins. */
-#define PLOT_MAX_ROWS 30
-#define ROW_PX 17
-#define ROW_MARGIN_PX 150
 #define MAX_PAIR_PLOTS 4       /* cell grids of the thinnest pairs */
-#define MAX_CURVES 4           /* power curves of the thinnest claims */
-#define CURVE_STEPS 80         /* points per power curve: smooth at 900 px */
-#define CURVE_HEADROOM 1.3     /* the x axis runs 30% past the largest need, to show the plateau */
-#define CURVE_LOG_RATIO 8.0    /* needs further apart than this share one plot on a log axis */
-#define CURVES_H 680           /* the curves' legend takes one row per entry, up to seven */
 #define MATRIX_LABEL_MAX 14    /* beyond this many inputs the matrix cells are too small to label */
 #define GRID_LABEL_MAX 144     /* likewise for the cells of a pair's grid */
 #define MAX_POINTS 4000        /* runs drawn per pair grid; more are thinned evenly */
-#define NAME_SHOWN 28          /* bytes of a name shown in tics and titles before "..." */
 #define JITTER 0.32            /* share of a category's cell width runs spread over, each side */
 
 /* The palette, our own. Every pair of colours that must be told apart differs in lightness as well
  * as hue, so the plots survive the common colour-vision deficiencies (deutan, protan, tritan) and
- * greyscale printing; shapes and dash types carry the same distinctions again. */
-#define C_AMPLE   "#2B5C9E"   /* ample: dark blue, CIE L* about 39 */
-#define C_THIN    "#E3872D"   /* thin: orange, L* about 65; blue against orange survives deutan and
-                                 protan vision, the lightness gap tritan vision and grey */
+ * greyscale printing; shapes and dash types carry the same distinctions again. The ink and the
+ * planned runs' colour are in coverage/internal.h, the verdict and curve colours in
+ * coverage/plot_claims.c. */
 #define C_RUNS    "#1E3F66"   /* archive runs: navy dots */
-#define C_PLANNED "#C8471B"   /* planned runs: vermilion open triangles, another shape and hue */
 #define C_EMPTY   "#BEBEBE"   /* empty cell: mid grey, no hue to confuse */
 #define C_FEW     "#F6DDB4"   /* cell with some runs but fewer than the minimum: pale sand */
 #define C_EDGE    "#8C8C8C"   /* cell borders */
-#define C_INK     "#222222"   /* reference lines, markers of the effect of interest */
-/* Power curves: navy, vermilion, sky, gold; L* about 25, 48, 67, 82; distinct dashes and points. */
-static const char *const curve_colour[MAX_CURVES] = {"#1B3A6B", "#C8471B", "#5AA9D6", "#E9C46A"};
-static const int curve_dash[MAX_CURVES] = {1, 2, 4, 5};
-static const int curve_point[MAX_CURVES] = {7, 5, 9, 13};
 /* The coverage matrix: a sequential scale whose lightness rises steadily from dark violet (no cell
  * covered) to pale cream (all covered), so it reads the same without colour. */
 static const char *const matrix_palette =
@@ -59,45 +41,6 @@ typedef struct {
 
 #define MAX_PLOTS (1 + MAX_PAIR_PLOTS + 3)
 
-/* A claim's row: its assessment index and the key it is sorted by. */
-typedef struct {
-    size_t idx;
-    double key;
-} row_key;
-
-static int by_key_up(const void *pa, const void *pb)
-{
-    const row_key *a = pa, *b = pb;
-    if (a->key < b->key) return -1;
-    if (a->key > b->key) return 1;
-    return a->idx < b->idx ? -1 : (a->idx > b->idx);
-}
-
-static int testable(const cov_assessment *it)
-{
-    return it->verdict != COV_BLIND && isfinite(it->power);
-}
-
-/* Testable claims sorted by power, lowest first (mde = 0), or by MDE over effect of interest,
- * highest first (mde = 1). Caller frees. */
-static row_key *claim_rows(const cov_findings *f, int mde, size_t *n)
-{
-    *n = 0;
-    if (f->assess == NULL || f->assess->n == 0) return NULL;
-    row_key *rows = malloc(f->assess->n * sizeof *rows);
-    if (rows == NULL) return NULL;
-    for (size_t i = 0; i < f->assess->n; i++) {
-        const cov_assessment *it = &f->assess->items[i];
-        if (!testable(it) || it->claim >= f->claims->n) continue;
-        if (mde && !(isfinite(it->effect_raw) && it->effect_raw > 0)) continue;
-        double key = it->power;
-        if (mde) key = isfinite(it->mde) ? -(it->mde / it->effect_raw) : -INFINITY;
-        rows[(*n)++] = (row_key){i, key};
-    }
-    qsort(rows, *n, sizeof *rows, by_key_up);
-    return rows;
-}
-
 /* The thin pairs drawn cell by cell: up to MAX_PAIR_PLOTS of those not fully covered, worst first;
  * when every pair is covered, the worst one still, so the report always shows where runs lie. */
 static size_t pair_plot_count(const cov_findings *f)
@@ -109,24 +52,6 @@ static size_t pair_plot_count(const cov_findings *f)
     return n > 0 ? n : 1;
 }
 
-/* The claims each row plot would show: testable ones (power), those with a positive effect of
- * interest (MDE), those whose test cov_assess_design can give again (curves). */
-static void count_rows(const cov_findings *f, size_t *power, size_t *mde, size_t *curves)
-{
-    *power = *mde = *curves = 0;
-    if (f->assess == NULL || f->claims == NULL) return;
-    for (size_t i = 0; i < f->assess->n; i++) {
-        const cov_assessment *it = &f->assess->items[i];
-        if (!testable(it) || it->claim >= f->claims->n) continue;
-        (*power)++;
-        *mde += isfinite(it->effect_raw) && it->effect_raw > 0;
-        pw_design d;
-        double pw;
-        *curves += cov_assess_design(f->graph, f->claims, f->assess, it->claim, &d) == COV_OK &&
-                   pw_power(&d, &pw) == PW_OK;
-    }
-}
-
 /* The plots for f, in report order. */
 static size_t plan_plots(const cov_findings *f, plot_ref *refs)
 {
@@ -136,41 +61,32 @@ static size_t plan_plots(const cov_findings *f, plot_ref *refs)
         for (size_t k = 0; k < pair_plot_count(f); k++) refs[n++] = (plot_ref){PLOT_PAIR, k};
     }
     size_t power, mde, curves;
-    count_rows(f, &power, &mde, &curves);
+    cov_plot_claim_counts(f, &power, &mde, &curves);
     if (power > 0) refs[n++] = (plot_ref){PLOT_POWER, 0};
     if (mde > 0) refs[n++] = (plot_ref){PLOT_MDE, 0};
     if (curves > 0) refs[n++] = (plot_ref){PLOT_CURVES, 0};
     return n;
 }
 
-/* name, cut at a UTF-8 character boundary after NAME_SHOWN bytes, with "..." when cut. */
+/* name, cut at a UTF-8 character boundary after COV_PLOT_NAME_SHOWN bytes, with "..." when cut. */
 static const char *shown(const char *name, char *buf, size_t size)
 {
     size_t len = strlen(name);
-    if (len <= NAME_SHOWN || size < NAME_SHOWN + 4) return name;
-    size_t cut = NAME_SHOWN;
+    if (len <= COV_PLOT_NAME_SHOWN || size < COV_PLOT_NAME_SHOWN + 4) return name;
+    size_t cut = COV_PLOT_NAME_SHOWN;
     while (cut > 0 && ((unsigned char)name[cut] & 0xC0) == 0x80) cut--;
     snprintf(buf, size, "%.*s...", (int)cut, name);
     return buf;
 }
 
-static const char *var_name(const cov_findings *f, size_t v, char *buf, size_t size)
+const char *cov_plot_var_name(const cov_findings *f, size_t v, char *buf, size_t size)
 {
     return shown(f->graph->vars[v].name, buf, size);
 }
 
-/* "A -> B" for an effect claim, "A -/-> B" for an absence claim. */
-static void claim_label(const cov_findings *f, size_t claim, char *out, size_t size)
-{
-    const cov_claim *c = &f->claims->items[claim];
-    char a[NAME_SHOWN + 8], b[NAME_SHOWN + 8];
-    snprintf(out, size, "%s %s %s", var_name(f, c->treatment, a, sizeof a),
-             c->kind == COV_CLAIM_EFFECT ? "->" : "-/->", var_name(f, c->outcome, b, sizeof b));
-}
-
 static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
 {
-    char a[NAME_SHOWN + 8], b[NAME_SHOWN + 8];
+    char a[COV_PLOT_NAME_SHOWN + 8], b[COV_PLOT_NAME_SHOWN + 8];
     size_t min_runs = f->coverage ? f->coverage->opt.min_runs : 0;
     switch (r.kind) {
     case PLOT_PAIRS:
@@ -186,7 +102,8 @@ static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
                  "%s pair %zu: %s by %s. Each cell shows its run count; grey cells hold no run, "
                  "sand cells fewer than %zu; dots are runs%s.",
                  p->share < 1 ? "Thin" : "Every pair is covered;", r.arg + 1,
-                 var_name(f, p->a, a, sizeof a), var_name(f, p->b, b, sizeof b), min_runs,
+                 cov_plot_var_name(f, p->a, a, sizeof a), cov_plot_var_name(f, p->b, b, sizeof b),
+                 min_runs,
                  f->n_planned ? ", triangles the planned runs" : "");
         return;
     }
@@ -262,7 +179,7 @@ fail:
 
 /* ---- script pieces --------------------------------------------------------------------------- */
 
-static void num(FILE *s, double x)
+void cov_plot_num(FILE *s, double x)
 {
     if (isfinite(x)) fprintf(s, "%.9g", x);
     else fputs("NaN", s);
@@ -287,15 +204,15 @@ static void set_output(FILE *s, const char *dir, const char *base, const char *e
 }
 
 /* The common start of every plot. height in pixels. */
-static void start_plot(FILE *s, int height)
+void cov_plot_start(FILE *s, int height)
 {
     fprintf(s, "reset\nset encoding utf8\nset terminal svg size %d,%d fixed noenhanced "
                "font 'DejaVu Sans,12' background '#FFFFFF'\n", PLOT_W, height);
-    fputs("set border lc rgb '" C_INK "'\nset tics textcolor rgb '" C_INK "'\n", s);
+    fputs("set border lc rgb '" COV_PLOT_INK "'\nset tics textcolor rgb '" COV_PLOT_INK "'\n", s);
 }
 
 /* Write the plot command held in `plot` to both files. */
-static void finish_plot(FILE *s, const char *dir, const char *base, int height, const char *plot)
+void cov_plot_finish(FILE *s, const char *dir, const char *base, int height, const char *plot)
 {
     set_output(s, dir, base, "svg");
     fputs(plot, s);
@@ -306,7 +223,7 @@ static void finish_plot(FILE *s, const char *dir, const char *base, int height, 
 }
 
 /* "set title 'line1'" with an optional second line of our own words. */
-static void set_title(FILE *s, const char *line1, const char *line2)
+void cov_plot_title(FILE *s, const char *line1, const char *line2)
 {
     fputs("set title ", s);
     cov_gp_quote(s, line1);
@@ -337,7 +254,7 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
 {
     const cov_coverage *c = f->coverage;
     size_t n = c->n_inputs;
-    char buf[NAME_SHOWN + 8], line[256];
+    char buf[COV_PLOT_NAME_SHOWN + 8], line[256];
     fputs("$pairs << EOD\n", s);
     for (size_t k = 0; k < c->n_pairs; k++) {
         long i = input_pos(c, c->pairs[k].a), j = input_pos(c, c->pairs[k].b);
@@ -346,7 +263,7 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
         double share = c->pairs[k].share;
         /* Text colour: white on the dark half of the scale, black on the light half. */
         fprintf(s, "%ld %ld ", i, j);
-        num(s, share);
+        cov_plot_num(s, share);
         fprintf(s, " %d\n", share < 0.55 ? 0xFFFFFF : 0x000000);
     }
     fputs("EOD\n$outlined << EOD\n", s);
@@ -357,21 +274,21 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
         fprintf(s, "%ld %ld %zu\n", i, j, k + 1);
     }
     fputs("EOD\n", s);
-    start_plot(s, PLOT_H);
+    cov_plot_start(s, COV_PLOT_H);
     snprintf(line, sizeof line, "Pairwise coverage: share of each pair's cells with at least %zu "
              "runs", c->opt.min_runs);
-    set_title(s, line,
+    cov_plot_title(s, line,
               "outlined and numbered: the thinnest pairs, drawn cell by cell in the next plots");
     fputs("set size ratio -1\nset xtics scale 0 rotate by 40 right (", s);
     for (size_t i = 0; i + 1 < n; i++) {
         if (i) fputs(", ", s);
-        cov_gp_quote_tic(s, var_name(f, c->inputs[i], buf, sizeof buf));
+        cov_gp_quote_tic(s, cov_plot_var_name(f, c->inputs[i], buf, sizeof buf));
         fprintf(s, " %zu", i);
     }
     fputs(")\nset ytics scale 0 (", s);
     for (size_t i = 1; i < n; i++) {
         if (i > 1) fputs(", ", s);
-        cov_gp_quote_tic(s, var_name(f, c->inputs[i], buf, sizeof buf));
+        cov_gp_quote_tic(s, cov_plot_var_name(f, c->inputs[i], buf, sizeof buf));
         fprintf(s, " %zu", i);
     }
     fprintf(s, ")\nset xrange [-0.5:%zu.5]\nset yrange [%zu.5:0.5]\n", n - 2, n - 1);
@@ -396,7 +313,7 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
              n <= MATRIX_LABEL_MAX ? "0.36" : "0", n <= MATRIX_LABEL_MAX ? "0.3" : "0",
              n <= MATRIX_LABEL_MAX ? 9 : 7);
     fputs("set style textbox opaque fc rgb '#FFFFFF' noborder margins 1,1\n", s);
-    finish_plot(s, dir, "pairs", PLOT_H, plot);
+    cov_plot_finish(s, dir, "pairs", COV_PLOT_H, plot);
     return COV_OK;
 }
 
@@ -461,7 +378,7 @@ static void axis_tics(FILE *s, const char *axis, const cov_var *v, axis_geom g, 
         fprintf(s, "set %stics scale 0 (", axis);
         for (size_t k = 0; k < nbins; k++) {
             if (k) fputs(", ", s);
-            char buf[NAME_SHOWN + 8];
+            char buf[COV_PLOT_NAME_SHOWN + 8];
             const char *name = v->type == COV_BOOL ? (k ? "true" : "false")
                              : k < v->n_levels ? shown(v->levels[k], buf, sizeof buf) : "?";
             cov_gp_quote_tic(s, name);
@@ -473,15 +390,15 @@ static void axis_tics(FILE *s, const char *axis, const cov_var *v, axis_geom g, 
     } else {
         /* Tics on the bin edges, so each cell is read between two numbers. */
         fprintf(s, "set %stics ", axis);
-        num(s, g.lo);
+        cov_plot_num(s, g.lo);
         fputs(", ", s);
-        num(s, g.width * (nbins > 5 ? 2 : 1));
+        cov_plot_num(s, g.width * (nbins > 5 ? 2 : 1));
         fprintf(s, " format '%%.3g'\n");
     }
     fprintf(s, "set %srange [", axis);
-    num(s, g.lo);
+    cov_plot_num(s, g.lo);
     fputc(':', s);
-    num(s, g.lo + g.width * (double)nbins);
+    cov_plot_num(s, g.lo + g.width * (double)nbins);
     fputs("]\n", s);
 }
 
@@ -497,13 +414,13 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
     for (size_t i = 0; i < p->na; i++)
         for (size_t j = 0; j < p->nb; j++) {
             size_t count = p->count[i * p->nb + j];
-            num(s, ga.lo + ga.width * ((double)i + 0.5));
+            cov_plot_num(s, ga.lo + ga.width * ((double)i + 0.5));
             fputc(' ', s);
-            num(s, gb.lo + gb.width * ((double)j + 0.5));
+            cov_plot_num(s, gb.lo + gb.width * ((double)j + 0.5));
             fputc(' ', s);
-            num(s, ga.width / 2);
+            cov_plot_num(s, ga.width / 2);
             fputc(' ', s);
-            num(s, gb.width / 2);
+            cov_plot_num(s, gb.width / 2);
             fprintf(s, " %zu %d\n", count, count == 0 ? 0 : count < min_runs ? 1 : 2);
         }
     fprintf(s, "EOD\n$runs%zu << EOD\n", rank);
@@ -517,9 +434,9 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
             double x = d->col[p->a][i], y = d->col[p->b][i];
             if (!isfinite(x) || !isfinite(y)) continue;
             if (seen++ % stride != 0) continue;
-            num(s, place(ga, x, i, 0));
+            cov_plot_num(s, place(ga, x, i, 0));
             fputc(' ', s);
-            num(s, place(gb, y, i, 1));
+            cov_plot_num(s, place(gb, y, i, 1));
             fputc('\n', s);
             shown_runs++;
         }
@@ -530,27 +447,27 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
         double x = f->planned[i * nv + p->a], y = f->planned[i * nv + p->b];
         if (!isfinite(x) || !isfinite(y)) continue;
         n_plan++;
-        num(s, place(ga, x, i + 7919, 0));   /* another stream than the runs' */
+        cov_plot_num(s, place(ga, x, i + 7919, 0));   /* another stream than the runs' */
         fputc(' ', s);
-        num(s, place(gb, y, i + 7919, 1));
+        cov_plot_num(s, place(gb, y, i + 7919, 1));
         fputc('\n', s);
     }
     fputs("EOD\n", s);
 
-    start_plot(s, PLOT_H);
-    char na[NAME_SHOWN + 8], nb[NAME_SHOWN + 8], line[512], line2[256];
+    cov_plot_start(s, COV_PLOT_H);
+    char na[COV_PLOT_NAME_SHOWN + 8], nb[COV_PLOT_NAME_SHOWN + 8], line[512], line2[256];
     size_t covered = 0, few = 0;
     for (size_t k = 0; k < p->na * p->nb; k++) {
         covered += p->count[k] >= min_runs;
         few += p->count[k] > 0 && p->count[k] < min_runs;
     }
-    const char *name_a = var_name(f, p->a, na, sizeof na);
-    const char *name_b = var_name(f, p->b, nb, sizeof nb);
+    const char *name_a = cov_plot_var_name(f, p->a, na, sizeof na);
+    const char *name_b = cov_plot_var_name(f, p->b, nb, sizeof nb);
     snprintf(line, sizeof line, "%s %zu: %s by %s", p->share < 1 ? "Thin pair" : "Pair", rank + 1,
              name_a, name_b);
     snprintf(line2, sizeof line2, "%zu of %zu cells hold at least %zu runs; %zu cells are empty",
              covered, p->na * p->nb, min_runs, p->n_empty);
-    set_title(s, line, line2);
+    cov_plot_title(s, line, line2);
     axis_tics(s, "x", va, ga, p->na);
     axis_tics(s, "y", vb, gb, p->nb);
     set_label_cmd(s, "xlabel", name_a);
@@ -585,7 +502,7 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
     if (n_plan > 0)
         len += snprintf(plot + len, sizeof plot - (size_t)len,
                         ", \\\n  $planned%zu using 1:2 with points pt 8 ps 1.3 lw 2 "
-                        "lc rgb '" C_PLANNED "' title '%s'", rank, plan_title);
+                        "lc rgb '" COV_PLOT_PLANNED "' title '%s'", rank, plan_title);
     if (p->na * p->nb <= GRID_LABEL_MAX)
         snprintf(plot + len, sizeof plot - (size_t)len,
                  ", \\\n  $cells%zu using ($1-$3):($2+$4):(sprintf('%%d', $5)) with labels left "
@@ -593,334 +510,9 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
     else
         snprintf(plot + len, sizeof plot - (size_t)len, "\n");
     char base[32];
-    finish_plot(s, dir, plot_base((plot_ref){PLOT_PAIR, rank}, base, sizeof base), PLOT_H, plot);
+    cov_plot_finish(s, dir, plot_base((plot_ref){PLOT_PAIR, rank}, base, sizeof base), COV_PLOT_H,
+                    plot);
     return COV_OK;
-}
-
-/* ---- 3. power bars --------------------------------------------------------------------------- */
-
-static int row_height(size_t rows)
-{
-    int h = ROW_MARGIN_PX + ROW_PX * (int)rows;
-    return h > PLOT_H ? h : PLOT_H;
-}
-
-/* ytics naming each row by its claim. */
-static void row_tics(FILE *s, const cov_findings *f, const row_key *rows, size_t n,
-                     const char *suffix_nan_mde)
-{
-    fputs("set ytics scale 0 (", s);
-    for (size_t r = 0; r < n; r++) {
-        const cov_assessment *it = &f->assess->items[rows[r].idx];
-        char label[3 * NAME_SHOWN + 64];
-        claim_label(f, it->claim, label, sizeof label);
-        if (suffix_nan_mde != NULL && !isfinite(it->mde))
-            strncat(label, suffix_nan_mde, sizeof label - strlen(label) - 1);
-        else if (suffix_nan_mde != NULL && !(it->mde > 0))   /* an exact fit: a log axis has no 0 */
-            strncat(label, " (MDE 0: no noise)", sizeof label - strlen(label) - 1);
-        if (r) fputs(", ", s);
-        cov_gp_quote_tic(s, label);
-        fprintf(s, " %zu", r + 1);
-    }
-    fprintf(s, ")\nset yrange [%zu.5:0.5]\n", n);
-}
-
-/* Legend entries for the verdict colours present among the shown rows: "ample" and "too thin",
- * each drawn as `sample` (a gnuplot style) and titled with `prefix` in front. */
-static void verdict_keys(char *out, size_t size, const cov_findings *f, const row_key *rows,
-                         size_t n, const char *sample, const char *prefix)
-{
-    int ample = 0, thin = 0;
-    for (size_t r = 0; r < n; r++) {
-        if (f->assess->items[rows[r].idx].verdict == COV_AMPLE) ample = 1;
-        else thin = 1;
-    }
-    int len = 0;
-    out[0] = '\0';
-    if (ample)
-        len = snprintf(out, size, ", \\\n  keyentry with %s lc rgb '" C_AMPLE "' title '%sample'",
-                       sample, prefix);
-    if (thin && len >= 0 && (size_t)len < size)
-        snprintf(out + len, size - (size_t)len,
-                 ", \\\n  keyentry with %s lc rgb '" C_THIN "' title '%stoo thin'", sample, prefix);
-}
-
-static void rows_title(FILE *s, const char *what, size_t shown_n, size_t total, const char *line2)
-{
-    char line[256];
-    if (shown_n < total)
-        snprintf(line, sizeof line, "%s (the %zu worst of %zu)", what, shown_n, total);
-    else snprintf(line, sizeof line, "%s", what);
-    set_title(s, line, line2);
-}
-
-static int plot_power(FILE *s, const cov_findings *f, const char *dir)
-{
-    size_t total;
-    row_key *rows = claim_rows(f, 0, &total);
-    if (rows == NULL) return COV_ENOMEM;
-    size_t n = total < PLOT_MAX_ROWS ? total : PLOT_MAX_ROWS;
-    double target = f->assess->opt.target;
-    fputs("$power << EOD\n", s);
-    for (size_t r = 0; r < n; r++) {
-        const cov_assessment *it = &f->assess->items[rows[r].idx];
-        fprintf(s, "%zu ", r + 1);
-        num(s, it->power);
-        fputc(' ', s);
-        num(s, isfinite(it->power_lo) ? it->power_lo : it->power);
-        fputc(' ', s);
-        num(s, isfinite(it->power_hi) ? it->power_hi : it->power);
-        fprintf(s, " %d\n", it->verdict == COV_AMPLE ? 0x2B5C9E : 0xE3872D);
-    }
-    fputs("EOD\n", s);
-    int h = row_height(n);
-    start_plot(s, h);
-    rows_title(s, "Power of each testable claim at its effect of interest, lowest first", n, total,
-               NULL);
-    row_tics(s, f, rows, n, NULL);
-    /* Room right of 1 for the value printed after each whisker. */
-    fputs("set xrange [0:1.1]\nset xtics 0, 0.1, 1 format '%.1f'\n", s);
-    fputs("set grid xtics lc rgb '#DDDDDD'\n", s);
-    fputs("set xlabel 'power: the chance the test detects the effect of interest'\n", s);
-    fputs("set key below horizontal maxcols 2 height 1.5\nset errorbars small\n", s);
-    fputs("set arrow 1 from ", s);
-    num(s, target);
-    fputs(", graph 0 to ", s);
-    num(s, target);
-    fputs(", graph 1 nohead dt 2 lw 2 lc rgb '" C_INK "' front\n", s);
-    char plot[1536], keys[512];
-    verdict_keys(keys, sizeof keys, f, rows, n, "boxes fs solid 1 noborder", "");
-    snprintf(plot, sizeof plot,
-             "plot $power using ($2/2):1:($2/2):(0.36):5 with boxxyerror fs solid 1 noborder "
-             "lc rgb variable notitle, \\\n"
-             "  $power using 2:1:3:4 with xerrorbars pt 7 ps 0.4 lw 1.2 lc rgb '" C_INK
-             "' title 'uncertainty range', \\\n"
-             "  $power using 4:1:(sprintf('%%.2f', $2)) with labels left offset 0.6,0 font ',9' "
-             "notitle%s, \\\n"
-             "  keyentry with lines dt 2 lw 2 lc rgb '" C_INK "' title 'target power %.2f'\n",
-             keys, target);
-    finish_plot(s, dir, "power", h, plot);
-    free(rows);
-    return COV_OK;
-}
-
-/* ---- 4. MDE beside the effect of interest ---------------------------------------------------- */
-
-static int plot_mde(FILE *s, const cov_findings *f, const char *dir)
-{
-    size_t total;
-    row_key *rows = claim_rows(f, 1, &total);
-    if (rows == NULL && total > 0) return COV_ENOMEM;
-    size_t n = total < PLOT_MAX_ROWS ? total : PLOT_MAX_ROWS;
-    double lo = INFINITY, hi = -INFINITY;
-    fputs("$mde << EOD\n", s);
-    for (size_t r = 0; r < n; r++) {
-        const cov_assessment *it = &f->assess->items[rows[r].idx];
-        double v[4] = {it->effect_raw, it->mde, it->mde_lo, it->mde_hi};
-        for (int k = 0; k < 4; k++)
-            if (isfinite(v[k]) && v[k] > 0) {
-                lo = fmin(lo, v[k]);
-                hi = fmax(hi, v[k]);
-            }
-        double mlo = isfinite(it->mde_lo) && it->mde_lo > 0 ? it->mde_lo : it->mde;
-        double mhi = isfinite(it->mde_hi) ? it->mde_hi : it->mde;
-        fprintf(s, "%zu ", r + 1);
-        num(s, it->effect_raw);
-        fputc(' ', s);
-        num(s, it->mde > 0 ? it->mde : NAN);
-        fputc(' ', s);
-        num(s, mlo > 0 ? mlo : NAN);
-        fputc(' ', s);
-        num(s, mhi > 0 ? mhi : NAN);
-        fprintf(s, " %d\n", it->verdict == COV_AMPLE ? 0x2B5C9E : 0xE3872D);
-    }
-    fputs("EOD\n", s);
-    if (!(lo < hi)) {   /* one value, or none: a decade either side */
-        double mid = isfinite(lo) ? lo : 1.0;
-        lo = mid / 10;
-        hi = mid * 10;
-    }
-    int h = row_height(n);
-    start_plot(s, h);
-    rows_title(s, "Smallest detectable effect beside the effect of interest", n, total,
-               "a claim is sized well when its dot lies left of its diamond");
-    row_tics(s, f, rows, n, " (no MDE)");
-    fputs("set logscale x\nset xrange [", s);
-    num(s, lo / 1.6);
-    fputc(':', s);
-    num(s, hi * 1.6);
-    fputs("]\nset grid xtics lc rgb '#E4E4E4'\nset xtics (", s);
-    /* Tics at 1, 2 and 5 times each power of ten over a short range (a log axis labelled only at
-     * decades is hard to read off), at decades over a longer one, and at every other decade beyond
-     * that, so labels never run into each other at 900 px. */
-    double x0 = lo / 1.6, x1 = hi * 1.6, decades = log10(x1 / x0);
-    int per_decade = decades <= 2.5 ? 3 : 1;
-    double step = decades > 8 ? 100 : 10;
-    int first = 1;
-    for (double dec = pow(10, floor(log10(x0))); dec <= x1; dec *= step)
-        for (int m = 0; m < per_decade; m++) {
-            double t = dec * (m == 0 ? 1 : m == 1 ? 2 : 5);
-            if (t < x0 || t > x1) continue;
-            fputs(first ? "" : ", ", s);
-            fprintf(s, "%.6g", t);
-            first = 0;
-        }
-    fputs(") format '%g'\n", s);
-    fputs("set xlabel 'effect, in outcome units per unit of treatment (log scale)'\n", s);
-    fputs("set key below horizontal height 1.5\nset errorbars small\n", s);
-    char plot[1536], keys[512];
-    verdict_keys(keys, sizeof keys, f, rows, n, "points pt 7 ps 1.1", "MDE, ");
-    snprintf(plot, sizeof plot,
-             "plot $mde using 2:1:($3-$2):(0) with vectors nohead lw 5 lc rgb '#DADADA' "
-             "notitle, \\\n"
-             "  $mde using 3:1:4:5:6 with xerrorbars pt 7 ps 1.1 lw 1.2 lc rgb variable "
-             "notitle, \\\n"
-             "  $mde using 2:1 with points pt 12 ps 1.7 lw 1.5 lc rgb '" C_INK
-             "' title 'effect of interest'%s\n", keys);
-    finish_plot(s, dir, "mde", h, plot);
-    free(rows);
-    return COV_OK;
-}
-
-/* ---- 5. power over added runs ---------------------------------------------------------------- */
-
-static int plot_curves(FILE *s, const cov_findings *f, const char *dir)
-{
-    size_t total;
-    row_key *rows = claim_rows(f, 0, &total);
-    if (rows == NULL) return COV_ENOMEM;
-    double target = f->assess->opt.target;
-    pw_design des[MAX_CURVES];
-    size_t pick[MAX_CURVES], n = 0;
-    for (size_t r = 0; r < total && n < MAX_CURVES; r++) {
-        const cov_assessment *it = &f->assess->items[rows[r].idx];
-        if (cov_assess_design(f->graph, f->claims, f->assess, it->claim, &des[n]) != COV_OK)
-            continue;
-        double p0;
-        if (pw_power(&des[n], &p0) != PW_OK) continue;
-        pick[n++] = rows[r].idx;
-    }
-    /* The x axis: past the largest finite need, or the current size when none is needed. */
-    double need_max = 0, need_min = INFINITY, n_max = 0;
-    for (size_t k = 0; k < n; k++) {
-        const cov_assessment *it = &f->assess->items[pick[k]];
-        double add = it->runs_needed - des[k].n;
-        if (isfinite(add) && add > need_max) need_max = add;
-        if (isfinite(add) && add >= 1 && add < need_min) need_min = add;
-        n_max = fmax(n_max, des[k].n);
-    }
-    double span = need_max > 0 ? ceil(need_max * CURVE_HEADROOM) : fmax(20, n_max);
-    if ((double)f->n_planned * 1.1 > span) span = ceil((double)f->n_planned * 1.1);
-    /* When one claim needs hundreds of runs and another tens of thousands, a linear axis squeezes
-     * the first against zero; a log axis of added runs (from 1) shows both. */
-    int log_x = need_max > 0 && isfinite(need_min) && need_max / need_min > CURVE_LOG_RATIO;
-    for (size_t k = 0; k < n; k++) {
-        fprintf(s, "$curve%zu << EOD\n", k);
-        double base = des[k].n, last = -1;
-        for (int j = 0; j <= CURVE_STEPS; j++) {
-            double add = log_x ? round(pow(span, (double)j / CURVE_STEPS))
-                               : round(span * j / CURVE_STEPS);
-            if (add == last) continue;
-            last = add;
-            pw_design d = des[k];
-            d.n = base + add;
-            double pw;
-            if (pw_power(&d, &pw) != PW_OK) continue;
-            num(s, add);
-            fputc(' ', s);
-            num(s, pw);
-            fputc('\n', s);
-        }
-        fputs("EOD\n", s);
-    }
-    /* The runs-needed marks, in rising order; neighbours get their labels above and below the
-     * target line alternately, so close needs stay readable. */
-    row_key need[MAX_CURVES];
-    double need_pw[MAX_CURVES];
-    size_t n_need = 0;
-    for (size_t k = 0; k < n; k++) {
-        const cov_assessment *it = &f->assess->items[pick[k]];
-        double add = it->runs_needed - des[k].n;
-        if (!(isfinite(add) && add > 0)) continue;
-        pw_design d = des[k];
-        d.n = it->runs_needed;
-        if (pw_power(&d, &need_pw[k]) != PW_OK) need_pw[k] = target;
-        need[n_need++] = (row_key){k, add};
-    }
-    qsort(need, n_need, sizeof *need, by_key_up);
-    fputs("$need << EOD\n", s);
-    for (size_t j = 0; j < n_need; j++) {
-        num(s, need[j].key);
-        fputc(' ', s);
-        num(s, need_pw[need[j].idx]);
-        fprintf(s, " %zu\n", j % 2);
-    }
-    fputs("EOD\n", s);
-    start_plot(s, CURVES_H);
-    set_title(s, "Power of the lowest-powered claims as runs are added",
-              "assuming new runs resemble the current ones; "
-              "large dots: runs needed for the target");
-    fprintf(s, "set xlabel 'runs added to the campaign%s'\n", log_x ? " (log scale)" : "");
-    fputs("set ylabel 'power at the effect of interest'\n", s);
-    if (log_x) fputs("set logscale x\nset format x '%g'\nset mxtics 10\n", s);
-    fputs("set yrange [0:1.04]\nset ytics 0.1 format '%.1f'\nset grid lc rgb '#E4E4E4'\n", s);
-    fprintf(s, "set xrange [%d:", log_x ? 1 : 0);
-    num(s, span);
-    fputs("]\nset key below vertical maxcols 1 height 1\n", s);
-    fputs("set arrow 1 from graph 0, first ", s);
-    num(s, target);
-    fputs(" to graph 1, first ", s);
-    num(s, target);
-    fputs(" nohead dt 2 lw 2 lc rgb '" C_INK "' back\n", s);
-    if (f->n_planned > 0) {
-        fprintf(s, "set arrow 2 from first %zu, graph 0 to first %zu, graph 1 nohead dt 3 lw 2 "
-                   "lc rgb '" C_PLANNED "' back\n", f->n_planned, f->n_planned);
-    }
-    char *plot = NULL;
-    size_t plot_len = 0;
-    FILE *ps = open_memstream(&plot, &plot_len);
-    if (ps == NULL) {
-        free(rows);
-        return COV_ENOMEM;
-    }
-    fputs("plot ", ps);
-    for (size_t k = 0; k < n; k++) {
-        const cov_assessment *it = &f->assess->items[pick[k]];
-        char label[3 * NAME_SHOWN + 128];
-        claim_label(f, it->claim, label, sizeof label);
-        size_t used = strlen(label);
-        double add = it->runs_needed - des[k].n;
-        if (!isfinite(it->runs_needed))
-            snprintf(label + used, sizeof label - used, ": %.2f now, target out of reach",
-                     it->power);
-        else if (add > 0)
-            snprintf(label + used, sizeof label - used, ": %.2f now, needs %.0f more", it->power,
-                     add);
-        else
-            snprintf(label + used, sizeof label - used, ": %.2f now", it->power);
-        fprintf(ps, "%s$curve%zu using 1:2 with linespoints pointinterval 16 pt %d ps 1 lw 2.5 "
-                    "dt %d lc rgb '%s' title ", k ? ", \\\n  " : "", k, curve_point[k],
-                curve_dash[k], curve_colour[k]);
-        cov_gp_quote(ps, label);
-    }
-    if (n_need > 0)
-        fputs(", \\\n  $need using 1:2 with points pt 7 ps 1.8 lc rgb '" C_INK
-              "' title 'runs needed', \\\n"
-              "  $need using 1:($3==0 ? $2 : NaN):(sprintf('+%.0f', $1)) with labels offset 0,1.2 "
-              "font ',10' notitle, \\\n"
-              "  $need using 1:($3==1 ? $2 : NaN):(sprintf('+%.0f', $1)) with labels offset 0,-1.2 "
-              "font ',10' notitle",
-              ps);
-    fputs(", \\\n  keyentry with lines dt 2 lw 2 lc rgb '" C_INK "' title 'target power'", ps);
-    if (f->n_planned > 0)
-        fprintf(ps, ", \\\n  keyentry with lines dt 3 lw 2 lc rgb '" C_PLANNED
-                    "' title 'planned runs (%zu)'", f->n_planned);
-    fputc('\n', ps);
-    int rc = fclose(ps) == 0 ? COV_OK : COV_ENOMEM;
-    if (rc == COV_OK) finish_plot(s, dir, "curves", CURVES_H, plot);
-    free(plot);
-    free(rows);
-    return rc;
 }
 
 /* ---- all of them ----------------------------------------------------------------------------- */
@@ -944,9 +536,9 @@ int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *
         switch (refs[i].kind) {
         case PLOT_PAIRS: rc = plot_pairs(s, f, dir); break;
         case PLOT_PAIR: rc = plot_pair(s, f, dir, refs[i].arg); break;
-        case PLOT_POWER: rc = plot_power(s, f, dir); break;
-        case PLOT_MDE: rc = plot_mde(s, f, dir); break;
-        case PLOT_CURVES: rc = plot_curves(s, f, dir); break;
+        case PLOT_POWER: rc = cov_plot_power(s, f, dir); break;
+        case PLOT_MDE: rc = cov_plot_mde(s, f, dir); break;
+        case PLOT_CURVES: rc = cov_plot_curves(s, f, dir); break;
         }
     }
     if (fclose(s) != 0 && rc == COV_OK) rc = COV_ENOMEM;
