@@ -26,11 +26,14 @@ median() { sort -g | awk '{ v[NR] = $1 } END { print v[int((NR + 1) / 2)] }'; }
 
 out=$("$BENCH" time "$db" "$graph") || exit 1
 echo "$out"
-ratio=$(echo "$out" | sed -n 's/.*ratio \([0-9.]*\).*/\1/p')
-scan=$(echo "$out" | sed -n 's/.*bare scan \([0-9.]*\) s.*/\1/p')
+ratio=$(echo "$out" | sed -n 's/.*wall ratio \([0-9.]*\).*/\1/p')
+cratio=$(echo "$out" | sed -n 's/.*cpu ratio \([0-9.]*\).*/\1/p')
+scan=$(echo "$out" | sed -n 's/.*wall: bare scan \([0-9.]*\) s.*/\1/p')
 status=0
+# The target is on wall time; the processor-time ratio is printed beside it because on a shared,
+# loaded machine the wall clock mostly measures the run queue.
 awk -v r="$ratio" -v t="$TARGET" 'BEGIN { exit !(r <= t) }' || {
-  echo "bench_power: ratio $ratio MISSED the target $TARGET"
+  echo "bench_power: wall ratio $ratio MISSED the target $TARGET (cpu ratio $cratio)"
   status=1
 }
 
