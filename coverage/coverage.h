@@ -281,7 +281,7 @@ typedef struct {
     size_t n_complete;        /* runs with every numeric input present and inside its domain */
     size_t n_probes;          /* probe points of the fill distance */
     int gaps_subsampled;      /* 1 when distances were measured to a random subsample of runs */
-    size_t dep_n;             /* runs |r| was computed on (a fixed-seed subsample above 200,000) */
+    size_t dep_n;             /* runs |r| was computed on (a fixed-seed subsample above 100,000) */
 } cov_coverage;
 
 int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_coverage_options *opt,

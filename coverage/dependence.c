@@ -12,9 +12,9 @@
  * cache while every pair's sums are updated. */
 #define COV_DEP_BLOCK 256
 /* |r| costs K^2/2 multiply-adds a run; above this many runs it is computed on a fixed-seed random
- * subsample of this size, whose standard error (about (1 - r^2) / sqrt(n), under 0.0023) is far
+ * subsample of this size, whose standard error (about (1 - r^2) / sqrt(n), under 0.0032) is far
  * below any sensible flagging threshold. Cramer's V always uses every run (its tables are free). */
-#define COV_DEP_MAX_RUNS 200000
+#define COV_DEP_MAX_RUNS 100000
 
 double cov_cramer_v(const size_t *count, size_t na, size_t nb)
 {

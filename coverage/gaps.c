@@ -20,7 +20,7 @@
 #define COV_KD_USEFUL_DIMS 12
 /* Distance work (probes x runs x dimensions) allowed before the runs are subsampled: a fraction
  * of a second of brute-force search where the tree cannot prune. */
-#define COV_GAP_MAX_WORK 2e8
+#define COV_GAP_MAX_WORK 1e8
 /* Runs per leaf of the k-d tree: small enough to prune, large enough to amortise recursion. */
 #define COV_KD_LEAF 16
 

@@ -71,8 +71,10 @@ long cov_bin_of(const cov_var *v, size_t bins, double x)
         break;
     }
     if (!(x >= v->lo && x <= v->hi) || bins == 0) return -1;
-    /* Equal-width bins [lo + k w, lo + (k+1) w); the top edge hi belongs to the last bin. */
-    double b = floor((x - v->lo) / (v->hi - v->lo) * (double)bins);
+    /* Equal-width bins [lo + k w, lo + (k+1) w); the top edge hi belongs to the last bin. The
+     * scale bins / (hi - lo) is computed first so the counting pass can hoist it (a multiply per
+     * value instead of a divide) and still give the same bin at every edge. */
+    double b = floor((x - v->lo) * ((double)bins / (v->hi - v->lo)));
     if (b >= (double)bins) b = (double)bins - 1;
     if (b < 0) b = 0;
     return (long)b;
@@ -114,7 +116,7 @@ static inline uint16_t bin_code(const binner *b, double x)
     }
     if (!(x >= b->lo && x <= b->hi)) return (uint16_t)b->nb;
     /* The same expression as cov_bin_of, so both give the same bin at every edge. */
-    double k = floor((x - b->lo) / (b->hi - b->lo) * (double)b->nb);
+    double k = floor((x - b->lo) * b->scale);
     if (k >= (double)b->nb) k = (double)b->nb - 1;
     if (k < 0) k = 0;
     return (uint16_t)k;
@@ -506,6 +508,10 @@ done:
     return rc;
 }
 
+/* Combinatorial coverage after Kuhn, Kacker & Lei (NIST SP 800-142, 2010; NISTIR 7878, 2012): a
+ * t-way cell (a "variable-value configuration" of binned inputs) counts as covered when it holds at
+ * least min_runs runs. With min_runs = 1 the pooled share over all pairs (triples) is their "total
+ * variable-value configuration coverage", and a pair's share is its configuration coverage. */
 int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_coverage_options *opt,
                          cov_coverage **out, cov_error *err)
 {
@@ -558,6 +564,7 @@ int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_covera
         b->exact = v->type == COV_BOOL || v->type == COV_LEVELS || small_integer(v);
         b->lo = v->lo;
         b->hi = v->hi;
+        b->scale = (double)b->nb / (v->hi - v->lo);
         if (b->nb == 0 || b->nb >= UINT16_MAX) {
             rc = cov_fail(err, COV_EINPUT, "", "input %s has %zu bins; 1 to %u are supported",
                           v->name, b->nb, (unsigned)UINT16_MAX - 1);

@@ -80,7 +80,7 @@ def bin_of(spec, x, bins):
         return int(x - math.ceil(lo)) if lo <= x <= hi and x == int(x) else None
     if not lo <= x <= hi:
         return None
-    b = math.floor((x - lo) / (hi - lo) * bins)
+    b = math.floor((x - lo) * (bins / (hi - lo)))   # the scale first, as coverage/space.c does
     return min(max(b, 0), bins - 1)
 
 
