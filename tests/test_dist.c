@@ -237,6 +237,33 @@ static void reference_tables(void)
     }
 }
 
+/* Large noncentrality (the flushed subnormal weights and the 40-SD window of the mixtures). */
+static void large_noncentrality(void)
+{
+    double lo = NAN, up = NAN;
+    int s = pw_ncchisq_cdf(1e8, 3, 1e8, &lo, &up);
+    gsl_test_int(s, PW_OK, "ncx2 at lambda 1e8: status");
+    /* scipy 1.10.1 ncx2.cdf(1e8, 3, 1e8) (Boost); 1e-9 is the accuracy target */
+    gsl_test_abs(lo, 0.49996010577192784, 1e-9, "ncx2 P(X <= 1e8; 3, 1e8) vs scipy");
+    s = pw_ncf_cdf(7e5, 3, 1e6, 2e6, &lo, &up);
+    gsl_test_int(s, PW_OK, "ncf at lambda 2e6: status");
+    /* scipy 1.10.1 ncf.sf(7e5, 3, 1e6, 2e6); relative, the value being 5.6e-132 */
+    gsl_test_rel(up, 5.6316016049133254e-132, 1e-8, "ncf far upper tail at lambda 2e6 vs scipy");
+    s = pw_ncf_cdf(1.0, 3, 1e6, 2e6, &lo, &up);
+    gsl_test(s != PW_OK || lo != 0.0 || fabs(up - 1.0) > 1e-12, "ncf lower tail at lambda 2e6, "
+             "x far below: 0 and 1 (status %d)", s);
+    s = pw_nct_cdf(2e4, 10, 2e4, &lo, &up);
+    gsl_test_int(s, PW_OK, "nct at ncp 2e4: status");
+    /* mpmath 40-digit quadrature over the chi density (tests/ref_dist.py's mp_nct), computed for
+     * this check; scipy 1.10.1 gives 0.4404932651, 2.2e-8 off */
+    gsl_test_abs(lo, 0.4404932872585544, 1e-9, "nct P(T <= 2e4; 10, 2e4) vs mpmath");
+    /* Owen's Q with nu < 1 (QAGS through the singular density): mpmath 30-digit quadrature,
+     * computed for this check. */
+    double q = NAN;
+    pw_owen_q(0.5, 2.0, 1.0, 3.0, &q);
+    gsl_test_abs(q, 0.5196281676755334, 1e-10, "Owen's Q_0.5(2, 1; 0, 3) vs mpmath");
+}
+
 /* Quantiles invert their own CDF, both tails, including far ones. */
 static void quantiles(void)
 {
@@ -346,6 +373,7 @@ int main(void)
     gsl_test_verbose(1);
     identities();
     reference_tables();
+    large_noncentrality();
     quantiles();
     tost();
     statuses();
