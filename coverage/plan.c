@@ -679,12 +679,29 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         int rc = find_group(st, cl, &gi, &first, &k);
         if (rc != COV_OK) return rc;
         size_t n_rows = st->groups[gi].n_rows;
-        int prc = pw_aug_add_target(st->aug, st->groups[gi].group, first, k, INFINITY, &w->target);
+        /* The pd decides the measure; without one yet, a level-set effect claim is an F test. */
+        int pattern = w->have_pd ? w->pd.test == PW_TEST_LEVELS_F
+                                 : cl->kind == COV_CLAIM_EFFECT && g->vars[cl->treatment].type == COV_LEVELS;
+        int prc = pw_aug_add_target(st->aug, st->groups[gi].group, first, k, pattern, INFINITY,
+                                    &w->target);
         if (prc != PW_OK) return COV_ENOMEM;
         double info0 = pw_aug_info(st->aug, w->target);
         double q_now = w->have_pd ? pw_design_q(&w->pd) : NAN;
         const cov_var *x = &g->vars[cl->treatment];
-        if (w->have_pd && q_now > 0 && isfinite(q_now) && n_rows > st->groups[gi].p && info0 > 0) {
+        /* A level the archive never ran is missing from its regression (and carries only the
+         * ridge here), so a ratio to the current information would be meaningless: measure such
+         * a claim absolutely, with the archive's sigma and every declared level. */
+        int levels_missing = x->type == COV_LEVELS && w->have_pd &&
+                             w->pd.n_levels != (double)x->n_levels;
+        if (levels_missing && w->pd.sigma > 0) {
+            w->pd.n_levels = (double)x->n_levels;
+            w->q_mul = 1.0;
+            pw_design t;
+            if (pw_design_with_q(&w->pd, w->n_base, sqrt(info0), &t) != PW_OK ||
+                pw_power(&t, &it->power_now) != PW_OK)
+                it->power_now = NAN;
+        } else if (w->have_pd && q_now > 0 && isfinite(q_now) && n_rows > st->groups[gi].p &&
+                   info0 > 0) {
             /* The archive's own figures, moved by the ratio of information the runs add. */
             w->q_mul = q_now * q_now / info0;
         } else if (design_from_noise(g, cl, st->opt, n_testable, &st->L, &w->pd) == 0) {

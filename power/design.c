@@ -98,6 +98,31 @@ double pw_block_info_after(const double *ainv, size_t p, size_t first, size_t k,
     return v > 0.0 ? 1.0 / v : INFINITY;
 }
 
+/* The F test's information for a level-set block: M = (V_TT)^-1 (the block's information given
+ * the other columns, the Schur complement; Searle 1971, sec. 3.5), then the smallest b' M b over
+ * the least favourable pairwise patterns, by pw_level_pattern as the assessment computes it. With
+ * u != NULL, V is first updated by -w u u' / (1 + w xu) (Sherman & Morrison 1950). */
+double pw_block_pattern_info(const double *ainv, size_t p, size_t first, size_t k, const double *u,
+                             double xu, double w)
+{
+    if (k == 1 || k > PW_PATTERN_MAX_COLS) {
+        double v = block_worst_var(ainv, p, first, k, u, xu, w);
+        return v > 0.0 ? 1.0 / v : INFINITY;
+    }
+    double vb[PW_PATTERN_MAX_COLS * PW_PATTERN_MAX_COLS];
+    double f = u != NULL ? w / (1.0 + w * xu) : 0.0;
+    for (size_t a = 0; a < k; a++)
+        for (size_t b = 0; b < k; b++)
+            vb[a * k + b] = ainv[(first + a) * p + first + b] -
+                            (u != NULL ? f * u[first + a] * u[first + b] : 0.0);
+    double m[PW_PATTERN_MAX_COLS * PW_PATTERN_MAX_COLS];
+    if (pw_spd_inverse(vb, k, m) != PW_OK) return 0.0;
+    double q_min = 0.0, v_max = 0.0;
+    size_t wi = 0, wj = 1;
+    if (pw_level_pattern(m, k, &q_min, &v_max, &wi, &wj) != PW_OK) return 0.0;
+    return q_min;
+}
+
 int pw_design_with_q(const pw_design *d, double n_new, double q_new, pw_design *out)
 {
     if (!(n_new > 0.0) || !(q_new >= 0.0)) return PW_EDOM;
@@ -209,8 +234,17 @@ typedef struct {
 
 typedef struct {
     size_t group, first, k;
+    int pattern;       /* 1: the F test's least favourable pattern; 0: the worst contrast */
     double info, need;
 } aug_target;
+
+static double target_info(const aug_target *t, const aug_group *gr, const double *u, double xu,
+                          double w)
+{
+    if (t->pattern) return pw_block_pattern_info(gr->inv, gr->p, t->first, t->k, u, xu, w);
+    return u != NULL ? pw_block_info_after(gr->inv, gr->p, t->first, t->k, u, xu, w)
+                     : pw_block_info(gr->inv, gr->p, t->first, t->k);
+}
 
 struct pw_aug {
     size_t n_cols;
@@ -299,7 +333,7 @@ static int target_active(const aug_target *t)
     return isfinite(t->need) && t->info < t->need;
 }
 
-int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, double need,
+int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, int pattern, double need,
                       size_t *target)
 {
     if (group >= a->n_groups || k == 0 || first + k > a->groups[group].p) return PW_EDOM;
@@ -319,7 +353,8 @@ int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, double ne
         gr->cap_tg = cap;
     }
     gr->tg[gr->n_tg++] = a->n_targets;
-    aug_target t = {group, first, k, pw_block_info(gr->inv, gr->p, first, k), need};
+    aug_target t = {group, first, k, pattern != 0, 0.0, need};
+    t.info = target_info(&t, gr, NULL, 0.0, 0.0);
     a->targets[a->n_targets] = t;
     if (target_active(&t)) gr->n_active++;
     *target = a->n_targets++;
@@ -371,7 +406,7 @@ int pw_aug_score(pw_aug *a, const double *row, double w, double *score)
         for (size_t m = 0; m < gr->n_tg; m++) {
             aug_target *t = &a->targets[gr->tg[m]];
             if (!target_active(t)) continue;
-            double after = pw_block_info_after(gr->inv, gr->p, t->first, t->k, a->u, xu, w);
+            double after = target_info(t, gr, a->u, xu, w);
             double gain = after - t->info, missing = t->need - t->info;
             if (!(gain > 0.0)) continue;
             double cover = gain < missing ? gain / missing : 1.0;
@@ -400,7 +435,7 @@ int pw_aug_commit(pw_aug *a, const double *row, double w)
     for (size_t i = 0; i < a->n_targets; i++) {
         aug_target *t = &a->targets[i];
         aug_group *gr = &a->groups[t->group];
-        t->info = pw_block_info(gr->inv, gr->p, t->first, t->k);
+        t->info = target_info(t, gr, NULL, 0.0, 0.0);
         if (target_active(t)) gr->n_active++;
     }
     return PW_OK;

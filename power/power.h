@@ -283,6 +283,15 @@ double pw_block_info(const double *ainv, size_t p, size_t first, size_t k);
 double pw_block_info_after(const double *ainv, size_t p, size_t first, size_t k, const double *u,
                            double xu, double w);
 
+/* The level-set F test's information in a block of k dummy columns: with V_TT the block of ainv
+ * (after adding w x x' when u != NULL, u and xu from pw_sm_direction), M = V_TT^-1 and the smallest
+ * b' M b over the least favourable pairwise patterns of pw_level_pattern: the noncentrality per
+ * (effect / sigma)^2, the assessment's ncp_per_run n. Blocks wider than PW_PATTERN_MAX_COLS fall
+ * back to 1 / (worst contrast variance), the pattern's value for a balanced design. */
+#define PW_PATTERN_MAX_COLS 32
+double pw_block_pattern_info(const double *ainv, size_t p, size_t first, size_t k, const double *u,
+                             double xu, double w);
+
 /* The information a test's noncentrality rests on, as q with noncentrality (effect q / sigma):
  * sd_x_resid sqrt(n) for t and TOST tests, sqrt(ncp_per_run n) for the level-set F test (its
  * noncentrality is q^2 (effect / sigma)^2), sqrt(n sd_x_resid^2) or sqrt(n s (1 - s)) for two
@@ -310,9 +319,10 @@ void pw_aug_free(pw_aug *a);
  * is added to its diagonal so that an empty or rank-deficient start stays invertible. */
 int pw_aug_add_group(pw_aug *a, const size_t *cols, size_t p, const double *gram, double ridge,
                      size_t *group);
-/* Add a target: columns first..first+k-1 of the group (positions within cols). need: the
- * information at which it reaches its target; NAN or INFINITY make it never active. */
-int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, double need,
+/* Add a target: columns first..first+k-1 of the group (positions within cols). pattern 0 measures
+ * it with pw_block_info (t and equivalence tests), 1 with pw_block_pattern_info (the level-set F
+ * test). need: the information at which it reaches its target; NAN or INFINITY: never active. */
+int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, int pattern, double need,
                       size_t *target);
 size_t pw_aug_n_targets(const pw_aug *a);
 double pw_aug_info(const pw_aug *a, size_t target);
