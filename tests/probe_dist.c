@@ -60,9 +60,11 @@ int main(void)
             fprintf(stderr, "probe_dist: line %ld: unknown query '%s'\n", lineno, cmd);
             return 2;
         }
-        if (parse_args(rest, v, want) != 0) {
-            fprintf(stderr, "probe_dist: line %ld: expected %d numbers after '%s'\n", lineno, want,
-                    cmd);
+        if (parse_args(rest, v, want) != 0
+            || (cmd[strlen(cmd) - 1] == 'q' && strcmp(cmd, "owenq") != 0 && v[1] != 0.0
+                && v[1] != 1.0)) {
+            fprintf(stderr, "probe_dist: line %ld: expected %d numbers after '%s' (upper 0 or 1)\n",
+                    lineno, want, cmd);
             return 2;
         }
         if (strcmp(cmd, "nct") == 0)

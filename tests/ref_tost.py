@@ -1,4 +1,4 @@
-"""Exact TOST power (power/owen.c, Phillips 1990 through Owen's Q) against Monte Carlo and quadrature.
+"""Exact TOST power (power/owen.c, Phillips 1990 via Owen's Q) against Monte Carlo and quadrature.
 
 Run with Debian's /usr/bin/python3 (numpy, scipy 1.10.1). Drives build/tests/probe_dist (env
 BUILD). Prints PASS/FAIL lines.
@@ -62,7 +62,7 @@ def mc_model(rng, theta, lo, hi, se, df, alpha, n):
 
 
 def mc_two_sample(rng, diff, margin, n_group, alpha, n):
-    """Raw data: two groups of n_group N(0, 1) and N(diff, 1), pooled-variance t, TOST at +-margin."""
+    """Raw data: groups of n_group N(0, 1) and N(diff, 1), pooled-variance t, TOST at +-margin."""
     df = 2 * n_group - 2
     tc = t_crit(alpha, df)
     hits = 0

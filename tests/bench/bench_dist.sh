@@ -13,11 +13,17 @@ median3() { sort -g | sed -n 2p; }
 
 # Points where power searches spend their time: the critical value of the central test, ncp or
 # lambda from 0 to 40, df from 10 to 1e4. Invented, deterministic.
-awk -v n=$N 'BEGIN{for(i=0;i<n;i++){df=(i%3==0)?10:((i%3==1)?100:10000); d=(i%41)-20; t=1.96+(i%7)*0.05; print "nct", t, df, d}}' >"$tmp/nct"
-awk -v n=$N 'BEGIN{for(i=0;i<n;i++){d1=1+i%5; d2=(i%2)?30:1000; l=i%41; print "ncf", 2.5+(i%5)*0.3, d1, d2, l}}' >"$tmp/ncf"
-awk -v n=$N 'BEGIN{for(i=0;i<n;i++){df=1+i%30; l=i%41; print "ncx2", df+l+(i%9)-4, df, l}}' >"$tmp/ncx2"
-awk -v n=$((N / 4)) 'BEGIN{for(i=0;i<n;i++){print "nctq", 0.05, i%2, 10+i%90, (i%21)-10}}' >"$tmp/nctq"
-awk -v n=$((N / 4)) 'BEGIN{for(i=0;i<n;i++){df=4+i%200; print "tost", (i%11)*0.05, -0.5, 0.5, 0.15+(i%5)*0.05, df, 0.05}}' >"$tmp/tost"
+awk -v n=$N 'BEGIN{for (i = 0; i < n; i++) {
+  df = (i % 3 == 0) ? 10 : ((i % 3 == 1) ? 100 : 10000)
+  print "nct", 1.96 + (i % 7) * 0.05, df, (i % 41) - 20 }}' >"$tmp/nct"
+awk -v n=$N 'BEGIN{for (i = 0; i < n; i++)
+  print "ncf", 2.5 + (i % 5) * 0.3, 1 + i % 5, (i % 2) ? 30 : 1000, i % 41 }' >"$tmp/ncf"
+awk -v n=$N 'BEGIN{for (i = 0; i < n; i++) {
+  df = 1 + i % 30; l = i % 41; print "ncx2", df + l + (i % 9) - 4, df, l }}' >"$tmp/ncx2"
+awk -v n=$((N / 4)) 'BEGIN{for (i = 0; i < n; i++)
+  print "nctq", 0.05, i % 2, 10 + i % 90, (i % 21) - 10 }' >"$tmp/nctq"
+awk -v n=$((N / 4)) 'BEGIN{for (i = 0; i < n; i++)
+  print "tost", (i % 11) * 0.05, -0.5, 0.5, 0.15 + (i % 5) * 0.05, 4 + i % 200, 0.05 }' >"$tmp/tost"
 
 printf '%-6s %8s %14s %16s\n' query calls "us/call (C)" "us/call (scipy)"
 for q in nct ncf ncx2 nctq tost; do
@@ -37,11 +43,14 @@ rows = np.array([[float(v) for v in l.split()[1:]] for l in open(sys.argv[1])])
 q = sys.argv[2]
 def run():
     if q == "nct":
-        stats.nct.cdf(rows[:, 0], rows[:, 1], rows[:, 2]); stats.nct.sf(rows[:, 0], rows[:, 1], rows[:, 2])
+        stats.nct.cdf(*rows.T)
+        stats.nct.sf(*rows.T)
     elif q == "ncf":
-        stats.ncf.cdf(*rows.T); stats.ncf.sf(*rows.T)
+        stats.ncf.cdf(*rows.T)
+        stats.ncf.sf(*rows.T)
     elif q == "ncx2":
-        stats.ncx2.cdf(*rows.T); stats.ncx2.sf(*rows.T)
+        stats.ncx2.cdf(*rows.T)
+        stats.ncx2.sf(*rows.T)
     elif q == "nctq":
         stats.nct.ppf(rows[:, 0], rows[:, 2], rows[:, 3])
     else:
@@ -60,5 +69,5 @@ EOF
 done
 echo "C figures are CPU time and include the probe's start, parsing and %.17g printing (about"
 echo "1 us a line). scipy: CPU time of cdf and sf as two vectorized calls (ppf alone for nctq)."
-echo "nct rows alternate the sign of ncp: with ncp < 0 and t > 0 the upper tail comes from Owen's Q"
-echo "by quadrature (about 25 us), where the series would cancel. scipy has no TOST power."
+echo "nct rows run ncp from -20 to 20: with ncp < 0 and t > 0 a small upper tail comes from Owen's"
+echo "Q by quadrature (20 to 50 us), where the series would cancel. scipy has no TOST power."
