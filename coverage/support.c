@@ -199,11 +199,17 @@ static int categorical_overlap(claim_rows *cr, cov_support *s, double treated_le
     size_t *cnt = NULL, *size = NULL;
     double *treated = NULL;
     int propensity = cl->n_cond > COV_STRATA_MAX_COND;
+    /* No separating set, or too few runs to fit a propensity model: one stratum of all runs. */
+    int single = cl->n_cond == 0 || (propensity && n <= cr->q + 1);
+    if (single) propensity = 0;
     if (stratum == NULL || e == NULL || w == NULL) goto done;
     double *ind = w;   /* the treated indicator, before w is needed */
     for (size_t i = 0; i < n; i++) ind[i] = cr->x[i] == treated_level;
 
-    if (!propensity) {
+    if (single) {
+        for (size_t i = 0; i < n; i++) stratum[i] = 0;
+        ns = 1;
+    } else if (!propensity) {
         key = malloc((n * (cl->n_cond ? cl->n_cond : 1)) * sizeof *key);
         if (key == NULL) goto done;
         for (size_t i = 0; i < n; i++) {
@@ -221,6 +227,8 @@ static int categorical_overlap(claim_rows *cr, cov_support *s, double treated_le
          * regression by IRLS; strata are its quintiles (Rosenbaum & Rubin 1984, JASA 79:516). */
         int pr = pw_logit_fit(cr->z, ind, n, cr->q, NULL, e, NULL);
         if (pr == PW_ENOMEM) goto done;
+        /* PW_ENOCONV (no settling within the iteration cap, as under quasi-separation): the last
+         * iterate still ranks the runs, and extreme scores are what the overlap check reports. */
         if (pr != PW_OK && pr != PW_ENOCONV) {
             /* Aliased S dummies or too few runs: fall back to a linear probability model by SVD
              * least squares, clipped to [0, 1], which only has to rank the runs. */
@@ -247,18 +255,23 @@ static int categorical_overlap(claim_rows *cr, cov_support *s, double treated_le
             gsl_vector_free(c);
             gsl_multifit_linear_free(ws);
             if (!ok) {
-                rc = COV_ENUMERIC;
-                goto done;
+                /* Neither model could be fitted: judge overlap over all runs together. */
+                single = 1;
+                propensity = 0;
+                for (size_t i = 0; i < n; i++) stratum[i] = 0;
+                ns = 1;
             }
         }
-        /* Quintiles by rank: sort the row order by e (a merge sort on indices via key). */
-        key = malloc(2 * n * sizeof *key);
-        if (key == NULL) goto done;
-        for (size_t i = 0; i < n; i++) key[2 * i] = e[i], key[2 * i + 1] = (double)i;
-        qsort(key, n, 2 * sizeof *key, cmp_score);
-        for (size_t r = 0; r < n; r++)
-            stratum[(size_t)key[2 * r + 1]] = r * COV_PROPENSITY_STRATA / n;
-        ns = COV_PROPENSITY_STRATA < n ? COV_PROPENSITY_STRATA : n;
+        if (propensity) {
+            /* Quintiles by rank: sort (score, row) pairs by score. */
+            key = malloc(2 * n * sizeof *key);
+            if (key == NULL) goto done;
+            for (size_t i = 0; i < n; i++) key[2 * i] = e[i], key[2 * i + 1] = (double)i;
+            qsort(key, n, 2 * sizeof *key, cmp_score);
+            for (size_t r = 0; r < n; r++)
+                stratum[(size_t)key[2 * r + 1]] = r * COV_PROPENSITY_STRATA / n;
+            ns = COV_PROPENSITY_STRATA < n ? COV_PROPENSITY_STRATA : n;
+        }
     }
 
     cnt = calloc(ns * L, sizeof *cnt);
@@ -302,8 +315,8 @@ static int categorical_overlap(claim_rows *cr, cov_support *s, double treated_le
                 if (stratum[i] == worst_s) a = e[i] < a ? e[i] : a, b = e[i] > b ? e[i] : b;
             snprintf(where, sizeof where, "propensity stratum %zu of %d (score %.3g to %.3g)",
                      worst_s + 1, COV_PROPENSITY_STRATA, a, b);
-        } else if (cl->n_cond == 0) {
-            snprintf(where, sizeof where, "any run");
+        } else if (single) {
+            snprintf(where, sizeof where, "%s", cl->n_cond == 0 ? "any run" : "all runs together");
         } else {
             for (size_t j = 0; j < cl->n_cond; j++) {
                 const cov_var *v = &cr->g->vars[cl->cond[j]];
@@ -434,7 +447,7 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
     s->spread = sd_n(ind, n);
     if (cr.q > 0 && n > cr.q) {
         rc = resid_sd(cr.z, ind, n, cr.q, &s->spread_resid);
-        if (rc != COV_OK) goto done;
+        if (rc == COV_ENOMEM) goto done;   /* a numeric failure leaves the figure NAN */
         rc = COV_ENOMEM;
     } else {
         s->spread_resid = 0;   /* no more runs than columns: nothing is left over */

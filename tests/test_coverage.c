@@ -570,6 +570,43 @@ static void test_support_numeric_and_propensity(void)
     fx_free(&f);
 }
 
+static void test_support_few_runs(void)
+{
+    /* Four members of S give 5 propensity-model columns; with 6 runs no model is fitted and the
+     * runs form one stratum. T is on in 3 and off in 3, fewer than m = 5 each: overlap 0. */
+    fixture f;
+    fx_init(&f, 6);
+    size_t T = fx_var(&f, "T", COV_INPUT, COV_BOOL, 0, 1);
+    size_t S[4];
+    for (size_t k = 0; k < 4; k++) {
+        char nm[24];
+        snprintf(nm, sizeof nm, "s%zu", k);
+        S[k] = fx_var(&f, nm, COV_INPUT, COV_REAL, 0, 1);
+    }
+    size_t Y = fx_var(&f, "Y", COV_OUTPUT, COV_REAL, NAN, NAN);
+    for (size_t i = 0; i < 6; i++) {
+        f.cols[T][i] = i % 2;
+        for (size_t k = 0; k < 4; k++) f.cols[S[k]][i] = (double)((i * (k + 3)) % 7) / 7;
+        f.cols[Y][i] = (double)i;
+    }
+    cov_claim cl = claim_of(T, Y, S, 4);
+    cov_claims cs = {&cl, 1};
+    cov_coverage_options o = opts(5, 0);
+    cov_supports *sp = NULL;
+    cov_error err;
+    int rc = cov_support_measure(&f.g, &cs, &f.d, &o, &sp, &err);
+    gsl_test_int(rc, COV_OK, "6 runs, 4 members of S: support measured without a model");
+    if (rc == COV_OK) {
+        gsl_test_abs(sp->items[0].overlap, 0.0, 0, "6 runs: 3 on and 3 off, m = 5: overlap 0");
+        gsl_test(sp->items[0].reason == NULL
+                     || strstr(sp->items[0].reason, "all runs together") == NULL,
+                 "6 runs: reason says the runs were judged together: %s",
+                 sp->items[0].reason ? sp->items[0].reason : "(none)");
+    }
+    cov_supports_free(sp);
+    fx_free(&f);
+}
+
 static void test_logit(void)
 {
     /* A saturated model has the closed-form MLE (McCullagh & Nelder 1989, sec. 4.5): with an
@@ -622,5 +659,6 @@ int main(void)
     test_logit();
     test_support_overlap();
     test_support_numeric_and_propensity();
+    test_support_few_runs();
     return gsl_test_summary();
 }
