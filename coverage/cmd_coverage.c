@@ -66,8 +66,12 @@ static void fmt_num(char *buf, size_t size, double x, const char *fmt)
 
 static int is_numeric(const cov_var *v) { return v->type == COV_REAL || v->type == COV_INTEGER; }
 
-/* A unit-cube coordinate back in the input's units. */
-static double domain_value(const cov_var *v, double u) { return v->lo + u * (v->hi - v->lo); }
+/* A unit-cube coordinate back in the input's units (integer inputs to the nearest value). */
+static double domain_value(const cov_var *v, double u)
+{
+    double x = v->lo + u * (v->hi - v->lo);
+    return v->type == COV_INTEGER ? round(x) : x;
+}
 
 static const char *reading(double cd2, double random)
 {
