@@ -1,5 +1,8 @@
 /* Reading the graph's recorded variables from the archive into contiguous columns, checking each
  * cell against the variable's declared type and domain. See LICENSE. */
+#if defined(__linux__) && !defined(_DEFAULT_SOURCE)
+#define _DEFAULT_SOURCE     /* madvise, used on Linux only */
+#endif
 #include <errno.h>
 #include <float.h>
 #include <math.h>
@@ -9,6 +12,10 @@
 #include <string.h>
 
 #include <sqlite3.h>
+#if defined(__linux__)
+#include <sys/mman.h>
+#include <unistd.h>
+#endif
 
 #include "coverage/internal.h"
 
@@ -18,6 +25,8 @@
  * time defeats the processor's store prefetch, while a block of 64 rows (40 KiB for 80 columns)
  * stays in cache and is copied out one column at a time. */
 #define STAGE_ROWS 64
+/* Columns smaller than this fault in quickly enough on their own. */
+#define PREFAULT_MIN_BYTES ((size_t)1 << 20)
 /* First guess at the run count when the table's rowids say nothing useful. */
 #define START_CAPACITY 1024
 /* The rowid span overstates the run count when rows were deleted; beyond this many rows the
@@ -199,13 +208,32 @@ static int in_domain(const cov_var *var, double x, char *what, size_t n)
     return 1;
 }
 
+/* Ask Linux to map the pages of a new column in one call (MADV_POPULATE_WRITE, Linux 5.14):
+ * taking the page faults one 4 KiB page at a time while the scan runs costs several times more.
+ * It is advice only; where it is not available nothing changes. */
+static void prefault(void *p, size_t bytes)
+{
+#if defined(__linux__) && defined(MADV_POPULATE_WRITE)
+    long page = sysconf(_SC_PAGESIZE);
+    if (page <= 0 || bytes < PREFAULT_MIN_BYTES) return;
+    uintptr_t lo = ((uintptr_t)p + (uintptr_t)page - 1) / (uintptr_t)page * (uintptr_t)page;
+    uintptr_t hi = ((uintptr_t)p + bytes) / (uintptr_t)page * (uintptr_t)page;
+    if (hi > lo) (void)madvise((void *)lo, hi - lo, MADV_POPULATE_WRITE);
+#else
+    (void)p;
+    (void)bytes;
+#endif
+}
+
 static int grow(cov_data *d, const cov_graph *g, size_t cap, int with_batch)
 {
     for (size_t v = 0; v < g->n_vars; v++) {
         if (d->col[v] == NULL && g->vars[v].role == COV_HIDDEN) continue;
+        int fresh = d->col[v] == NULL;
         double *p = realloc(d->col[v], cap * sizeof *p);
         if (p == NULL) return -1;
         d->col[v] = p;
+        if (fresh) prefault(p, cap * sizeof *p);
     }
     if (with_batch) {
         long long *b = realloc(d->batch, cap * sizeof *b);
@@ -225,9 +253,14 @@ static int cmp_ll(const void *a, const void *b)
 static void unstage(cov_data *d, const size_t *vars, size_t n_rec, const double *stage,
                     size_t base, size_t count)
 {
-    for (size_t k = 0; k < n_rec; k++) {
-        double *dst = d->col[vars[k]] + base;
-        for (size_t i = 0; i < count; i++) dst[i] = stage[i * n_rec + k];
+    /* Eight columns at a time: each staged row is then read a whole cache line at once, and
+     * eight column streams are written, few enough for the store buffers. */
+    for (size_t k0 = 0; k0 < n_rec; k0 += 8) {
+        size_t k1 = k0 + 8 < n_rec ? k0 + 8 : n_rec;
+        for (size_t i = 0; i < count; i++) {
+            const double *src = stage + i * n_rec;
+            for (size_t k = k0; k < k1; k++) d->col[vars[k]][base + i] = src[k];
+        }
     }
 }
 
