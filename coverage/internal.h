@@ -282,6 +282,37 @@ void cov_report_claims_csv(const cov_findings *f, FILE *out);
  * untestable, then ample by rising power. Fills order (f->claims->n entries). */
 void cov_report_order(const cov_findings *f, size_t *order);
 
+/* Shared by the report files: coverage/report.c (these helpers, summary.json, claims.csv and the
+ * writer), coverage/report_html.c and coverage/report_md.c. */
+/* The cautions every format prints (what the verdict does not say), cov_report_n_cautions of
+ * them. */
+extern const char *const cov_report_cautions[];
+extern const size_t cov_report_n_cautions;
+/* The name of variable v of f->graph. */
+const char *cov_report_var(const cov_findings *f, size_t v);
+/* The assessment of claim i, or NULL when f->assess is NULL or does not reach i. */
+const cov_assessment *cov_report_assessment(const cov_findings *f, size_t i);
+/* Claim i's verdict: its assessment's, else thin for a testable claim and untestable otherwise. */
+cov_verdict cov_report_verdict(const cov_findings *f, size_t i);
+/* The one-line reason for claim i's verdict (borrowed from f), or NULL when there is none. */
+const char *cov_report_reason(const cov_findings *f, size_t i);
+/* Count the claims of f by verdict into count[COV_AMPLE], count[COV_THIN], count[COV_BLIND]. */
+void cov_report_count_verdicts(const cov_findings *f, long long count[3]);
+/* "effect" or "absence". */
+const char *cov_report_kind(const cov_claim *c);
+/* The declared effect of interest ("+0.01", "0.25 sd", "|b| < 0.1 sd") into buf of size bytes. */
+void cov_report_effect_text(const cov_claim *c, char *buf, size_t size);
+/* x by the printf format fmt (one double) into buf; "-" for NAN, "unreachable" for infinity. */
+void cov_report_num_text(double x, const char *fmt, char *buf, size_t size);
+/* A share as "12.5%" into buf, or "not computed" when x is not finite. */
+void cov_report_share_text(double x, char *buf, size_t size);
+/* Write index.html (coverage/report_html.c) of f to out, embedding the plots NAME.svg found in
+ * dir unless info->plot_note is set. Returns COV_OK or COV_ENOMEM (err filled). */
+int cov_report_html(const cov_findings *f, const cov_report_info *info, const char *dir,
+                    FILE *out, cov_error *err);
+/* Write report.md (coverage/report_md.c) of f to out. Returns COV_OK or COV_ENOMEM (no message). */
+int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE *out);
+
 /* Plots (coverage/plot.c, coverage/plot_claims.c), drawn by gnuplot through a pipe
  * (coverage/gnuplot.c). Each plot is written twice into the report directory: NAME.svg (svg
  * terminal, to inline) and NAME.png (pngcairo). The names, in report order: "pairs" (pairwise
