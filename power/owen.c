@@ -26,20 +26,22 @@
 /* Subintervals QAGP may create: smooth log-concave integrands need far fewer. */
 #define OWEN_LIMIT 1000
 /* The golden-section search for the mode stops once the bracket is below this share of its upper
- * end (or 1): the mode only places breakpoints, so 1e-9 is far finer than any peak's width. */
-#define OWEN_MODE_TOL 1e-9
+ * end. The mode only places breakpoints, within which QAGP adapts, and the peaks met are wider
+ * than 1e-4 of their distance from 0 (the chi factor alone gives about 1 / sqrt(nu) of it); a peak
+ * at 0 makes the bracket shrink onto 0 until OWEN_MODE_ITER. */
+#define OWEN_MODE_TOL 1e-6
 /* Golden-section steps allowed: 0.618^200 shrinks any double bracket below the tolerance. */
 #define OWEN_MODE_ITER 200
-/* Breakpoints: 3^40 spans any ratio between the peak's scale and the window's. */
+/* Breakpoints: 4^40 spans any ratio between the peak's scale and the window's. */
 #define OWEN_MAX_POINTS 84
 /* Doublings of the search interval for the mode before giving up (2^1100 passes DBL_MAX). */
 #define OWEN_MAX_DOUBLE 1100
 
 /* erfc(z) stays a normal double up to z = 26.5; beyond 26 the logarithm comes from GSL. */
 #define OWEN_ERFC_DIRECT_MAX 26.0
-/* From this nu on the chi density is taken through Loader's Poisson term (k = nu / 2 - 1 >= 0);
- * below it the direct formula involves only small numbers. */
-#define OWEN_LOADER_NU 2.0
+/* From this nu on the chi density is taken through Loader's Poisson term (k = nu / 2 - 1); below
+ * it the direct formula's terms stay under about 3500, so it loses under 1e-12, and it is cheaper. */
+#define OWEN_LOADER_NU 1e3
 
 enum kind { OWEN_Q, TOST_BAND };
 
@@ -134,7 +136,7 @@ static int chi_integral(struct chi_args *ca, double R, double *val)
         const double g = 0.5 * (sqrt(5.0) - 1.0);
         double c = hi - g * (hi - lo), d = lo + g * (hi - lo);
         double hc = log_integrand(c, ca), hd = log_integrand(d, ca);
-        for (int it = 0; it < OWEN_MODE_ITER && hi - lo > OWEN_MODE_TOL * fmax(1.0, hi); it++) {
+        for (int it = 0; it < OWEN_MODE_ITER && hi - lo > OWEN_MODE_TOL * hi; it++) {
             if (hc >= hd) {
                 hi = d;
                 d = c;
@@ -168,13 +170,13 @@ static int chi_integral(struct chi_args *ca, double R, double *val)
                 break;
             step = 0.1 / sqrt(curv);
         }
-        /* Breakpoints at mode +- w 3^k up to the half-width: every scale from the peak's own
+        /* Breakpoints at mode +- w 4^k up to the half-width: every scale from the peak's own
          * (which a boundary mode with a steep normal factor makes tiny) to the outer window gets
          * segments that a Gauss-Kronrod rule resolves. */
         double w = fmin(1.0 / sqrt(curv), 1.0);
         double left[OWEN_MAX_POINTS / 2], right[OWEN_MAX_POINTS / 2];
         size_t nl = 0, nr = 0;
-        for (double off = w; nl < OWEN_MAX_POINTS / 2 - 1; off *= 3.0) {
+        for (double off = w; nl < OWEN_MAX_POINTS / 2 - 1; off *= 4.0) {
             double o = fmin(off, OWEN_HALFWIDTH);
             left[nl++] = mode - o;
             right[nr++] = mode + o;
