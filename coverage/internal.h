@@ -387,7 +387,7 @@ int cov_gp_find(char *path, size_t size);
  * gnuplot exits with status 0; else COV_ENOPLOT, with gnuplot's last message line in err. */
 int cov_gp_run(const char *script, size_t len, FILE *note, cov_error *err);
 
-/* ---- plan (coverage/plan.c) -------------------------------------------------------------------- */
+/* ---- plan (coverage/plan.c, plan_candidates.c, plan_cover.c; the plan file: cmd_plan.c) -------- */
 
 /* How the plan predicts one claim's power after the planned runs. */
 typedef enum {
@@ -447,5 +447,36 @@ int cov_plan_write_csv(const cov_graph *g, const cov_plan *p, const char *path, 
  * err->where "file:line:column". *rows is malloc'd; the caller frees it. */
 int cov_plan_read_csv(const cov_graph *g, const char *path, double **rows, size_t *n_rows,
                       cov_error *err);
+
+/* Shared by the plan files: coverage/plan.c (claims, greedy search), coverage/plan_candidates.c
+ * (the candidate set) and coverage/plan_cover.c (the coverage bonus of a candidate). */
+/* Whether v is numeric (real or integer): scaled to [-1, 1] when coded, measured by distance. */
+int cov_plan_is_numeric(const cov_var *v);
+/* Whether run i of d has a value of variable v (its column exists and the cell is not NAN). */
+int cov_plan_var_present(const cov_data *d, size_t v, size_t i);
+/* The candidate runs from seed: scrambled Sobol points, the same rounded to the domain ends, the
+ * centre and one-at-a-time extremes, then the level combinations (capped) of the level-set inputs
+ * of each claim i of c with thin[i] nonzero, in claim order. *cand_vals gets *n_cand rows of
+ * g->n_vars values (NAN for non-inputs), malloc'd for the caller to free; COV_OK, COV_ENOMEM, or
+ * COV_ENUMERIC when the Sobol generator fails (then *cand_vals is NULL). */
+int cov_plan_candidates(const cov_graph *g, const cov_claims *c, const unsigned char *thin,
+                        unsigned long seed, double **cand_vals, size_t *n_cand);
+/* The coverage bonus of the candidates: the 2-way cells (copt's bins) still under copt->min_runs
+ * runs that a candidate falls in, and its distance to the nearest run. */
+typedef struct cov_plan_cover cov_plan_cover;
+/* Count d's runs (d may be NULL) in the cells of the n_cand rows cand_vals (borrowed: they must
+ * outlive *out) and measure distances to a sample of them drawn from seed + 1; copt NULL means 10
+ * bins and min_runs 5. Returns COV_OK or COV_ENOMEM (then *out is NULL). */
+int cov_plan_cover_alloc(const cov_graph *g, const cov_data *d, const double *cand_vals,
+                         size_t n_cand, const cov_coverage_options *copt, unsigned long seed,
+                         cov_plan_cover **out);
+/* Candidate c's bonus in [0, 1]: the mean of its share of short cells and its scaled distance. */
+double cov_plan_cover_bonus(const cov_plan_cover *cv, size_t c);
+/* Count replicates runs at candidate chosen in its cells and in every candidate's distance. */
+void cov_plan_cover_commit(cov_plan_cover *cv, size_t chosen, int replicates);
+/* Operations one cov_plan_cover_bonus costs (one per input pair), weighed with pw_aug_score_cost. */
+double cov_plan_cover_cost(const cov_plan_cover *cv);
+/* Free cv; NULL is allowed. */
+void cov_plan_cover_free(cov_plan_cover *cv);
 
 #endif

@@ -1,12 +1,8 @@
-/* The next runs: candidate sets, greedy augmentation over the claims' designs, predicted power.
+/* The next runs: claim design groups, greedy augmentation over the claims' designs, predicted power.
  * See LICENSE. */
 #include <math.h>
-#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
-
-#include <gsl/gsl_qrng.h>
-#include <gsl/gsl_rng.h>
 
 #include "coverage/internal.h"
 
@@ -14,24 +10,13 @@
  * stays invertible: a millionth of what one run at a domain end adds to a coded column (|z| <= 1),
  * far below anything that moves a printed power. */
 #define PLAN_RIDGE 1e-6
-/* Scrambled Sobol points in the candidate set, and as many again rounded to the domain ends. */
-#define PLAN_N_SOBOL 256
-/* GSL's Sobol generator goes up to 40 dimensions; more inputs are padded with further
- * independently scrambled Sobol blocks (Owen 1998, "Latin supercube sampling"). */
-#define PLAN_SOBOL_MAX_DIM 40
-/* Level combinations enumerated per set of level-set inputs a claim needs. */
-#define PLAN_LEVEL_COMBO_CAP 256
 /* Weight of the coverage bonus (share of 2-way cells still under min_runs that a run would fall in,
  * distance to the nearest run): it raises a claim score by at most 5%, so coverage breaks near-ties
  * while some claim is short, and leads alone once none is. */
 #define PLAN_COVER_WEIGHT 0.05
-/* Runs of the archive the distance bonus measures against (a fixed-seed sample beyond that). */
-#define PLAN_GAP_SAMPLE 2000
 /* Rescore every candidate after each added run when that costs at most this many floating-point
  * operations (about a millisecond); beyond it, rescore lazily. */
 #define PLAN_FULL_FLOPS 2e6
-/* Real values are drawn on a grid of this share of the domain, so that they print short. */
-#define PLAN_REAL_GRID 1e-6
 /* --budget auto: a need is recomputed at the current run count once that count has grown by this
  * factor (the run count changes the test's degrees of freedom, so the need falls slowly). */
 #define PLAN_NEED_REFRESH 1.5
@@ -47,7 +32,7 @@ typedef struct {
     size_t *first, *count;    /* per variable; count 0 for non-inputs */
 } layout;
 
-static int is_numeric(const cov_var *v) { return v->type == COV_REAL || v->type == COV_INTEGER; }
+int cov_plan_is_numeric(const cov_var *v) { return v->type == COV_REAL || v->type == COV_INTEGER; }
 
 static void code_row(const cov_graph *g, const layout *L, const double *vals, double *row)
 {
@@ -57,7 +42,7 @@ static void code_row(const cov_graph *g, const layout *L, const double *vals, do
         if (L->count[v] == 0) continue;
         double x = vals[v];
         double *r = row + L->first[v];
-        if (is_numeric(var)) r[0] = 2.0 * (x - var->lo) / (var->hi - var->lo) - 1.0;
+        if (cov_plan_is_numeric(var)) r[0] = 2.0 * (x - var->lo) / (var->hi - var->lo) - 1.0;
         else if (var->type == COV_BOOL) r[0] = x;
         else
             for (size_t k = 1; k < var->n_levels; k++) r[k - 1] = (size_t)x == k ? 1.0 : 0.0;
@@ -96,209 +81,11 @@ struct plan_state {
     size_t n_cand;
     double *cand_vals;        /* n_cand * n_vars */
     double *cand_rows;        /* n_cand * n_cols */
-    /* coverage bonus */
-    size_t *pair_a, *pair_b, n_pairs;
-    size_t *pair_nb;          /* bins of b */
-    size_t **pair_count;
-    long *cand_bin;           /* n_cand * n_vars */
-    size_t min_runs;
-    size_t *gap_vars, n_gap_vars;
-    double *cand_gap;         /* n_cand: distance to the nearest run in the unit cube */
+    cov_plan_cover *cover;    /* the coverage bonus of each candidate */
     struct delta_cache *dc;
 };
 
-static unsigned parity32(uint32_t x)
-{
-    x ^= x >> 16;
-    x ^= x >> 8;
-    x ^= x >> 4;
-    x ^= x >> 2;
-    x ^= x >> 1;
-    return x & 1u;
-}
-
-/* Random linear scrambling with a digital shift (Matousek 1998, "On the L2-discrepancy for
- * anchored boxes", J. Complexity 14): digit i of the output is digit i of the input plus a random
- * combination of the digits before it, plus a random shift digit, all mod 2. The scrambled net keeps
- * its (t, m, s) properties. */
-typedef struct {
-    uint32_t rows[32];        /* rows[i]: bit 31 - j set when input digit j enters output digit i */
-    uint32_t shift;
-} scramble;
-
-static void scramble_init(scramble *s, gsl_rng *r)
-{
-    for (int i = 0; i < 32; i++) {
-        uint32_t below = i == 0 ? 0u : (uint32_t)(gsl_rng_get(r) & 0xffffffffUL);
-        uint32_t keep = i == 0 ? 0u : ~(uint32_t)0 << (32 - i);    /* digits 0 .. i-1 */
-        s->rows[i] = (below & keep) | (1u << (31 - i));
-    }
-    s->shift = (uint32_t)(gsl_rng_get(r) & 0xffffffffUL);
-}
-
-static double scramble_apply(const scramble *s, double u)
-{
-    uint32_t b = (uint32_t)ldexp(u, 32), out = 0;
-    if (u >= 1.0) b = 0xffffffffu;
-    for (int i = 0; i < 32; i++) out |= (uint32_t)parity32(s->rows[i] & b) << (31 - i);
-    out ^= s->shift;
-    return ldexp((double)out + 0.5, -32);
-}
-
-/* A value of input v from a share u in [0, 1); corner = 1 takes the nearer end instead. */
-static double value_of(const cov_var *v, double u, int corner)
-{
-    if (v->held) return v->held_value;
-    if (v->type == COV_BOOL) return u < 0.5 ? 0.0 : 1.0;
-    if (v->type == COV_LEVELS) {
-        double k = floor(u * (double)v->n_levels);
-        return k >= (double)v->n_levels ? (double)v->n_levels - 1 : k;
-    }
-    if (corner) return u < 0.5 ? v->lo : v->hi;
-    if (v->type == COV_INTEGER) {
-        double k = v->lo + floor(u * (v->hi - v->lo + 1.0));
-        return k > v->hi ? v->hi : k;
-    }
-    double x = v->lo + (v->hi - v->lo) * (PLAN_REAL_GRID * floor(u / PLAN_REAL_GRID));
-    return x > v->hi ? v->hi : (x < v->lo ? v->lo : x);
-}
-
-static int cand_push(struct plan_state *st, size_t *cap, const double *vals)
-{
-    const cov_graph *g = st->g;
-    if (st->n_cand == *cap) {
-        size_t nc = *cap ? 2 * *cap : 512;
-        double *nv = realloc(st->cand_vals, nc * g->n_vars * sizeof *nv);
-        if (nv == NULL) return COV_ENOMEM;
-        st->cand_vals = nv;
-        *cap = nc;
-    }
-    double *dst = st->cand_vals + st->n_cand * g->n_vars;
-    for (size_t v = 0; v < g->n_vars; v++) {
-        const cov_var *var = &g->vars[v];
-        dst[v] = var->role != COV_INPUT ? NAN : (var->held ? var->held_value : vals[v]);
-    }
-    st->n_cand++;
-    return COV_OK;
-}
-
-/* The candidate set: scrambled Sobol points, the same rounded to the domain ends (corners), the
- * centre and one-at-a-time extremes, and every combination of the level sets that thin steered
- * claims use. */
-static int build_candidates(struct plan_state *st, unsigned long seed)
-{
-    const cov_graph *g = st->g;
-    size_t nv = g->n_vars, cap = 0;
-    int rc = COV_ENOMEM;
-    size_t *free_in = malloc((nv + 1) * sizeof *free_in);
-    double *u = malloc((nv + 1) * sizeof *u), *vals = malloc((nv + 1) * sizeof *vals);
-    double *pts = NULL;
-    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
-    if (free_in == NULL || u == NULL || vals == NULL || r == NULL) goto fail;
-    gsl_rng_set(r, seed);
-    size_t dim = 0;
-    for (size_t v = 0; v < nv; v++)
-        if (g->vars[v].role == COV_INPUT && !g->vars[v].held) free_in[dim++] = v;
-    for (size_t v = 0; v < nv; v++) vals[v] = NAN;
-    pts = malloc((size_t)PLAN_N_SOBOL * (dim + 1) * sizeof *pts);
-    if (pts == NULL) goto fail;
-    for (size_t b0 = 0; b0 < dim; b0 += PLAN_SOBOL_MAX_DIM) {
-        size_t bd = dim - b0 < PLAN_SOBOL_MAX_DIM ? dim - b0 : PLAN_SOBOL_MAX_DIM;
-        gsl_qrng *q = gsl_qrng_alloc(gsl_qrng_sobol, (unsigned)bd);
-        scramble *sc = malloc(bd * sizeof *sc);
-        if (q == NULL || sc == NULL) {
-            gsl_qrng_free(q);
-            free(sc);
-            goto fail;
-        }
-        for (size_t k = 0; k < bd; k++) scramble_init(&sc[k], r);
-        for (size_t i = 0; i < PLAN_N_SOBOL; i++) {
-            if (gsl_qrng_get(q, u) != 0) {
-                gsl_qrng_free(q);
-                free(sc);
-                rc = COV_ENUMERIC;
-                goto fail;
-            }
-            for (size_t k = 0; k < bd; k++)
-                pts[i * (dim + 1) + b0 + k] = scramble_apply(&sc[k], u[k]);
-        }
-        gsl_qrng_free(q);
-        free(sc);
-    }
-    for (int corner = 0; corner <= 1; corner++)
-        for (size_t i = 0; i < PLAN_N_SOBOL; i++) {
-            for (size_t k = 0; k < dim; k++)
-                vals[free_in[k]] = value_of(&g->vars[free_in[k]], pts[i * (dim + 1) + k], corner);
-            if ((rc = cand_push(st, &cap, vals)) != COV_OK) goto fail;
-        }
-    /* The centre of the numeric domains, and each numeric input at either end from there. */
-    for (size_t k = 0; k < dim; k++) vals[free_in[k]] = value_of(&g->vars[free_in[k]], 0.5, 0);
-    if ((rc = cand_push(st, &cap, vals)) != COV_OK) goto fail;
-    for (size_t k = 0; k < dim; k++) {
-        const cov_var *var = &g->vars[free_in[k]];
-        if (!is_numeric(var)) continue;
-        double mid = vals[free_in[k]];
-        vals[free_in[k]] = var->lo;
-        if ((rc = cand_push(st, &cap, vals)) != COV_OK) goto fail;
-        vals[free_in[k]] = var->hi;
-        if ((rc = cand_push(st, &cap, vals)) != COV_OK) goto fail;
-        vals[free_in[k]] = mid;
-    }
-    /* Level combinations: for each steered claim's level-set inputs, every combination, the other
-     * inputs taken from the corner points in turn. */
-    size_t *lv = malloc((nv + 1) * sizeof *lv), *digit = malloc((nv + 1) * sizeof *digit);
-    if (lv == NULL || digit == NULL) {
-        free(lv);
-        free(digit);
-        rc = COV_ENOMEM;
-        goto fail;
-    }
-    size_t rot = 0;
-    for (size_t i = 0; i < st->c->n; i++) {
-        const cov_claim *cl = &st->c->items[i];
-        /* Only the claims still short of their need (the thin ones) ask for their combinations. */
-        if (cl->status != COV_TESTABLE || !st->w[i].steered || !pw_aug_active(st->aug, st->w[i].target))
-            continue;
-        size_t n_lv = 0;
-        for (size_t m = 0; m <= cl->n_cond; m++) {
-            size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
-            const cov_var *var = &g->vars[v];
-            if (var->role == COV_INPUT && var->type == COV_LEVELS && !var->held) lv[n_lv++] = v;
-        }
-        if (n_lv == 0) continue;
-        size_t combos = 1;
-        for (size_t m = 0; m < n_lv && combos <= PLAN_LEVEL_COMBO_CAP; m++)
-            combos *= g->vars[lv[m]].n_levels;
-        if (combos > PLAN_LEVEL_COMBO_CAP) combos = PLAN_LEVEL_COMBO_CAP;
-        for (size_t m = 0; m < n_lv; m++) digit[m] = 0;
-        for (size_t t = 0; t < combos; t++) {
-            size_t base = PLAN_N_SOBOL + rot++ % PLAN_N_SOBOL;
-            memcpy(vals, st->cand_vals + base * nv, nv * sizeof *vals);
-            for (size_t m = 0; m < n_lv; m++) vals[lv[m]] = (double)digit[m];
-            if ((rc = cand_push(st, &cap, vals)) != COV_OK) {
-                free(lv);
-                free(digit);
-                goto fail;
-            }
-            for (size_t m = 0; m < n_lv; m++) {
-                if (++digit[m] < g->vars[lv[m]].n_levels) break;
-                digit[m] = 0;
-            }
-        }
-    }
-    free(lv);
-    free(digit);
-    rc = COV_OK;
-fail:
-    gsl_rng_free(r);
-    free(free_in);
-    free(u);
-    free(vals);
-    free(pts);
-    return rc;
-}
-
-static int var_present(const cov_data *d, size_t v, size_t i)
+int cov_plan_var_present(const cov_data *d, size_t v, size_t i)
 {
     return d->col[v] != NULL && !isnan(d->col[v][i]);
 }
@@ -354,9 +141,9 @@ static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, si
     size_t n_rows = 0;
     const cov_data *d = st->d;
     for (size_t i = 0; d != NULL && i < d->n_runs; i++) {
-        int ok = outcome < 0 || var_present(d, (size_t)outcome, i);
+        int ok = outcome < 0 || cov_plan_var_present(d, (size_t)outcome, i);
         for (size_t m = 0; ok && m <= cl->n_cond; m++)
-            ok = var_present(d, m < cl->n_cond ? cl->cond[m] : cl->treatment, i);
+            ok = cov_plan_var_present(d, m < cl->n_cond ? cl->cond[m] : cl->treatment, i);
         if (!ok) continue;
         for (size_t v = 0; v < g->n_vars; v++)
             vals[v] = L->count[v] && d->col[v] != NULL && !isnan(d->col[v][i]) ? d->col[v][i]
@@ -476,122 +263,6 @@ static double need_at(struct delta_cache *dc, const claim_work *w, double n)
     return q * q / w->q_mul;
 }
 
-/* ---- the coverage bonus ------------------------------------------------------------------------ */
-
-static int cover_init(struct plan_state *st, const cov_coverage_options *copt, unsigned long seed)
-{
-    const cov_graph *g = st->g;
-    const cov_data *d = st->d;
-    size_t nv = g->n_vars, bins = copt != NULL && copt->bins > 0 ? copt->bins : 10;
-    st->min_runs = copt != NULL && copt->min_runs > 0 ? copt->min_runs : 5;
-    size_t n_free = 0;
-    for (size_t v = 0; v < nv; v++)
-        if (g->vars[v].role == COV_INPUT && !g->vars[v].held) n_free++;
-    size_t max_pairs = n_free * (n_free > 0 ? n_free - 1 : 0) / 2;
-    st->pair_a = malloc((max_pairs + 1) * sizeof(size_t));
-    st->pair_b = malloc((max_pairs + 1) * sizeof(size_t));
-    st->pair_nb = malloc((max_pairs + 1) * sizeof(size_t));
-    st->pair_count = calloc(max_pairs + 1, sizeof(size_t *));
-    st->cand_bin = malloc((st->n_cand * nv + 1) * sizeof(long));
-    st->gap_vars = malloc((nv + 1) * sizeof(size_t));
-    st->cand_gap = malloc((st->n_cand + 1) * sizeof(double));
-    if (st->pair_a == NULL || st->pair_b == NULL || st->pair_nb == NULL || st->pair_count == NULL ||
-        st->cand_bin == NULL || st->gap_vars == NULL || st->cand_gap == NULL)
-        return COV_ENOMEM;
-    for (size_t c = 0; c < st->n_cand; c++)
-        for (size_t v = 0; v < nv; v++)
-            st->cand_bin[c * nv + v] = g->vars[v].role == COV_INPUT
-                                           ? cov_bin_of(&g->vars[v], bins, st->cand_vals[c * nv + v])
-                                           : -1;
-    for (size_t a = 0; a < nv; a++) {
-        const cov_var *va = &g->vars[a];
-        if (va->role != COV_INPUT || va->held) continue;
-        if (is_numeric(va)) st->gap_vars[st->n_gap_vars++] = a;
-        for (size_t b = a + 1; b < nv; b++) {
-            const cov_var *vb = &g->vars[b];
-            if (vb->role != COV_INPUT || vb->held) continue;
-            size_t na = cov_bin_count(va, bins), nb = cov_bin_count(vb, bins);
-            size_t *cnt = calloc(na * nb + 1, sizeof *cnt);
-            if (cnt == NULL) return COV_ENOMEM;
-            for (size_t i = 0; d != NULL && i < d->n_runs; i++) {
-                long ba = cov_bin_of(va, bins, d->col[a][i]), bb = cov_bin_of(vb, bins, d->col[b][i]);
-                if (ba >= 0 && bb >= 0) cnt[(size_t)ba * nb + (size_t)bb]++;
-            }
-            st->pair_a[st->n_pairs] = a;
-            st->pair_b[st->n_pairs] = b;
-            st->pair_nb[st->n_pairs] = nb;
-            st->pair_count[st->n_pairs++] = cnt;
-        }
-    }
-    /* Distance in the unit cube of the numeric inputs from each candidate to the nearest run of a
-     * fixed-seed sample of the archive (the fill-distance idea of coverage, per candidate). */
-    size_t dn = st->n_gap_vars;
-    double diag = sqrt((double)dn);
-    for (size_t c = 0; c < st->n_cand; c++) st->cand_gap[c] = diag;
-    if (d == NULL || dn == 0 || d->n_runs == 0) return COV_OK;
-    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
-    if (r == NULL) return COV_ENOMEM;
-    gsl_rng_set(r, seed + 1);
-    size_t n_sample = d->n_runs < PLAN_GAP_SAMPLE ? d->n_runs : PLAN_GAP_SAMPLE;
-    for (size_t s = 0; s < n_sample; s++) {
-        size_t i = n_sample == d->n_runs ? s : (size_t)gsl_rng_uniform_int(r, d->n_runs);
-        int ok = 1;
-        for (size_t k = 0; ok && k < dn; k++) ok = var_present(d, st->gap_vars[k], i);
-        if (!ok) continue;
-        for (size_t c = 0; c < st->n_cand; c++) {
-            double s2 = 0.0;
-            for (size_t k = 0; k < dn; k++) {
-                const cov_var *var = &g->vars[st->gap_vars[k]];
-                double t = (st->cand_vals[c * nv + st->gap_vars[k]] - d->col[st->gap_vars[k]][i]) /
-                           (var->hi - var->lo);
-                s2 += t * t;
-            }
-            if (sqrt(s2) < st->cand_gap[c]) st->cand_gap[c] = sqrt(s2);
-        }
-    }
-    gsl_rng_free(r);
-    return COV_OK;
-}
-
-static double cover_bonus(const struct plan_state *st, size_t c)
-{
-    size_t nv = st->g->n_vars;
-    double cells = 0.0, gap = 0.0;
-    if (st->n_pairs > 0) {
-        size_t hit = 0;
-        for (size_t k = 0; k < st->n_pairs; k++) {
-            long ba = st->cand_bin[c * nv + st->pair_a[k]], bb = st->cand_bin[c * nv + st->pair_b[k]];
-            if (ba >= 0 && bb >= 0 &&
-                st->pair_count[k][(size_t)ba * st->pair_nb[k] + (size_t)bb] < st->min_runs)
-                hit++;
-        }
-        cells = (double)hit / (double)st->n_pairs;
-    }
-    if (st->n_gap_vars > 0) gap = st->cand_gap[c] / sqrt((double)st->n_gap_vars);
-    return 0.5 * (cells + gap);
-}
-
-static void cover_commit(struct plan_state *st, size_t chosen, int replicates)
-{
-    size_t nv = st->g->n_vars, dn = st->n_gap_vars;
-    for (size_t k = 0; k < st->n_pairs; k++) {
-        long ba = st->cand_bin[chosen * nv + st->pair_a[k]];
-        long bb = st->cand_bin[chosen * nv + st->pair_b[k]];
-        if (ba >= 0 && bb >= 0) st->pair_count[k][(size_t)ba * st->pair_nb[k] + (size_t)bb] +=
-            (size_t)replicates;
-    }
-    for (size_t c = 0; c < st->n_cand; c++) {
-        double s2 = 0.0;
-        for (size_t k = 0; k < dn; k++) {
-            const cov_var *var = &st->g->vars[st->gap_vars[k]];
-            double t = (st->cand_vals[c * nv + st->gap_vars[k]] -
-                        st->cand_vals[chosen * nv + st->gap_vars[k]]) / (var->hi - var->lo);
-            s2 += t * t;
-        }
-        if (sqrt(s2) < st->cand_gap[c]) st->cand_gap[c] = sqrt(s2);
-    }
-}
-
 static void state_free(struct plan_state *st)
 {
     for (size_t i = 0; i < st->n_groups; i++) free(st->groups[i].cols);
@@ -600,14 +271,7 @@ static void state_free(struct plan_state *st)
     pw_aug_free(st->aug);
     free(st->cand_vals);
     free(st->cand_rows);
-    for (size_t k = 0; st->pair_count != NULL && k < st->n_pairs; k++) free(st->pair_count[k]);
-    free(st->pair_a);
-    free(st->pair_b);
-    free(st->pair_nb);
-    free(st->pair_count);
-    free(st->cand_bin);
-    free(st->gap_vars);
-    free(st->cand_gap);
+    cov_plan_cover_free(st->cover);
     free(st->L.first);
     free(st->L.count);
     if (st->dc != NULL) free(st->dc->e);
@@ -708,7 +372,7 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
             w->have_pd = 1;
             it->from_noise = 1;
             /* Coded information to raw: a numeric column was scaled by half its range. */
-            double half = is_numeric(x) ? 0.5 * (x->hi - x->lo) : 1.0;
+            double half = cov_plan_is_numeric(x) ? 0.5 * (x->hi - x->lo) : 1.0;
             w->q_mul = half * half;
             w->n_base = (double)n_rows;
             if (n_rows > 0) {
@@ -727,6 +391,20 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         pw_aug_set_need(st->aug, w->target, need_at(st->dc, w, w->n_base));
     }
     return COV_OK;
+}
+
+/* The candidate set, with the level combinations of the thin claims: only the steered claims still
+ * short of their need ask for their combinations. */
+static int plan_candidates(struct plan_state *st, unsigned long seed)
+{
+    unsigned char *thin = calloc(st->c->n + 1, 1);
+    if (thin == NULL) return COV_ENOMEM;
+    for (size_t i = 0; i < st->c->n; i++)
+        thin[i] = st->c->items[i].status == COV_TESTABLE && st->w[i].steered &&
+                  pw_aug_active(st->aug, st->w[i].target);
+    int rc = cov_plan_candidates(st->g, st->c, thin, seed, &st->cand_vals, &st->n_cand);
+    free(thin);
+    return rc;
 }
 
 /* ---- the greedy search ------------------------------------------------------------------------- */
@@ -753,7 +431,7 @@ static int score_candidate(struct plan_state *st, size_t c, double w, double *cl
     double s = 0.0;
     if (pw_aug_score(st->aug, st->cand_rows + c * st->L.n_cols, w, &s) != PW_OK) return COV_ENUMERIC;
     *claim_part = s;
-    double bonus = cover_bonus(st, c);
+    double bonus = cov_plan_cover_bonus(st->cover, c);
     *total = pw_aug_n_active(st->aug) > 0 ? s * (1.0 + PLAN_COVER_WEIGHT * bonus) : bonus;
     return COV_OK;
 }
@@ -821,7 +499,7 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     }
     if (pw_aug_alloc(st.L.n_cols, &st.aug) != PW_OK) goto fail;
     if ((rc = setup_claims(&st, a, p)) != COV_OK) goto fail;
-    if ((rc = build_candidates(&st, seed)) != COV_OK) goto fail;
+    if ((rc = plan_candidates(&st, seed)) != COV_OK) goto fail;
     rc = COV_ENOMEM;
     p->n_candidates = st.n_cand;
     st.cand_rows = malloc((st.n_cand * st.L.n_cols + 1) * sizeof *st.cand_rows);
@@ -831,7 +509,8 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     if (st.cand_rows == NULL || bound == NULL || part == NULL || fresh == NULL) goto fail;
     for (size_t k = 0; k < st.n_cand; k++)
         code_row(g, &st.L, st.cand_vals + k * g->n_vars, st.cand_rows + k * st.L.n_cols);
-    if ((rc = cover_init(&st, copt, seed)) != COV_OK) goto fail;
+    rc = cov_plan_cover_alloc(g, st.d, st.cand_vals, st.n_cand, copt, seed, &st.cover);
+    if (rc != COV_OK) goto fail;
 
     /* Assumed claims need configurations in proportion; beyond the cap they are unreachable. */
     double k_rep = (double)replicates;
@@ -904,7 +583,7 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
             rc = cov_fail(err, COV_ENUMERIC, "", "the planned design became singular");
             goto fail;
         }
-        cover_commit(&st, best, replicates);
+        cov_plan_cover_commit(st.cover, best, replicates);
         if ((rc = push_row(p, &row_cap, st.cand_vals + best * g->n_vars)) != COV_OK) goto fail;
         for (size_t k = 0; k < st.n_cand; k++) fresh[k] = 0;
         if (pw_aug_n_active(st.aug) == 0 && was_active)
@@ -919,7 +598,8 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
          * every candidate is rescored after each run when that costs little (exact greedy), and
          * lazily otherwise. Coverage scores alone only fall, so lazy evaluation is exact then. */
         if (pw_aug_n_active(st.aug) > 0 &&
-            (double)st.n_cand * (pw_aug_score_cost(st.aug) + (double)st.n_pairs) <= PLAN_FULL_FLOPS)
+            (double)st.n_cand * (pw_aug_score_cost(st.aug) + cov_plan_cover_cost(st.cover)) <=
+                PLAN_FULL_FLOPS)
             for (size_t k = 0; k < st.n_cand; k++) {
                 if ((rc = score_candidate(&st, k, k_rep, &part[k], &bound[k])) != COV_OK) goto fail;
                 fresh[k] = 1;
