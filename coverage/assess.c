@@ -612,8 +612,10 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     double nu = 2.0 / (2.0 / a->df + kurt / n);
     double tail = (1 - COV_INTERVAL_LEVEL) / 2;
     double s2 = a->sigma * a->sigma;
-    double sigma_lo = sqrt(nu * s2 / gsl_cdf_chisq_Qinv(tail, nu));
-    double sigma_hi = sqrt(nu * s2 / gsl_cdf_chisq_Pinv(tail, nu));
+    double q_up = NAN, q_lo = NAN;
+    pw_chisq_quantile(tail, 1, nu, &q_up);
+    pw_chisq_quantile(tail, 0, nu, &q_lo);
+    double sigma_lo = sqrt(nu * s2 / q_up), sigma_hi = sqrt(nu * s2 / q_lo);
     a->has_design = 1;
     int src = size_claim(a, dz, sigma_lo, sigma_hi);
     if (src == PW_ENOMEM) {

@@ -211,6 +211,13 @@ typedef struct {
                             least favourable pattern; NAN or <= 0: balanced groups, 1 / (2 L) */
 } pw_design;
 
+/* Central quantiles checked against their own CDF (power/crit.c): GSL's inverses fail silently
+ * at large df, so a failed one is redone by root finding, or by the large-df limit. The chi-squared
+ * x with P(X <= x) = p (upper 0) or P(X > x) = p (upper 1); the F critical value with
+ * P(F > x) = alpha. PW_OK, PW_EDOM, PW_ENOCONV. */
+int pw_chisq_quantile(double p, int upper, double df, double *x);
+int pw_f_crit(double alpha, double df1, double df2, double *x);
+
 /* A level-set treatment with t + 1 levels present, M = X_T'(I - H)X_T its t * t information
  * matrix given the other columns (power/levels.c). For every pair of levels the pattern "these two
  * differ by one unit, the others sit at their midpoint" gives the F noncentrality per unit of

@@ -52,10 +52,10 @@ int pw_prop_power_h(double h, double n_eff, double alpha, int sides, double *pow
 int pw_f2_power(double f2, double u, double v, double alpha, double *power)
 {
     if (!(f2 >= 0) || !(u > 0) || !(v > 0) || !(alpha > 0 && alpha < 1)) return PW_EDOM;
-    double fc = gsl_cdf_fdist_Qinv(alpha, u, v);
-    if (!isfinite(fc)) return PW_ENOCONV;
-    double lo, up;
-    int rc = pw_ncf_cdf(fc, u, v, f2 * (u + v + 1.0), &lo, &up);
+    double fc, lo, up;
+    int rc = pw_f_crit(alpha, u, v, &fc);
+    if (rc != PW_OK) return rc;
+    rc = pw_ncf_cdf(fc, u, v, f2 * (u + v + 1.0), &lo, &up);
     if (rc != PW_OK) return rc;
     *power = up;
     return PW_OK;
@@ -107,8 +107,8 @@ int pw_power(const pw_design *d, double *power)
         double unit = d->ncp_per_run > 0 ? d->ncp_per_run : 1.0 / (2.0 * d->n_levels);
         double es = d->effect / d->sigma;
         double lambda = unit * d->n * es * es;
-        double fc = gsl_cdf_fdist_Qinv(d->alpha, df1, df2);
-        if (!isfinite(fc)) return PW_ENOCONV;
+        double fc;
+        if ((rc = pw_f_crit(d->alpha, df1, df2, &fc)) != PW_OK) return rc;
         if ((rc = pw_ncf_cdf(fc, df1, df2, lambda, &lo, &up)) != PW_OK) return rc;
         *power = up;
         return PW_OK;

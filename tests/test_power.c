@@ -281,6 +281,34 @@ static void test_identities(void)
     gsl_test_abs(p, 0.05, 1e-12, "power at zero effect equals alpha (size of the test)");
 }
 
+/* Central quantiles at large df, where GSL 2.7's inverses fail silently. Reference values from
+ * scipy 1.10.1 (Debian python3-scipy: stats.chi2.isf / ppf, stats.f.isf), computed on this
+ * machine; tolerance 1e-8 relative, the accuracy the root search is asked for. */
+static void test_quantiles(void)
+{
+    static const struct { double p; int upper; double df, ref; } c[] = {
+        {0.025, 1, 99998, 100876.4065403809},  {0.025, 0, 99998, 99123.38206593192},
+        {0.025, 1, 1e6, 1002773.701467926},    {0.025, 0, 1e6, 997230.0871432901},
+        {0.025, 1, 1000, 1089.5309127749135},  {0.025, 0, 10, 3.2469727802368413},
+    };
+    for (size_t i = 0; i < sizeof c / sizeof c[0]; i++) {
+        double x = NAN;
+        int rc = pw_chisq_quantile(c[i].p, c[i].upper, c[i].df, &x);
+        gsl_test_rel(rc == PW_OK ? x : NAN, c[i].ref, 1e-8, "chi-squared %s quantile %g at df %g "
+                     "(scipy 1.10.1)", c[i].upper ? "upper" : "lower", c[i].p, c[i].df);
+    }
+    static const struct { double alpha, df1, df2, ref; } f[] = {
+        {0.025, 3, 1e5, 3.116264611898588}, {4.37e-5, 3, 1e6, 7.611916958507437},
+        {1e-9, 3, 1e8, 14.94709508312119},  {0.025, 3, 10, 4.825621493405406},
+    };
+    for (size_t i = 0; i < sizeof f / sizeof f[0]; i++) {
+        double x = NAN;
+        int rc = pw_f_crit(f[i].alpha, f[i].df1, f[i].df2, &x);
+        gsl_test_rel(rc == PW_OK ? x : NAN, f[i].ref, 1e-8, "F critical value alpha %g df %g, %g "
+                     "(scipy 1.10.1)", f[i].alpha, f[i].df1, f[i].df2);
+    }
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -290,5 +318,6 @@ int main(void)
     test_mde();
     test_tost();
     test_identities();
+    test_quantiles();
     return gsl_test_summary();
 }
