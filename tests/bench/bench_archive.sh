@@ -30,7 +30,8 @@ echo "CSV: $ROWS rows x $COLS columns, $(wc -c <"$tmp/runs.csv") bytes (invented
 : >"$tmp/t_shoal"
 : >"$tmp/t_shell"
 # One timed command: appends "wall cpu" (cpu = user + system seconds of the command) to file $1.
-# On a shared machine the CPU time is the steadier figure; both are printed.
+# The targets are judged on wall-clock time; CPU time is printed beside it because on a shared,
+# busy machine it shows whether a slow run was the program or the neighbours.
 timed() {
   out=$1; shift
   if [ -x /usr/bin/time ]; then
@@ -58,15 +59,15 @@ qc=$(cut -d' ' -f2 "$tmp/t_shell" | median)
 status=0
 verdict=$(awk -v sw="$sw" -v sc="$sc" -v qw="$qw" -v qc="$qc" -v t="$IMPORT_TARGET" 'BEGIN {
   printf "ratio wall %.2f, cpu %.2f (target <= %.1f): %s", sw / qw, sc / qc, t,
-         sc / qc <= t ? "met" : "MISSED" }')
+         sw / qw <= t ? "met" : "MISSED" }')
 echo "import (median of $REPEATS): shoal import ${sw} s wall ${sc} s cpu," \
   "sqlite3 .import ${qw} s wall ${qc} s cpu; $verdict"
 case "$verdict" in *MISSED*) status=1 ;; esac
 
 out=$("$BUILD/bench/bench_scan" "$tmp/shoal.db" "$COLS") || exit 1
-ratio=$(echo "$out" | sed -n 's/.*cpu \([0-9.]*\)$/\1/p')
+ratio=$(echo "$out" | sed -n 's/.*ratio wall \([0-9.]*\),.*/\1/p')
 verdict=$(awk -v r="$ratio" -v t="$READ_TARGET" \
-  'BEGIN { printf "(target <= %.1f on cpu): %s", t, r <= t ? "met" : "MISSED" }')
+  'BEGIN { printf "(target <= %.1f on wall time): %s", t, r <= t ? "met" : "MISSED" }')
 echo "$out $verdict"
 case "$verdict" in *MISSED*) status=1 ;; esac
 exit $status
