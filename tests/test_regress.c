@@ -442,6 +442,40 @@ static void test_noise(gsl_rng *r)
     fx_free(&f);
 }
 
+/* At 150,000 runs sigma is known to about 1/sqrt(2 df) = 0.18%, so the 95% MDE interval spans
+ * about +-0.36% (normal noise, kurtosis near 0). This caught GSL's chi-squared inverse failing
+ * silently at large df. */
+static void test_large_n(gsl_rng *r)
+{
+    enum { N = 150000 };
+    fixture f;
+    fx_init(&f, N);
+    size_t x = fx_var(&f, "dose", COV_INPUT, COV_REAL, 0, 1);
+    size_t y = fx_var(&f, "yield", COV_OUTPUT, COV_REAL, NAN, NAN);
+    for (size_t i = 0; i < N; i++) {
+        f.cols[x][i] = gsl_rng_uniform(r);
+        f.cols[y][i] = 0.01 * f.cols[x][i] + gsl_ran_gaussian(r, 1);
+    }
+    fx_claim(&f, COV_CLAIM_EFFECT, x, y, NULL, 0, 0.02, COV_UNIT_RAW);
+    cov_power_options opt = default_opt();
+    cov_assessments *as = NULL;
+    cov_error err;
+    int rc = cov_assess(&f.g, &f.cl, &f.d, &opt, &as, &err);
+    if (rc == COV_OK) {
+        const cov_assessment *a = &as->items[0];
+        double half = 1.96 / sqrt(2.0 * a->df);
+        gsl_test(!(a->mde_lo < a->mde && a->mde < a->mde_hi &&
+                   fabs(a->mde_hi / a->mde - 1 - half) < 0.2 * half &&
+                   fabs(1 - a->mde_lo / a->mde - half) < 0.2 * half),
+                 "150,000 runs: MDE interval [%g, %g] around %g spans +-1.96/sqrt(2 df) within "
+                 "20%%", a->mde_lo, a->mde_hi, a->mde);
+    } else {
+        gsl_test(1, "cov_assess on 150,000 runs");
+    }
+    cov_assessments_free(as);
+    fx_free(&f);
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -455,6 +489,7 @@ int main(void)
     test_assess_numeric(r);
     test_assess_kinds(r);
     test_noise(r);
+    test_large_n(r);
     gsl_rng_free(r);
     return gsl_test_summary();
 }
