@@ -332,6 +332,7 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     a->noise_flag = 1;
     double spread = planned_spread(x);
     if (!(y->noise_sd > 0) || (x->type != COV_LEVELS && !(spread > 0))) {
+        note_add(&a->noise_note, "no noise estimate from %zu runs", a->n);
         a->verdict = COV_THIN;
         note_add(&a->reason, "too few complete runs (%zu) to estimate the noise, and %s", a->n,
                  !(y->noise_sd > 0) ? "the graph declares no noise SD for the outcome"
