@@ -83,7 +83,7 @@ static int parse_number(const char *s, double *x)
     return 0;
 }
 
-/* What one cell is read as. */
+/* What a cell error message needs: the archive, the graph and the row being read. */
 typedef struct {
     cov_archive *a;
     const cov_graph *g;
