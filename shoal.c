@@ -29,7 +29,7 @@ struct command {
 static const struct command commands[] = {
     {"claims", cov_cmd_claims, 1, 1, "claims GRAPH [--csv|--json]"},
     {"import", cov_cmd_import, 1, 1, "import FILE.csv --archive ARCHIVE.db [--table NAME]"},
-    {"check", cov_cmd_check, 2, 2, "check GRAPH ARCHIVE [--table NAME]"},
+    {"check", cov_cmd_check, 2, 2, "check GRAPH ARCHIVE [--table NAME] [--csv|--json]"},
     {"power", cov_cmd_power, 2, 2,
      "power GRAPH ARCHIVE [--alpha A] [--power P] [--family bonferroni|none] [--one-sided]"},
     {"coverage", cov_cmd_coverage, 2, 2,
