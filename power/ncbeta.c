@@ -9,21 +9,6 @@
 
 #include "power/power.h"
 
-/* The series stops once the bound on the neglected terms falls below this share of the tail's
- * sum: below double rounding, so truncation never shows beside rounding error (AS R84 and R's
- * pnbeta use an absolute 1e-9, too coarse for the 1e-12 tail values a power search meets). */
-#define NCB_SERIES_EPS 1e-17
-/* Terms on each side of the Poisson mode before giving up. The weights have SD sqrt(lambda / 2);
- * nine SDs reach 1e-18 of the mass, so 2e5 terms serve lambda up to about 1e9. */
-#define NCB_MAX_TERMS 200000
-/* From this half-noncentrality on, the weights beyond FAR_SDS standard deviations of the Poisson
- * mode hold less than DBL_MIN: with sqrt(L) >= 1000, Bennett's inequality gives
- * P(|J - L| >= 40 sqrt L) <= 2 exp(-800 / (1 + 40 / (3 sqrt L))) < 1e-340 (Boucheron, Lugosi &
- * Massart 2013, sec. 2.7). A tail whose incomplete beta is already negligible at that distance is
- * then settled without summing out to where the weights underflow, which for L near 1e8 would
- * take more terms than NCB_MAX_TERMS. */
-#define FAR_MIN_L 1e6
-#define FAR_SDS 40.0
 /* The continued fraction stops when a step changes it by under one ulp. */
 #define BETA_CF_EPS DBL_EPSILON
 /* Guard against a zero denominator in Lentz's method (Press et al. 2007, sec. 5.2). */
@@ -38,13 +23,6 @@
 /* Stirling's series for the log-gamma remainder is used above this argument; below it the
  * remainder is taken from lgamma directly, which is accurate there to a few ulps. */
 #define STIRLERR_SERIES_FROM 15.0
-
-/* A weight below the smallest normal double is taken as 0: multiplied by ratios above 1/2, the
- * smallest subnormal rounds back to itself, and the series would never see its tail vanish. */
-static double flush(double w)
-{
-    return fabs(w) < DBL_MIN ? 0.0 : w;
-}
 
 /* Remainder of Stirling's formula, ln Gamma(n + 1) - (n + 1/2) ln n + n - ln sqrt(2 pi)
  * (Loader 2000, "Fast and accurate computation of binomial probabilities", eq. 2 and sec. 3). */
@@ -200,13 +178,6 @@ int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double 
     return PW_OK;
 }
 
-/* Whether a tail's remaining terms, bounded in all by far (see FAR_MIN_L), are negligible beside
- * its sum so far, or below anything a double can hold. */
-static int far_negligible(double far, double sum)
-{
-    return far <= fmax(NCB_SERIES_EPS * sum, 2.0 * DBL_MIN);
-}
-
 /* sum_j Pois(j; L) I_x(a + j, b) and sum_j Pois(j; L) I_y(b, a + j), L = lambda / 2, summed from
  * the Poisson mode both ways (Chattamvelli & Shanmugam 1997, AS 310; Frick 1990, AS R84 gives the
  * error bound on the neglected weights). The incomplete betas move by the step
@@ -229,83 +200,38 @@ static int ncbeta_tails(double x, double y, double a, double b, double lambda, d
     }
     double L = 0.5 * lambda;
     double k = floor(L);
-    double w0 = exp(pw_log_dpois(k, L));
-    double i0, ic0;
-    int s = pw_beta_inc_pair(x, y, a + k, b, &i0, &ic0);
+    pw_mixture m = {.family = PW_MIX_BETA, .L = L, .a = a, .b = b};
+    int s = pw_beta_inc_pair(x, y, a + k, b, &m.lo_mode, &m.up_mode);
     if (s != PW_OK)
         return s;
-    double lx = x < 0.5 ? log(x) : log1p(-y);   /* x near 1: from the exact y */
-    double g0 = pw_log_beta_step(x, y, a + k, b);
+    m.log_x = x < 0.5 ? log(x) : log1p(-y);   /* x near 1: from the exact y */
+    m.log_step_mode = pw_log_beta_step(x, y, a + k, b);
 
     /* For large L: I_x at the window's low end and its complement at the high end bound every
      * term of their tail inside the window; outside it the weights are below DBL_MIN. */
-    double far_lo = 1.0, far_up = 1.0;   /* 1: no shortcut (also when the fraction fails) */
-    if (L >= FAR_MIN_L) {
-        double span = ceil(FAR_SDS * sqrt(L)), i_far, ic_far;
+    m.far_lo = m.far_up = 1.0;   /* 1: no shortcut (also when the fraction fails) */
+    double span = pw_mixture_far_span(L), i_far, ic_far;
+    if (span > 0.0) {
         if (pw_beta_inc_pair(x, y, a + k - span, b, &i_far, &ic_far) == PW_OK)
-            far_lo = fmin(i_far + DBL_MIN, 1.0);
+            m.far_lo = fmin(i_far + DBL_MIN, 1.0);
         if (pw_beta_inc_pair(x, y, a + k + span, b, &i_far, &ic_far) == PW_OK)
-            far_up = fmin(ic_far + DBL_MIN, 1.0);
+            m.far_up = fmin(ic_far + DBL_MIN, 1.0);
     }
+    return pw_mixture_tails(&m, lower, upper);
+}
 
-    double lo_sum = 0.0, up_sum = 0.0;
-    double w = w0, ib = i0, icb = ic0, g = g0;
-    int converged = 0;
-    for (long n = 0; n < NCB_MAX_TERMS; n++) {
-        double j = k + (double)n;
-        lo_sum += w * ib;
-        up_sum += w * icb;
-        double step = exp(g);
-        ib = fmax(ib - step, 0.0);
-        icb = fmin(icb + step, 1.0);
-        g += lx + log(a + j + b) - log(a + j + 1.0);
-        w = flush(w * L / (j + 1.0));
-        /* Past the mode the weight ratios are below r = L / (j + 2): the neglected weights sum to
-         * at most w / (1 - r); I_x only falls from here and its complement is at most 1. */
-        double r = L / (j + 2.0);
-        if (r < 1.0) {
-            double rest = w / (1.0 - r);
-            if (rest * ib <= NCB_SERIES_EPS * lo_sum
-                && (rest <= NCB_SERIES_EPS * up_sum || far_negligible(far_up, up_sum))) {
-                converged = 1;
-                break;
-            }
-        }
-    }
-    if (!converged)
-        return PW_ENOCONV;
-
-    w = w0;
-    ib = i0;
-    icb = ic0;
-    g = g0;
-    converged = k == 0.0;
-    for (long n = 1; !converged && n <= NCB_MAX_TERMS; n++) {
-        double j = k - (double)n;          /* the term now added */
-        double aj = a + j;
-        g += log(aj + 1.0) - lx - log(aj + b);   /* g(a) = g(a + 1) (a + 1) / (x (a + b)) */
-        double step = exp(g);
-        ib = fmin(ib + step, 1.0);
-        icb = fmax(icb - step, 0.0);
-        w = flush(w * (j + 1.0) / L);
-        lo_sum += w * ib;
-        up_sum += w * icb;
-        if (j <= 0.0) {
-            converged = 1;
-            break;
-        }
-        double r = j / L;                  /* below the mode, w_{j-1} / w_j = j / L */
-        if (r < 1.0) {
-            double rest = w * r / (1.0 - r);
-            if ((rest <= NCB_SERIES_EPS * lo_sum || far_negligible(far_lo, lo_sum))
-                && rest * icb <= NCB_SERIES_EPS * up_sum)
-                converged = 1;
-        }
-    }
-    if (!converged)
-        return PW_ENOCONV;
-    *lower = fmin(lo_sum, 1.0);
-    *upper = fmin(up_sum, 1.0);
+/* ncbeta_tails into whichever of lower and upper is not NULL. */
+static int ncbeta_tails_opt(double x, double y, double a, double b, double lambda, double *lower,
+                            double *upper)
+{
+    double lo, up;
+    int s = ncbeta_tails(x, y, a, b, lambda, &lo, &up);
+    if (s != PW_OK)
+        return s;
+    if (lower)
+        *lower = lo;
+    if (upper)
+        *upper = up;
     return PW_OK;
 }
 
@@ -314,16 +240,8 @@ int pw_ncbeta_cdf(double x, double a, double b, double lambda, double *lower, do
     if (isnan(x) || !(a > 0.0) || !(b > 0.0) || !(lambda >= 0.0) || !isfinite(a)
         || !isfinite(b) || !isfinite(lambda))
         return PW_EDOM;
-    double lo, up;
-    int s = ncbeta_tails(fmin(fmax(x, 0.0), 1.0), fmin(fmax(1.0 - x, 0.0), 1.0), a, b, lambda,
-                         &lo, &up);
-    if (s != PW_OK)
-        return s;
-    if (lower)
-        *lower = lo;
-    if (upper)
-        *upper = up;
-    return PW_OK;
+    return ncbeta_tails_opt(fmin(fmax(x, 0.0), 1.0), fmin(fmax(1.0 - x, 0.0), 1.0), a, b, lambda,
+                            lower, upper);
 }
 
 int pw_ncf_cdf(double f, double df1, double df2, double lambda, double *lower, double *upper)
@@ -331,34 +249,25 @@ int pw_ncf_cdf(double f, double df1, double df2, double lambda, double *lower, d
     if (isnan(f) || !(df1 > 0.0) || !(df2 > 0.0) || !(lambda >= 0.0) || !isfinite(df1)
         || !isfinite(df2) || !isfinite(lambda))
         return PW_EDOM;
-    double lo, up;
-    int s;
+    double y, yc;                       /* y = 0 and y = 1 are settled by ncbeta_tails at once */
     if (f <= 0.0) {
-        lo = 0.0;
-        up = 1.0;
-        s = PW_OK;
+        y = 0.0;
+        yc = 1.0;
     } else if (isinf(f)) {
-        lo = 1.0;
-        up = 0.0;
-        s = PW_OK;
+        y = 1.0;
+        yc = 0.0;
     } else {
         /* F' = (X1 / df1) / (X2 / df2) maps to B = df1 F' / (df1 F' + df2), noncentral beta with
          * shapes df1 / 2, df2 / 2 (Johnson, Kotz & Balakrishnan 1995, ch. 30). Both y and 1 - y
          * are formed from their own numerators so neither loses digits. */
         double num = df1 * f;
         double den = num + df2;
-        double y = num / den, yc = df2 / den;
+        y = num / den;
+        yc = df2 / den;
         if (!isfinite(den)) {           /* df1 f overflowed: the whole mass is below f */
             y = 1.0;
             yc = 0.0;
         }
-        s = ncbeta_tails(y, yc, 0.5 * df1, 0.5 * df2, lambda, &lo, &up);
     }
-    if (s != PW_OK)
-        return s;
-    if (lower)
-        *lower = lo;
-    if (upper)
-        *upper = up;
-    return PW_OK;
+    return ncbeta_tails_opt(y, yc, 0.5 * df1, 0.5 * df2, lambda, lower, upper);
 }

@@ -60,6 +60,28 @@ int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double 
  * I_x(a + 1, b) = I_x(a, b) - step (Abramowitz & Stegun 26.5.16), by Loader's binomial term with
  * x and y = 1 - x both given; -INFINITY when x or y is 0. */
 double pw_log_beta_step(double x, double y, double a, double b);
+/* Library-internal (power/mixture.c): the Poisson mixture sum_j Pois(j; L) T(j) of a central pair
+ * T_lo(j) + T_up(j) = 1 that moves by a step, T_lo(j + 1) = T_lo(j) - s(j), where s is the
+ * incomplete gamma's z^(a+j) e^-z / Gamma(a + j + 1) (log_x = log z) or the incomplete beta's
+ * x^(a+j) y^b / ((a + j) B(a + j, b)) (log_x = log x); everything at the mode k = floor(L) is the
+ * caller's, and far_lo, far_up bound T_lo(k - span) and T_up(k + span) (1 for no bound). */
+enum pw_mix_family { PW_MIX_GAMMA, PW_MIX_BETA };
+typedef struct pw_mixture {
+    enum pw_mix_family family;
+    double L;                    /* Poisson mean, >= 0 */
+    double a, b;                 /* shape at j = 0 (a + j at term j); b for the beta only */
+    double log_x;
+    double lo_mode, up_mode;     /* T_lo(k), T_up(k) */
+    double log_step_mode;        /* log s(k) */
+    double far_lo, far_up;
+} pw_mixture;
+/* Library-internal (power/mixture.c): sums both tails of m from the mode both ways into *lower
+ * and *upper (each capped at 1) until the neglected weights fall below double rounding of each
+ * sum; PW_OK, or PW_ENOCONV after 2e5 terms on a side. */
+int pw_mixture_tails(const pw_mixture *m, double *lower, double *upper);
+/* Library-internal (power/mixture.c): the distance from the mode beyond which the Poisson(L)
+ * weights are all below DBL_MIN, or 0 when L is too small for that shortcut. */
+double pw_mixture_far_span(double L);
 
 /* Noncentral chi-squared with df > 0 and lambda >= 0 (Ding 1992, AS 275, and the Poisson mixture).
  * All the mixtures sum at most 2e5 terms each side of the Poisson mode: enough for lambda up to
