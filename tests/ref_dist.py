@@ -18,13 +18,15 @@ Sources and tolerances:
 """
 import math
 import os
-import subprocess
 import sys
 import warnings
 
 warnings.simplefilter("ignore")   # Boost's spurious RuntimeWarnings (REFERENCES.md 1c, note)
 
 from scipy import stats  # noqa: E402
+
+import refcheck  # noqa: E402
+from refcheck import report  # noqa: E402
 
 try:
     import mpmath as mp
@@ -41,22 +43,11 @@ DFS = [1, 2, 5, 10, 30, 100, 1e3, 1e4, 1e6]
 NCPS = [0, 0.5, 1, 3, 10, 25, 40]
 # Tail probabilities at which the x points sit (scipy ppf / isf): median and far in both tails.
 TAIL_PS = [1e-12, 1e-6, 0.5]
-BUILD = os.environ.get("BUILD", "build")
-PROBE = os.path.join(BUILD, "tests", "probe_dist")
-
-failures = 0
-
-
-def report(ok, desc):
-    global failures
-    print(("PASS: " if ok else "FAIL: ") + desc)
-    if not ok:
-        failures += 1
+PROBE = refcheck.probe_path("probe_dist")
 
 
 def run_probe(lines):
-    out = subprocess.run([PROBE], input="".join(l + "\n" for l in lines), capture_output=True,
-                         text=True, check=True).stdout.splitlines()
+    out = refcheck.probe_output(PROBE, lines).splitlines()
     if len(out) != len(lines):
         raise RuntimeError("probe_dist answered %d of %d lines" % (len(out), len(lines)))
     res = []
@@ -270,7 +261,7 @@ def main():
         report(not bad, "quantile round trip %s: scipy cdf/sf at power/ quantile returns p, "
                "p in {1e-8,.05,.5,.975}, both tails, max error %.2g <= %g%s" % (
                    desc, worst, TOL_QUANTILE, "" if not bad else "; " + "; ".join(bad[:3])))
-    return 1 if failures else 0
+    return 1 if refcheck.failures else 0
 
 
 if __name__ == "__main__":

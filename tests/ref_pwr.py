@@ -15,22 +15,15 @@ import subprocess
 import sys
 import warnings
 
+import refcheck
+from refcheck import report
+
 TOL = 1e-6
-BUILD = os.environ.get("BUILD", "build")
-PROBE = os.path.join(BUILD, "tests", "probe_power")
-failures = 0
-
-
-def report(ok, desc):
-    global failures
-    print(("PASS: " if ok else "FAIL: ") + desc)
-    if not ok:
-        failures += 1
+PROBE = refcheck.probe_path("probe_power")
 
 
 def probe(lines):
-    out = subprocess.run([PROBE], input="\n".join(lines) + "\n", capture_output=True, text=True,
-                         check=True).stdout.split("\n")
+    out = refcheck.probe_output(PROBE, lines).split("\n")
     vals = []
     for line in out[:len(lines)]:
         vals.append(float("nan") if line.startswith("error") else float(line))
@@ -134,7 +127,7 @@ def main():
     for (lab, ref), mine in zip(sm, mine_sm):
         report(abs(mine - float(ref)) <= TOL,
                f"{lab}: shoal {mine:.10f} vs {float(ref):.10f} (tol {TOL})")
-    return 1 if failures else 0
+    return 1 if refcheck.failures else 0
 
 
 if __name__ == "__main__":

@@ -16,32 +16,23 @@ BUILD). Prints PASS/FAIL lines.
 """
 import math
 import os
-import subprocess
 import sys
 
 import numpy as np
 from scipy import integrate, optimize, special, stats
 
-BUILD = os.environ.get("BUILD", "build")
-PROBE = os.path.join(BUILD, "tests", "probe_dist")
+import refcheck
+from refcheck import report
+
+PROBE = refcheck.probe_path("probe_dist")
 N_MC = 200_000
 SEED = 20261202
 Z_TOL = 3.5
 QUAD_TOL = 1e-11   # quad asked for 1e-12 relative; agreement seen ~1e-14
 
-failures = 0
-
-
-def report(ok, desc):
-    global failures
-    print(("PASS: " if ok else "FAIL: ") + desc)
-    if not ok:
-        failures += 1
-
 
 def probe(lines):
-    out = subprocess.run([PROBE], input="".join(l + "\n" for l in lines), capture_output=True,
-                         text=True, check=True).stdout.split()
+    out = refcheck.probe_output(PROBE, lines).split()
     return [float(v) for v in out]
 
 
@@ -137,7 +128,7 @@ def main():
     report(abs(z) <= Z_TOL, "TOST raw two-sample data 20/grp, diff .2, margin 1 (pooled t): "
            "exact %.9f vs Monte Carlo %.5f +- %.5f (N=%d), |z| = %.2f <= %.1f" % (
                p, mc, mcse, N_MC, abs(z), Z_TOL))
-    return 1 if failures else 0
+    return 1 if refcheck.failures else 0
 
 
 if __name__ == "__main__":
