@@ -28,17 +28,6 @@ static char *set_text(const cov_graph *g, const cov_claim *c)
     return s;
 }
 
-static void effect_text(const cov_claim *c, char *buf, size_t size)
-{
-    const char *unit = c->effect.unit == COV_UNIT_SD ? " sd" : "";
-    if (c->kind == COV_CLAIM_ABSENCE)
-        snprintf(buf, size, "|b| < %g%s", c->effect.value, unit);
-    else if (c->sign != 0)
-        snprintf(buf, size, "%c%g%s", c->sign > 0 ? '+' : '-', c->effect.value, unit);
-    else
-        snprintf(buf, size, "%g%s", c->effect.value, unit);
-}
-
 /* Width of a UTF-8 string in characters, for column alignment. */
 static size_t text_width(const char *s)
 {
@@ -67,7 +56,7 @@ static int print_table(const cov_graph *g, const cov_claims *cl, FILE *out)
         const cov_claim *c = &cl->items[i];
         char eff[64];
         if (c->status == COV_TESTABLE && (sets[i] = set_text(g, c)) == NULL) goto fail;
-        effect_text(c, eff, sizeof eff);
+        cov_report_effect_text(c, eff, sizeof eff);
         size_t w[5] = {text_width(kind_word(c)), text_width(g->vars[c->treatment].name),
                        text_width(g->vars[c->outcome].name), sets[i] ? text_width(sets[i]) : 1,
                        text_width(eff)};
@@ -80,7 +69,7 @@ static int print_table(const cov_graph *g, const cov_claims *cl, FILE *out)
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
         char eff[64];
-        effect_text(c, eff, sizeof eff);
+        cov_report_effect_text(c, eff, sizeof eff);
         pad(out, kind_word(c), width[0]);
         pad(out, g->vars[c->treatment].name, width[1]);
         pad(out, g->vars[c->outcome].name, width[2]);
