@@ -47,7 +47,7 @@ char *cov_sql_ident(const char *name)
     return out;
 }
 
-static int ascii_casecmp(const char *a, const char *b)
+int cov_ascii_casecmp(const char *a, const char *b)
 {
     for (;; a++, b++) {
         int x = (unsigned char)*a, y = (unsigned char)*b;
@@ -394,13 +394,13 @@ static int prepare_table(sqlite3 *db, const char *db_path, const char *table, co
     } else {
         int has_batch = 0;
         for (size_t j = 0; j < n_cols; j++)
-            if (ascii_casecmp(cols[j], BATCH_COLUMN) == 0) has_batch = 1;
+            if (cov_ascii_casecmp(cols[j], BATCH_COLUMN) == 0) has_batch = 1;
         for (size_t i = 0; i <= nf; i++) {
             const char *name = i < nf ? cov_csv_header(csv, i) : BATCH_COLUMN;
             if (i == nf && has_batch) break;
             int found = 0;
             for (size_t j = 0; j < n_cols && !found; j++)
-                found = ascii_casecmp(cols[j], name) == 0;
+                found = cov_ascii_casecmp(cols[j], name) == 0;
             if (found) continue;
             char *q = cov_sql_ident(name);
             if (q == NULL) goto nomem;
@@ -468,7 +468,7 @@ int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
     if (table == NULL) table = COV_DEFAULT_TABLE;
     *batch_id = 0;
     *rows = 0;
-    if (table[0] == '\0' || ascii_casecmp(table, BATCH_TABLE) == 0 ||
+    if (table[0] == '\0' || cov_ascii_casecmp(table, BATCH_TABLE) == 0 ||
         strncmp(table, "sqlite_", 7) == 0 || strncmp(table, "SQLITE_", 7) == 0)
         return cov_fail(err, COV_EINPUT, "", "found the table name '%s', expected a name that is "
                         "not empty, not '" BATCH_TABLE "' and not starting with 'sqlite_'", table);
@@ -484,7 +484,7 @@ int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
     if (rc) goto fail;
     size_t nf = cov_csv_n_fields(csv);
     for (size_t i = 0; i < nf; i++) {
-        if (ascii_casecmp(cov_csv_header(csv, i), BATCH_COLUMN) == 0) {
+        if (cov_ascii_casecmp(cov_csv_header(csv, i), BATCH_COLUMN) == 0) {
             char where[512];
             snprintf(where, sizeof where, "%s:1", csv_path);
             rc = cov_fail(err, COV_EINPUT, where, "found the column name '%s', expected another "

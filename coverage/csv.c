@@ -281,16 +281,6 @@ static char detect_delimiter(const unsigned char *p, size_t n)
     return ',';
 }
 
-static int ascii_casecmp(const char *a, const char *b)
-{
-    for (;; a++, b++) {
-        int x = (unsigned char)*a, y = (unsigned char)*b;
-        if (x >= 'A' && x <= 'Z') x += 'a' - 'A';
-        if (y >= 'A' && y <= 'Z') y += 'a' - 'A';
-        if (x != y || x == 0) return x - y;
-    }
-}
-
 int cov_csv_open(const char *path, cov_csv **out, cov_error *err)
 {
     *out = NULL;
@@ -351,7 +341,7 @@ int cov_csv_open(const char *path, cov_csv **out, cov_error *err)
         }
         for (size_t j = 0; j < i; j++) {
             /* SQLite column names ignore ASCII case, so "Load" and "load" would collide. */
-            if (ascii_casecmp(c->header[i], c->header[j]) == 0) {
+            if (cov_ascii_casecmp(c->header[i], c->header[j]) == 0) {
                 snprintf(msg, sizeof msg, "found the column name '%.300s' a second time (first "
                          "as column %zu), expected unique names", c->header[i], j + 1);
                 rc = fail_at(c, c->fline[i], c->fcol[i], err, COV_EINPUT, msg);

@@ -33,16 +33,6 @@
  * columns grow by doubling instead of trusting it. */
 #define MAX_FIRST_CAPACITY ((size_t)1 << 22)
 
-static int ascii_casecmp(const char *a, const char *b)
-{
-    for (;; a++, b++) {
-        int x = (unsigned char)*a, y = (unsigned char)*b;
-        if (x >= 'A' && x <= 'Z') x += 'a' - 'A';
-        if (y >= 'A' && y <= 'Z') y += 'a' - 'A';
-        if (x != y || x == 0) return x - y;
-    }
-}
-
 void cov_data_free(cov_data *d)
 {
     if (d == NULL) return;
@@ -64,7 +54,7 @@ static long find_column(const cov_archive *a, const char *name)
     for (size_t i = 0; i < n; i++)
         if (strcmp(cov_archive_column(a, i), name) == 0) return (long)i;
     for (size_t i = 0; i < n; i++)
-        if (ascii_casecmp(cov_archive_column(a, i), name) == 0) return (long)i;
+        if (cov_ascii_casecmp(cov_archive_column(a, i), name) == 0) return (long)i;
     return -1;
 }
 
@@ -154,11 +144,11 @@ static int read_cell(reader *r, sqlite3_stmt *st, int c, size_t v, double *x)
     } else if (type == SQLITE_TEXT) {
         const char *t = (const char *)sqlite3_column_text(st, c);
         if (var->type == COV_BOOL && t != NULL) {
-            if (ascii_casecmp(t, "true") == 0) {
+            if (cov_ascii_casecmp(t, "true") == 0) {
                 *x = 1;
                 return COV_OK;
             }
-            if (ascii_casecmp(t, "false") == 0) {
+            if (cov_ascii_casecmp(t, "false") == 0) {
                 *x = 0;
                 return COV_OK;
             }

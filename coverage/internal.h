@@ -140,6 +140,9 @@ void cov_batches_free(cov_batch *b, size_t n);
 /* Write name as an SQL identifier in double quotes, doubling embedded quotes, into a new string
  * (NULL when out of memory). Every identifier shoal puts into SQL goes through this. */
 char *cov_sql_ident(const char *name);
+/* strcmp that folds ASCII A-Z to a-z and nothing else, as SQLite compares column names
+ * (coverage/archive.c); unlike strcasecmp it ignores the locale. */
+int cov_ascii_casecmp(const char *a, const char *b);
 
 /* ---- one claim's regression data (coverage/design.c) ------------------------------------------ */
 
