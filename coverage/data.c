@@ -455,22 +455,14 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
         d->batch = NULL;
     }
     if (progress != NULL) progress(1.0, ctx);
-    sqlite3_finalize(st);
-    free(sql);
-    free(qt);
-    free(colidx);
-    free(vars);
-    free(n_examples);
-    free(fast);
-    free(stage);
-    free(whole);
-    free(lo);
-    free(hi);
     *out = d;
-    return COV_OK;
+    d = NULL;                           /* the caller's now: the cleanup below frees only scratch */
+    rc = COV_OK;
+    goto done;
 nomem:
     rc = cov_fail(err, COV_ENOMEM, cov_archive_path(a), "out of memory while reading the archive");
 fail:
+done:
     sqlite3_finalize(st);
     free(sql);
     free(qt);
