@@ -12,33 +12,12 @@
 #include <sqlite3.h>
 
 #include "coverage/internal.h"
+#include "tests/bench/bench.h"
 
 /* Median of three runs, as issue 4 asks. */
 #define REPEATS 3
 
 static volatile double sink_out;
-
-static double now(void)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
-}
-
-/* CPU time of this process: on a machine shared with other work, wall time swings with the load;
- * CPU time measures the work itself. Both are printed; the target is judged on CPU time. */
-static double cpu_now(void)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &t);
-    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
-}
-
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
 
 static long arg(const char *s)
 {
@@ -50,15 +29,6 @@ static long arg(const char *s)
         exit(2);
     }
     return v;
-}
-
-/* splitmix64 (Steele, Lea & Flood 2014): the same invented stream on every machine. */
-static uint64_t next(uint64_t *s)
-{
-    uint64_t z = (*s += 0x9E3779B97F4A7C15ULL);
-    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
-    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
-    return z ^ (z >> 31);
 }
 
 /* Write table runs(c1..cK) of uniform values on [0, 1000) in one transaction. */
@@ -84,7 +54,7 @@ static int generate(const char *db_path, long rows, long cols, uint64_t seed)
         goto done;
     for (long i = 0; i < rows; i++) {
         for (long j = 0; j < cols; j++)
-            sqlite3_bind_double(st, (int)j + 1, (double)(next(&seed) >> 11) * 0x1p-53 * 1000);
+            sqlite3_bind_double(st, (int)j + 1, (double)(bench_next(&seed) >> 11) * 0x1p-53 * 1000);
         if (sqlite3_step(st) != SQLITE_DONE) goto done;
         sqlite3_reset(st);
     }
@@ -110,7 +80,7 @@ static double bare_scan(const char *db_path, long cols, double *cpu)
     size_t a = (size_t)snprintf(sql, len, "SELECT ");
     for (long j = 0; j < cols; j++) a += (size_t)snprintf(sql + a, len - a, "%sc%ld", j ? ", " : "", j + 1);
     snprintf(sql + a, len - a, " FROM runs");
-    double t0 = now(), c0 = cpu_now(), sum = 0;
+    double t0 = bench_wall(), c0 = bench_cpu(), sum = 0;
     if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READONLY, NULL) != SQLITE_OK
         || sqlite3_prepare_v2(db, sql, -1, &st, NULL) != SQLITE_OK) {
         fprintf(stderr, "bench_coverage: %s\n", sqlite3_errmsg(db));
@@ -122,8 +92,8 @@ static double bare_scan(const char *db_path, long cols, double *cpu)
     sqlite3_close(db);
     free(sql);
     sink_out += sum;
-    *cpu = cpu_now() - c0;
-    return now() - t0;
+    *cpu = bench_cpu() - c0;
+    return bench_wall() - t0;
 }
 
 int main(int argc, char **argv)
@@ -147,22 +117,22 @@ int main(int argc, char **argv)
     if (devnull == NULL) return 1;
     for (int r = 0; r < REPEATS; r++) {
         scan[r] = bare_scan(argv[3], cols, &scan_cpu[r]);
-        double t0 = now(), c0 = cpu_now();
+        double t0 = bench_wall(), c0 = bench_cpu();
         int adequate;
         cov_error err;
         int rc = cov_cmd_coverage(&o, devnull, NULL, &adequate, &err);
-        cmd[r] = now() - t0;
-        cmd_cpu[r] = cpu_now() - c0;
+        cmd[r] = bench_wall() - t0;
+        cmd_cpu[r] = bench_cpu() - c0;
         if (rc != COV_OK) {
             fprintf(stderr, "bench_coverage: %s %s\n", err.where, err.msg);
             return 1;
         }
     }
     fclose(devnull);
-    qsort(scan, REPEATS, sizeof *scan, cmp_double);
-    qsort(cmd, REPEATS, sizeof *cmd, cmp_double);
-    qsort(scan_cpu, REPEATS, sizeof *scan_cpu, cmp_double);
-    qsort(cmd_cpu, REPEATS, sizeof *cmd_cpu, cmp_double);
+    qsort(scan, REPEATS, sizeof *scan, bench_cmp_double);
+    qsort(cmd, REPEATS, sizeof *cmd, bench_cmp_double);
+    qsort(scan_cpu, REPEATS, sizeof *scan_cpu, bench_cmp_double);
+    qsort(cmd_cpu, REPEATS, sizeof *cmd_cpu, bench_cmp_double);
     const int h = REPEATS / 2;
     printf("bare SQLite scan of %ld columns: median wall %.3f s, CPU %.3f s (of %d)\n", cols,
            scan[h], scan_cpu[h], REPEATS);

@@ -13,6 +13,7 @@
 #include <sqlite3.h>
 
 #include "coverage/internal.h"
+#include "tests/bench/bench.h"
 
 #define N_IN 64
 #define N_OUT 16
@@ -21,40 +22,9 @@
 
 static volatile double sink_out;
 
-static double now(void)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
-}
-
-/* Processor time of this process: on a shared, loaded machine wall time mostly measures the
- * queue, so both are reported. */
-static double cpu(void)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &t);
-    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
-}
-
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
-
-/* splitmix64 (Steele, Lea & Flood 2014): fast and the same stream everywhere for a seed. */
-static uint64_t next(uint64_t *s)
-{
-    uint64_t z = (*s += 0x9E3779B97F4A7C15ULL);
-    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
-    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
-    return z ^ (z >> 31);
-}
-
 static double unif(uint64_t *s)
 {
-    return (double)(next(s) >> 11) * 0x1.0p-53;
+    return (double)(bench_next(s) >> 11) * 0x1.0p-53;
 }
 
 /* A standard normal by Box & Muller (1958); the second value is dropped for simplicity. */
@@ -134,7 +104,7 @@ static double bare_scan(const char *path, double *sink, double *cpu_s)
     snprintf(sql + at, sizeof sql - at, " FROM runs");
     sqlite3 *db = NULL;
     sqlite3_stmt *st = NULL;
-    double t0 = now(), c0 = cpu();
+    double t0 = bench_wall(), c0 = bench_cpu();
     if (sqlite3_open_v2(path, &db, SQLITE_OPEN_READONLY, NULL) != SQLITE_OK ||
         sqlite3_prepare_v2(db, sql, -1, &st, NULL) != SQLITE_OK) {
         fprintf(stderr, "bench_power: %s\n", sqlite3_errmsg(db));
@@ -146,8 +116,8 @@ static double bare_scan(const char *path, double *sink, double *cpu_s)
     sqlite3_finalize(st);
     sqlite3_close(db);
     *sink += sum;
-    *cpu_s = cpu() - c0;
-    return now() - t0;
+    *cpu_s = bench_cpu() - c0;
+    return bench_wall() - t0;
 }
 
 static int time_all(const char *db_path, const char *graph_path)
@@ -168,12 +138,12 @@ static int time_all(const char *db_path, const char *graph_path)
         cov_archive *a = NULL;
         cov_data *d = NULL;
         cov_assessments *as = NULL;
-        double t0 = now(), c0 = cpu();
+        double t0 = bench_wall(), c0 = bench_cpu();
         int rc = cov_archive_open(db_path, NULL, &a, &err);
         if (rc == COV_OK) rc = cov_data_read(a, g, NULL, NULL, &d, &err);
-        double t1 = now(), c1 = cpu();
+        double t1 = bench_wall(), c1 = bench_cpu();
         if (rc == COV_OK) rc = cov_assess(g, cl, d, &opt, &as, &err);
-        double t2 = now(), c2 = cpu();
+        double t2 = bench_wall(), c2 = bench_cpu();
         c_read[r] = c1 - c0;
         c_assess[r] = c2 - c1;
         if (rc != COV_OK) {
@@ -190,7 +160,7 @@ static int time_all(const char *db_path, const char *graph_path)
         cov_archive_close(a);
     }
     double *all[6] = {t_scan, t_read, t_assess, c_scan, c_read, c_assess};
-    for (int k = 0; k < 6; k++) qsort(all[k], REPEATS, sizeof(double), cmp_double);
+    for (int k = 0; k < 6; k++) qsort(all[k], REPEATS, sizeof(double), bench_cmp_double);
     double scan = t_scan[REPEATS / 2], rd = t_read[REPEATS / 2], as = t_assess[REPEATS / 2];
     double cs = c_scan[REPEATS / 2], cr = c_read[REPEATS / 2], ca = c_assess[REPEATS / 2];
     printf("power of %zu claims (%zu ample) on %zu runs x %d columns (medians of %d):\n"
