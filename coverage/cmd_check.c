@@ -44,14 +44,6 @@ static size_t batch_runs(const cov_data *d, long long id)
     return n;
 }
 
-static void progress_note(double share, void *ctx)
-{
-    FILE *note = ctx;
-    fprintf(note, "\rreading the archive %3.0f%%", 100 * share);
-    if (share >= 1) fputc('\n', note);
-    fflush(note);
-}
-
 /* Problems that make the check fail, counted for the verdict. */
 typedef struct {
     size_t vars_outside;      /* inputs with values outside the domain */
@@ -228,7 +220,7 @@ int cov_cmd_check(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     if (rc) goto done;
     rc = cov_archive_open(o->archive_path, o->table, &a, err);
     if (rc) goto done;
-    rc = cov_data_read(a, g, o->progress && note && !o->quiet ? progress_note : NULL, note, &d,
+    rc = cov_data_read(a, g, o->progress && note && !o->quiet ? cov_progress_note : NULL, note, &d,
                        err);
     if (rc) goto done;
     rc = cov_archive_batches(a, &b, &nb, err);

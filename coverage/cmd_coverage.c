@@ -11,28 +11,6 @@
 #define SHOW_PAIRS 10
 #define SHOW_CELLS 8
 
-static void progress_note(double share, void *ctx)
-{
-    FILE *note = ctx;
-    fprintf(note, "\rreading the archive %3.0f%%", 100 * share);
-    if (share >= 1) fputc('\n', note);
-    fflush(note);
-}
-
-/* "a -> y" for an effect claim, "a _||_ y | {s, t}" for an absence claim. */
-static void claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
-{
-    size_t used = (size_t)snprintf(buf, size, "%s %s %s", g->vars[c->treatment].name,
-                                   c->kind == COV_CLAIM_EFFECT ? "->" : "_||_",
-                                   g->vars[c->outcome].name);
-    if (used >= size || c->n_cond == 0) return;
-    used += (size_t)snprintf(buf + used, size - used, " | {");
-    for (size_t k = 0; k < c->n_cond && used < size; k++)
-        used += (size_t)snprintf(buf + used, size - used, "%s%s", k ? ", " : "",
-                                 g->vars[c->cond[k]].name);
-    if (used < size) snprintf(buf + used, size - used, "}");
-}
-
 /* A bin in the input's own words: "[2, 4)", "hill", "true", "3". */
 static void bin_label(const cov_var *v, size_t bins, size_t k, char *buf, size_t size)
 {
@@ -45,15 +23,6 @@ static void bin_label(const cov_var *v, size_t bins, size_t k, char *buf, size_t
         snprintf(buf, size, "[%.4g, %.4g%s", v->lo + (double)k * w, v->lo + (double)(k + 1) * w,
                  k + 1 == nb ? "]" : ")");
     }
-}
-
-/* Width of a UTF-8 string in characters, for column alignment. */
-static size_t text_width(const char *s)
-{
-    size_t w = 0;
-    for (; *s; s++)
-        if (((unsigned char)*s & 0xC0) != 0x80) w++;
-    return w;
 }
 
 /* A figure for the table, "-" when it does not apply. */
@@ -195,7 +164,7 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
             for (size_t k = 0; k < cl->n; k++) {
                 if (!costs(&cl->items[k], c->inputs[a], c->inputs[b])) continue;
                 char lab[512];
-                claim_label(g, &cl->items[k], lab, sizeof lab);
+                cov_claim_label(g, &cl->items[k], lab, sizeof lab);
                 fprintf(out, "\n      costs %s: variance inflation %.3g", lab,
                         vif_of(&sp->items[k]));
             }
@@ -214,22 +183,22 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
     int width = 5;
     for (size_t k = 0; k < cl->n; k++) {
         char lab[512];
-        claim_label(g, &cl->items[k], lab, sizeof lab);
-        if ((int)text_width(lab) > width) width = (int)text_width(lab);
+        cov_claim_label(g, &cl->items[k], lab, sizeof lab);
+        if ((int)cov_text_width(lab) > width) width = (int)cov_text_width(lab);
     }
     fprintf(out, "  %-*s %7s %8s %9s %9s %7s %7s %8s %4s  %s\n", width, "claim", "runs", "distinct",
             "spread", "sd(X|S)", "overlap", "ESS", "runs/cfg", "pure", "support");
     for (size_t k = 0; k < cl->n; k++) {
         const cov_support *s = &sp->items[k];
         char lab[512], f[5][32];
-        claim_label(g, &cl->items[k], lab, sizeof lab);
+        cov_claim_label(g, &cl->items[k], lab, sizeof lab);
         fmt_num(f[0], sizeof f[0], s->spread, "%.4g");
         fmt_num(f[1], sizeof f[1], s->spread_resid, "%.4g");
         fmt_num(f[2], sizeof f[2], s->overlap, "%.3f");
         fmt_num(f[3], sizeof f[3], s->kish_ess, "%.1f");
         fmt_num(f[4], sizeof f[4], s->runs_per_config, "%.3g");
         fprintf(out, "  %s", lab);
-        for (int w = (int)text_width(lab); w < width; w++) fputc(' ', out);
+        for (int w = (int)cov_text_width(lab); w < width; w++) fputc(' ', out);
         fprintf(out, " %7zu %8zu %9s %9s %7s %7s %8s %4s  %s%s%s\n", s->n, s->distinct, f[0], f[1],
                 f[2], f[3], f[4], s->pure_error ? "yes" : "no", s->ok ? "ok" : "short",
                 s->reason ? ": " : "", s->reason ? s->reason : "");
@@ -313,7 +282,7 @@ static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_data *
     for (size_t k = 0; k < cl->n; k++) {
         const cov_support *s = &sp->items[k];
         char lab[512];
-        claim_label(g, &cl->items[k], lab, sizeof lab);
+        cov_claim_label(g, &cl->items[k], lab, sizeof lab);
         csv_row(out, "claim", lab, "runs", (double)s->n);
         csv_row(out, "claim", lab, "distinct", (double)s->distinct);
         csv_row(out, "claim", lab, "spread", s->spread);
@@ -498,7 +467,7 @@ int cov_cmd_coverage(const cov_options *o, FILE *out, FILE *note, int *adequate,
     int rc = cov_graph_parse_file(o->graph_path, &g, err);
     if (!rc) rc = cov_claims_derive(g, &cl, err);
     if (!rc) rc = cov_archive_open(o->archive_path, o->table, &ar, err);
-    if (!rc) rc = cov_data_read(ar, g, show ? progress_note : NULL, note, &d, err);
+    if (!rc) rc = cov_data_read(ar, g, show ? cov_progress_note : NULL, note, &d, err);
     if (!rc && show) fprintf(note, "measuring coverage of %zu runs\n", d->n_runs);
     if (!rc) rc = cov_coverage_measure(g, d, &copt, &c, err);
     if (!rc && show) fprintf(note, "measuring the support of %zu claims\n", cl->n);

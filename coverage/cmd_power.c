@@ -7,37 +7,6 @@
 
 #include "coverage/internal.h"
 
-static void progress_note(double share, void *ctx)
-{
-    FILE *note = ctx;
-    fprintf(note, "\rreading the archive %3.0f%%", 100 * share);
-    if (share >= 1) fputc('\n', note);
-    fflush(note);
-}
-
-/* "a -> y" for an effect claim, "a _||_ y | {s, t}" for an absence claim. */
-static void claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
-{
-    size_t used = (size_t)snprintf(buf, size, "%s %s %s", g->vars[c->treatment].name,
-                                   c->kind == COV_CLAIM_EFFECT ? "->" : "_||_",
-                                   g->vars[c->outcome].name);
-    if (used >= size || c->n_cond == 0) return;
-    used += (size_t)snprintf(buf + used, size - used, " | {");
-    for (size_t k = 0; k < c->n_cond && used < size; k++)
-        used += (size_t)snprintf(buf + used, size - used, "%s%s", k ? ", " : "",
-                                 g->vars[c->cond[k]].name);
-    if (used < size) snprintf(buf + used, size - used, "}");
-}
-
-/* Width of a UTF-8 string in characters, for column alignment. */
-static size_t text_width(const char *s)
-{
-    size_t w = 0;
-    for (; *s; s++)
-        if (((unsigned char)*s & 0xC0) != 0x80) w++;
-    return w;
-}
-
 static void fmt_num(char *buf, size_t size, double x)
 {
     if (isnan(x)) snprintf(buf, size, "-");
@@ -67,8 +36,8 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
     int width = 5;
     for (size_t i = 0; i < cl->n; i++) {
         char label[512];
-        claim_label(g, &cl->items[i], label, sizeof label);
-        int w = (int)text_width(label);
+        cov_claim_label(g, &cl->items[i], label, sizeof label);
+        int w = (int)cov_text_width(label);
         if (w > width) width = w;
     }
     fprintf(out, "\n%-*s %9s %9s %9s  %-22s %-22s %10s  %s\n", width, "claim", "n", "sigma",
@@ -77,7 +46,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         const cov_claim *c = &cl->items[i];
         const cov_assessment *a = &as->items[i];
         char label[512], sigma[32], sdx[32], pw[96], mde[80], runs[32], e1[32], e2[32], e3[32];
-        claim_label(g, c, label, sizeof label);
+        cov_claim_label(g, c, label, sizeof label);
         fmt_num(sigma, sizeof sigma, a->sigma);
         fmt_num(sdx, sizeof sdx, a->sd_treatment_resid);
         if (isnan(a->power)) snprintf(pw, sizeof pw, "-");
@@ -89,7 +58,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         snprintf(runs, sizeof runs, "%s", isnan(a->runs_needed) ? "-" : e3);
         if (isfinite(a->runs_needed)) snprintf(runs, sizeof runs, "%.0f", a->runs_needed);
         fputs(label, out);
-        for (int w = (int)text_width(label); w < width; w++) fputc(' ', out);
+        for (int w = (int)cov_text_width(label); w < width; w++) fputc(' ', out);
         fprintf(out, " %9zu %9s %9s  %-22s %-22s %10s  %s%s\n", a->n, sigma, sdx, pw,
                 a->verdict == COV_BLIND ? "-" : mde, a->verdict == COV_BLIND ? "-" : runs,
                 cov_verdict_word(a->verdict), a->noise_flag ? " (noise?)" : "");
@@ -101,7 +70,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         if (!any) fputs("\n", out);
         any = 1;
         char label[512];
-        claim_label(g, &cl->items[i], label, sizeof label);
+        cov_claim_label(g, &cl->items[i], label, sizeof label);
         if (a->reason) fprintf(out, "%s: %s: %s\n", label, cov_verdict_word(a->verdict), a->reason);
         if (a->noise_note)
             fprintf(out, "%s: noise%s: %s\n", label, a->noise_flag ? " (cannot be trusted)" : "",
@@ -232,7 +201,7 @@ int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     if (!rc) rc = cov_claims_derive(g, &cl, err);
     if (!rc) rc = cov_archive_open(o->archive_path, o->table, &ar, err);
     if (!rc)
-        rc = cov_data_read(ar, g, o->progress && note && !o->quiet ? progress_note : NULL, note,
+        rc = cov_data_read(ar, g, o->progress && note && !o->quiet ? cov_progress_note : NULL, note,
                            &d, err);
     if (!rc) rc = cov_assess(g, cl, d, &o->power, &as, err);
     if (rc) goto done;

@@ -23,14 +23,6 @@
 #define C_THIN "\033[33m"
 #define C_BLIND "\033[2m"
 
-static void progress_note(double share, void *ctx)
-{
-    FILE *note = ctx;
-    fprintf(note, "\rshoal: reading the runs %3.0f%%", 100 * share);
-    if (share >= 1) fputc('\n', note);
-    fflush(note);
-}
-
 static void step_note(const cov_options *o, FILE *note, const char *what)
 {
     if (o->progress && !o->quiet && note != NULL) {
@@ -321,7 +313,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         goto fail;
     if ((rc = cov_archive_open(o.archive_path, o.table, &ar, err)) != COV_OK) goto fail;
     int owned = cov_archive_owned(ar);
-    rc = cov_data_read(ar, g, o.progress && note && !o.quiet ? progress_note : NULL, note, &d, err);
+    rc = cov_data_read(ar, g, o.progress && note && !o.quiet ? cov_progress_note : NULL, note, &d, err);
     if (rc != COV_OK) goto fail;
     /* The read-only connection is closed before anything writes history into the archive. */
     cov_archive_close(ar);

@@ -54,3 +54,32 @@ void cov_emit_csv_number(FILE *f, double x)
     if (isfinite(x)) fprintf(f, "%.10g", x);
     else if (isinf(x)) fputs(x > 0 ? "inf" : "-inf", f);
 }
+
+void cov_progress_note(double share, void *ctx)
+{
+    FILE *note = ctx;
+    fprintf(note, "\rreading the archive %3.0f%%", 100 * share);
+    if (share >= 1) fputc('\n', note);
+    fflush(note);
+}
+
+void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
+{
+    size_t used = (size_t)snprintf(buf, size, "%s %s %s", g->vars[c->treatment].name,
+                                   c->kind == COV_CLAIM_EFFECT ? "->" : "_||_",
+                                   g->vars[c->outcome].name);
+    if (used >= size || c->n_cond == 0) return;
+    used += (size_t)snprintf(buf + used, size - used, " | {");
+    for (size_t k = 0; k < c->n_cond && used < size; k++)
+        used += (size_t)snprintf(buf + used, size - used, "%s%s", k ? ", " : "",
+                                 g->vars[c->cond[k]].name);
+    if (used < size) snprintf(buf + used, size - used, "}");
+}
+
+size_t cov_text_width(const char *s)
+{
+    size_t w = 0;
+    for (; *s; s++)
+        if (((unsigned char)*s & 0xC0) != 0x80) w++;
+    return w;
+}

@@ -17,6 +17,14 @@ void cov_emit_json_number(FILE *f, double x);
 void cov_emit_csv_field(FILE *f, const char *s);
 /* Write a number for CSV: %.10g, empty for NAN. */
 void cov_emit_csv_number(FILE *f, double x);
+/* A progress callback for cov_data_read: ctx is the FILE * of notes (a terminal); it rewrites one
+ * line "reading the archive NN%" and ends it at 100%. */
+void cov_progress_note(double share, void *ctx);
+/* The claim as one line of text: "a -> y | {s, t}" for an effect claim, "a _||_ y | {s, t}" for an
+ * absence claim; truncated to fit size bytes. */
+void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size);
+/* Width of a UTF-8 string in characters (code points), for aligning table columns. */
+size_t cov_text_width(const char *s);
 
 /* ---- graph and d-separation (coverage/graph.c, coverage/graph_lex.c, coverage/dsep.c, ...) --- */
 
