@@ -108,6 +108,21 @@ double pw_log_beta_step(double x, double y, double a, double b)
     return log(b / (a + b)) + log_binom_term(a, b, x, y);
 }
 
+/* One term of the modified Lentz method with partial numerator aa (denominators 1): updates the
+ * ratios c and d and returns the factor c d by which the fraction's value moves (Press et al.
+ * 2007, sec. 5.2). */
+static double lentz_step(double aa, double *c, double *d)
+{
+    *d = 1.0 + aa * *d;
+    if (fabs(*d) < BETA_CF_TINY)
+        *d = BETA_CF_TINY;
+    *c = 1.0 + aa / *c;
+    if (fabs(*c) < BETA_CF_TINY)
+        *c = BETA_CF_TINY;
+    *d = 1.0 / *d;
+    return *d * *c;
+}
+
 /* The continued fraction for I_x(a, b) / (x^a y^b / (a B(a, b))) (A&S 26.5.8), evaluated by the
  * modified Lentz method (Press et al. 2007, Numerical Recipes 3rd ed., sec. 6.4, whose betacf this
  * follows; GSL's gsl_sf_beta_inc uses the same fraction). It converges fast for
@@ -122,24 +137,8 @@ static int beta_cf(double a, double b, double x, double *cf)
     double h = d;
     for (int m = 1; m <= BETA_CF_MAX_ITER; m++) {
         double m2 = 2.0 * m;
-        double aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        d = 1.0 + aa * d;
-        if (fabs(d) < BETA_CF_TINY)
-            d = BETA_CF_TINY;
-        c = 1.0 + aa / c;
-        if (fabs(c) < BETA_CF_TINY)
-            c = BETA_CF_TINY;
-        d = 1.0 / d;
-        h *= d * c;
-        aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-        d = 1.0 + aa * d;
-        if (fabs(d) < BETA_CF_TINY)
-            d = BETA_CF_TINY;
-        c = 1.0 + aa / c;
-        if (fabs(c) < BETA_CF_TINY)
-            c = BETA_CF_TINY;
-        d = 1.0 / d;
-        double del = d * c;
+        h *= lentz_step(m * (b - m) * x / ((qam + m2) * (a + m2)), &c, &d);
+        double del = lentz_step(-(a + m) * (qab + m) * x / ((a + m2) * (qap + m2)), &c, &d);
         h *= del;
         if (fabs(del - 1.0) <= BETA_CF_EPS) {
             *cf = h;
