@@ -823,6 +823,29 @@ void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c)
     fprintf(out, ", \"steerable\": %s", c->steerable ? "true" : "false");
 }
 
+char *cov_claim_csv_set(const cov_graph *g, const cov_claim *c)
+{
+    /* Names joined by ';', a name holding ';' or '"' quoted with its quotes doubled (RFC 4180's
+     * rule with ';' as the separator). */
+    size_t len = 1;
+    for (size_t i = 0; i < c->n_cond; i++) len += 2 * strlen(g->vars[c->cond[i]].name) + 3;
+    char *s = malloc(len), *q = s;
+    if (s == NULL) return NULL;
+    for (size_t i = 0; i < c->n_cond; i++) {
+        const char *name = g->vars[c->cond[i]].name;
+        if (i) *q++ = ';';
+        int quote = strpbrk(name, ";\"") != NULL;
+        if (quote) *q++ = '"';
+        for (const char *r = name; *r; r++) {
+            if (*r == '"') *q++ = '"';
+            *q++ = *r;
+        }
+        if (quote) *q++ = '"';
+    }
+    *q = '\0';
+    return s;
+}
+
 void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c)
 {
     fprintf(out, "%s,", c->kind == COV_CLAIM_EFFECT ? "effect" : "absence");
@@ -830,26 +853,10 @@ void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c)
     fputc(',', out);
     cov_emit_csv_field(out, g->vars[c->outcome].name);
     fputc(',', out);
-    /* Names joined by ';', a name holding ';' or '"' quoted with its quotes doubled (RFC 4180's
-     * rule with ';' as the separator), then the whole set written as one CSV field. */
-    size_t len = 1;
-    for (size_t i = 0; i < c->n_cond; i++) len += 2 * strlen(g->vars[c->cond[i]].name) + 3;
-    char *s = malloc(len), *q = s;
-    if (s != NULL) {
-        for (size_t i = 0; i < c->n_cond; i++) {
-            const char *name = g->vars[c->cond[i]].name;
-            if (i) *q++ = ';';
-            int quote = strpbrk(name, ";\"") != NULL;
-            if (quote) *q++ = '"';
-            for (const char *r = name; *r; r++) {
-                if (*r == '"') *q++ = '"';
-                *q++ = *r;
-            }
-            if (quote) *q++ = '"';
-        }
-        *q = '\0';
-        cov_emit_csv_field(out, s);
-        free(s);
+    char *set = cov_claim_csv_set(g, c);
+    if (set != NULL) {
+        cov_emit_csv_field(out, set);
+        free(set);
     }
     fputc(',', out);
     cov_emit_csv_number(out, c->effect.value);

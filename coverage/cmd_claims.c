@@ -28,19 +28,10 @@ static char *set_text(const cov_graph *g, const cov_claim *c)
     return s;
 }
 
-/* Width of a UTF-8 string in characters, for column alignment. */
-static size_t text_width(const char *s)
-{
-    size_t w = 0;
-    for (; *s; s++)
-        if (((unsigned char)*s & 0xC0) != 0x80) w++;
-    return w;
-}
-
 static void pad(FILE *f, const char *s, size_t width)
 {
     fputs(s, f);
-    for (size_t w = text_width(s); w < width + 2; w++) fputc(' ', f);
+    for (size_t w = cov_text_width(s); w < width + 2; w++) fputc(' ', f);
 }
 
 static int print_table(const cov_graph *g, const cov_claims *cl, FILE *out)
@@ -57,9 +48,9 @@ static int print_table(const cov_graph *g, const cov_claims *cl, FILE *out)
         char eff[64];
         if (c->status == COV_TESTABLE && (sets[i] = set_text(g, c)) == NULL) goto fail;
         cov_report_effect_text(c, eff, sizeof eff);
-        size_t w[5] = {text_width(kind_word(c)), text_width(g->vars[c->treatment].name),
-                       text_width(g->vars[c->outcome].name), sets[i] ? text_width(sets[i]) : 1,
-                       text_width(eff)};
+        size_t w[5] = {cov_text_width(kind_word(c)), cov_text_width(g->vars[c->treatment].name),
+                       cov_text_width(g->vars[c->outcome].name), sets[i] ? cov_text_width(sets[i]) : 1,
+                       cov_text_width(eff)};
         for (int k = 0; k < 5; k++)
             if (w[k] > width[k]) width[k] = w[k];
     }
@@ -92,36 +83,13 @@ fail:
     return rc;
 }
 
-/* The CSV conditioning field joins names with ';'. A name that holds ';' or '"' is wrapped in
- * double quotes with its quotes doubled, the RFC 4180 rule applied with ';' as the separator. */
-static char *csv_set(const cov_graph *g, const cov_claim *c)
-{
-    size_t len = 1;
-    for (size_t i = 0; i < c->n_cond; i++) len += 2 * strlen(g->vars[c->cond[i]].name) + 3;
-    char *s = malloc(len), *q = s;
-    if (s == NULL) return NULL;
-    for (size_t i = 0; i < c->n_cond; i++) {
-        const char *name = g->vars[c->cond[i]].name;
-        if (i) *q++ = ';';
-        int quote = strpbrk(name, ";\"") != NULL;
-        if (quote) *q++ = '"';
-        for (const char *r = name; *r; r++) {
-            if (*r == '"') *q++ = '"';
-            *q++ = *r;
-        }
-        if (quote) *q++ = '"';
-    }
-    *q = '\0';
-    return s;
-}
-
 static int print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
 {
     fputs("kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,reason,"
           "steerable\n", out);
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
-        char *set = csv_set(g, c);
+        char *set = cov_claim_csv_set(g, c);
         if (set == NULL) return COV_ENOMEM;
         fprintf(out, "%s,", kind_word(c));
         cov_emit_csv_field(out, g->vars[c->treatment].name);
@@ -147,23 +115,9 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const char *pat
     fputs(", \"claims\": [", out);
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
-        fprintf(out, "%s\n  {\"kind\": \"%s\", \"treatment\": ", i ? "," : "", kind_word(c));
-        cov_emit_json_string(out, g->vars[c->treatment].name);
-        fputs(", \"outcome\": ", out);
-        cov_emit_json_string(out, g->vars[c->outcome].name);
-        fputs(", \"conditioning\": [", out);
-        for (size_t k = 0; k < c->n_cond; k++) {
-            if (k) fputs(", ", out);
-            cov_emit_json_string(out, g->vars[c->cond[k]].name);
-        }
-        fputs("], \"effect_of_interest\": ", out);
-        cov_emit_json_number(out, c->effect.value);
-        fprintf(out, ", \"effect_unit\": \"%s\", \"sign\": %d, \"status\": \"%s\", \"reason\": ",
-                c->effect.unit == COV_UNIT_SD ? "sd" : "raw", c->sign,
-                c->status == COV_TESTABLE ? "testable" : "untestable");
-        if (c->reason) cov_emit_json_string(out, c->reason);
-        else fputs("null", out);
-        fprintf(out, ", \"steerable\": %s}", c->steerable ? "true" : "false");
+        fputs(i ? ",\n  {" : "\n  {", out);
+        cov_claim_json_fields(out, g, c);
+        fputc('}', out);
     }
     fputs(cl->n ? "\n]}\n" : "]}\n", out);
 }

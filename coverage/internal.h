@@ -184,6 +184,9 @@ int cov_assess_design(const cov_graph *g, const cov_claims *c, const cov_assessm
  * "outcome", "conditioning", "effect_of_interest", "effect_unit", "sign", "status", "reason",
  * "steerable" (the `shoal claims --json` fields, in that order). */
 void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c);
+/* The claim's separating set as one CSV cell: names joined by ';', a name holding ';' or '"'
+ * quoted with its quotes doubled. Returns a malloc'd string, or NULL when out of memory. */
+char *cov_claim_csv_set(const cov_graph *g, const cov_claim *c);
 /* The CSV fields kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,
  * steerable (no trailing comma or newline); conditioning joins names with ';'. */
 void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c);
