@@ -30,6 +30,8 @@
 typedef struct {
     size_t n_cols;
     size_t *first, *count;    /* per variable; count 0 for non-inputs */
+    size_t *slot;             /* per level-set input: its first level's index in a presence map */
+    size_t n_slots;           /* levels over all level-set inputs */
 } layout;
 
 int cov_plan_is_numeric(const cov_var *v) { return v->type == COV_REAL || v->type == COV_INTEGER; }
@@ -55,6 +57,7 @@ typedef struct {
     long outcome;             /* the outcome whose missing cells narrow the rows, or -1 */
     size_t group;             /* in the pw_aug */
     size_t n_rows;
+    unsigned char *present;   /* n_slots: the levels that occur in the group's archive rows */
 } plan_group;
 
 /* Per-claim working state. */
@@ -66,6 +69,12 @@ typedef struct {
     int steered;
     double n_base;            /* runs the current figures rest on */
     double runs_needed;       /* assumed claims: total runs for the target */
+    /* Predictions code the design as the assessment does (coverage/design.c): a level-set input
+     * has dummies only for the levels present in the rows. pd0 is the test on the archive's rows
+     * in that coding (or sized from declared noise), q_mul0 its coded information to q^2. */
+    pw_design pd0;
+    double q_mul0;
+    size_t gi;                /* the claim's plan_group */
 } claim_work;
 
 struct plan_state {
@@ -83,6 +92,7 @@ struct plan_state {
     double *cand_rows;        /* n_cand * n_cols */
     cov_plan_cover *cover;    /* the coverage bonus of each candidate */
     struct delta_cache *dc;
+    unsigned char *planned;   /* n_slots: the levels the planned runs so far set */
 };
 
 int cov_plan_var_present(const cov_data *d, size_t v, size_t i)
@@ -129,13 +139,15 @@ static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, si
     /* A new group: its cross-products over the runs with all its variables present. */
     double *gram = calloc(p * p, sizeof *gram);
     double *vals = malloc(g->n_vars * sizeof *vals), *row = malloc(L->n_cols * sizeof *row);
+    unsigned char *present = calloc(L->n_slots + 1, 1);
     plan_group *ng = realloc(st->groups, (st->n_groups + 1) * sizeof *ng);
     if (ng != NULL) st->groups = ng;
-    if (gram == NULL || vals == NULL || row == NULL || ng == NULL) {
+    if (gram == NULL || vals == NULL || row == NULL || present == NULL || ng == NULL) {
         free(cols);
         free(gram);
         free(vals);
         free(row);
+        free(present);
         return COV_ENOMEM;
     }
     size_t n_rows = 0;
@@ -148,6 +160,12 @@ static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, si
         for (size_t v = 0; v < g->n_vars; v++)
             vals[v] = L->count[v] && d->col[v] != NULL && !isnan(d->col[v][i]) ? d->col[v][i]
                                                                                 : g->vars[v].lo;
+        for (size_t m = 0; m <= cl->n_cond; m++) {
+            size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
+            if (g->vars[v].type == COV_LEVELS && vals[v] >= 0 &&
+                vals[v] < (double)g->vars[v].n_levels)
+                present[L->slot[v] + (size_t)vals[v]] = 1;
+        }
         code_row(g, L, vals, row);
         for (size_t a = 0; a < p; a++)
             for (size_t b = 0; b < p; b++) gram[a * p + b] += row[cols[a]] * row[cols[b]];
@@ -160,6 +178,7 @@ static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, si
     free(gram);
     if (prc != PW_OK) {
         free(cols);
+        free(present);
         return prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
     }
     plan_group *gr = &st->groups[st->n_groups];
@@ -168,6 +187,7 @@ static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, si
     gr->outcome = outcome;
     gr->group = ag;
     gr->n_rows = n_rows;
+    gr->present = present;
     *gi = st->n_groups++;
     return COV_OK;
 }
@@ -265,7 +285,12 @@ static double need_at(struct delta_cache *dc, const claim_work *w, double n)
 
 static void state_free(struct plan_state *st)
 {
-    for (size_t i = 0; i < st->n_groups; i++) free(st->groups[i].cols);
+    for (size_t i = 0; i < st->n_groups; i++) {
+        free(st->groups[i].cols);
+        free(st->groups[i].present);
+    }
+    free(st->planned);
+    free(st->L.slot);
     free(st->groups);
     free(st->w);
     pw_aug_free(st->aug);
@@ -288,6 +313,86 @@ void cov_plan_free(cov_plan *p)
 
 /* ---- predictions ------------------------------------------------------------------------------- */
 
+/* Whether level l of level-set input v occurs in group gr's archive rows (or in the planned runs
+ * so far, with with_plan). */
+static int level_present(const struct plan_state *st, const plan_group *gr, size_t v, size_t l,
+                         int with_plan)
+{
+    size_t s = st->L.slot[v] + l;
+    return gr->present[s] || (with_plan && st->planned[s]);
+}
+
+/* A claim's test after the planned runs so far, coded as the assessment codes its regression
+ * (coverage/design.c): a level-set input has dummies only for the levels present in the rows (the
+ * group's archive rows and the planned runs), against the first present level. A level a planned
+ * run brings in adds a column: one more parameter for a separating-set input, one more level (and
+ * from three on the F test, as coverage/assess.c chooses) for the treatment. *t is w->pd0 so
+ * adjusted; *info its coded information in that design (PW_TEST_LEVELS_F: the least favourable
+ * pattern, power/levels.c), from the Sherman-Morrison inverse when every column is in and else
+ * from the kept cross-products of the columns that are. */
+static int exact_test(const struct plan_state *st, const cov_claim *cl, const claim_work *w,
+                      pw_design *t, double *info)
+{
+    const cov_graph *g = st->g;
+    const plan_group *gr = &st->groups[w->gi];
+    *t = w->pd0;
+    *info = 0.0;
+    unsigned char *on = malloc(gr->p);
+    if (on == NULL) return COV_ENOMEM;
+    memset(on, 1, gr->p);
+    size_t n_treat = 0;
+    for (size_t m = 0; m <= cl->n_cond; m++) {
+        size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
+        const cov_var *var = &g->vars[v];
+        if (var->type != COV_LEVELS || st->L.count[v] == 0) continue;
+        size_t now = 0, before = 0;
+        long ref = -1;
+        for (size_t l = 0; l < var->n_levels; l++) {
+            int here = level_present(st, gr, v, l, 1);
+            now += (size_t)here;
+            before += (size_t)level_present(st, gr, v, l, 0);
+            if (here && ref < 0) ref = (long)l;
+            if (l == 0) continue;
+            size_t col = st->L.first[v] + l - 1;
+            for (size_t j = 0; j < gr->p; j++)
+                if (gr->cols[j] == col) on[j] = (unsigned char)(here && (long)l != ref);
+        }
+        if (m < cl->n_cond)
+            t->n_params += (double)(now > 0 ? now - 1 : 0) - (double)(before > 0 ? before - 1 : 0);
+        else n_treat = now;
+    }
+    int pattern = t->test == PW_TEST_LEVELS_F;
+    if (g->vars[cl->treatment].type == COV_LEVELS) {
+        if (n_treat < 2) {
+            /* One level or none: no contrast to test yet. */
+            free(on);
+            return COV_ENUMERIC;
+        }
+        size_t tr = n_treat - 1;
+        if (t->test == PW_TEST_LEVELS_F || t->test == PW_TEST_COEF_T)
+            t->test = tr >= 2 ? PW_TEST_LEVELS_F : PW_TEST_COEF_T;
+        t->n_levels = tr >= 2 ? (double)(tr + 1) : 0.0;
+        pattern = t->test == PW_TEST_LEVELS_F;
+    }
+    int prc = pw_aug_info_subset(st->aug, w->target, on, pattern, info);
+    free(on);
+    if (prc != PW_OK) return prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
+    return COV_OK;
+}
+
+/* The test of a steered claim at n runs after the planned runs so far. */
+static int exact_design(const struct plan_state *st, const cov_claim *cl, const claim_work *w,
+                        double n, pw_design *out)
+{
+    pw_design t;
+    double info = 0.0;
+    int rc = exact_test(st, cl, w, &t, &info);
+    if (rc != COV_OK) return rc;
+    if (!(n > 0) || !(info >= 0.0) || pw_design_with_q(&t, n, sqrt(info * w->q_mul0), out) != PW_OK)
+        return COV_ENUMERIC;
+    return COV_OK;
+}
+
 /* Predicted power of plan item it after `planned` configurations of the plan's replicates. */
 static double predict(const struct plan_state *st, const cov_plan_claim *it, double added)
 {
@@ -298,10 +403,8 @@ static double predict(const struct plan_state *st, const cov_plan_claim *it, dou
     if (it->mode == COV_PLAN_ASSUMED) {
         t = w->pd;
         t.n = w->n_base + added;
-    } else {
-        double q = sqrt(pw_aug_info(st->aug, w->target) * w->q_mul);
-        if (!(w->n_base + added > 0) || pw_design_with_q(&w->pd, w->n_base + added, q, &t) != PW_OK)
-            return NAN;
+    } else if (exact_design(st, &st->c->items[it->claim], w, w->n_base + added, &t) != COV_OK) {
+        return NAN;
     }
     if (pw_power(&t, &pw) != PW_OK) return NAN;
     return pw;
@@ -332,6 +435,7 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
             w->have_pd = 1;
             it->power_now = pw;
             w->n_base = w->pd.n;
+            w->pd0 = w->pd;
         }
         if (!steer) {
             it->mode = w->have_pd ? COV_PLAN_ASSUMED : COV_PLAN_UNSIZED;
@@ -343,6 +447,7 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         int rc = find_group(st, cl, &gi, &first, &k);
         if (rc != COV_OK) return rc;
         size_t n_rows = st->groups[gi].n_rows;
+        w->gi = gi;
         /* The pd decides the measure; without one yet, a level-set effect claim is an F test. */
         int pattern = w->have_pd ? w->pd.test == PW_TEST_LEVELS_F
                                  : cl->kind == COV_CLAIM_EFFECT && g->vars[cl->treatment].type == COV_LEVELS;
@@ -352,18 +457,17 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         double info0 = pw_aug_info(st->aug, w->target);
         double q_now = w->have_pd ? pw_design_q(&w->pd) : NAN;
         const cov_var *x = &g->vars[cl->treatment];
+        double half = cov_plan_is_numeric(x) ? 0.5 * (x->hi - x->lo) : 1.0;
         /* A level the archive never ran is missing from its regression (and carries only the
-         * ridge here), so a ratio to the current information would be meaningless: measure such
-         * a claim absolutely, with the archive's sigma and every declared level. */
+         * ridge in the steering design), so a ratio to the current information would be
+         * meaningless: steer such a claim absolutely, with the archive's sigma and every declared
+         * level, so that the search brings the missing levels in. Its predictions (exact_test)
+         * count only the levels present, as the assessment does. */
         int levels_missing = x->type == COV_LEVELS && w->have_pd &&
                              w->pd.n_levels != (double)x->n_levels;
         if (levels_missing && w->pd.sigma > 0) {
             w->pd.n_levels = (double)x->n_levels;
             w->q_mul = 1.0;
-            pw_design t;
-            if (pw_design_with_q(&w->pd, w->n_base, sqrt(info0), &t) != PW_OK ||
-                pw_power(&t, &it->power_now) != PW_OK)
-                it->power_now = NAN;
         } else if (w->have_pd && q_now > 0 && isfinite(q_now) && n_rows > st->groups[gi].p &&
                    info0 > 0) {
             /* The archive's own figures, moved by the ratio of information the runs add. */
@@ -371,20 +475,41 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         } else if (design_from_noise(g, cl, st->opt, n_testable, &st->L, &w->pd) == 0) {
             w->have_pd = 1;
             it->from_noise = 1;
-            /* Coded information to raw: a numeric column was scaled by half its range. */
-            double half = cov_plan_is_numeric(x) ? 0.5 * (x->hi - x->lo) : 1.0;
             w->q_mul = half * half;
             w->n_base = (double)n_rows;
-            if (n_rows > 0) {
-                pw_design t;
-                double q = sqrt(info0 * w->q_mul);
-                if (pw_design_with_q(&w->pd, (double)n_rows, q, &t) != PW_OK ||
-                    pw_power(&t, &it->power_now) != PW_OK)
-                    it->power_now = NAN;
+            /* The predictions' test counts a level-set input's levels present in the rows. */
+            w->pd0 = w->pd;
+            w->pd0.n_params = 1.0;
+            for (size_t m = 0; m < cl->n_cond; m++) {
+                size_t v = cl->cond[m], present = 0;
+                if (g->vars[v].type != COV_LEVELS) {
+                    w->pd0.n_params += 1.0;
+                    continue;
+                }
+                for (size_t l = 0; l < g->vars[v].n_levels; l++)
+                    present += (size_t)level_present(st, &st->groups[gi], v, l, 0);
+                w->pd0.n_params += present > 0 ? (double)(present - 1) : 0.0;
             }
         } else {
             it->mode = COV_PLAN_UNSIZED;
             continue;
+        }
+        /* The predictions' coded information to q^2: the archive's own ratio in their coding, or
+         * (sized from noise) the scale of the coding: a numeric column was scaled by half its
+         * range. */
+        pw_design t0;
+        double info0e = 0.0;
+        w->q_mul0 = half * half;
+        if (exact_test(st, cl, w, &t0, &info0e) == COV_OK && !it->from_noise) {
+            double q0 = pw_design_q(&w->pd0);
+            if (q0 > 0 && isfinite(q0) && info0e > 0 && isfinite(info0e))
+                w->q_mul0 = q0 * q0 / info0e;
+        }
+        if (it->from_noise && n_rows > 0) {
+            pw_design t;
+            if (exact_design(st, cl, w, (double)n_rows, &t) != COV_OK ||
+                pw_power(&t, &it->power_now) != PW_OK)
+                it->power_now = NAN;
         }
         it->mode = COV_PLAN_STEERED;
         w->steered = 1;
@@ -486,7 +611,8 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     cov_plan *p = calloc(1, sizeof *p);
     st.L.first = calloc(g->n_vars + 1, sizeof(size_t));
     st.L.count = calloc(g->n_vars + 1, sizeof(size_t));
-    if (p == NULL || st.L.first == NULL || st.L.count == NULL) goto fail;
+    st.L.slot = calloc(g->n_vars + 1, sizeof(size_t));
+    if (p == NULL || st.L.first == NULL || st.L.count == NULL || st.L.slot == NULL) goto fail;
     p->n_vars = g->n_vars;
     p->replicates = replicates;
     st.L.n_cols = 1;
@@ -496,7 +622,13 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         st.L.first[v] = st.L.n_cols;
         st.L.count[v] = var->type == COV_LEVELS ? var->n_levels - 1 : 1;
         st.L.n_cols += st.L.count[v];
+        if (var->type == COV_LEVELS) {
+            st.L.slot[v] = st.L.n_slots;
+            st.L.n_slots += var->n_levels;
+        }
     }
+    st.planned = calloc(st.L.n_slots + 1, 1);
+    if (st.planned == NULL) goto fail;
     if (pw_aug_alloc(st.L.n_cols, &st.aug) != PW_OK) goto fail;
     if ((rc = setup_claims(&st, a, p)) != COV_OK) goto fail;
     if ((rc = plan_candidates(&st, seed)) != COV_OK) goto fail;
@@ -585,6 +717,12 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         }
         cov_plan_cover_commit(st.cover, best, replicates);
         if ((rc = push_row(p, &row_cap, st.cand_vals + best * g->n_vars)) != COV_OK) goto fail;
+        for (size_t v = 0; v < g->n_vars; v++) {
+            double lv = st.cand_vals[best * g->n_vars + v];
+            if (g->vars[v].role == COV_INPUT && g->vars[v].type == COV_LEVELS && lv >= 0 &&
+                lv < (double)g->vars[v].n_levels)
+                st.planned[st.L.slot[v] + (size_t)lv] = 1;
+        }
         for (size_t k = 0; k < st.n_cand; k++) fresh[k] = 0;
         if (pw_aug_n_active(st.aug) == 0 && was_active)
             for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;

@@ -417,6 +417,49 @@ int pw_aug_score(pw_aug *a, const double *row, double w, double *score)
     return PW_OK;
 }
 
+int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, int pattern,
+                       double *info)
+{
+    *info = 0.0;
+    if (target >= a->n_targets) return PW_EDOM;
+    const aug_target *t = &a->targets[target];
+    const aug_group *gr = &a->groups[t->group];
+    size_t q = 0, first = 0, k = 0;
+    for (size_t j = 0; j < gr->p; j++) {
+        if (!on[j]) continue;
+        if (j < t->first) first++;
+        else if (j < t->first + t->k) k++;
+        q++;
+    }
+    if (k == 0) return PW_OK;
+    if (q == gr->p) {
+        /* The common case: every column in, the Sherman-Morrison inverse as it stands. */
+        *info = pattern ? pw_block_pattern_info(gr->inv, gr->p, t->first, t->k, NULL, 0.0, 0.0)
+                        : pw_block_info(gr->inv, gr->p, t->first, t->k);
+        return PW_OK;
+    }
+    /* Leaving columns out of a least-squares design is taking the submatrix of its cross-products
+     * (X_S'X_S), so the smaller design's inverse comes from the kept exact cross-products. */
+    double *sub = malloc(q * q * sizeof *sub), *inv = malloc(q * q * sizeof *inv);
+    int rc = PW_ENOMEM;
+    if (sub == NULL || inv == NULL) goto fail;
+    size_t r = 0;
+    for (size_t i = 0; i < gr->p; i++) {
+        if (!on[i]) continue;
+        size_t c = 0;
+        for (size_t j = 0; j < gr->p; j++)
+            if (on[j]) sub[r * q + c++] = gr->gram[i * gr->p + j];
+        r++;
+    }
+    if ((rc = pw_spd_inverse(sub, q, inv)) != PW_OK) goto fail;
+    *info = pattern ? pw_block_pattern_info(inv, q, first, k, NULL, 0.0, 0.0)
+                    : pw_block_info(inv, q, first, k);
+fail:
+    free(sub);
+    free(inv);
+    return rc;
+}
+
 int pw_aug_commit(pw_aug *a, const double *row, double w)
 {
     if (!(w > 0.0)) return PW_EDOM;

@@ -367,6 +367,12 @@ int pw_aug_score(pw_aug *a, const double *row, double w, double *score);
 /* About how many floating-point operations one pw_aug_score call costs now (groups with an active
  * target: p^2 for A^-1 x, a few per target), so callers can budget their rescoring. */
 double pw_aug_score_cost(const pw_aug *a);
+/* The information (as pw_aug_info, pattern choosing the measure) of target's block when only the
+ * group's columns j with on[j] != 0 (positions within its cols) enter the design: the inverse of
+ * the kept cross-products' submatrix, or the Sherman-Morrison inverse when all are on. 0 when none
+ * of the block's columns is on. PW_OK, PW_EDOM, PW_ENOMEM, PW_ESING. */
+int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, int pattern,
+                       double *info);
 /* Add w runs at row to every group (Sherman-Morrison, with a fresh Cholesky inverse of the kept
  * cross-products every PW_AUG_REFRESH commits to stop rounding drift). */
 #define PW_AUG_REFRESH 64

@@ -422,13 +422,24 @@ static const char *levels_graph =
     "s -> y effect 1\n"
     "x -> y effect 1\n";
 
+/* The same model without the independence declaration, so that each claim adjusts for the other
+ * input: s in the separating set of x -> y puts its dummies in that claim's design. */
+static const char *levels_adjusted_graph =
+    "# invented level-set test model, claims adjusted for the other input\n"
+    "input s levels {a, b, c, d}\n"
+    "input x real [0, 1]\n"
+    "output y real\n"
+    "s -> y effect 1\n"
+    "x -> y effect 1\n";
+
 /* Level-set and numeric treatments: the power predicted from the Sherman-Morrison-updated design
  * equals the power the assessment itself computes on the archive with the planned runs added
  * (least favourable level pattern, power/levels.c), with sigma held at the archive's value so that
  * only the design differs. The skewed level shares leave level d out of some thin archives; the
  * plan must then count it from scratch. Tolerance 1e-6: both sides are the same noncentral F or t
- * power of designs that agree to rounding (the plan's ridge is 1e-6 of one run). */
-static void test_levels_prediction(gsl_rng *r)
+ * power of designs that agree to rounding (the plan's ridge is 1e-6 of one run). graph is the
+ * model; drop_d draws the archive's s from levels a-c only. */
+static void test_levels_prediction(gsl_rng *r, const char *graph, int drop_d)
 {
     for (int trial = 0; trial < 4; trial++) {
         cov_graph *g = NULL;
@@ -436,7 +447,7 @@ static void test_levels_prediction(gsl_rng *r)
         cov_assessments *a = NULL, *a2 = NULL;
         cov_plan *p = NULL;
         cov_error err = {{0}, {0}};
-        if (cov_graph_parse_text("levels.graph", levels_graph, &g, &err) != COV_OK ||
+        if (cov_graph_parse_text("levels.graph", graph, &g, &err) != COV_OK ||
             cov_claims_derive(g, &c, &err) != COV_OK) {
             gsl_test(1, "levels graph: %s %s", err.where, err.msg);
             return;
@@ -446,7 +457,7 @@ static void test_levels_prediction(gsl_rng *r)
         d->n_runs = n0;
         int missing_d = 1;
         for (size_t i = 0; i < n0; i++) {
-            double u = gsl_rng_uniform(r);
+            double u = gsl_rng_uniform(r) * (drop_d ? 0.95 : 1.0);
             d->col[0][i] = u < 0.5 ? 0 : (u < 0.8 ? 1 : (u < 0.95 ? 2 : 3));
             missing_d &= d->col[0][i] != 3;
             d->col[1][i] = gsl_rng_uniform(r);
@@ -477,9 +488,10 @@ static void test_levels_prediction(gsl_rng *r)
             }
             pw_power(&d1, &pw);
             gsl_test_abs(p->items[j].power_after, pw, 1e-6,
-                         "levels trial %d%s: predicted power of %s -> y equals the augmented "
+                         "levels trial %d%s%s: predicted power of %s -> y equals the augmented "
                          "design's",
-                         trial, missing_d ? " (level d absent from the archive)" : "",
+                         trial, drop_d ? " (claims adjusted for the other input)" : "",
+                         missing_d ? " (level d absent from the archive)" : "",
                          g->vars[c->items[p->items[j].claim].treatment].name);
         }
         cov_plan_free(p);
@@ -586,8 +598,12 @@ int main(void)
     test_design_q();
     test_plan_file(r);
     test_calibration(r, slow);
-    test_levels_prediction(r);
+    test_levels_prediction(r, levels_graph, 0);
     test_empty_archive();
+    /* Last, so that the draws above stay as they were: an archive that never ran level d, and
+     * claims whose separating set holds s. A planned run at d adds a dummy column (and a
+     * parameter) to x -> y; without one, s -> y is tested on the three levels present. */
+    test_levels_prediction(r, levels_adjusted_graph, 1);
     gsl_rng_free(r);
     return gsl_test_summary();
 }
