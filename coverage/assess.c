@@ -820,7 +820,13 @@ void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c)
             c->status == COV_TESTABLE ? "testable" : "untestable");
     if (c->reason) cov_emit_json_string(out, c->reason);
     else fputs("null", out);
-    fprintf(out, ", \"steerable\": %s", c->steerable ? "true" : "false");
+    fprintf(out, ", \"steerable\": %s, \"minimal_conditioning\": [",
+            c->steerable ? "true" : "false");
+    for (size_t k = 0; k < c->n_min_cond; k++) {
+        if (k) fputs(", ", out);
+        cov_emit_json_string(out, g->vars[c->min_cond[k]].name);
+    }
+    fputc(']', out);
 }
 
 char *cov_claim_csv_set(const cov_graph *g, const cov_claim *c)
@@ -844,6 +850,20 @@ char *cov_claim_csv_set(const cov_graph *g, const cov_claim *c)
     }
     *q = '\0';
     return s;
+}
+
+void cov_claim_csv_min_field(FILE *out, const cov_graph *g, const cov_claim *c)
+{
+    /* The same cell as the conditioning set's, written from a view of the claim whose set is the
+     * minimal one. */
+    cov_claim view = *c;
+    view.cond = c->min_cond;
+    view.n_cond = c->n_min_cond;
+    char *set = cov_claim_csv_set(g, &view);
+    if (set != NULL) {
+        cov_emit_csv_field(out, set);
+        free(set);
+    }
 }
 
 void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c)

@@ -15,6 +15,7 @@ void cov_claims_free(cov_claims *c)
     if (c == NULL) return;
     for (size_t i = 0; i < c->n; i++) {
         free(c->items[i].cond);
+        free(c->items[i].min_cond);
         free(c->items[i].reason);
     }
     free(c->items);
@@ -104,15 +105,37 @@ fail:
     return rc;
 }
 
-/* Find the separating set of one claim. prefer lists the preferred candidate set (the parents of
- * the outcome, or of both ends); when all of it is recorded the separator is a minimal subset of
- * it, otherwise a minimal separator among all recorded variables. */
+/* The marked nodes as an ascending index array; *steerable = 1 when all are inputs. */
+static int to_set(const cov_graph *g, const unsigned char *z, size_t n, size_t **set, size_t *k,
+                  int *steerable)
+{
+    size_t m = 0;
+    for (size_t v = 0; v < n; v++) m += z[v] != 0;
+    *set = malloc((m ? m : 1) * sizeof **set);
+    if (*set == NULL) return COV_ENOMEM;
+    *k = 0;
+    *steerable = 1;
+    for (size_t v = 0; v < n; v++)
+        if (z[v]) {
+            (*set)[(*k)++] = v;
+            if (g->vars[v].role != COV_INPUT) *steerable = 0;
+        }
+    return COV_OK;
+}
+
+/* Find the sets of one claim. prefer marks the preferred set (the outcome's other parents, or
+ * the parents of both ends). When all of it is recorded the test adjusts for all of it: it always
+ * separates then (the local Markov property: a node is d-separated from its non-descendants by its
+ * parents; Lauritzen et al. 1990), and the extra parents of the outcome lower the residual
+ * variance, so the test is more precise than on a smaller set. min_cond is then a minimal subset
+ * of it; otherwise both are a minimal separator among all recorded variables. Each reported set
+ * is checked by an independent method, the Bayes-ball walk. */
 static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y,
                     const unsigned char *prefer, cov_claim *c)
 {
     size_t n = d->n;
     unsigned char *allowed = calloc(n ? n : 1, 1), *z = calloc(n ? n : 1, 1);
-    int rc = COV_ENOMEM, found = 0, all_recorded = 1;
+    int rc = COV_ENOMEM, found = 0, all_recorded = 1, sep = 0, steer = 0;
     if (allowed == NULL || z == NULL) goto fail;
     for (size_t v = 0; v < n; v++)
         if (prefer[v] && !recorded(g, v)) all_recorded = 0;
@@ -121,34 +144,35 @@ static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y,
         if (cov_dsep_minsep(d, x, y, allowed, z, &found)) goto fail;
     }
     if (!found) {
+        all_recorded = 0;
         for (size_t v = 0; v < n; v++) allowed[v] = recorded(g, v);
         if (cov_dsep_minsep(d, x, y, allowed, z, &found)) goto fail;
     }
-    if (found) {
-        /* The moral-graph result is checked by an independent method, the Bayes-ball walk. */
-        int sep = 0;
-        if (cov_dsep_separated(d, x, y, z, &sep)) goto fail;
+    if (!found) {
+        c->status = COV_UNTESTABLE;
+        c->steerable = 0;
+        if (untestable_reason(g, d, x, y, z, &c->reason)) goto fail;
+        rc = COV_OK;
+        goto fail;
+    }
+    if (cov_dsep_separated(d, x, y, z, &sep)) goto fail;
+    if (!sep) {
+        rc = COV_ENUMERIC;
+        goto fail;
+    }
+    if (to_set(g, z, n, &c->min_cond, &c->n_min_cond, &steer)) goto fail;
+    if (all_recorded) {
+        /* allowed still marks the whole preferred set. */
+        if (cov_dsep_separated(d, x, y, allowed, &sep)) goto fail;
         if (!sep) {
             rc = COV_ENUMERIC;
             goto fail;
         }
-        size_t k = 0;
-        for (size_t v = 0; v < n; v++) k += z[v] != 0;
-        c->cond = malloc((k ? k : 1) * sizeof *c->cond);
-        if (c->cond == NULL) goto fail;
-        c->n_cond = 0;
-        c->steerable = 1;
-        for (size_t v = 0; v < n; v++)
-            if (z[v]) {
-                c->cond[c->n_cond++] = v;
-                if (g->vars[v].role != COV_INPUT) c->steerable = 0;
-            }
-        c->status = COV_TESTABLE;
+        if (to_set(g, allowed, n, &c->cond, &c->n_cond, &c->steerable)) goto fail;
     } else {
-        c->status = COV_UNTESTABLE;
-        c->steerable = 0;
-        if (untestable_reason(g, d, x, y, z, &c->reason)) goto fail;
+        if (to_set(g, z, n, &c->cond, &c->n_cond, &c->steerable)) goto fail;
     }
+    c->status = COV_TESTABLE;
     rc = COV_OK;
 fail:
     free(allowed);

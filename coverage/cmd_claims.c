@@ -86,7 +86,7 @@ fail:
 static int print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
 {
     fputs("kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,reason,"
-          "steerable\n", out);
+          "steerable,minimal_conditioning\n", out);
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
         char *set = cov_claim_csv_set(g, c);
@@ -102,7 +102,9 @@ static int print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
         fprintf(out, ",%s,%d,%s,", c->effect.unit == COV_UNIT_SD ? "sd" : "raw", c->sign,
                 c->status == COV_TESTABLE ? "testable" : "untestable");
         cov_emit_csv_field(out, c->reason ? c->reason : "");
-        fprintf(out, ",%d\n", c->steerable);
+        fprintf(out, ",%d,", c->steerable);
+        cov_claim_csv_min_field(out, g, c);
+        fputc('\n', out);
         free(set);
     }
     return COV_OK;

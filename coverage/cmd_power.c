@@ -96,7 +96,8 @@ static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assess
 {
     fputs("kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,"
           "steerable,n,df,sigma,sd_treatment_resid,alpha,power,power_lo,power_hi,mde,mde_lo,"
-          "mde_hi,runs_needed,effect_raw,estimate,se,verdict,noise_flag,noise_note,reason\n", out);
+          "mde_hi,runs_needed,effect_raw,estimate,se,verdict,noise_flag,noise_note,reason,"
+          "minimal_conditioning\n", out);
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
         const cov_assessment *a = &as->items[i];
@@ -113,6 +114,8 @@ static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assess
         csv_text(out, a->noise_note);
         fputc(',', out);
         csv_text(out, a->reason);
+        fputc(',', out);
+        cov_claim_csv_min_field(out, g, c);
         fputc('\n', out);
     }
 }

@@ -97,7 +97,8 @@ typedef enum { COV_TESTABLE, COV_UNTESTABLE } cov_claim_status;
 typedef struct {
     cov_claim_kind kind;
     size_t treatment, outcome;  /* variable indices */
-    size_t *cond;               /* separating set, ascending variable indices, recorded variables */
+    size_t *cond;               /* the set the test adjusts for, ascending variable indices: the
+                                   preferred parent set when all of it is recorded, else min_cond */
     size_t n_cond;
     cov_amount effect;          /* effect of interest (effect claim) or margin (absence claim),
                                    defaults applied */
@@ -105,6 +106,9 @@ typedef struct {
     cov_claim_status status;
     char *reason;               /* untestable: the hidden variable or open path; NULL otherwise */
     int steerable;              /* 1 when the separating set holds inputs only */
+    size_t *min_cond;           /* a minimal separator among recorded variables, ascending; equal
+                                   to cond when cond is already minimal (testable claims only) */
+    size_t n_min_cond;
 } cov_claim;
 
 typedef struct {

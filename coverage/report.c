@@ -340,7 +340,8 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
 void cov_report_claims_csv(const cov_findings *f, FILE *out)
 {
     fputs("index,kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,"
-          "steerable,verdict,n,power,power_lo,power_hi,mde,effect_raw,runs_needed,why\n", out);
+          "steerable,verdict,n,power,power_lo,power_hi,mde,effect_raw,runs_needed,why,"
+          "minimal_conditioning\n", out);
     for (size_t i = 0; i < f->claims->n; i++) {
         const cov_claim *c = &f->claims->items[i];
         const cov_assessment *a = c->status == COV_TESTABLE ? cov_report_assessment(f, i) : NULL;
@@ -355,6 +356,8 @@ void cov_report_claims_csv(const cov_findings *f, FILE *out)
             fputc(',', out);
         }
         cov_emit_csv_field(out, cov_report_reason(f, i) ? cov_report_reason(f, i) : "");
+        fputc(',', out);
+        cov_claim_csv_min_field(out, f->graph, c);
         fputc('\n', out);
     }
 }

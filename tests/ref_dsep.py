@@ -23,7 +23,8 @@ DESIGN = "__design__"  # our own node for the campaign's design; no graph name c
 
 shoal = os.environ.get("SHOAL", "build/shoal")
 failures = []          # (category, message)
-counts = {"graphs": 0, "claims": 0, "testable": 0, "untestable": 0, "brute": 0, "subset": 0}
+counts = {"graphs": 0, "claims": 0, "testable": 0, "untestable": 0, "brute": 0, "subset": 0,
+          "preferred": 0}
 
 
 def fail(msg, cat="claims"):
@@ -184,6 +185,7 @@ def check_graph(idx, tmp, rng, n):
     for c in doc["claims"]:
         counts["claims"] += 1
         x, y, S = c["treatment"], c["outcome"], set(c["conditioning"])
+        M = set(c["minimal_conditioning"])
         H = G.copy()
         if c["kind"] == "effect":
             H.remove_edge(x, y)
@@ -199,30 +201,47 @@ def check_graph(idx, tmp, rng, n):
                 want_eff, want_unit, want_sign))
         if c["status"] == "testable":
             counts["testable"] += 1
-            if not S <= recorded - {x, y}:
-                fail("%s: %s %s->%s set %s holds unrecorded names" % (path, c["kind"], x, y, S))
+            if not (S | M) <= recorded - {x, y}:
+                fail("%s: %s %s->%s sets %s, %s hold unrecorded names" % (path, c["kind"], x, y,
+                                                                          S, M))
                 continue
+            # The set the test adjusts for separates.
             if not nx.d_separated(H, {x}, {y}, S):
                 fail("%s: %s %s->%s: %s does not d-separate" % (path, c["kind"], x, y, S), "sep")
                 continue
-            for z in S:
-                if nx.d_separated(H, {x}, {y}, S - {z}):
-                    fail("%s: %s %s->%s: %s is not minimal (drop %s)" % (path, c["kind"], x, y,
-                                                                         S, z), "sep")
-            if n <= BRUTE_MAX_NODES:
-                counts["subset"] += 1
-                for sub in proper_subsets(S):
-                    if nx.d_separated(H, {x}, {y}, sub):
-                        fail("%s: %s %s->%s: proper subset %s of %s separates" % (
-                            path, c["kind"], x, y, sub, S), "subset")
-                        break
-            # The preferred set (parents of the outcome, or of both ends) when all recorded.
+            # It is the preferred set (parents of the outcome, or of both ends, in H: with the
+            # design node unless `design independent`) whenever all of that is recorded.
             pref = set(H.predecessors(y)) - {x}
             if c["kind"] == "absence":
-                pref |= set(H.predecessors(x))
-            if pref <= recorded and not S <= pref:
-                fail("%s: %s %s->%s: %s is not within the recorded parents %s" % (
-                    path, c["kind"], x, y, S, pref))
+                pref |= set(H.predecessors(x)) - {y}
+            if pref <= recorded:
+                counts["preferred"] += 1
+                if S != pref:
+                    fail("%s: %s %s->%s: adjusts for %s, expected the recorded parents %s" % (
+                        path, c["kind"], x, y, S, pref), "pref")
+            elif S != M:
+                fail("%s: %s %s->%s: adjusts for %s, expected the minimal set %s when a parent "
+                     "is hidden" % (path, c["kind"], x, y, S, M), "pref")
+            # The minimal set separates, no single member can be dropped, and it lies within the
+            # adjusted set.
+            if not M <= S:
+                fail("%s: %s %s->%s: minimal %s is not within %s" % (path, c["kind"], x, y, M, S),
+                     "sep")
+            if not nx.d_separated(H, {x}, {y}, M):
+                fail("%s: %s %s->%s: minimal %s does not d-separate" % (path, c["kind"], x, y, M),
+                     "sep")
+                continue
+            for z in M:
+                if nx.d_separated(H, {x}, {y}, M - {z}):
+                    fail("%s: %s %s->%s: %s is not minimal (drop %s)" % (path, c["kind"], x, y,
+                                                                         M, z), "sep")
+            if n <= BRUTE_MAX_NODES:
+                counts["subset"] += 1
+                for sub in proper_subsets(M):
+                    if nx.d_separated(H, {x}, {y}, sub):
+                        fail("%s: %s %s->%s: proper subset %s of %s separates" % (
+                            path, c["kind"], x, y, sub, M), "subset")
+                        break
             if c["steerable"] != (S <= inputs):
                 fail("%s: %s %s->%s steerable %s for %s" % (path, c["kind"], x, y,
                                                             c["steerable"], S))
@@ -230,6 +249,8 @@ def check_graph(idx, tmp, rng, n):
                 fail("%s: testable claim with a reason" % path)
         else:
             counts["untestable"] += 1
+            if S or M:
+                fail("%s: untestable claim with sets %s, %s" % (path, S, M))
             r = c["reason"] or ""
             hidden_named = any(names[v] in r for v in range(n) if role[v] == "hidden") or \
                 "[design]" in r
@@ -270,11 +291,15 @@ def main():
     total = N_SMALL + N_LARGE
     verdict = lambda cat, n: "PASS" if cat not in bad and n > 0 else "FAIL"
     print("%s: %d of %d random graphs parsed and gave the claims the definitions imply (kinds, "
-          "pairs, order, effects, preferred parent sets, steerable) %s" % (
+          "pairs, order, effects, steerable) %s" % (
               verdict("claims", counts["graphs"] == total), counts["graphs"], total, src))
-    print("%s: %d testable claims: each set d-separates and no single member can be dropped %s"
+    print("%s: %d testable claims: conditioning and minimal_conditioning each d-separate, the "
+          "minimal set lies within conditioning and no single member of it can be dropped %s"
           % (verdict("sep", counts["testable"]), counts["testable"], src))
-    print("%s: %d testable claims on <= %d nodes: no proper subset separates %s" % (
+    print("%s: %d testable claims whose preferred parent set is all recorded adjust for exactly "
+          "that set, the others for the minimal set %s" % (verdict("pref", counts["preferred"]), counts["preferred"], src))
+    print("%s: %d testable claims on <= %d nodes: no proper subset of minimal_conditioning "
+          "separates %s" % (
         verdict("subset", counts["subset"]), counts["subset"], BRUTE_MAX_NODES, src))
     print("%s: %d untestable claims on <= %d nodes confirmed by brute force over all subsets of "
           "recorded variables %s" % (verdict("brute", counts["brute"]), counts["brute"],

@@ -135,13 +135,13 @@ static void make_coverage(void)
 
 #define N_CLAIMS 6
 static cov_claim claim_items[N_CLAIMS] = {
-    {COV_CLAIM_EFFECT, 0, 4, NULL, 0, {0.2, COV_UNIT_RAW}, 1, COV_TESTABLE, NULL, 1},
-    {COV_CLAIM_EFFECT, 1, 4, NULL, 0, {0.5, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1},
-    {COV_CLAIM_EFFECT, 2, 5, NULL, 0, {0.8, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1},
-    {COV_CLAIM_EFFECT, 3, 5, NULL, 0, {0.3, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1},
-    {COV_CLAIM_ABSENCE, 0, 5, NULL, 0, {0.1, COV_UNIT_SD}, 0, COV_TESTABLE, NULL, 1},
+    {COV_CLAIM_EFFECT, 0, 4, NULL, 0, {0.2, COV_UNIT_RAW}, 1, COV_TESTABLE, NULL, 1, NULL, 0},
+    {COV_CLAIM_EFFECT, 1, 4, NULL, 0, {0.5, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1, NULL, 0},
+    {COV_CLAIM_EFFECT, 2, 5, NULL, 0, {0.8, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1, NULL, 0},
+    {COV_CLAIM_EFFECT, 3, 5, NULL, 0, {0.3, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1, NULL, 0},
+    {COV_CLAIM_ABSENCE, 0, 5, NULL, 0, {0.1, COV_UNIT_SD}, 0, COV_TESTABLE, NULL, 1, NULL, 0},
     {COV_CLAIM_ABSENCE, 3, 4, NULL, 0, {0.1, COV_UNIT_SD}, 0, COV_UNTESTABLE,
-     "open path through hidden load", 0},
+     "open path through hidden load", 0, NULL, 0},
 };
 static cov_claims claims = {claim_items, N_CLAIMS};
 
@@ -553,7 +553,7 @@ static void test_big(const char *tmp)
     bc.worst = bworst;
     for (size_t c = 0; c < BIG_CLAIMS; c++) {
         bclaims[c] = (cov_claim){COV_CLAIM_EFFECT, c % BIG_IN, BIG_IN + c / BIG_IN, NULL, 0,
-                                 {0.2, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1};
+                                 {0.2, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1, NULL, 0};
         cov_assessment *it = &bitems[c];
         memset(it, 0, sizeof *it);
         it->claim = c;
