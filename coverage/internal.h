@@ -285,7 +285,8 @@ typedef struct {
 } cov_report_info;
 
 /* Write index.html, report.md, summary.json and claims.csv into the existing directory dir. The
- * plots of cov_plot_list already in dir (NAME.svg) are embedded in index.html as data URIs, unless
+ * plots of cov_plot_list already in dir (NAME.svg) are inlined in index.html as <svg> elements (a
+ * file that gnuplot's plain svg terminal could not have written becomes an <img> data URI), unless
  * info->plot_note says they were skipped. Every user string is escaped for its format. Test hook:
  * with the environment variable SHOAL_TEST_FAULT=report it fails halfway (COV_EIO).
  * Returns COV_OK, COV_EIO, COV_ENOMEM. */

@@ -1,7 +1,8 @@
 #!/bin/sh
 # The demo report in a real browser: headless Chromium (Debian's chromium) loads index.html; every
-# image must load, the claims table must be there and sort, and the screenshot must not be blank.
-# Two negative controls show the checks can fail: a page with a broken image, and a blank page.
+# plot must be an inline SVG drawn with a size, ids unique, no script inside any SVG, the claims
+# table there and sortable, user names shown as text, and the screenshot not blank. Negative
+# controls show the checks can fail: a broken image, a page breaking the SVG rules, a blank page.
 # SKIP only when chromium is missing and cannot be installed. See LICENSE.
 : "${SHOAL:=build/shoal}" "${PYTHON:=/usr/bin/python3}"
 fails=0
@@ -60,11 +61,12 @@ case $marker in
 BROWSER-CHECK-OK*) ok "chromium rendered the report: $marker" ;;
 *) bad "chromium's check of the report: ${marker:-no marker in the DOM ($(tail -3 "$tmp/chromium.log"))}" ;;
 esac
-imgs=$(echo "$marker" | sed -n 's/.*images=\([0-9]*\).*/\1/p')
+plots=$(echo "$marker" | sed -n 's/.* plots=\([0-9]*\).*/\1/p')
+imgs=$(echo "$marker" | sed -n 's/.* images=\([0-9]*\).*/\1/p')
 files=$(ls "$tmp/report" | grep -c '\.svg$')
-if [ -n "$imgs" ] && [ "$imgs" -eq "$files" ] && [ "$imgs" -gt 0 ]; then
-  ok "every plot file is an image in the page ($imgs of $files)"
-else bad "images in the page ($imgs) differ from the SVG plot files ($files)"; fi
+if [ -n "$plots" ] && [ "$plots" -eq "$files" ] && [ "$plots" -gt 0 ] && [ "$imgs" = 0 ]; then
+  ok "every plot file is an inline svg in the page, drawn with a size ($plots of $files, $imgs <img>)"
+else bad "inline svg plots in the page ($plots) differ from the SVG plot files ($files), or <img> left ($imgs)"; fi
 if grep -q 'id="claims-table"' "$tmp/dom.html" && echo "$marker" | grep -q 'rows=[1-9]'; then
   ok "the claims table is in the rendered DOM with rows"
 else bad "no claims table with rows in the rendered DOM"; fi
@@ -76,6 +78,32 @@ run_browser --dump-dom "file://$tmp/broken-check.html" >"$tmp/dom2.html"
 if grep -q '<pre id="browser-check">BROWSER-CHECK-FAIL image 1 did not load' "$tmp/dom2.html"; then
   ok "negative control: the probe reports a broken image"
 else bad "negative control: the probe missed a broken image: $(grep -o 'BROWSER-CHECK[^<]*' "$tmp/dom2.html")"; fi
+
+# Negative control: duplicate ids, an SVG drawn without a size, a script inside an SVG and a user
+# name turned into markup must each be reported.
+printf '%s\n' '<!DOCTYPE html><html><body><table id="claims-table"><thead><tr><th>power</th></tr></thead><tbody><tr><td data-v="1"><script>/* a name as markup */</script>it&#39;s; odd</td></tr></tbody></table>' \
+  '<svg width="0" height="0"><circle id="gpDot" r="1"/></svg><svg width="20" height="20"><circle id="gpDot" r="1"/><script>/* in svg */</script></svg></body></html>' >"$tmp/bad-svg.html"
+with_probe "$tmp/bad-svg.html" "$tmp/bad-svg-check.html"
+run_browser --dump-dom "file://$tmp/bad-svg-check.html" >"$tmp/dom3.html"
+m3=$(sed -n 's/.*<pre id="browser-check">\([^<]*\)<\/pre>.*/\1/p' "$tmp/dom3.html" | head -1)
+case $m3 in
+BROWSER-CHECK-FAIL*"has no size"*"duplicate ids"*"inside svg"*"odd=no"*) ok "negative control: the probe reports a sizeless svg, duplicate ids, a script in svg ($m3)" ;;
+*) bad "negative control: the probe missed a broken svg rule: ${m3:-no marker}" ;;
+esac
+
+# 1b. User names '<script>' and it's; "odd" appear on the page as text, never as markup: the only
+#     scripts are the page's sorter and the injected probe (invented scenario, seed 11).
+. "$here/tests/browser/odd_names.sh"
+odd_names "$tmp"
+"$SHOAL" import "$tmp/odd.csv" --archive "$tmp/odd.db" >/dev/null 2>&1
+"$SHOAL" survey "$tmp/odd.graph" "$tmp/odd.db" -o "$tmp/odd-report" >/dev/null 2>&1
+with_probe "$tmp/odd-report/index.html" "$tmp/odd-report/check.html"
+run_browser --dump-dom "file://$tmp/odd-report/check.html" >"$tmp/dom4.html"
+m4=$(sed -n 's/.*<pre id="browser-check">\([^<]*\)<\/pre>.*/\1/p' "$tmp/dom4.html" | head -1)
+case $m4 in
+BROWSER-CHECK-OK*" scripts=2 odd=yes"*) ok "the names '<script>' and it's; \"odd\" show as text, not markup ($m4)" ;;
+*) bad "odd names in the browser: ${m4:-no marker in the DOM}" ;;
+esac
 
 # 2. The screenshot is not blank: many colours, and plenty of pixels off the background
 #    (tests/browser/pngstats.py decodes the PNG with zlib alone).

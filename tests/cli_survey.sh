@@ -3,7 +3,7 @@
 # every report format, atomic writing of the report, and the history rounds. See LICENSE.
 #
 # Reference parsers outside shoal check the output: Python's json (RFC 8259), csv (RFC 4180),
-# html.parser (HTML5 tokenising), base64 (RFC 4648) and sqlite3 modules. The synthetic campaigns
+# html.parser (HTML5 tokenising), xml.etree (XML 1.0), base64 (RFC 4648) and sqlite3 modules. The synthetic campaigns
 # are generated here with a fixed seed; the demo is fixtures/demo (invented).
 : "${SHOAL:=build/shoal}" "${PYTHON:=/usr/bin/python3}" "${BUILD:=build}"
 fails=0
@@ -117,37 +117,172 @@ check $(ls "$tmp/r-noplot" | grep -q '\.svg$\|\.png$'; [ $? -ne 0 ]; echo $?) "n
 "$PYTHON" -c 'import json,sys; d=json.load(open(sys.argv[1])); assert d["plots"]["made"] is False and "gnuplot" in d["plots"]["note"]' \
   "$tmp/r-noplot/summary.json" 2>/dev/null
 check $? "summary.json records that the plots were skipped"
-# With gnuplot, every plot in the page is a data URI that decodes (python base64) to its SVG file.
-"$PYTHON" - "$tmp/r-demo" <<'EOF' >"$tmp/py" 2>&1
-import base64, glob, os, re, sys
-page = open(sys.argv[1] + "/index.html").read()
-uris = re.findall(r'src="data:image/svg\+xml;base64,([A-Za-z0-9+/=]+)"', page)
-files = sorted(glob.glob(sys.argv[1] + "/*.svg"))
-assert len(files) > 0 and len(uris) == len(files), (len(uris), len(files))
-blobs = sorted(base64.b64decode(u, validate=True) for u in uris)
-assert blobs == sorted(open(f, "rb").read() for f in files)
+# With gnuplot, every plot is an inline <svg> in the page (python html.parser) that matches its SVG
+# file element by element (python xml.etree), with each plot's ids and references renamed apart.
+cat >"$tmp/svgpage.py" <<'EOF'
+import base64, collections, glob, re, sys
+import xml.etree.ElementTree as ET
+from html.parser import HTMLParser
+XLINK = "{http://www.w3.org/1999/xlink}"
+def norm_value(name, v):
+    v = re.sub(r"[\t\n\r]", " ", v)   # as XML 1.0 section 3.3.3 normalises attribute values
+    if name == "id": return re.sub(r"^p\d+-", "", v)
+    if name.endswith("href"): return re.sub(r"^#p\d+-", "#", v)
+    return re.sub(r"url\(#p\d+-", "url(#", v)
+def file_sig(path):
+    """The plot file as the page should hold it: root attributes, then each element below it (but
+    gnuplot's root <title>) with its attributes and text, names lower-cased as HTML parses them."""
+    root = ET.parse(path).getroot()
+    out = []
+    def walk(el, depth):
+        tag = el.tag.split("}")[-1].lower()
+        if depth == 1 and tag == "title": return
+        attrs = tuple(sorted(((k.replace(XLINK, "xlink:") if k.startswith(XLINK) else k).lower(), v)
+                             for k, v in el.attrib.items()))
+        if depth == 0: attrs = tuple(a for a in attrs if a[0] != "viewbox")
+        out.append((tag, attrs, (el.text or "").strip()))
+        for c in el: walk(c, depth + 1)
+        if depth and (el.tail or "").strip(): out.append(("#text", (), el.tail.strip()))
+    walk(root, 0)
+    return out
+class Page(HTMLParser):
+    def __init__(self):
+        super().__init__(convert_charrefs=True)
+        self.svgs = []; self.cur = None; self.depth = 0; self.ids = []; self.stack = []
+        self.in_caption = False; self.captions = []; self.svg_scripts = 0; self.imgs = []
+        self.comments = []
+    def handle_starttag(self, tag, attrs):
+        d = dict(attrs)
+        if "id" in d: self.ids.append(d["id"])
+        if tag == "img": self.imgs.append(d.get("src", ""))
+        if tag == "figcaption": self.in_caption = True; self.captions.append("")
+        if tag == "svg" and self.depth == 0 and self.stack and self.stack[-1] == "figure":
+            self.cur = {"root": d, "items": [], "ids": [], "refs": [], "title": None}
+            self.svgs.append(self.cur)
+        if self.cur is not None:
+            if tag in ("script", "foreignobject") or any(k.startswith("on") for k in d):
+                self.svg_scripts += 1
+            if "id" in d: self.cur["ids"].append(d["id"])
+            for k, v in attrs:
+                if k.endswith("href"): self.cur["refs"].append(v)
+                self.cur["refs"] += ["#" + m for m in re.findall(r"url\(#([^)]*)\)", v)]
+            skip = {"role", "aria-label", "xmlns", "xmlns:xlink", "viewbox"} if self.depth == 0 else set()
+            a = tuple(sorted((k, norm_value(k, v)) for k, v in attrs if k not in skip))
+            # The first <title> of the root is the caption shoal puts in place of gnuplot's own.
+            if not (self.depth == 1 and tag == "title" and self.cur["title"] is None):
+                self.cur["items"].append([tag, a, ""])
+            else: self.cur["title"] = ""
+            self.depth += 1
+        self.stack.append(tag)
+    def handle_startendtag(self, tag, attrs):
+        self.handle_starttag(tag, attrs); self.handle_endtag(tag)
+    def handle_endtag(self, tag):
+        if self.stack: self.stack.pop()
+        if tag == "figcaption": self.in_caption = False
+        if self.cur is not None:
+            self.depth -= 1
+            if self.depth == 0: self.cur = None
+    def handle_data(self, data):
+        if self.in_caption: self.captions[-1] += data
+        if self.cur is not None and data.strip():
+            items = self.cur["items"]
+            if self.stack[-1] == "title" and self.depth == 2 and self.cur["title"] == "":
+                self.cur["title"] = data
+            elif self.stack[-1] == items[-1][0] and not items[-1][2]: items[-1][2] = data.strip()
+            else: items.append(["#text", (), data.strip()])
+    def handle_comment(self, data): self.comments.append(data)
+def check(report, expect_inline):
+    page = open(report + "/index.html").read()
+    p = Page(); p.feed(page)
+    files = {f: open(f, "rb").read() for f in sorted(glob.glob(report + "/*.svg"))}
+    assert len(files) > 0
+    # Ids are unique across the whole document, each plot's ids carry its own prefix pK-, and every
+    # reference inside a plot names an id of that same plot.
+    assert len(p.ids) == len(set(p.ids)), [i for i, n in collections.Counter(p.ids).items() if n > 1][:5]
+    prefixes = []
+    for svg in p.svgs:
+        pre = {re.match(r"(p\d+-)", i).group(1) for i in svg["ids"]}
+        assert len(pre) <= 1, pre
+        prefixes += list(pre)
+        assert all(r.startswith("#") and r[1:] in svg["ids"] for r in svg["refs"]), svg["refs"][:5]
+        r = svg["root"]
+        assert r.get("role") == "img" and r.get("aria-label") and r.get("viewbox"), r
+        assert svg["title"] == r["aria-label"], (svg["title"], r["aria-label"])
+    assert len(prefixes) == len(set(prefixes)), prefixes
+    assert p.svg_scripts == 0, "a script, foreignObject or on... attribute inside an svg"
+    # Every plot file is in the page exactly once: inline, element by element, or (when refused)
+    # as an <img> data URI that decodes (python base64) to the file's bytes, with a comment.
+    inline = sorted(repr([(t, a, x) for t, a, x in s["items"]]) for s in p.svgs)
+    want = sorted(repr(file_sig(f)) for f, b in files.items() if expect_inline(f))
+    assert inline == want, "inline plots differ from their files (%d inline, %d files)" % (len(inline), len(want))
+    blobs = sorted(base64.b64decode(u.split(",", 1)[1], validate=True) for u in p.imgs
+                   if u.startswith("data:image/svg+xml;base64,"))
+    assert blobs == sorted(b for f, b in files.items() if not expect_inline(f)), "refused plots"
+    assert len(p.imgs) == len(blobs)
+    assert len([c for c in p.comments if "shown as an image" in c]) == len(blobs)
+    assert sorted(s["root"]["aria-label"] for s in p.svgs) == sorted(
+        c for c in p.captions if c in {s["root"]["aria-label"] for s in p.svgs})
+    return p
+if __name__ == "__main__":
+    if sys.argv[2] == "all":
+        p = check(sys.argv[1], lambda f: True)
+        assert len(p.svgs) == len(glob.glob(sys.argv[1] + "/*.svg"))
+    else:
+        names = sys.argv[2].split(",")
+        p = check(sys.argv[1], lambda f: f.rsplit("/", 1)[1][:-4] in names)
+        mde = [s for s in p.svgs if s["root"].get("width") == "640"]
+        assert len(mde) == 1 and mde[0]["root"]["viewbox"] == "0 0 640 400", "viewBox not added"
 EOF
-check $? "each embedded plot decodes (python base64, RFC 4648) to its SVG file $(cat "$tmp/py")"
+"$PYTHON" "$tmp/svgpage.py" "$tmp/r-demo" all >"$tmp/py" 2>&1
+check $? "each plot is an inline svg matching its file (python html.parser, xml.etree), ids unique, no script $(cat "$tmp/py")"
+
+# Negative controls: a stand-in gnuplot on PATH writes plots holding a <script>, an onload
+# attribute, a <foreignObject>, an external href and an external url(); each must stay out of the
+# DOM (an <img> data URI instead), while two clean plots are inlined (one without a viewBox, which
+# gets one from its size) and their shared ids gpDot and textbox are renamed apart.
+mkdir "$tmp/fakebin"
+cat >"$tmp/fakebin/gnuplot" <<EOF
+#!$PYTHON
+EOF
+cat >>"$tmp/fakebin/gnuplot" <<'EOF'
+import re, sys
+head = '<?xml version="1.0" encoding="utf-8" standalone="no"?>\n<!DOCTYPE svg PUBLIC "-//W3C//DTD SVG 1.1//EN" "http://www.w3.org/Graphics/SVG/1.1/DTD/svg11.dtd">\n<!-- a comment -->\n'
+root = '<svg width="900" height="560" viewBox="0 0 900 560" xmlns="http://www.w3.org/2000/svg" xmlns:xlink="http://www.w3.org/1999/xlink">\n<title>Gnuplot</title>\n'
+body = {
+    "pairs": '<g><script>alert(1)</script></g>',
+    "pair-1": '<rect width="9" height="9" onload="alert(1)"/>',
+    "pair-2": '<foreignObject width="9" height="9"><p>x</p></foreignObject>',
+    "pair-3": '<use xlink:href="http://example.invalid/a.svg#gpDot"/>',
+    "power": '<rect width="9" height="9" fill="url(file:///etc/hostname)"/>',
+}
+clean = ("<defs><circle id='gpDot' r='0.5'/><filter id='textbox'><feFlood flood-color='#FFFFFF'/></filter></defs>"
+         "<g id=\"gnuplot_plot_1\"><title>plot one</title><use xlink:href='#gpDot' x='10' y='20'/>"
+         "<text x='5' y='5' style='filter:url(#textbox)'>a &lt; b &amp; c</text></g>")
+for path in re.findall(r"set output '([^']*)'", sys.stdin.read()):
+    name = path.rsplit("/", 1)[1]
+    with open(path, "wb") as f:
+        if name.endswith(".png"): f.write(b"\x89PNG stand-in"); continue
+        base = name[:-4]
+        if base == "mde":
+            f.write((head + '<svg width="640" height="400" xmlns="http://www.w3.org/2000/svg" xmlns:xlink="http://www.w3.org/1999/xlink">\n' + clean + "</svg>\n").encode())
+        else:
+            f.write((head + root + body.get(base, clean) + "\n</svg>\n").encode())
+EOF
+chmod +x "$tmp/fakebin/gnuplot"
+PATH="$tmp/fakebin:$PATH" "$SHOAL" survey "$demo_graph" "$tmp/demo.db" -o "$tmp/r-hostile" >/dev/null 2>"$tmp/err"
+rc=$?
+check $([ "$rc" -eq 1 ] && [ -s "$tmp/r-hostile/mde.svg" ]; echo $?) "the survey with a stand-in gnuplot ran (got $rc: $(head -2 "$tmp/err"))"
+"$PYTHON" "$tmp/svgpage.py" "$tmp/r-hostile" mde,curves >"$tmp/py" 2>&1
+check $? "SVGs with a script, onload, foreignObject or external reference stay <img>; clean ones inline with ids apart $(cat "$tmp/py")"
+check $(grep -c 'shown as an image, not inline' "$tmp/r-hostile/index.html" | grep -qx 5; echo $?) \
+  "the page says in a comment why each of the 5 refused plots is an image"
+# The checker itself must fail when a refused plot is taken for an inline one.
+"$PYTHON" "$tmp/svgpage.py" "$tmp/r-hostile" all >/dev/null 2>&1
+check $([ $? -ne 0 ]; echo $?) "negative control: the page checker rejects a page whose plots are not all inline"
 
 # ---- escaping: names '<script>' and it's; "odd" in every format ---------------------------------
-cat >"$tmp/odd.graph" <<'EOF'
-input "<script>" real [0, 1]
-input "it's; \"odd\"" bool
-output "a&b" real
-default effect 0.5 sd
-default margin 0.1 sd
-"<script>" -> "a&b"
-"it's; \"odd\"" -> "a&b"
-EOF
-"$PYTHON" - "$tmp/odd.csv" <<'EOF'
-import random, sys
-r = random.Random(11)
-with open(sys.argv[1], "w") as f:
-    f.write('"<script>","it\'s; ""odd""","a&b"\n')
-    for _ in range(120):
-        a, b = r.random(), r.randint(0, 1)
-        f.write("%.4f,%d,%.4f\n" % (a, b, a + 0.5 * b + r.gauss(0, 0.3)))
-EOF
+. tests/browser/odd_names.sh
+odd_names "$tmp"
 "$SHOAL" import "$tmp/odd.csv" --archive "$tmp/odd.db" >/dev/null 2>"$tmp/err" || bad "import of odd names: $(cat "$tmp/err")"
 "$SHOAL" survey "$tmp/odd.graph" "$tmp/odd.db" -o "$tmp/r-odd" >/dev/null 2>"$tmp/err"
 rc=$?
@@ -213,7 +348,8 @@ db = sqlite3.connect(sys.argv[2])
 assert db.execute("select count(*) from shoal_rounds").fetchone()[0] == 2
 assert db.execute("select count(distinct round) from shoal_round_claims").fetchone()[0] == 2
 page = open(sys.argv[1] + "/index.html").read()
-assert page.count("<circle") == 2, "the rounds chart should show two points"
+chart = page[page.index('<svg id="rounds-chart"'):]
+assert chart[:chart.index("</svg>")].count("<circle") == 2, "the rounds chart should show two points"
 EOF
 check $? "two imports and two surveys give two rounds, in the archive (python sqlite3) $(cat "$tmp/py")"
 check $(grep -q "history: round 2" "$tmp/out"; echo $?) "the terminal says this is round 2"

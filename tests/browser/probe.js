@@ -12,6 +12,29 @@ window.addEventListener('load', function () {
     var box = s.getBoundingClientRect();
     if (box.width === 0 || box.height === 0) problems.push('svg ' + (i + 1) + ' has no size');
   });
+  // The plots: each an inline <svg> of its own figure, drawn with a size.
+  var plots = document.querySelectorAll('figure > svg').length;
+  // Ids unique across the whole document, so no plot's references land in another plot.
+  var seen = {}, dups = 0;
+  document.querySelectorAll('[id]').forEach(function (el) {
+    if (seen[el.id]) dups++;
+    seen[el.id] = true;
+  });
+  if (dups) problems.push(dups + ' duplicate ids');
+  // No script element (in any namespace) and no event handler attribute inside any SVG.
+  var svgScripts = 0;
+  svgs.forEach(function (s) {
+    s.querySelectorAll('*').forEach(function (el) {
+      if (el.localName.toLowerCase() === 'script' || el.localName === 'foreignObject') svgScripts++;
+      for (var a = 0; a < el.attributes.length; a++)
+        if (/^on/i.test(el.attributes[a].name)) svgScripts++;
+    });
+  });
+  if (svgScripts) problems.push(svgScripts + ' scripts or handlers inside svg');
+  var scripts = document.getElementsByTagName('script').length;
+  // What a reader sees (innerText leaves out script source): the odd names as plain text.
+  var seenText = document.body.innerText;
+  var odd = seenText.indexOf('<script>') >= 0 && seenText.indexOf('it\'s; "odd"') >= 0;
   var table = document.getElementById('claims-table');
   var rows = table ? table.tBodies[0].rows.length : 0;
   if (rows === 0) problems.push('no claims table');
@@ -37,6 +60,7 @@ window.addEventListener('load', function () {
   marker.id = 'browser-check';
   marker.textContent = (problems.length ? 'BROWSER-CHECK-FAIL ' + problems.join('; ')
                                         : 'BROWSER-CHECK-OK') +
-      ' images=' + imgs.length + ' svgs=' + svgs.length + ' rows=' + rows + ' sorted=' + sorted;
+      ' images=' + imgs.length + ' svgs=' + svgs.length + ' plots=' + plots + ' scripts=' +
+      scripts + ' odd=' + (odd ? 'yes' : 'no') + ' rows=' + rows + ' sorted=' + sorted;
   document.body.appendChild(marker);
 });
