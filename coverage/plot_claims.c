@@ -405,7 +405,12 @@ int cov_plot_curves(FILE *s, const cov_findings *f, const char *dir)
         fputs(", \\\n  $need using 1:2 with points pt 7 ps 1.8 lc rgb '" COV_PLOT_INK
               "' title 'runs needed', \\\n"
               "  $need using 1:($3==0 ? $2 : NaN):(sprintf('+%.0f', $1)) with labels offset 0,1.2 "
-              "font ',10' notitle, \\\n"
+              "font ',10' notitle",
+              ps);
+    /* The second group of labels (below the line) only when it has a row: gnuplot 5.4.4 dies
+     * with a segmentation fault on a labels plot whose every point is NaN. */
+    if (n_need > 1)
+        fputs(", \\\n"
               "  $need using 1:($3==1 ? $2 : NaN):(sprintf('+%.0f', $1)) with labels offset 0,-1.2 "
               "font ',10' notitle",
               ps);
