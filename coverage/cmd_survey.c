@@ -173,8 +173,13 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
     const cov_options *o = f->opt;
     const cov_graph *g = f->graph;
     int col = o->color;
-    long long count[3] = {0, 0, 0};
-    for (size_t i = 0; i < f->claims->n; i++) count[f->assess->items[i].verdict]++;
+    long long count[3] = {0, 0, 0}, unrun = 0;
+    for (size_t i = 0; i < f->claims->n; i++) {
+        count[f->assess->items[i].verdict]++;
+        /* Testable by the graph, yet the runs cannot test it (e.g. the treatment never varies). */
+        if (f->claims->items[i].status == COV_TESTABLE && f->assess->items[i].verdict == COV_BLIND)
+            unrun++;
+    }
     fprintf(out, "%sshoal survey%s ", col ? C_BOLD : "", col ? C_RESET : "");
     term_text(out, g->path);
     fputs(" on ", out);
@@ -197,6 +202,9 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
     else if (count[COV_THIN] > 0)
         fprintf(out, ": %lld testable claim%s below power %.2f.\n", count[COV_THIN],
                 count[COV_THIN] == 1 ? " is" : "s are", o->power.target);
+    else if (unrun > 0)
+        fprintf(out, ": %lld claim%s testable by the graph cannot be tested on these runs.\n",
+                unrun, unrun == 1 ? "" : "s");
     else
         fputs(".\n", out);
     if (info->gate_note) fprintf(out, "%s\n", info->gate_note);
@@ -347,8 +355,11 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
 
     cov_findings f = {&o, g, claims, d, as, cv, sp, planned, n_planned};
     int all_ample = 1;
+    /* The same gate as shoal power: a claim the graph makes testable but the runs cannot test
+     * (too few runs, a treatment that never varies) is not adequately covered either. */
     for (size_t i = 0; i < as->n; i++)
-        if (as->items[i].verdict == COV_THIN) all_ample = 0;
+        if (claims->items[i].status == COV_TESTABLE && as->items[i].verdict != COV_AMPLE)
+            all_ample = 0;
     int missed = gate_missed(&o, cv, gate, sizeof gate);
 
     /* Everything is written into a fresh directory beside DIR and renamed at the end. */
