@@ -243,6 +243,14 @@ static int read_record(cov_csv *c, int *got, cov_error *err)
                                "found a NUL byte, expected text");
         }
         if (end_field(c)) return fail_nomem(err);
+        /* Names and levels pass into JSON, CSV and HTML output, which must stay UTF-8. */
+        size_t fi = c->n_off - 1, good = cov_utf8_valid_prefix(c->rec + c->off[fi], c->flen[fi]);
+        if (good < c->flen[fi]) {
+            char msg[160];
+            snprintf(msg, sizeof msg, "found the byte 0x%02X in this field, which is not UTF-8; "
+                     "expected UTF-8 text", (unsigned)(unsigned char)c->rec[c->off[fi] + good]);
+            return fail_at(c, c->fline[fi], c->fcol[fi], err, COV_EINPUT, msg);
+        }
         b = peek(c);
         if (b == -2) return fail_read(c, err);
         if (b == c->delim) {

@@ -76,6 +76,41 @@ void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t s
     if (used < size) snprintf(buf + used, size - used, "}");
 }
 
+size_t cov_utf8_valid_prefix(const char *s, size_t n)
+{
+    /* The well-formed sequences of RFC 3629 section 4 (UTF8-octets): no overlong forms, no
+     * surrogates (ED A0-BF), nothing above U+10FFFF (F4 90-BF, F5-FF). */
+    const unsigned char *p = (const unsigned char *)s;
+    size_t i = 0;
+    while (i < n) {
+        unsigned char b = p[i];
+        size_t more;
+        unsigned char lo = 0x80, hi = 0xBF;
+        if (b < 0x80) {
+            i++;
+            continue;
+        } else if (b >= 0xC2 && b <= 0xDF) {
+            more = 1;
+        } else if (b >= 0xE0 && b <= 0xEF) {
+            more = 2;
+            if (b == 0xE0) lo = 0xA0;
+            if (b == 0xED) hi = 0x9F;
+        } else if (b >= 0xF0 && b <= 0xF4) {
+            more = 3;
+            if (b == 0xF0) lo = 0x90;
+            if (b == 0xF4) hi = 0x8F;
+        } else {
+            return i;
+        }
+        if (n - i <= more) return i;
+        if (p[i + 1] < lo || p[i + 1] > hi) return i;
+        for (size_t k = 2; k <= more; k++)
+            if ((p[i + k] & 0xC0) != 0x80) return i;
+        i += more + 1;
+    }
+    return n;
+}
+
 size_t cov_text_width(const char *s)
 {
     size_t w = 0;

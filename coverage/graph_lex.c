@@ -242,7 +242,11 @@ int cov_graph_read_text(const char *path, char **text, cov_error *err)
         goto fail;
     }
     buf[len] = '\0';
+    /* The format is UTF-8 text: a NUL or a stray byte would pass into names, then into JSON. */
     const char *nul = memchr(buf, '\0', len);
+    size_t end = nul != NULL ? (size_t)(nul - buf) : len;
+    size_t good = cov_utf8_valid_prefix(buf, end);
+    if (good < end) nul = buf + good;   /* the first offending byte, NUL or not */
     if (nul != NULL) {
         int line = 1, col = 1;
         for (const char *q = buf; q < nul; q++) {
@@ -255,7 +259,11 @@ int cov_graph_read_text(const char *path, char **text, cov_error *err)
         }
         char where[512];
         snprintf(where, sizeof where, "%s:%d:%d", path, line, col);
-        rc = cov_fail(err, COV_EINPUT, where, "found a NUL byte, expected UTF-8 text");
+        if (*nul == '\0')
+            rc = cov_fail(err, COV_EINPUT, where, "found a NUL byte, expected UTF-8 text");
+        else
+            rc = cov_fail(err, COV_EINPUT, where, "found the byte 0x%02X, which is not UTF-8; "
+                          "expected UTF-8 text", (unsigned)(unsigned char)*nul);
         goto fail;
     }
     *text = buf;

@@ -25,6 +25,8 @@ void cov_progress_note(double share, void *ctx);
 void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size);
 /* Width of a UTF-8 string in characters (code points), for aligning table columns. */
 size_t cov_text_width(const char *s);
+/* The length of the longest prefix of s[0..n) that is well-formed UTF-8 (n when all of it is). */
+size_t cov_utf8_valid_prefix(const char *s, size_t n);
 
 /* ---- graph and d-separation (coverage/graph.c, coverage/graph_lex.c, coverage/dsep.c, ...) --- */
 

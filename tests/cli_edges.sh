@@ -37,4 +37,28 @@ run 1 "survey on an archive with one run" survey "$G" "$tmp/one.db" -o "$tmp/rep
 if grep -q "NOT ADEQUATE" "$tmp/out"; then ok "survey on one run says NOT ADEQUATE"
 else bad "survey on one run should say NOT ADEQUATE: $(grep ADEQUATE "$tmp/out")"; fi
 
+# Bytes that are not UTF-8 (RFC 3629 section 4) in a graph or a CSV would pass into names and from
+# there into JSON output no parser accepts: refused with exit 2 at file:line:column.
+printf 'input "a\377b" real [0, 1]\noutput y real noise 1\n' >"$tmp/latin.graph"
+run 2 "claims on a graph with the byte 0xFF in a name" claims "$tmp/latin.graph"
+said "latin.graph:1:9: found the byte 0xFF" "0xFF in a graph is reported at 1:9"
+printf 'input a real [0, 1]\noutput y real noise 1\n# \355\240\200 a surrogate\n' >"$tmp/surr.graph"
+run 2 "claims on a graph with an encoded surrogate in a comment" claims "$tmp/surr.graph"
+said "surr.graph:3:3: found the byte 0xED" "a surrogate in a graph is reported at 3:3"
+printf 'input a real [0, 1]\noutput "caf\303\251 \342\202\254 \360\237\220\237" real noise 1\n' \
+  >"$tmp/utf8.graph"
+printf 'default effect 1\na -> "caf\303\251 \342\202\254 \360\237\220\237"\n' >>"$tmp/utf8.graph"
+run 0 "claims on a graph with 2-, 3- and 4-byte UTF-8 names" claims "$tmp/utf8.graph" --json
+if "$PYTHON" -c 'import json,sys; json.load(sys.stdin)' <"$tmp/out" 2>/dev/null
+then ok "claims --json with UTF-8 names is JSON (Python json module)"
+else bad "claims --json with UTF-8 names is not JSON"; fi
+printf 'run_id,seed,arr\377ivals\n1,2,3\n' >"$tmp/latin.csv"
+run 2 "import of a CSV with the byte 0xFF in the header" import "$tmp/latin.csv" \
+  --archive "$tmp/latin.db"
+said "latin.csv:1:13: found the byte 0xFF" "0xFF in a CSV header is reported at the field, 1:13"
+printf 'a,b\n1,x\300\257\n' >"$tmp/overlong.csv"
+run 2 "import of a CSV with an overlong encoding in a field" import "$tmp/overlong.csv" \
+  --archive "$tmp/overlong.db"
+said "overlong.csv:2:3: found the byte 0xC0" "an overlong '/' in a CSV is reported at 2:3"
+
 [ "$fails" -eq 0 ]
