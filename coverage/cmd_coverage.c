@@ -97,8 +97,11 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
         fputc('\n', out);
     }
 
-    fprintf(out, "\n2-way coverage: %.3f of the cells of %zu input pairs\n", c->pairwise_share,
-            c->n_pairs);
+    if (c->n_pairs == 0)
+        fprintf(out, "\n2-way coverage: not measured (fewer than 2 inputs)\n");
+    else
+        fprintf(out, "\n2-way coverage: %.3f of the cells of %zu input pairs\n", c->pairwise_share,
+                c->n_pairs);
     for (size_t w = 0; w < c->n_pairs && w < SHOW_PAIRS; w++) {
         const cov_pair *p = &c->pairs[c->worst[w]];
         if (p->share >= 1) break;
@@ -121,6 +124,8 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
         fprintf(out, "3-way coverage: %.3f of the cells of %zu input triples%s\n",
                 c->threeway_share, c->n_triples,
                 c->threeway_sampled ? " (a fixed-seed sample of all triples)" : "");
+    else if (c->n_inputs < 3)
+        fprintf(out, "3-way coverage: not measured (fewer than 3 inputs)\n");
     else
         fprintf(out, "3-way coverage: not measured (more than 20 inputs: ask with --way 3; or too "
                 "many bins for 3-way tables)\n");

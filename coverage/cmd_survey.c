@@ -276,10 +276,16 @@ static int gate_missed(const cov_options *o, const cov_coverage *cv, char *buf, 
     };
     for (size_t k = 0; k < sizeof gate / sizeof gate[0]; k++) {
         if (isnan(gate[k].need)) continue;
-        if (!isfinite(gate[k].got) || gate[k].got < gate[k].need) {
+        if (!isfinite(gate[k].got)) {
+            /* No cells to count (too few inputs or runs): the gate is missed, but nothing was
+             * measured, so the message must not claim 0% was reached. */
+            snprintf(buf, size, "The %s coverage gate is missed: %s coverage was not measured, "
+                                "%.1f%% needed.", gate[k].name, gate[k].name, 100 * gate[k].need);
+            return 1;
+        }
+        if (gate[k].got < gate[k].need) {
             snprintf(buf, size, "The %s coverage gate is missed: %.1f%% of cells reached, %.1f%% "
-                                "needed.", gate[k].name, 100 * (isfinite(gate[k].got) ? gate[k].got : 0),
-                     100 * gate[k].need);
+                                "needed.", gate[k].name, 100 * gate[k].got, 100 * gate[k].need);
             return 1;
         }
     }

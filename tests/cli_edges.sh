@@ -61,4 +61,25 @@ run 2 "import of a CSV with an overlong encoding in a field" import "$tmp/overlo
   --archive "$tmp/overlong.db"
 said "overlong.csv:2:3: found the byte 0xC0" "an overlong '/' in a CSV is reported at 2:3"
 
+# One input: there are no input pairs or triples, so 2-way and 3-way coverage are not measured, and
+# the text must say so instead of printing "nan" or blaming "more than 20 inputs"; a demanded
+# 3-way share is missed (nothing reached it), and survey must not claim "0.0% of cells reached".
+printf 'input a real [0, 1]\noutput y real\ndefault effect 0.5 sd\na -> y\n' >"$tmp/one_in.graph"
+printf 'a,y\n0.1,1\n0.5,2\n0.9,2.5\n0.3,1.1\n0.7,2.2\n0.2,1.3\n' >"$tmp/one_in.csv"
+run 0 "import of six runs of one input" import "$tmp/one_in.csv" --archive "$tmp/one_in.db" -q
+run 0 "coverage --way 3 with one input" coverage "$tmp/one_in.graph" "$tmp/one_in.db" --way 3
+if grep -q "nan" "$tmp/out"; then bad "coverage with one input prints nan: $(grep nan "$tmp/out")"
+else ok "coverage with one input prints no nan"; fi
+if grep -qF "2-way coverage: not measured (fewer than 2 inputs)" "$tmp/out" &&
+   grep -qF "3-way coverage: not measured (fewer than 3 inputs)" "$tmp/out"
+then ok "coverage with one input says why 2-way and 3-way are not measured"
+else bad "coverage with one input: $(grep -- '-way' "$tmp/out")"; fi
+run 1 "coverage --need-threeway 0.5 with one input" coverage "$tmp/one_in.graph" "$tmp/one_in.db" \
+  --way 3 --need-threeway 0.5
+run 1 "survey --need-threeway 0.5 with one input" survey "$tmp/one_in.graph" "$tmp/one_in.db" \
+  --way 3 --need-threeway 0.5 -o "$tmp/rep_one_in"
+if grep -qF "3-way coverage was not measured, 50.0% needed" "$tmp/out"
+then ok "survey says the 3-way share was not measured rather than 0% reached"
+else bad "survey gate text with one input: $(grep -i gate "$tmp/out")"; fi
+
 [ "$fails" -eq 0 ]
