@@ -24,7 +24,9 @@ static void family_line(const cov_assessments *as, FILE *out)
                 p->one_sided ? "one-sided (where a sign is given)" : "two-sided");
     else
         fprintf(out, "family: %s: alpha %g per claim; target power %g; %s tests\n",
-                p->bonferroni ? "Bonferroni over 1 testable claim" : "no correction (--family none)",
+                !p->bonferroni          ? "no correction (--family none)"
+                : as->n_testable == 0   ? "Bonferroni over 0 testable claims"
+                                        : "Bonferroni over 1 testable claim",
                 p->alpha, p->target,
                 p->one_sided ? "one-sided (where a sign is given)" : "two-sided");
 }

@@ -82,4 +82,13 @@ if grep -qF "3-way coverage was not measured, 50.0% needed" "$tmp/out"
 then ok "survey says the 3-way share was not measured rather than 0% reached"
 else bad "survey gate text with one input: $(grep -i gate "$tmp/out")"; fi
 
+# An empty graph has no claims at all: the family line must not speak of one testable claim.
+: >"$tmp/empty.graph"
+head -31 "$CSV" >"$tmp/thirty.csv"
+run 0 "import of 30 runs" import "$tmp/thirty.csv" --archive "$tmp/thirty.db" -q
+run 0 "power on an empty graph" power "$tmp/empty.graph" "$tmp/thirty.db"
+if grep -q "over 0 testable claims" "$tmp/out" && ! grep -q "over 1 testable claim" "$tmp/out"
+then ok "power on an empty graph says Bonferroni over 0 testable claims"
+else bad "power on an empty graph: $(head -1 "$tmp/out")"; fi
+
 [ "$fails" -eq 0 ]
