@@ -276,8 +276,9 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
                      "estimate it).\n",
                 n_noise, n_noise == 1 ? " is" : "s are");
     if (n_unsized > 0) {
-        fprintf(out, "\ncannot be sized: %zu claim%s whose outcome has no declared noise SD and no "
-                     "runs to estimate it from (or, for assumed claims, no runs to scale):",
+        fprintf(out, "\ncannot be sized: %zu claim%s whose outcome has no declared noise SD and "
+                     "whose runs cannot estimate it (no runs, too few, or a treatment that never "
+                     "varies; for assumed claims, no runs to scale):",
                 n_unsized, n_unsized == 1 ? "" : "s");
         for (size_t j = 0; j < p->n; j++)
             if (p->items[j].mode == COV_PLAN_UNSIZED) {

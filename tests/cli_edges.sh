@@ -91,4 +91,21 @@ if grep -q "over 0 testable claims" "$tmp/out" && ! grep -q "over 1 testable cla
 then ok "power on an empty graph says Bonferroni over 0 testable claims"
 else bad "power on an empty graph: $(head -1 "$tmp/out")"; fi
 
+# A bool input that is constant in the runs and an outcome with no noise SD: the plan cannot size
+# the claim, and must not say there are no runs (there are 40) but name the constant treatment.
+printf 'input a real [0, 1]\ninput f bool\noutput y real\ndefault effect 0.5 sd\n' >"$tmp/const.graph"
+printf 'a -> y\nf -> y\n' >>"$tmp/const.graph"
+"$PYTHON" -c '
+print("a,f,y")
+for i in range(40): print("%g,1,%g" % (i / 40, (i * 7919 % 40) / 10 + i / 40))' >"$tmp/const.csv"
+run 0 "import of 40 runs with a constant bool" import "$tmp/const.csv" --archive "$tmp/const.db" -q
+run 1 "power with a constant bool treatment" power "$tmp/const.graph" "$tmp/const.db"
+if grep -qF "treatment 'f' never varies" "$tmp/out"; then ok "power names the constant bool 'f'"
+else bad "power with a constant bool: $(grep 'f -> y' "$tmp/out")"; fi
+run 1 "plan with a constant bool treatment" plan "$tmp/const.graph" "$tmp/const.db" --budget 10 \
+  -o "$tmp/const-plan.csv"
+if grep -q "cannot be sized.*never varies" "$tmp/out"
+then ok "plan's 'cannot be sized' note allows for a treatment that never varies"
+else bad "plan with a constant bool: $(grep 'cannot be sized' "$tmp/out")"; fi
+
 [ "$fails" -eq 0 ]
