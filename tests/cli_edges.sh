@@ -108,4 +108,84 @@ if grep -q "cannot be sized.*never varies" "$tmp/out"
 then ok "plan's 'cannot be sized' note allows for a treatment that never varies"
 else bad "plan with a constant bool: $(grep 'cannot be sized' "$tmp/out")"; fi
 
+# Cases that already behave; pinned so they stay so.
+head -1 "$CSV" >"$tmp/header.csv"
+: >"$tmp/nothing.csv"
+run 2 "import of an empty CSV" import "$tmp/nothing.csv" --archive "$tmp/nothing.db"
+said "nothing.csv:1:1: found an empty file" "an empty CSV is reported at 1:1"
+run 0 "import of a CSV with only a header" import "$tmp/header.csv" --archive "$tmp/zero.db"
+run 1 "power on an archive with zero rows" power "$G" "$tmp/zero.db" -q
+run 1 "check on an archive with zero rows" check "$G" "$tmp/zero.db" -q
+run 1 "survey on an archive with zero rows" survey "$G" "$tmp/zero.db" -o "$tmp/rep0" -q
+run 1 "plan on an archive with zero rows" plan "$G" "$tmp/zero.db" --budget 5 -o "$tmp/p0.csv" -q
+
+# A recorded column that is entirely NULL: check's gate fails (README, shoal check).
+cp "$tmp/thirty.db" "$tmp/null.db"
+if command -v sqlite3 >/dev/null 2>&1; then
+  sqlite3 "$tmp/null.db" 'UPDATE runs SET wait = NULL'
+  run 1 "check with the column wait entirely NULL" check "$G" "$tmp/null.db"
+  if grep -q "wait .* 30 " "$tmp/out"; then ok "check counts 30 missing cells of wait"
+  else bad "check with wait NULL: $(grep wait "$tmp/out")"; fi
+else
+  echo "SKIP: sqlite3 shell not installed (NULL column case)"
+fi
+
+# A 4 MB field in a column the graph does not use imports and reads back without trouble.
+"$PYTHON" -c '
+import sys
+rows = open(sys.argv[1]).read().splitlines()[:11]
+print(rows[0])
+for r in rows[1:]:
+    f = r.split(","); f[0] = "x" * 4000000; print(",".join(f))' "$CSV" >"$tmp/huge.csv"
+run 0 "import of a CSV with a 4 MB field" import "$tmp/huge.csv" --archive "$tmp/huge.db" -q
+run 0 "check of the archive with a 4 MB field" check "$G" "$tmp/huge.db" -q
+
+# Files of the wrong kind, directories, tables that do not exist, paths that cannot be written.
+run 2 "claims on a directory" claims "$tmp"
+said "$tmp: cannot read the graph file" "claims on a directory names it"
+run 2 "power on a directory as archive" power "$G" "$tmp"
+said "expected an SQLite archive file" "a directory as archive says what was expected"
+run 2 "power on a graph file as archive" power "$G" "$G"
+said "not an SQLite database" "a text file as archive is named as not SQLite"
+run 2 "power with --table that does not exist" power "$G" "$tmp/thirty.db" --table nope
+said "found no table 'nope'" "a missing --table is named"
+run 2 "survey -o under a missing directory" survey "$G" "$tmp/thirty.db" -o "$tmp/no/such/dir"
+run 2 "survey -o naming a file" survey "$G" "$tmp/thirty.db" -o "$G"
+said "exists and is not a directory" "survey -o on a file says so"
+run 2 "plan -o under a missing directory" plan "$G" "$tmp/thirty.db" --budget 5 -o "$tmp/no/p.csv"
+run 2 "import --archive on a directory" import "$CSV" --archive "$tmp"
+
+# Options: out of range, malformed, unknown, missing, extra arguments.
+run 2 "plan --budget -3" plan "$G" "$tmp/thirty.db" --budget -3
+said "--budget expects a whole number" "--budget -3 says what it expects"
+run 1 "plan --budget 0" plan "$G" "$tmp/thirty.db" --budget 0 -o "$tmp/p00.csv" -q
+run 2 "plan --replicates 1000000000" plan "$G" "$tmp/thirty.db" --budget 5 --replicates 1000000000
+said "--replicates expects a whole number" "--replicates too large says what it expects"
+run 2 "power --alpha abc" power "$G" "$tmp/thirty.db" --alpha abc
+run 2 "power --alpha 1.5" power "$G" "$tmp/thirty.db" --alpha 1.5
+run 2 "power --power 1" power "$G" "$tmp/thirty.db" --power 1
+run 2 "power with an unknown option" power "$G" "$tmp/thirty.db" --frobnicate
+run 2 "power with --alpha and no value" power "$G" "$tmp/thirty.db" --alpha
+run 2 "power with an extra argument" power "$G" "$tmp/thirty.db" extra
+run 2 "an unknown command" frobnicate
+run 1 "power with --alpha repeated" power "$G" "$tmp/thirty.db" --alpha 0.5 --alpha 0.01 --json
+if grep -q '"alpha": 0.01,' "$tmp/out"; then ok "a repeated --alpha: the last one counts"
+else bad "a repeated --alpha: $(head -c 200 "$tmp/out")"; fi
+
+# A declared level that never occurs in the runs: coverage shows it as an empty bin.
+printf 'input s levels {p, q, r}\noutput y real\ndefault effect 0.5 sd\ns -> y\n' >"$tmp/lv.graph"
+printf 's,y\np,1\nq,2\np,1.5\nq,2.5\np,0.5\nq,2.2\n' >"$tmp/lv.csv"
+run 0 "import of runs that never set level r" import "$tmp/lv.csv" --archive "$tmp/lv.db" -q
+run 0 "coverage with a level that never occurs" coverage "$tmp/lv.graph" "$tmp/lv.db"
+if grep -q "r empty (0)" "$tmp/out"; then ok "coverage lists the level r as empty"
+else bad "coverage with level r never run: $(grep -A1 '^marginal' "$tmp/out")"; fi
+run 1 "power with a level that never occurs" power "$tmp/lv.graph" "$tmp/lv.db" -q
+
+# No archive and no noise SD: plan cannot size the claims and says so (exit 1, not a crash).
+printf 'input a real [0, 1]\ninput b bool\noutput y real\ndefault effect 0.5 sd\n' >"$tmp/nonoise.graph"
+printf 'default margin 0.1 sd\na -> y\n' >>"$tmp/nonoise.graph"
+run 1 "plan with no archive and no noise SD" plan "$tmp/nonoise.graph" --budget 10 -o "$tmp/nn.csv"
+if grep -q "cannot be sized: 2 claims" "$tmp/out"; then ok "plan says both claims cannot be sized"
+else bad "plan with no noise SD: $(cat "$tmp/out")"; fi
+
 [ "$fails" -eq 0 ]
