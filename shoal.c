@@ -225,6 +225,10 @@ int main(int argc, char **argv)
     cov_options_default(&o);
     int c;
     optind = 2;
+    /* getopt's own messages (unknown option, missing value) start with argv[0]; the README
+     * promises every message starts with "shoal:", whatever path the binary was run by. */
+    static char prog_name[] = "shoal";
+    argv[0] = prog_name;
     while ((c = getopt_long(argc, argv, "o:qh", long_options, NULL)) != -1) {
         if (c == 'h') {
             usage(stdout);

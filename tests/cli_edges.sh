@@ -165,7 +165,12 @@ run 2 "power --alpha abc" power "$G" "$tmp/thirty.db" --alpha abc
 run 2 "power --alpha 1.5" power "$G" "$tmp/thirty.db" --alpha 1.5
 run 2 "power --power 1" power "$G" "$tmp/thirty.db" --power 1
 run 2 "power with an unknown option" power "$G" "$tmp/thirty.db" --frobnicate
+# README, "Exit status": the message on stderr starts with "shoal:", even when run by a path.
+if head -1 "$tmp/err" | grep -q "^shoal: .*frobnicate"; then ok "an unknown option's message starts with shoal:"
+else bad "an unknown option's message: $(head -1 "$tmp/err")"; fi
 run 2 "power with --alpha and no value" power "$G" "$tmp/thirty.db" --alpha
+if head -1 "$tmp/err" | grep -q "^shoal: .*alpha"; then ok "a missing value's message starts with shoal:"
+else bad "a missing value's message: $(head -1 "$tmp/err")"; fi
 run 2 "power with an extra argument" power "$G" "$tmp/thirty.db" extra
 run 2 "an unknown command" frobnicate
 run 1 "power with --alpha repeated" power "$G" "$tmp/thirty.db" --alpha 0.5 --alpha 0.01 --json
