@@ -399,19 +399,25 @@ static int is_svg(const char *text)
     return text && strstr(text, "<svg") && strstr(text, "</svg>");
 }
 
-static void test_all(const char *dir, size_t n_planned, const char *what)
+/* Draw every plot of f into dir and check that it succeeds and gnuplot warns of nothing. */
+static void plot_quietly(const cov_findings *f, const char *dir, const char *what)
 {
-    cov_findings f = findings(n_planned);
     cov_error err = {{0}, {0}};
     char *note_text = NULL;
     size_t note_len = 0;
     FILE *note = open_memstream(&note_text, &note_len);
-    int rc = cov_plot_all(&f, dir, note, &err);
+    int rc = cov_plot_all(f, dir, note, &err);
     fclose(note);
     gsl_test_int(rc, COV_OK, "%s: cov_plot_all succeeds (%s)", what, err.msg);
     gsl_test(note_len != 0, "%s: gnuplot printed no warning (%s)", what,
              note_text ? note_text : "");
     free(note_text);
+}
+
+static void test_all(const char *dir, size_t n_planned, const char *what)
+{
+    cov_findings f = findings(n_planned);
+    plot_quietly(&f, dir, what);
     int odd_seen = 0, script_seen = 0, level_seen = 0, pct_seen = 0, raw_script = 0;
     int planned_seen = 0;
     char odd_xml[64], script_xml[64];
@@ -472,16 +478,7 @@ static void test_quiet_edges(const char *tmp)
     char dir[1200];
     snprintf(dir, sizeof dir, "%s/edges", tmp);
     mkdir(dir, 0700);
-    char *note_text = NULL;
-    size_t note_len = 0;
-    FILE *note = open_memstream(&note_text, &note_len);
-    cov_error err = {{0}, {0}};
-    int rc = cov_plot_all(&f, dir, note, &err);
-    fclose(note);
-    gsl_test_int(rc, COV_OK, "edge cases: cov_plot_all succeeds (%s)", err.msg);
-    gsl_test(note_len != 0, "edge cases: gnuplot printed no warning (%s)",
-             note_text ? note_text : "");
-    free(note_text);
+    plot_quietly(&f, dir, "edge cases");
     for (size_t i = 0; i < N_EXPECTED; i++) {
         char path[1300];
         snprintf(path, sizeof path, "%s/%s.svg", dir, expected[i]);
@@ -588,16 +585,7 @@ static void test_big(const char *tmp)
     char dir[1200];
     snprintf(dir, sizeof dir, "%s/big", tmp);
     mkdir(dir, 0700);
-    char *note_text = NULL;
-    size_t note_len = 0;
-    FILE *note = open_memstream(&note_text, &note_len);
-    cov_error err = {{0}, {0}};
-    int rc = cov_plot_all(&f, dir, note, &err);
-    fclose(note);
-    gsl_test_int(rc, COV_OK, "24 inputs, 48 claims: cov_plot_all succeeds (%s)", err.msg);
-    gsl_test(note_len != 0, "24 inputs, 48 claims: gnuplot printed no warning (%s)",
-             note_text ? note_text : "");
-    free(note_text);
+    plot_quietly(&f, dir, "24 inputs, 48 claims");
     for (size_t i = 0; i < N_EXPECTED; i++) {
         char path[1300];
         snprintf(path, sizeof path, "%s/%s.svg", dir, expected[i]);
