@@ -23,7 +23,7 @@ DEB_BUILD = libgsl-dev libsqlite3-dev pkg-config gnuplot-nox sqlite3
 DEB_CHECK = python3-scipy python3-numpy python3-networkx python3-statsmodels r-cran-pwr valgrind \
             chromium
 
-LIB_SRC  = $(wildcard coverage/*.c) $(wildcard power/*.c)
+LIB_SRC  = $(wildcard coverage/*/*.c) $(wildcard power/*.c)
 LIB_OBJ  = $(LIB_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC = $(wildcard tests/test_*.c)
 TEST_BIN = $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)

@@ -35,7 +35,7 @@ int cov_fail(cov_error *err, int status, const char *where, const char *fmt, ...
     __attribute__((format(printf, 4, 5)));
 
 /* ---------------------------------------------------------------------------------------------
- * The graph file (coverage/graph.c). Format: README.md, "The graph file". */
+ * The graph file (coverage/graph/graph.c). Format: README.md, "The graph file". */
 
 typedef enum { COV_INPUT, COV_OUTPUT, COV_HIDDEN } cov_role;
 typedef enum { COV_REAL, COV_INTEGER, COV_BOOL, COV_LEVELS } cov_type;
@@ -89,7 +89,7 @@ void cov_graph_free(cov_graph *g);
 long cov_graph_find(const cov_graph *g, const char *name);
 
 /* ---------------------------------------------------------------------------------------------
- * Claims (coverage/claims.c, coverage/dsep.c). */
+ * Claims (coverage/graph/claims.c, coverage/graph/dsep.c). */
 
 typedef enum { COV_CLAIM_EFFECT, COV_CLAIM_ABSENCE } cov_claim_kind;
 typedef enum { COV_TESTABLE, COV_UNTESTABLE } cov_claim_status;
@@ -121,7 +121,7 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err);
 void cov_claims_free(cov_claims *c);
 
 /* ---------------------------------------------------------------------------------------------
- * The run archive (coverage/csv.c, coverage/archive.c). */
+ * The run archive (coverage/archive/csv.c, coverage/archive/archive.c). */
 
 typedef struct cov_archive cov_archive;
 
@@ -173,7 +173,7 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
 void cov_data_free(cov_data *d);
 
 /* ---------------------------------------------------------------------------------------------
- * Per-claim assessment: regression, power, MDE, runs needed (coverage/assess.c). */
+ * Per-claim assessment: regression, power, MDE, runs needed (coverage/assess/assess.c). */
 
 typedef enum { COV_AMPLE, COV_THIN, COV_BLIND } cov_verdict;   /* enough / too thin / untestable */
 
@@ -226,7 +226,7 @@ int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
 void cov_assessments_free(cov_assessments *a);
 
 /* ---------------------------------------------------------------------------------------------
- * Coverage of the input space and support of each claim (coverage/space.c and friends). */
+ * Coverage of the input space and support of each claim (coverage/measure/space.c and friends). */
 
 typedef struct {
     size_t min_runs;      /* m: a bin or cell is covered when it holds at least m runs (5) */

@@ -8,7 +8,8 @@
 
 #include <gsl/gsl_errno.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* Usage:
  *   probe_coverage cd2        stdin "n d" then n*d numbers; prints CD^2.

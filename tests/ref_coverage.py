@@ -67,7 +67,7 @@ def check_discrepancy(rng):
 # ---- campaigns ---------------------------------------------------------------------------------
 
 def bin_of(spec, x, bins):
-    """The binning rules of issue 4, written independently of coverage/space.c."""
+    """The binning rules of issue 4, written independently of coverage/measure/space.c."""
     if x is None or math.isnan(x):
         return None
     kind = spec[0]
@@ -80,7 +80,7 @@ def bin_of(spec, x, bins):
         return int(x - math.ceil(lo)) if lo <= x <= hi and x == int(x) else None
     if not lo <= x <= hi:
         return None
-    b = math.floor((x - lo) * (bins / (hi - lo)))   # the scale first, as coverage/space.c does
+    b = math.floor((x - lo) * (bins / (hi - lo)))   # the scale first, as coverage/measure/space.c does
     return min(max(b, 0), bins - 1)
 
 

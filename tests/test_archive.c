@@ -12,7 +12,8 @@
 #include <gsl/gsl_test.h>
 #include <sqlite3.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 static char dir[256];
 

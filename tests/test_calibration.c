@@ -10,7 +10,8 @@
 #include <gsl/gsl_rng.h>
 #include <gsl/gsl_test.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* Campaigns simulated from an invented linear model whose true effects equal the effects of
  * interest (absence: true effect 0). For each claim kind the mean predicted power over the

@@ -8,7 +8,8 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_test.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* Sources: REFERENCES.md section 9 "Worked examples" (each verified there with networkx 2.8.8
  * d_separated, a moral-graph test and Bayes-ball), its minimal separators found by FindMinSep

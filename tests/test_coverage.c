@@ -9,7 +9,8 @@
 #include <gsl/gsl_rng.h>
 #include <gsl/gsl_test.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* Counting results are exact integers, so shares made from them must equal the rational to the
  * last bit of a double division: tolerance 0 where the value is a ratio of small integers and

@@ -13,7 +13,8 @@
 #include <gsl/gsl_rng.h>
 #include <gsl/gsl_test.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* Agreement of two inverses of a well-conditioned 7x7 matrix (condition number below 1e3): LU and
  * Cholesky each lose a few digits of the 16 a double holds, so 1e-10 relative is ample room. */

@@ -11,7 +11,8 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_test.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* ---- an invented campaign: four inputs, two outputs, names chosen to break naive quoting ----- */
 

@@ -9,7 +9,8 @@
 #include <gsl/gsl_rng.h>
 #include <gsl/gsl_test.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* Two double-precision solvers of a well-conditioned problem (condition number of the scaled
  * cross-products below 1e3 here) agree to about cond * 1e-16; 1e-9 leaves a wide margin. */

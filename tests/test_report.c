@@ -9,7 +9,8 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_test.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* Three inputs named to break HTML, CSV and Markdown code spans; one output. The graph gives two
  * effect claims and one absence claim ("a`b" and y are not adjacent). */

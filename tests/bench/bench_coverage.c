@@ -11,7 +11,8 @@
 #include <gsl/gsl_errno.h>
 #include <sqlite3.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 #include "tests/bench/bench.h"
 
 /* Median of three runs, as issue 4 asks. */

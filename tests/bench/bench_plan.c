@@ -12,7 +12,8 @@
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* The synthetic simulator (invented): inputs x0.. are real on [0, RANGE] or bool (every third);
  * output y_j = sum over its parents of effect * x + N(0, SIGMA^2), effects exactly at the effects of

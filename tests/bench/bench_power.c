@@ -12,7 +12,8 @@
 #include <gsl/gsl_math.h>
 #include <sqlite3.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 #include "tests/bench/bench.h"
 
 #define N_IN 64

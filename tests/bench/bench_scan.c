@@ -10,7 +10,8 @@
 #include <gsl/gsl_errno.h>
 #include <sqlite3.h>
 
-#include "coverage/internal.h"
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
 
 /* Three runs, as the brief for the benchmark asks; the median discards one slow outlier. */
 #define REPEATS 3

@@ -1,0 +1,81 @@
+/* shoal coverage/archive/: the run archive: CSV reading, SQLite archive, columns, one claim's rows. Private to coverage/.
+ * See LICENSE. */
+#ifndef SHOAL_COVERAGE_ARCHIVE_H
+#define SHOAL_COVERAGE_ARCHIVE_H
+
+#include <stdio.h>
+
+#include "coverage/graph/graph.h"
+
+/* ---- archive and data (coverage/csv.c, coverage/archive.c, coverage/data.c) ------------------ */
+
+/* A streaming RFC 4180 CSV reader. cov_csv_open reads the header row (delimiter comma, tab or
+ * semicolon detected from it; a UTF-8 BOM skipped) and rejects an empty or duplicate name
+ * (duplicates ignore ASCII case, as SQLite column names do). Errors are COV_EINPUT with
+ * err->where "file:line:column" (columns count UTF-8 characters). */
+typedef struct cov_csv cov_csv;
+int cov_csv_open(const char *path, cov_csv **out, cov_error *err);
+void cov_csv_close(cov_csv *c);
+char cov_csv_delimiter(const cov_csv *c);
+size_t cov_csv_n_fields(const cov_csv *c);
+const char *cov_csv_header(const cov_csv *c, size_t i);
+/* Read the next data row: *got is 1 with a row, 0 at the end of the file. Entirely empty lines are
+ * skipped. A row with another field count than the header is COV_EINPUT. */
+int cov_csv_next(cov_csv *c, int *got, cov_error *err);
+/* Field i of the current row, NUL-terminated, valid until the next cov_csv_next; *len may be NULL. */
+const char *cov_csv_field(const cov_csv *c, size_t i, size_t *len);
+/* The line on which the current row starts. */
+long cov_csv_line(const cov_csv *c);
+
+/* The open archive's read-only SQLite connection (owned by the archive: never close it). It is
+ * opened with SQLITE_OPEN_NOMUTEX: use it from one thread at a time. Callers that write history
+ * into an owned archive open a separate read-write connection of their own. */
+struct sqlite3;
+struct sqlite3 *cov_archive_db(cov_archive *a);
+/* The table of runs, as given to cov_archive_open, and its column names in declared order. */
+const char *cov_archive_table(const cov_archive *a);
+size_t cov_archive_n_columns(const cov_archive *a);
+const char *cov_archive_column(const cov_archive *a, size_t i);
+
+/* One import batch, from the shoal_batches table. */
+typedef struct {
+    long long id;
+    char *imported_at;    /* UTC, ISO 8601: "2026-12-02T01:30:00Z" */
+    char *source;         /* the CSV path as given to `shoal import` */
+    long long rows;       /* rows the import appended */
+} cov_batch;
+
+/* The batches of an owned archive in id order (*n 0 and *out NULL for an archive that is not
+ * owned). Free with cov_batches_free. */
+int cov_archive_batches(cov_archive *a, cov_batch **out, size_t *n, cov_error *err);
+void cov_batches_free(cov_batch *b, size_t n);
+
+/* Write name as an SQL identifier in double quotes, doubling embedded quotes, into a new string
+ * (NULL when out of memory). Every identifier shoal puts into SQL goes through this. */
+char *cov_sql_ident(const char *name);
+/* strcmp that folds ASCII A-Z to a-z and nothing else, as SQLite compares column names
+ * (coverage/archive.c); unlike strcasecmp it ignores the locale. */
+int cov_ascii_casecmp(const char *a, const char *b);
+
+/* ---- one claim's regression data (coverage/design.c) ------------------------------------------ */
+
+/* The regression of one claim on the archive. Rows are the runs where the treatment, the outcome
+ * and every member of the separating set are present. Columns: [0] the intercept; then the
+ * treatment (one column, or L - 1 dummies against its first level for a level-set treatment);
+ * then the separating set in ascending variable order (numeric and bool as they are, level sets as
+ * L - 1 dummies against the first level; a dummy for a level absent from these rows is dropped). */
+typedef struct {
+    size_t n, p;          /* rows, columns */
+    double *X;            /* n * p, row-major */
+    double *y;            /* n outcome values */
+    size_t treat_first;   /* first treatment column (always 1) */
+    size_t treat_cols;    /* 1, or L - 1 for a level-set treatment */
+    size_t *row;          /* the run index in cov_data of each row */
+} cov_claim_design;
+
+/* Build the design of claim c. Returns COV_OK (possibly with n == 0), COV_ENOMEM. */
+int cov_claim_design_build(const cov_graph *g, const cov_claim *c, const cov_data *d,
+                           cov_claim_design **out, cov_error *err);
+void cov_claim_design_free(cov_claim_design *cd);
+
+#endif

@@ -1,0 +1,885 @@
+/* Per-claim assessment: the adjusted regression, noise checks, power, MDE and runs needed.
+ * See LICENSE. */
+#include <math.h>
+#include <stdarg.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_rng.h>
+
+#include "coverage/assess/assess.h"
+
+/* Residual diagnostics (kurtosis, heteroscedasticity, replicates) use every complete run up to
+ * this many, and a fixed-seed random subsample of this size above it: 20,000 rows pin the excess
+ * kurtosis to about +-0.035 under normal noise (SE sqrt(24/m)), far finer than the flag needs. */
+#define COV_DIAG_MAX_ROWS 20000
+#define COV_DIAG_SEED 20261202UL
+/* Level of the intervals for sigma, power and MDE. */
+#define COV_INTERVAL_LEVEL 0.95
+/* One value in at least this share of runs: a mostly-constant outcome, whose residual SD says
+ * little about the noise of the rest (a count that is zero in most runs). */
+#define COV_MODE_SHARE 0.5
+/* Excess kurtosis beyond this: var(s^2) is at least 2.5 times its normal-theory value at large n,
+ * and at n = 30 the normal-noise estimate exceeds it with probability well under 1%. */
+#define COV_KURTOSIS_FLAG 3.0
+/* Strong heteroscedasticity: Koenker's Breusch-Pagan test significant at this level and the
+ * residual variance differing by at least this factor between the outer thirds of fitted values
+ * (the test alone flags trivial differences in large archives). */
+#define COV_HETERO_P 1e-3
+#define COV_HETERO_RATIO 3.0
+/* Fewer residual degrees of freedom than this: sigma's 95% interval spans a factor above 2. */
+#define COV_MIN_DF 10
+/* Rows per block of the global cross-products: 128 rows of 80 columns fit the L2 cache. */
+#define COV_MOMENT_BLOCK 128
+/* A lack-of-fit test significant at this level is reported in the noise note. */
+#define COV_LOF_P 0.01
+
+/* How one variable enters a claim's regression: cols columns (level sets: L - 1 dummies against
+ * level 0; an outcome level set: its level index as one column). */
+typedef struct {
+    size_t var;
+    size_t cols;
+    int dummies;
+} term;
+
+/* A claim's variables in regression order: the separating set, the treatment, the outcome. */
+typedef struct {
+    term *terms;
+    size_t n_terms;
+    size_t k, t;         /* predictor columns, treatment columns */
+} layout;
+
+/* Shared across claims: the global cross-products of every complete variable (the fast path). */
+typedef struct {
+    const cov_graph *g;
+    const cov_data *d;
+    pw_moments *global;  /* NULL when no variable is complete */
+    size_t *base;        /* first global column of each variable; SIZE_MAX when not included */
+    size_t *index_col;   /* level-set outputs: global column of the level index; SIZE_MAX */
+    size_t *sample;      /* runs for diagnostics on the fast path */
+    size_t n_sample;
+    double *mode_share;  /* per complete variable: share of its most common value on the sample */
+    /* The sampled runs of every complete variable, gathered once into short contiguous columns
+     * (rows 0 .. n_sample - 1): the diagnostics of each claim then read memory in order instead of
+     * jumping through million-row columns. */
+    cov_data sampled;
+    size_t *sample_ids;  /* 0 .. n_sample - 1 */
+    /* Scratch reused from claim to claim: large blocks allocated afresh each time cost more in
+     * page faults than the diagnostics themselves. */
+    double *ws_y, *ws_fit, *ws_keys;
+    size_t ws_rows, ws_kk;
+} assess_ctx;
+
+static int is_recorded(const cov_data *d, size_t v)
+{
+    return d->col[v] != NULL;
+}
+
+static size_t dummy_cols(const cov_var *v)
+{
+    return v->type == COV_LEVELS && v->n_levels >= 2 ? v->n_levels - 1 : 1;
+}
+
+static void fill_term(const term *tm, double x, double *dst)
+{
+    if (!tm->dummies) {
+        dst[0] = x;
+        return;
+    }
+    for (size_t l = 1; l <= tm->cols; l++) dst[l - 1] = x == (double)l ? 1.0 : 0.0;
+}
+
+/* The k + 1 regression values of run i in layout order. */
+static void fill_row(const cov_data *d, const layout *lay, size_t i, double *row)
+{
+    size_t c = 0;
+    for (size_t j = 0; j < lay->n_terms; j++) {
+        fill_term(&lay->terms[j], d->col[lay->terms[j].var][i], row + c);
+        c += lay->terms[j].cols;
+    }
+}
+
+static int row_complete(const cov_data *d, const layout *lay, size_t i)
+{
+    for (size_t j = 0; j < lay->n_terms; j++)
+        if (isnan(d->col[lay->terms[j].var][i])) return 0;
+    return 1;
+}
+
+/* Selection sampling (Knuth, TAOCP vol. 2, sec. 3.4.2, Algorithm S): want of the remaining
+ * candidates, each kept with probability want / left, gives a uniform sample in run order. */
+static int sample_keep(gsl_rng *r, size_t *want, size_t left)
+{
+    if (*want == 0) return 0;
+    if ((double)left * gsl_rng_uniform(r) < (double)*want) {
+        (*want)--;
+        return 1;
+    }
+    return 0;
+}
+
+static void ctx_free(assess_ctx *x)
+{
+    pw_moments_free(x->global);
+    free(x->base);
+    free(x->index_col);
+    free(x->sample);
+    free(x->mode_share);
+    if (x->sampled.col != NULL)
+        for (size_t v = 0; v < x->sampled.n_vars; v++) free(x->sampled.col[v]);
+    free(x->sampled.col);
+    free(x->sample_ids);
+    free(x->ws_y);
+    free(x->ws_fit);
+    free(x->ws_keys);
+}
+
+/* Make the scratch hold rows x kk keys. */
+static int ctx_scratch(assess_ctx *x, size_t rows, size_t kk)
+{
+    if (rows <= x->ws_rows && kk <= x->ws_kk) return COV_OK;
+    rows = rows > x->ws_rows ? rows : x->ws_rows;
+    kk = kk > x->ws_kk ? kk : x->ws_kk;
+    free(x->ws_y);
+    free(x->ws_fit);
+    free(x->ws_keys);
+    x->ws_y = malloc((rows ? rows : 1) * sizeof *x->ws_y);
+    x->ws_fit = malloc((rows ? rows : 1) * sizeof *x->ws_fit);
+    x->ws_keys = malloc((rows ? rows : 1) * (kk ? kk : 1) * sizeof *x->ws_keys);
+    x->ws_rows = x->ws_kk = 0;
+    if (x->ws_y == NULL || x->ws_fit == NULL || x->ws_keys == NULL) return COV_ENOMEM;
+    x->ws_rows = rows;
+    x->ws_kk = kk;
+    return COV_OK;
+}
+
+/* Accumulate the global centred cross-products of every recorded variable without missing cells,
+ * in one pass over the runs, and draw the fixed-seed diagnostic sample. */
+static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
+{
+    memset(x, 0, sizeof *x);
+    x->g = g;
+    x->d = d;
+    x->base = malloc((g->n_vars ? g->n_vars : 1) * sizeof *x->base);
+    x->index_col = malloc((g->n_vars ? g->n_vars : 1) * sizeof *x->index_col);
+    if (x->base == NULL || x->index_col == NULL) return COV_ENOMEM;
+    size_t K = 0;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        x->base[v] = x->index_col[v] = SIZE_MAX;
+        if (!is_recorded(d, v) || d->n_missing[v] > 0) continue;
+        x->base[v] = K;
+        K += dummy_cols(&g->vars[v]);
+        if (g->vars[v].type == COV_LEVELS && g->vars[v].role == COV_OUTPUT) x->index_col[v] = K++;
+    }
+    size_t n = d->n_runs;
+    size_t m = n < COV_DIAG_MAX_ROWS ? n : COV_DIAG_MAX_ROWS;
+    x->sample = malloc((m ? m : 1) * sizeof *x->sample);
+    if (x->sample == NULL) return COV_ENOMEM;
+    if (n <= COV_DIAG_MAX_ROWS) {
+        for (size_t i = 0; i < n; i++) x->sample[i] = i;
+    } else {
+        gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+        if (r == NULL) return COV_ENOMEM;
+        gsl_rng_set(r, COV_DIAG_SEED);
+        size_t want = m, got = 0;
+        for (size_t i = 0; i < n; i++)
+            if (sample_keep(r, &want, n - i)) x->sample[got++] = i;
+        gsl_rng_free(r);
+    }
+    x->n_sample = m;
+    if (K == 0 || n == 0) return COV_OK;
+    /* The share of each complete variable's most common value on the sample: the outcome check
+     * of the fast path, and a variable whose values are all distinct rules out replicates. */
+    x->mode_share = malloc(g->n_vars * sizeof *x->mode_share);
+    x->sampled.col = calloc(g->n_vars, sizeof *x->sampled.col);
+    x->sample_ids = malloc(m * sizeof *x->sample_ids);
+    if (x->mode_share == NULL || x->sampled.col == NULL || x->sample_ids == NULL) return COV_ENOMEM;
+    x->sampled.n_vars = g->n_vars;
+    x->sampled.n_runs = m;
+    for (size_t r = 0; r < m; r++) x->sample_ids[r] = r;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        x->mode_share[v] = NAN;
+        if (x->base[v] == SIZE_MAX) continue;
+        double *sc = x->sampled.col[v] = malloc(m * sizeof *sc);
+        if (sc == NULL) return COV_ENOMEM;
+        for (size_t r = 0; r < m; r++) sc[r] = d->col[v][x->sample[r]];
+        if (pw_mode_share(sc, m, &x->mode_share[v]) == PW_ENOMEM) return COV_ENOMEM;
+    }
+    if (pw_moments_alloc(K, &x->global) != PW_OK) return COV_ENOMEM;
+    double *block = malloc(COV_MOMENT_BLOCK * K * sizeof *block);
+    if (block == NULL) return COV_ENOMEM;
+    size_t nb = 0;
+    for (size_t i = 0; i < n; i++) {
+        double *row = block + nb * K;
+        for (size_t v = 0; v < g->n_vars; v++) {
+            if (x->base[v] == SIZE_MAX) continue;
+            double val = d->col[v][i];
+            term tm = {v, dummy_cols(&g->vars[v]), g->vars[v].type == COV_LEVELS};
+            fill_term(&tm, val, row + x->base[v]);
+            if (x->index_col[v] != SIZE_MAX) row[x->index_col[v]] = val;
+        }
+        if (++nb == COV_MOMENT_BLOCK || i + 1 == n) {
+            if (pw_moments_add_block(x->global, block, nb) != PW_OK) {
+                free(block);
+                return COV_ENOMEM;
+            }
+            nb = 0;
+        }
+    }
+    free(block);
+    return COV_OK;
+}
+
+/* Append printf-style text to a heap string, separated by "; ". Out of memory keeps the old text. */
+static void note_add(char **s, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void note_add(char **s, const char *fmt, ...)
+{
+    char buf[512];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    va_end(ap);
+    size_t old = *s ? strlen(*s) : 0;
+    char *n = realloc(*s, old + strlen(buf) + 3);
+    if (n == NULL) return;
+    if (old) strcpy(n + old, "; ");
+    strcpy(n + old + (old ? 2 : 0), buf);
+    *s = n;
+}
+
+static char *text_dup(const char *s)
+{
+    char *c = malloc(strlen(s) + 1);
+    if (c) strcpy(c, s);
+    return c;
+}
+
+/* The spread a treatment would have if the campaign covered its declared domain evenly and
+ * independently of the rest: planning before any run exists. NAN when undeclared. */
+static double planned_spread(const cov_var *v)
+{
+    if (v->type == COV_BOOL) return 0.5;
+    if (v->role != COV_INPUT || !isfinite(v->lo) || !isfinite(v->hi)) return NAN;
+    double w = v->hi - v->lo;
+    if (v->type == COV_INTEGER) return sqrt(((w + 1) * (w + 1) - 1) / 12.0);  /* discrete uniform */
+    return w / sqrt(12.0);   /* continuous uniform */
+}
+
+/* The figures shared by every branch once a pw_design is known: power, MDE, runs and their
+ * intervals from sigma's interval. */
+static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, double sigma_hi)
+{
+    pw_design e = *d;
+    int rc = pw_power(&e, &a->power);
+    if (rc == PW_EFEW) {
+        a->power = 0;
+        rc = PW_OK;
+    }
+    if (rc == PW_OK) rc = pw_mde(&e, &a->mde);
+    if (rc == PW_EFEW) {
+        a->mde = INFINITY;
+        rc = PW_OK;
+    }
+    if (rc == PW_OK) rc = pw_runs_needed_from(&e, a->mde, &a->runs_needed);
+    if (rc != PW_OK) return rc;
+    a->power_lo = a->power_hi = a->power;
+    a->mde_lo = a->mde_hi = a->mde;
+    if (d->test == PW_TEST_TWO_PROP || !(sigma_lo > 0) || !isfinite(sigma_hi)) return PW_OK;
+    /* The upper sigma gives the low power and the high MDE, and the other way round. The t, F
+     * and TOST powers depend on effect and sigma only through effect / sigma, so the MDE scales
+     * with sigma exactly. */
+    double p;
+    /* Power falls as sigma grows: a power of exactly 1 (or 0) at sigma bounds the other side. */
+    e.sigma = sigma_hi;
+    if (a->power > 0 && pw_power(&e, &p) == PW_OK) a->power_lo = p;
+    e.sigma = sigma_lo;
+    if (a->power < 1 && pw_power(&e, &p) == PW_OK) a->power_hi = p;
+    a->mde_lo = a->mde * sigma_lo / d->sigma;
+    a->mde_hi = a->mde * sigma_hi / d->sigma;
+    return PW_OK;
+}
+
+static const char *test_word(const pw_design *d)
+{
+    return d->test == PW_TEST_TOST ? "equivalence power" : "power";
+}
+
+/* Verdict and its one-line reason. */
+static void decide(cov_assessment *a, const cov_claim *c, double target)
+{
+    if (a->power >= target) {
+        a->verdict = COV_AMPLE;
+        return;
+    }
+    a->verdict = COV_THIN;
+    char runs[160];
+    if (isfinite(a->runs_needed))
+        snprintf(runs, sizeof runs, "needs %.0f runs in all, %.0f more", a->runs_needed,
+                 a->runs_needed > (double)a->n ? a->runs_needed - (double)a->n : 0.0);
+    else
+        snprintf(runs, sizeof runs, "no number of runs like these reaches %.2f", target);
+    note_add(&a->reason, "%s %.2f at %s %.4g (raw); %s", test_word(&a->design), a->power,
+             c->kind == COV_CLAIM_ABSENCE ? "margin" : "effect", a->effect_raw, runs);
+}
+
+/* Before any usable run: plan from the declared noise SD and the declared treatment domain. */
+static int assess_planning(const cov_graph *g, const cov_claim *c, const layout *lay,
+                           const cov_power_options *opt, double alpha, cov_assessment *a)
+{
+    const cov_var *y = &g->vars[c->outcome], *x = &g->vars[c->treatment];
+    a->noise_flag = 1;
+    double spread = planned_spread(x);
+    if (!(y->noise_sd > 0) || (x->type != COV_LEVELS && !(spread > 0))) {
+        note_add(&a->noise_note, "no noise estimate from %zu runs", a->n);
+        a->verdict = COV_THIN;
+        note_add(&a->reason, "too few complete runs (%zu) to estimate the noise, and %s", a->n,
+                 !(y->noise_sd > 0) ? "the graph declares no noise SD for the outcome"
+                                    : "the treatment has no declared domain to plan from");
+        return COV_OK;
+    }
+    note_add(&a->noise_note, "no noise estimate from %zu runs: sigma is the declared noise SD",
+             a->n);
+    a->sigma = y->noise_sd;
+    a->effect_raw = c->effect.unit == COV_UNIT_SD ? c->effect.value * y->noise_sd
+                                                  : c->effect.value;
+    pw_design *d = &a->design;
+    memset(d, 0, sizeof *d);
+    d->alpha = alpha;
+    d->target = opt->target;
+    d->sides = opt->one_sided && c->sign != 0 && c->kind == COV_CLAIM_EFFECT ? 1 : 2;
+    d->effect = a->effect_raw;
+    d->sigma = a->sigma;
+    d->n = (double)a->n;
+    d->n_params = 1.0 + (double)(lay->k - lay->t);
+    d->ncp_per_run = NAN;
+    if (x->type == COV_LEVELS) {
+        d->n_levels = (double)x->n_levels;
+        /* Balanced groups: a pairwise contrast has variance 2 L sigma^2 / n. */
+        d->sd_x_resid = 1.0 / sqrt(2.0 * d->n_levels);
+        d->test = c->kind == COV_CLAIM_ABSENCE ? PW_TEST_TOST : PW_TEST_LEVELS_F;
+    } else {
+        d->sd_x_resid = spread;
+        d->test = c->kind == COV_CLAIM_ABSENCE ? PW_TEST_TOST : PW_TEST_COEF_T;
+    }
+    a->sd_treatment_resid = d->sd_x_resid;
+    a->has_design = 1;
+    int rc = size_claim(a, d, NAN, NAN);
+    if (rc == PW_ENOMEM) return COV_ENOMEM;
+    if (rc != PW_OK) {
+        a->verdict = COV_THIN;
+        note_add(&a->reason, "the power computation failed (%s)", pw_strerror(rc));
+        return COV_OK;
+    }
+    a->power_lo = a->power_hi = a->power;
+    decide(a, c, opt->target);
+    if (a->verdict == COV_THIN) {
+        free(a->reason);
+        a->reason = NULL;
+        note_add(&a->reason, "too few complete runs (%zu) to estimate the noise; planning from "
+                 "the declared noise SD %g: needs %.0f runs in all", a->n, y->noise_sd,
+                 a->runs_needed);
+    }
+    return COV_OK;
+}
+
+static int build_layout(const cov_graph *g, const cov_claim *c, layout *lay)
+{
+    lay->n_terms = c->n_cond + 2;
+    lay->terms = calloc(lay->n_terms, sizeof *lay->terms);
+    if (lay->terms == NULL) return COV_ENOMEM;
+    lay->k = 0;
+    for (size_t j = 0; j < lay->n_terms; j++) {
+        size_t v = j < c->n_cond ? c->cond[j] : (j == c->n_cond ? c->treatment : c->outcome);
+        term *tm = &lay->terms[j];
+        tm->var = v;
+        int outcome = j == lay->n_terms - 1;
+        tm->dummies = !outcome && g->vars[v].type == COV_LEVELS && g->vars[v].n_levels >= 2;
+        tm->cols = tm->dummies ? g->vars[v].n_levels - 1 : 1;
+        if (!outcome) lay->k += tm->cols;
+    }
+    lay->t = lay->terms[c->n_cond].cols;
+    return COV_OK;
+}
+
+/* Map the layout's columns to the global cross-product columns (fast path). */
+static void global_index(const assess_ctx *x, const layout *lay, size_t *idx)
+{
+    size_t c = 0;
+    for (size_t j = 0; j < lay->n_terms; j++) {
+        const term *tm = &lay->terms[j];
+        if (j == lay->n_terms - 1 && x->index_col[tm->var] != SIZE_MAX) {
+            idx[c++] = x->index_col[tm->var];
+            continue;
+        }
+        for (size_t l = 0; l < tm->cols; l++) idx[c++] = x->base[tm->var] + l;
+    }
+}
+
+/* A claim whose outcome given the treatment and separating set was fitted: everything else. */
+static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
+                         const pw_moments *m, const size_t *idx, const cov_data *d,
+                         const size_t *rows, size_t n_rows, int fast,
+                         const cov_power_options *opt, double alpha, cov_assessment *a)
+{
+    const cov_graph *g = x->g;
+    const cov_var *yv = &g->vars[c->outcome], *xv = &g->vars[c->treatment];
+    size_t k = lay->k, t = lay->t;
+    pw_xfit *fit = NULL;
+    double *yy, *fitted, *keys, *row = NULL;
+    int rc = COV_ENOMEM;
+    if (pw_xfit_solve(m, idx, k, t, &fit) != PW_OK) goto fail;
+    double n = m->n;
+
+    /* The treatment must vary apart from the separating set. */
+    if (fit->t_rank == 0) {
+        int constant = 1;
+        for (size_t a0 = k - t; a0 < k; a0++)
+            if (pw_moments_at(m, idx[a0], idx[a0]) > 0) constant = 0;
+        a->verdict = COV_BLIND;
+        if (constant)
+            note_add(&a->reason, "treatment '%s' never varies in the %zu complete runs", xv->name,
+                     a->n);
+        else
+            note_add(&a->reason, "treatment '%s' is fixed by the separating set in the %zu "
+                     "complete runs", xv->name, a->n);
+        rc = COV_OK;
+        goto fail;
+    }
+    if (!(fit->df >= 1)) {
+        pw_xfit_free(fit);
+        return assess_planning(g, c, lay, opt, alpha, a);
+    }
+    a->df = fit->df;
+    a->sigma = fit->sigma;
+    double syy = pw_moments_at(m, idx[k], idx[k]);
+    a->sd_outcome = n > 1 ? sqrt(syy / (n - 1)) : NAN;
+    a->effect_raw = c->effect.unit == COV_UNIT_SD ? c->effect.value * a->sd_outcome
+                                                  : c->effect.value;
+
+    pw_design *dz = &a->design;
+    memset(dz, 0, sizeof *dz);
+    dz->alpha = alpha;
+    dz->target = opt->target;
+    dz->sides = opt->one_sided && c->sign != 0 && c->kind == COV_CLAIM_EFFECT ? 1 : 2;
+    dz->sigma = a->sigma;
+    dz->n = n;
+    dz->n_params = 1.0 + (double)(fit->rank - fit->t_rank);
+    dz->ncp_per_run = NAN;
+    size_t tr = fit->t_rank;
+    if (tr == 1) {
+        size_t col = 0;
+        for (size_t a0 = k - t; a0 < k; a0++)
+            if (fit->kept[a0]) col = a0;
+        double info = fit->treat_info[0];
+        a->sd_treatment_resid = sqrt(info / n);
+        a->vif = pw_moments_at(m, idx[col], idx[col]) / info;
+        a->estimate = fit->coef[col];
+        a->se = fit->se[col];
+        dz->sd_x_resid = a->sd_treatment_resid;
+    } else {
+        double q_min, v_max;
+        size_t wi = 0, wj = 1;
+        if (pw_level_pattern(fit->treat_info, tr, &q_min, &v_max, &wi, &wj) != PW_OK) {
+            rc = COV_ENUMERIC;
+            goto fail;
+        }
+        dz->n_levels = (double)(tr + 1);
+        dz->ncp_per_run = q_min / n;
+        /* The least favourable pairwise contrast as an equivalent spread: its SE is
+         * sigma / (sd sqrt(n)). */
+        dz->sd_x_resid = 1.0 / sqrt(n * v_max);
+        a->sd_treatment_resid = dz->sd_x_resid;
+        a->estimate = (wj > 0 ? fit->treat_coef[wj - 1] : 0) - (wi > 0 ? fit->treat_coef[wi - 1] : 0);
+        a->se = a->sigma * sqrt(v_max);
+    }
+    int bool_outcome = yv->type == COV_BOOL || (yv->type == COV_LEVELS && yv->n_levels == 2);
+    if (c->kind == COV_CLAIM_ABSENCE) {
+        dz->test = PW_TEST_TOST;
+    } else if (bool_outcome && xv->type == COV_BOOL) {
+        dz->test = PW_TEST_TWO_PROP;
+        dz->p_base = m->mean[idx[k]];
+        dz->share_treated = m->mean[idx[k - 1]];
+    } else {
+        dz->test = tr >= 2 ? PW_TEST_LEVELS_F : PW_TEST_COEF_T;
+    }
+    if (tr >= 2 && dz->test != PW_TEST_LEVELS_F) dz->n_levels = (double)(tr + 1);
+    if (tr < 2) dz->n_levels = 0;
+    if (bool_outcome && dz->test != PW_TEST_TWO_PROP)
+        note_add(&a->noise_note, "bool outcome: linear-probability %s, whose residuals are "
+                 "heteroscedastic by construction", dz->test == PW_TEST_TOST ? "equivalence test"
+                                                                              : "test");
+    if (yv->type == COV_LEVELS && yv->n_levels > 2) {
+        note_add(&a->noise_note, "level-set outcome analysed by its level index");
+        a->noise_flag = 1;
+    }
+
+    /* Residual diagnostics on the diagnostic rows. */
+    size_t mrows = n_rows, kk = lay->n_terms - 1;
+    row = malloc((k + 1) * sizeof *row);
+    if (row == NULL || ctx_scratch(x, mrows, kk) != COV_OK) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    yy = x->ws_y;
+    fitted = x->ws_fit;
+    keys = x->ws_keys;
+    for (size_t r = 0; r < mrows; r++) {
+        size_t i = rows[r];
+        fill_row(d, lay, i, row);
+        double f = fit->intercept;
+        for (size_t a0 = 0; a0 < k; a0++) f += fit->coef[a0] * row[a0];
+        fitted[r] = f;
+        yy[r] = row[k];
+        for (size_t j = 0; j < kk; j++) keys[r * kk + j] = d->col[lay->terms[j].var][i];
+    }
+    a->n_diag = mrows;
+    pw_resid_diag rd;
+    pw_lof lof = {0, 0, 0, NAN, NAN, NAN};
+    double mode_share = NAN;
+    int drc = pw_resid_diagnose(yy, fitted, mrows, &rd), lrc = PW_EFEW, mrc = PW_OK;
+    /* Replicates need every key variable to repeat a value; on the fast path a variable whose
+     * sampled values are all distinct rules them out without grouping the rows. */
+    int may_repeat = 1;
+    for (size_t j = 0; fast && j < kk; j++)
+        if (x->mode_share[lay->terms[j].var] * (double)mrows <= 1.0) may_repeat = 0;
+    if (may_repeat)
+        lrc = pw_lack_of_fit(keys, kk, yy, fitted, mrows, 1.0 + (double)fit->rank, &lof);
+    if (fast && x->index_col[c->outcome] == SIZE_MAX) mode_share = x->mode_share[c->outcome];
+    else mrc = pw_mode_share(yy, mrows, &mode_share);
+    if (drc == PW_ENOMEM || lrc == PW_ENOMEM || mrc == PW_ENOMEM) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    a->excess_kurtosis = rd.excess_kurtosis;
+    if (lrc == PW_OK && isfinite(lof.sigma_pure)) {
+        a->has_pure_error = 1;
+        a->sigma_pure = lof.sigma_pure;
+        a->lof_f = lof.f;
+        a->lof_p = lof.p;
+        if (lof.p < COV_LOF_P) {
+            a->noise_flag = 1;
+            note_add(&a->noise_note, "lack of fit: F = %.3g, p = %.2g against pure error from "
+                     "%zu repeated configurations; sigma includes structure the linear model "
+                     "misses", lof.f, lof.p, lof.groups);
+        }
+    }
+    if (mode_share >= COV_MODE_SHARE) {
+        a->noise_flag = 1;
+        note_add(&a->noise_note, "one value in %.0f%% of runs: the residual SD says little about "
+                 "the noise", 100 * mode_share);
+    }
+    if (rd.excess_kurtosis > COV_KURTOSIS_FLAG) {
+        a->noise_flag = 1;
+        note_add(&a->noise_note, "heavy-tailed residuals (excess kurtosis %.3g > %g)",
+                 rd.excess_kurtosis, COV_KURTOSIS_FLAG);
+    }
+    if (rd.bp_p < COV_HETERO_P && rd.third_ratio >= COV_HETERO_RATIO) {
+        a->noise_flag = 1;
+        note_add(&a->noise_note, "residual spread changes with the fitted value (Koenker-Breusch-"
+                 "Pagan p = %.2g; variance ratio %.3g between outer thirds)", rd.bp_p,
+                 rd.third_ratio);
+    }
+    if (a->df < COV_MIN_DF) {
+        a->noise_flag = 1;
+        note_add(&a->noise_note, "only %.0f residual degrees of freedom: sigma is poorly known",
+                 a->df);
+    }
+
+    if (!(a->effect_raw > 0)) {
+        a->verdict = COV_THIN;
+        note_add(&a->reason, "the outcome never varies, so an effect in SD units is undefined");
+        rc = COV_OK;
+        goto fail;
+    }
+    dz->effect = a->effect_raw;
+    if (!(a->sigma > 0)) {
+        /* The outcome is an exact function of the regressors: any effect shows at once. */
+        a->noise_flag = 1;
+        note_add(&a->noise_note, "the outcome is fitted exactly: no noise left");
+        a->power = a->power_lo = a->power_hi = 1;
+        a->mde = a->mde_lo = a->mde_hi = 0;
+        a->runs_needed = (double)a->n;
+        a->verdict = COV_AMPLE;
+        a->has_design = 0;
+        rc = COV_OK;
+        goto fail;
+    }
+    /* sigma^2's chi-squared interval with the degrees of freedom cut for excess kurtosis, so
+     * that var(s^2) = sigma^4 (2/df + kurtosis/n) (the large-sample variance of s^2; e.g.
+     * O'Neill 2014, Am. Stat. 68:282) is matched by a scaled chi-squared. */
+    double kurt = isfinite(rd.excess_kurtosis) && rd.excess_kurtosis > 0 ? rd.excess_kurtosis : 0;
+    double nu = 2.0 / (2.0 / a->df + kurt / n);
+    double tail = (1 - COV_INTERVAL_LEVEL) / 2;
+    double s2 = a->sigma * a->sigma;
+    double q_up = NAN, q_lo = NAN;
+    pw_chisq_quantile(tail, 1, nu, &q_up);
+    pw_chisq_quantile(tail, 0, nu, &q_lo);
+    double sigma_lo = sqrt(nu * s2 / q_up), sigma_hi = sqrt(nu * s2 / q_lo);
+    a->has_design = 1;
+    int src = size_claim(a, dz, sigma_lo, sigma_hi);
+    if (src == PW_ENOMEM) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    if (src != PW_OK) {
+        /* One claim's numerics failing should not hide every other claim's figures. */
+        a->verdict = COV_THIN;
+        note_add(&a->reason, "the power computation failed (%s), so the claim cannot be shown "
+                 "ample", pw_strerror(src));
+        rc = COV_OK;
+        goto fail;
+    }
+    decide(a, c, opt->target);
+    rc = COV_OK;
+fail:
+    pw_xfit_free(fit);
+    free(row);
+    return rc;
+}
+
+static void assessment_init(cov_assessment *a, size_t claim)
+{
+    memset(a, 0, sizeof *a);
+    a->claim = claim;
+    a->df = a->estimate = a->se = a->sigma = a->sd_treatment_resid = a->vif = NAN;
+    a->effect_raw = a->alpha = a->power = a->power_lo = a->power_hi = NAN;
+    a->mde = a->mde_lo = a->mde_hi = a->runs_needed = NAN;
+    a->sigma_pure = a->lof_f = a->lof_p = NAN;
+    a->sd_outcome = a->excess_kurtosis = NAN;
+}
+
+/* One claim: pick the fast path or accumulate its own complete cases, then fit and size it. */
+static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_options *opt,
+                        double alpha, cov_assessment *a)
+{
+    const cov_graph *g = x->g;
+    const cov_data *d = x->d;
+    layout lay = {0};
+    size_t *idx = NULL, *rows = NULL;
+    pw_moments *local = NULL;
+    double *row = NULL;
+    gsl_rng *r = NULL;
+    int rc = build_layout(g, c, &lay);
+    if (rc != COV_OK) goto fail;
+    for (size_t j = 0; j < lay.n_terms; j++) {
+        if (!is_recorded(d, lay.terms[j].var)) {
+            a->verdict = COV_BLIND;
+            note_add(&a->reason, "'%s' is not in the archive", g->vars[lay.terms[j].var].name);
+            goto fail;
+        }
+    }
+    rc = COV_ENOMEM;
+    idx = malloc((lay.k + 1) * sizeof *idx);
+    if (idx == NULL) goto fail;
+    int fast = x->global != NULL;
+    for (size_t j = 0; j < lay.n_terms && fast; j++)
+        if (x->base[lay.terms[j].var] == SIZE_MAX) fast = 0;
+    if (fast && x->index_col[c->outcome] == SIZE_MAX &&
+        g->vars[c->outcome].type == COV_LEVELS)
+        fast = 0;
+    if (fast) {
+        global_index(x, &lay, idx);
+        a->n = d->n_runs;
+        rc = assess_fitted(x, c, &lay, x->global, idx, &x->sampled, x->sample_ids, x->n_sample, 1,
+                           opt, alpha, a);
+        goto fail;
+    }
+    /* Complete cases of this claim: count them, then accumulate and sample in one more pass. */
+    size_t n = 0;
+    for (size_t i = 0; i < d->n_runs; i++) n += (size_t)row_complete(d, &lay, i);
+    a->n = n;
+    if (n < 2) {
+        rc = assess_planning(g, c, &lay, opt, alpha, a);
+        goto fail;
+    }
+    for (size_t j = 0; j <= lay.k; j++) idx[j] = j;
+    size_t want = n < COV_DIAG_MAX_ROWS ? n : COV_DIAG_MAX_ROWS, n_rows = 0, left = n;
+    rows = malloc(want * sizeof *rows);
+    row = malloc((lay.k + 1) * sizeof *row);
+    r = gsl_rng_alloc(gsl_rng_mt19937);
+    if (rows == NULL || row == NULL || r == NULL) goto fail;
+    if (pw_moments_alloc(lay.k + 1, &local) != PW_OK) goto fail;
+    gsl_rng_set(r, COV_DIAG_SEED);
+    for (size_t i = 0; i < d->n_runs; i++) {
+        if (!row_complete(d, &lay, i)) continue;
+        fill_row(d, &lay, i, row);
+        pw_moments_add(local, row);
+        if (sample_keep(r, &want, left--)) rows[n_rows++] = i;
+    }
+    rc = assess_fitted(x, c, &lay, local, idx, d, rows, n_rows, 0, opt, alpha, a);
+fail:
+    free(lay.terms);
+    free(idx);
+    free(rows);
+    free(row);
+    pw_moments_free(local);
+    gsl_rng_free(r);
+    return rc;
+}
+
+int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
+               const cov_power_options *opt, cov_assessments **out, cov_error *err)
+{
+    *out = NULL;
+    if (!(opt->alpha > 0 && opt->alpha < 1) || !(opt->target > 0 && opt->target < 1))
+        return cov_fail(err, COV_EINPUT, "", "alpha and target power must lie strictly between "
+                        "0 and 1, got %g and %g", opt->alpha, opt->target);
+    cov_assessments *as = calloc(1, sizeof *as);
+    assess_ctx x;
+    int rc = ctx_init(&x, g, d);
+    if (as == NULL || rc != COV_OK) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    as->opt = *opt;
+    as->n = c->n;
+    as->items = calloc(c->n ? c->n : 1, sizeof *as->items);
+    if (as->items == NULL) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    for (size_t i = 0; i < c->n; i++)
+        if (c->items[i].status == COV_TESTABLE) as->n_testable++;
+    /* Bonferroni (Dunn 1961): each of the m testable claims at alpha / m keeps the chance of any
+     * false verdict in the family at or below alpha. */
+    double alpha = opt->bonferroni && as->n_testable > 1 ? opt->alpha / (double)as->n_testable
+                                                         : opt->alpha;
+    for (size_t i = 0; i < c->n; i++) {
+        cov_assessment *a = &as->items[i];
+        const cov_claim *cl = &c->items[i];
+        assessment_init(a, i);
+        if (cl->status != COV_TESTABLE) {
+            a->verdict = COV_BLIND;
+            a->reason = text_dup(cl->reason ? cl->reason : "no separating set among the recorded "
+                                                           "variables");
+            if (a->reason == NULL) {
+                rc = COV_ENOMEM;
+                goto fail;
+            }
+            continue;
+        }
+        a->alpha = alpha;
+        rc = assess_claim(&x, cl, opt, alpha, a);
+        if (rc == COV_ENUMERIC) {
+            cov_fail(err, rc, "", "a power computation did not converge for the claim %s -> %s",
+                     g->vars[cl->treatment].name, g->vars[cl->outcome].name);
+            goto fail;
+        }
+        if (rc != COV_OK) goto fail;
+    }
+    ctx_free(&x);
+    *out = as;
+    return COV_OK;
+fail:
+    ctx_free(&x);
+    cov_assessments_free(as);
+    if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory assessing the claims");
+    return rc;
+}
+
+void cov_assessments_free(cov_assessments *a)
+{
+    if (a == NULL) return;
+    if (a->items != NULL)
+        for (size_t i = 0; i < a->n; i++) {
+            free(a->items[i].noise_note);
+            free(a->items[i].reason);
+        }
+    free(a->items);
+    free(a);
+}
+
+int cov_assess_design(const cov_graph *g, const cov_claims *c, const cov_assessments *a,
+                      size_t claim, pw_design *out)
+{
+    (void)g;
+    if (a == NULL || c == NULL || claim >= a->n || claim >= c->n) return COV_EINPUT;
+    if (c->items[claim].status != COV_TESTABLE || !a->items[claim].has_design) return COV_EINPUT;
+    *out = a->items[claim].design;
+    return COV_OK;
+}
+
+void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c)
+{
+    fprintf(out, "\"kind\": \"%s\", \"treatment\": ",
+            c->kind == COV_CLAIM_EFFECT ? "effect" : "absence");
+    cov_emit_json_string(out, g->vars[c->treatment].name);
+    fputs(", \"outcome\": ", out);
+    cov_emit_json_string(out, g->vars[c->outcome].name);
+    fputs(", \"conditioning\": [", out);
+    for (size_t k = 0; k < c->n_cond; k++) {
+        if (k) fputs(", ", out);
+        cov_emit_json_string(out, g->vars[c->cond[k]].name);
+    }
+    fputs("], \"effect_of_interest\": ", out);
+    cov_emit_json_number(out, c->effect.value);
+    fprintf(out, ", \"effect_unit\": \"%s\", \"sign\": %d, \"status\": \"%s\", \"reason\": ",
+            c->effect.unit == COV_UNIT_SD ? "sd" : "raw", c->sign,
+            c->status == COV_TESTABLE ? "testable" : "untestable");
+    if (c->reason) cov_emit_json_string(out, c->reason);
+    else fputs("null", out);
+    fprintf(out, ", \"steerable\": %s, \"minimal_conditioning\": [",
+            c->steerable ? "true" : "false");
+    for (size_t k = 0; k < c->n_min_cond; k++) {
+        if (k) fputs(", ", out);
+        cov_emit_json_string(out, g->vars[c->min_cond[k]].name);
+    }
+    fputc(']', out);
+}
+
+char *cov_claim_csv_set(const cov_graph *g, const cov_claim *c)
+{
+    /* Names joined by ';', a name holding ';' or '"' quoted with its quotes doubled (RFC 4180's
+     * rule with ';' as the separator). */
+    size_t len = 1;
+    for (size_t i = 0; i < c->n_cond; i++) len += 2 * strlen(g->vars[c->cond[i]].name) + 3;
+    char *s = malloc(len), *q = s;
+    if (s == NULL) return NULL;
+    for (size_t i = 0; i < c->n_cond; i++) {
+        const char *name = g->vars[c->cond[i]].name;
+        if (i) *q++ = ';';
+        int quote = strpbrk(name, ";\"") != NULL;
+        if (quote) *q++ = '"';
+        for (const char *r = name; *r; r++) {
+            if (*r == '"') *q++ = '"';
+            *q++ = *r;
+        }
+        if (quote) *q++ = '"';
+    }
+    *q = '\0';
+    return s;
+}
+
+void cov_claim_csv_min_field(FILE *out, const cov_graph *g, const cov_claim *c)
+{
+    /* The same cell as the conditioning set's, written from a view of the claim whose set is the
+     * minimal one. */
+    cov_claim view = *c;
+    view.cond = c->min_cond;
+    view.n_cond = c->n_min_cond;
+    char *set = cov_claim_csv_set(g, &view);
+    if (set != NULL) {
+        cov_emit_csv_field(out, set);
+        free(set);
+    }
+}
+
+void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c)
+{
+    fprintf(out, "%s,", c->kind == COV_CLAIM_EFFECT ? "effect" : "absence");
+    cov_emit_csv_field(out, g->vars[c->treatment].name);
+    fputc(',', out);
+    cov_emit_csv_field(out, g->vars[c->outcome].name);
+    fputc(',', out);
+    char *set = cov_claim_csv_set(g, c);
+    if (set != NULL) {
+        cov_emit_csv_field(out, set);
+        free(set);
+    }
+    fputc(',', out);
+    cov_emit_csv_number(out, c->effect.value);
+    fprintf(out, ",%s,%d,%s,%d", c->effect.unit == COV_UNIT_SD ? "sd" : "raw", c->sign,
+            c->status == COV_TESTABLE ? "testable" : "untestable", c->steerable);
+}

@@ -1,0 +1,120 @@
+/* Escaping for the JSON and CSV writers of every command. See LICENSE. */
+#include <math.h>
+#include <stdio.h>
+
+#include "coverage/base/base.h"
+
+void cov_emit_json_string(FILE *f, const char *s)
+{
+    fputc('"', f);
+    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
+        switch (*p) {
+        case '"': fputs("\\\"", f); break;
+        case '\\': fputs("\\\\", f); break;
+        case '\b': fputs("\\b", f); break;
+        case '\f': fputs("\\f", f); break;
+        case '\n': fputs("\\n", f); break;
+        case '\r': fputs("\\r", f); break;
+        case '\t': fputs("\\t", f); break;
+        default:
+            /* '<' is escaped too, so a string can never close a <script> block it is embedded in. */
+            if (*p < 0x20 || *p == '<') fprintf(f, "\\u%04x", *p);
+            else fputc(*p, f);
+        }
+    }
+    fputc('"', f);
+}
+
+void cov_emit_json_number(FILE *f, double x)
+{
+    if (!isfinite(x)) fputs("null", f);
+    else fprintf(f, "%.10g", x);
+}
+
+void cov_emit_csv_field(FILE *f, const char *s)
+{
+    const char *p = s ? s : "";
+    int quote = 0;
+    for (const char *q = p; *q; q++)
+        if (*q == ',' || *q == '"' || *q == '\r' || *q == '\n') quote = 1;
+    if (!quote) {
+        fputs(p, f);
+        return;
+    }
+    fputc('"', f);
+    for (; *p; p++) {
+        if (*p == '"') fputc('"', f);
+        fputc(*p, f);
+    }
+    fputc('"', f);
+}
+
+void cov_emit_csv_number(FILE *f, double x)
+{
+    if (isfinite(x)) fprintf(f, "%.10g", x);
+    else if (isinf(x)) fputs(x > 0 ? "inf" : "-inf", f);
+}
+
+void cov_progress_note(double share, void *ctx)
+{
+    FILE *note = ctx;
+    fprintf(note, "\rreading the archive %3.0f%%", 100 * share);
+    if (share >= 1) fputc('\n', note);
+    fflush(note);
+}
+
+void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
+{
+    size_t used = (size_t)snprintf(buf, size, "%s %s %s", g->vars[c->treatment].name,
+                                   c->kind == COV_CLAIM_EFFECT ? "->" : "_||_",
+                                   g->vars[c->outcome].name);
+    if (used >= size || c->n_cond == 0) return;
+    used += (size_t)snprintf(buf + used, size - used, " | {");
+    for (size_t k = 0; k < c->n_cond && used < size; k++)
+        used += (size_t)snprintf(buf + used, size - used, "%s%s", k ? ", " : "",
+                                 g->vars[c->cond[k]].name);
+    if (used < size) snprintf(buf + used, size - used, "}");
+}
+
+size_t cov_utf8_valid_prefix(const char *s, size_t n)
+{
+    /* The well-formed sequences of RFC 3629 section 4 (UTF8-octets): no overlong forms, no
+     * surrogates (ED A0-BF), nothing above U+10FFFF (F4 90-BF, F5-FF). */
+    const unsigned char *p = (const unsigned char *)s;
+    size_t i = 0;
+    while (i < n) {
+        unsigned char b = p[i];
+        size_t more;
+        unsigned char lo = 0x80, hi = 0xBF;
+        if (b < 0x80) {
+            i++;
+            continue;
+        } else if (b >= 0xC2 && b <= 0xDF) {
+            more = 1;
+        } else if (b >= 0xE0 && b <= 0xEF) {
+            more = 2;
+            if (b == 0xE0) lo = 0xA0;
+            if (b == 0xED) hi = 0x9F;
+        } else if (b >= 0xF0 && b <= 0xF4) {
+            more = 3;
+            if (b == 0xF0) lo = 0x90;
+            if (b == 0xF4) hi = 0x8F;
+        } else {
+            return i;
+        }
+        if (n - i <= more) return i;
+        if (p[i + 1] < lo || p[i + 1] > hi) return i;
+        for (size_t k = 2; k <= more; k++)
+            if ((p[i + k] & 0xC0) != 0x80) return i;
+        i += more + 1;
+    }
+    return n;
+}
+
+size_t cov_text_width(const char *s)
+{
+    size_t w = 0;
+    for (; *s; s++)
+        if (((unsigned char)*s & 0xC0) != 0x80) w++;
+    return w;
+}

@@ -1,0 +1,231 @@
+/* The `shoal power` command: power, MDE and runs needed per claim, as a table, CSV or JSON.
+ * See LICENSE. */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
+
+static void fmt_num(char *buf, size_t size, double x)
+{
+    if (isnan(x)) snprintf(buf, size, "-");
+    else if (isinf(x)) snprintf(buf, size, "%s", x > 0 ? "inf" : "-inf");
+    else snprintf(buf, size, "%.4g", x);
+}
+
+static void family_line(const cov_assessments *as, FILE *out)
+{
+    const cov_power_options *p = &as->opt;
+    if (p->bonferroni && as->n_testable > 1)
+        fprintf(out, "family: Bonferroni over %zu testable claims: alpha %g / %zu = %.4g per "
+                "claim; target power %g; %s tests\n", as->n_testable, p->alpha, as->n_testable,
+                p->alpha / (double)as->n_testable, p->target,
+                p->one_sided ? "one-sided (where a sign is given)" : "two-sided");
+    else
+        fprintf(out, "family: %s: alpha %g per claim; target power %g; %s tests\n",
+                !p->bonferroni          ? "no correction (--family none)"
+                : as->n_testable == 0   ? "Bonferroni over 0 testable claims"
+                                        : "Bonferroni over 1 testable claim",
+                p->alpha, p->target,
+                p->one_sided ? "one-sided (where a sign is given)" : "two-sided");
+}
+
+static void print_table(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
+                        FILE *out)
+{
+    family_line(as, out);
+    int width = 5;
+    for (size_t i = 0; i < cl->n; i++) {
+        char label[512];
+        cov_claim_label(g, &cl->items[i], label, sizeof label);
+        int w = (int)cov_text_width(label);
+        if (w > width) width = w;
+    }
+    fprintf(out, "\n%-*s %9s %9s %9s  %-22s %-22s %10s  %s\n", width, "claim", "n", "sigma",
+            "sd(X|S)", "power [95% interval]", "MDE (effect)", "runs", "verdict");
+    for (size_t i = 0; i < cl->n; i++) {
+        const cov_claim *c = &cl->items[i];
+        const cov_assessment *a = &as->items[i];
+        char label[512], sigma[32], sdx[32], pw[96], mde[80], runs[32], e1[32], e2[32], e3[32];
+        cov_claim_label(g, c, label, sizeof label);
+        fmt_num(sigma, sizeof sigma, a->sigma);
+        fmt_num(sdx, sizeof sdx, a->sd_treatment_resid);
+        if (isnan(a->power)) snprintf(pw, sizeof pw, "-");
+        else snprintf(pw, sizeof pw, "%.2f [%.2f, %.2f]", a->power, a->power_lo, a->power_hi);
+        fmt_num(e1, sizeof e1, a->mde);
+        fmt_num(e2, sizeof e2, a->effect_raw);
+        snprintf(mde, sizeof mde, "%s (%s)", e1, e2);
+        fmt_num(e3, sizeof e3, a->runs_needed);
+        snprintf(runs, sizeof runs, "%s", isnan(a->runs_needed) ? "-" : e3);
+        if (isfinite(a->runs_needed)) snprintf(runs, sizeof runs, "%.0f", a->runs_needed);
+        fputs(label, out);
+        for (int w = (int)cov_text_width(label); w < width; w++) fputc(' ', out);
+        fprintf(out, " %9zu %9s %9s  %-22s %-22s %10s  %s%s\n", a->n, sigma, sdx, pw,
+                a->verdict == COV_BLIND ? "-" : mde, a->verdict == COV_BLIND ? "-" : runs,
+                cov_verdict_word(a->verdict), a->noise_flag ? " (noise?)" : "");
+    }
+    int any = 0;
+    for (size_t i = 0; i < cl->n; i++) {
+        const cov_assessment *a = &as->items[i];
+        if (a->reason == NULL && a->noise_note == NULL) continue;
+        if (!any) fputs("\n", out);
+        any = 1;
+        char label[512];
+        cov_claim_label(g, &cl->items[i], label, sizeof label);
+        if (a->reason) fprintf(out, "%s: %s: %s\n", label, cov_verdict_word(a->verdict), a->reason);
+        if (a->noise_note)
+            fprintf(out, "%s: noise%s: %s\n", label, a->noise_flag ? " (cannot be trusted)" : "",
+                    a->noise_note);
+    }
+    size_t n_ample = 0, n_thin = 0, n_blind = 0;
+    for (size_t i = 0; i < as->n; i++) {
+        n_ample += as->items[i].verdict == COV_AMPLE;
+        n_thin += as->items[i].verdict == COV_THIN;
+        n_blind += as->items[i].verdict == COV_BLIND;
+    }
+    fprintf(out, "\n%zu claims: %zu ample, %zu thin, %zu untestable\n", as->n, n_ample, n_thin,
+            n_blind);
+}
+
+static void csv_text(FILE *out, const char *s)
+{
+    cov_emit_csv_field(out, s ? s : "");
+}
+
+static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
+                      FILE *out)
+{
+    fputs("kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,"
+          "steerable,n,df,sigma,sd_treatment_resid,alpha,power,power_lo,power_hi,mde,mde_lo,"
+          "mde_hi,runs_needed,effect_raw,estimate,se,verdict,noise_flag,noise_note,reason,"
+          "minimal_conditioning\n", out);
+    for (size_t i = 0; i < cl->n; i++) {
+        const cov_claim *c = &cl->items[i];
+        const cov_assessment *a = &as->items[i];
+        cov_claim_csv_fields(out, g, c);
+        fprintf(out, ",%zu", a->n);
+        const double v[] = {a->df, a->sigma, a->sd_treatment_resid, a->alpha, a->power,
+                            a->power_lo, a->power_hi, a->mde, a->mde_lo, a->mde_hi,
+                            a->runs_needed, a->effect_raw, a->estimate, a->se};
+        for (size_t k = 0; k < sizeof v / sizeof v[0]; k++) {
+            fputc(',', out);
+            cov_emit_csv_number(out, v[k]);
+        }
+        fprintf(out, ",%s,%d,", cov_verdict_word(a->verdict), a->noise_flag);
+        csv_text(out, a->noise_note);
+        fputc(',', out);
+        csv_text(out, a->reason);
+        fputc(',', out);
+        cov_claim_csv_min_field(out, g, c);
+        fputc('\n', out);
+    }
+}
+
+static void json_member(FILE *out, const char *name, double x)
+{
+    fprintf(out, ", \"%s\": ", name);
+    cov_emit_json_number(out, x);
+}
+
+static void json_text(FILE *out, const char *name, const char *s)
+{
+    fprintf(out, ", \"%s\": ", name);
+    if (s) cov_emit_json_string(out, s);
+    else fputs("null", out);
+}
+
+static void print_json(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
+                       FILE *out)
+{
+    const cov_power_options *p = &as->opt;
+    fputs("{\"schema_version\": 1, \"alpha\": ", out);
+    cov_emit_json_number(out, p->alpha);
+    fprintf(out, ", \"family\": \"%s\", \"family_size\": %zu, \"sides\": \"%s\", "
+            "\"target_power\": ", p->bonferroni ? "bonferroni" : "none", as->n_testable,
+            p->one_sided ? "one-sided where signed" : "two-sided");
+    cov_emit_json_number(out, p->target);
+    fputs(", \"claims\": [", out);
+    for (size_t i = 0; i < cl->n; i++) {
+        const cov_assessment *a = &as->items[i];
+        fputs(i ? ",\n  {" : "\n  {", out);
+        cov_claim_json_fields(out, g, &cl->items[i]);
+        fprintf(out, ", \"n\": %zu", a->n);
+        json_member(out, "df", a->df);
+        json_member(out, "sigma", a->sigma);
+        json_member(out, "sd_treatment_resid", a->sd_treatment_resid);
+        json_member(out, "alpha", a->alpha);
+        json_member(out, "power", a->power);
+        fputs(", \"power_interval\": [", out);
+        cov_emit_json_number(out, a->power_lo);
+        fputs(", ", out);
+        cov_emit_json_number(out, a->power_hi);
+        fputs("]", out);
+        json_member(out, "mde", a->mde);
+        fputs(", \"mde_interval\": [", out);
+        cov_emit_json_number(out, a->mde_lo);
+        fputs(", ", out);
+        cov_emit_json_number(out, a->mde_hi);
+        fputs("]", out);
+        json_member(out, "runs_needed", a->runs_needed);
+        json_member(out, "effect_raw", a->effect_raw);
+        json_member(out, "estimate", a->estimate);
+        json_member(out, "se", a->se);
+        fprintf(out, ", \"verdict\": \"%s\", \"noise_flag\": %s", cov_verdict_word(a->verdict),
+                a->noise_flag ? "true" : "false");
+        json_text(out, "noise_note", a->noise_note);
+        json_text(out, "verdict_reason", a->reason);
+        fputs(", \"lack_of_fit\": ", out);
+        if (a->has_pure_error && isfinite(a->lof_f)) {
+            fputs("{\"f\": ", out);
+            cov_emit_json_number(out, a->lof_f);
+            fputs(", \"p\": ", out);
+            cov_emit_json_number(out, a->lof_p);
+            fputs(", \"sigma_pure\": ", out);
+            cov_emit_json_number(out, a->sigma_pure);
+            fputs("}", out);
+        } else {
+            fputs("null", out);
+        }
+        fputs("}", out);
+    }
+    fputs(cl->n ? "\n]}\n" : "]}\n", out);
+}
+
+int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err)
+{
+    cov_graph *g = NULL;
+    cov_claims *cl = NULL;
+    cov_archive *ar = NULL;
+    cov_data *d = NULL;
+    cov_assessments *as = NULL;
+    *adequate = 0;
+    if (o->graph_path == NULL || o->archive_path == NULL)
+        return cov_fail(err, COV_EINPUT, "", "power needs a graph file and an archive");
+    int rc = cov_graph_parse_file(o->graph_path, &g, err);
+    if (!rc) rc = cov_claims_derive(g, &cl, err);
+    if (!rc) rc = cov_archive_open(o->archive_path, o->table, &ar, err);
+    if (!rc)
+        rc = cov_data_read(ar, g, o->progress && note && !o->quiet ? cov_progress_note : NULL, note,
+                           &d, err);
+    if (!rc) rc = cov_assess(g, cl, d, &o->power, &as, err);
+    if (rc) goto done;
+    *adequate = 1;
+    for (size_t i = 0; i < as->n; i++)
+        if (cl->items[i].status == COV_TESTABLE && as->items[i].verdict != COV_AMPLE)
+            *adequate = 0;
+    if (o->quiet) goto done;
+    switch (o->format) {
+    case COV_FMT_JSON: print_json(g, cl, as, out); break;
+    case COV_FMT_CSV: print_csv(g, cl, as, out); break;
+    case COV_FMT_TABLE: print_table(g, cl, as, out); break;
+    }
+done:
+    cov_assessments_free(as);
+    cov_data_free(d);
+    cov_archive_close(ar);
+    cov_claims_free(cl);
+    cov_graph_free(g);
+    return rc;
+}

@@ -1,0 +1,444 @@
+/* The `shoal survey` command: claims, power, support and coverage in one pass, with plots, a report
+ * written atomically, and the campaign's history. See LICENSE. */
+#include <dirent.h>
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "coverage/plan/plan.h"
+#include "coverage/report/report.h"
+
+#define DEFAULT_REPORT_DIR "shoal-report"
+/* The terminal lists this many thin or untestable claims; the report has them all. */
+#define TERMINAL_CLAIMS 12
+
+/* ANSI colours, used only when the driver says stdout is a terminal without NO_COLOR. */
+#define C_RESET "\033[0m"
+#define C_BOLD "\033[1m"
+#define C_AMPLE "\033[36m"
+#define C_THIN "\033[33m"
+#define C_BLIND "\033[2m"
+
+static void step_note(const cov_options *o, FILE *note, const char *what)
+{
+    if (o->progress && !o->quiet && note != NULL) {
+        fprintf(note, "shoal: %s\n", what);
+        fflush(note);
+    }
+}
+
+/* ---- the report directory, written aside and renamed into place ----------------------------- */
+
+/* Remove a directory that holds only files (a report, or a failed attempt at one). */
+static void remove_flat_dir(const char *dir)
+{
+    DIR *d = opendir(dir);
+    if (d != NULL) {
+        struct dirent *e;
+        char path[4096];
+        while ((e = readdir(d)) != NULL) {
+            if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0) continue;
+            if (snprintf(path, sizeof path, "%s/%s", dir, e->d_name) < (int)sizeof path)
+                unlink(path);
+        }
+        closedir(d);
+    }
+    rmdir(dir);
+}
+
+/* Remove the plot files from dir after gnuplot failed, so no half-drawn plot is shipped. */
+static void remove_plot_files(const char *dir)
+{
+    DIR *d = opendir(dir);
+    if (d == NULL) return;
+    struct dirent *e;
+    char path[4096];
+    while ((e = readdir(d)) != NULL) {
+        size_t len = strlen(e->d_name);
+        if ((len > 4 && (strcmp(e->d_name + len - 4, ".svg") == 0 ||
+                         strcmp(e->d_name + len - 4, ".png") == 0)) &&
+            snprintf(path, sizeof path, "%s/%s", dir, e->d_name) < (int)sizeof path)
+            unlink(path);
+    }
+    closedir(d);
+}
+
+/* An existing report directory may be replaced only when it is empty or looks like a report of
+ * ours: plain files only, summary.json among them. Anything else is the user's and stays. */
+static int check_replaceable(const char *dir, cov_error *err)
+{
+    struct stat sb;
+    if (lstat(dir, &sb) != 0) {
+        if (errno == ENOENT) return COV_OK;
+        return cov_fail(err, COV_EIO, "", "cannot inspect %s: %s", dir, strerror(errno));
+    }
+    if (!S_ISDIR(sb.st_mode))
+        return cov_fail(err, COV_EINPUT, "", "%s exists and is not a directory; expected a "
+                                             "report directory (-o DIR)", dir);
+    DIR *d = opendir(dir);
+    if (d == NULL) return cov_fail(err, COV_EIO, "", "cannot read %s: %s", dir, strerror(errno));
+    int files = 0, has_summary = 0, foreign = 0;
+    struct dirent *e;
+    char path[4096];
+    while ((e = readdir(d)) != NULL) {
+        if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0) continue;
+        files++;
+        has_summary |= strcmp(e->d_name, "summary.json") == 0;
+        if (snprintf(path, sizeof path, "%s/%s", dir, e->d_name) >= (int)sizeof path ||
+            lstat(path, &sb) != 0 || !S_ISREG(sb.st_mode))
+            foreign = 1;
+    }
+    closedir(d);
+    if (files > 0 && (!has_summary || foreign))
+        return cov_fail(err, COV_EINPUT, "", "%s exists and does not look like a shoal report "
+                                             "(expected summary.json and plain files only); "
+                                             "choose another -o DIR or remove it", dir);
+    return COV_OK;
+}
+
+/* Split dir into a writable copy without trailing slashes and the temporary names beside it. */
+static int sibling_name(const char *dir, const char *tag, char *out, size_t size)
+{
+    char copy[4096];
+    if (snprintf(copy, sizeof copy, "%s", dir) >= (int)sizeof copy) return -1;
+    size_t len = strlen(copy);
+    while (len > 1 && copy[len - 1] == '/') copy[--len] = '\0';
+    char *slash = strrchr(copy, '/');
+    const char *base = slash ? slash + 1 : copy;
+    int n;
+    if (slash == NULL) n = snprintf(out, size, ".%s.%s.XXXXXX", base, tag);
+    else if (slash == copy) n = snprintf(out, size, "/.%s.%s.XXXXXX", base, tag);
+    else {
+        *slash = '\0';
+        n = snprintf(out, size, "%s/.%s.%s.XXXXXX", copy, base, tag);
+    }
+    return n < 0 || (size_t)n >= size ? -1 : 0;
+}
+
+/* Move the finished report tmp to dir, replacing an earlier report only now that the new one is
+ * complete. On failure the earlier report is put back. */
+static int move_into_place(const char *tmp, const char *dir, cov_error *err)
+{
+    struct stat sb;
+    char old[4096] = "";
+    if (lstat(dir, &sb) == 0) {
+        if (sibling_name(dir, "old", old, sizeof old) != 0 || mkdtemp(old) == NULL)
+            return cov_fail(err, COV_EIO, "", "cannot make room beside %s: %s", dir,
+                            strerror(errno));
+        /* rename(2) replaces the empty directory just made. */
+        if (rename(dir, old) != 0) {
+            int e = errno;
+            rmdir(old);
+            return cov_fail(err, COV_EIO, "", "cannot move the earlier report %s aside: %s", dir,
+                            strerror(e));
+        }
+    }
+    if (rename(tmp, dir) != 0) {
+        int e = errno;
+        if (old[0] != '\0') rename(old, dir);
+        return cov_fail(err, COV_EIO, "", "cannot move the report into %s: %s", dir, strerror(e));
+    }
+    if (old[0] != '\0') remove_flat_dir(old);
+    return COV_OK;
+}
+
+/* ---- the terminal verdict -------------------------------------------------------------------- */
+
+/* Write user text to the terminal with control characters shown as '?', so that a name in the
+ * graph cannot move the cursor or change the terminal's state. */
+static void term_text(FILE *out, const char *s)
+{
+    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++)
+        fputc(*p < 0x20 || *p == 0x7f ? '?' : *p, out);
+}
+
+static const char *verdict_colour(cov_verdict v)
+{
+    return v == COV_AMPLE ? C_AMPLE : v == COV_THIN ? C_THIN : C_BLIND;
+}
+
+static void print_share(FILE *out, const char *label, double x)
+{
+    if (isfinite(x)) fprintf(out, "%s %.1f%%", label, 100 * x);
+    else fprintf(out, "%s not computed", label);
+}
+
+static void print_verdict(const cov_findings *f, const cov_report_info *info, const char *dir,
+                          FILE *out)
+{
+    const cov_options *o = f->opt;
+    const cov_graph *g = f->graph;
+    int col = o->color;
+    long long count[3] = {0, 0, 0}, unrun = 0;
+    for (size_t i = 0; i < f->claims->n; i++) {
+        count[f->assess->items[i].verdict]++;
+        /* Testable by the graph, yet the runs cannot test it (e.g. the treatment never varies). */
+        if (f->claims->items[i].status == COV_TESTABLE && f->assess->items[i].verdict == COV_BLIND)
+            unrun++;
+    }
+    fprintf(out, "%sshoal survey%s ", col ? C_BOLD : "", col ? C_RESET : "");
+    term_text(out, g->path);
+    fputs(" on ", out);
+    term_text(out, o->archive_path);
+    fprintf(out, ": %zu runs in %zu batch%s\n", f->data->n_runs, f->data->n_batches,
+            f->data->n_batches == 1 ? "" : "es");
+    fprintf(out, "claims: %zu  %s%lld ample%s  %s%lld thin%s  %s%lld untestable%s\n", f->claims->n,
+            col ? C_AMPLE : "", count[COV_AMPLE], col ? C_RESET : "", col ? C_THIN : "",
+            count[COV_THIN], col ? C_RESET : "", col ? C_BLIND : "", count[COV_BLIND],
+            col ? C_RESET : "");
+    fprintf(out, "coverage (bins or cells with >= %zu runs): ", f->coverage->opt.min_runs);
+    print_share(out, "marginal", f->coverage->marginal_share);
+    print_share(out, ", 2-way", f->coverage->pairwise_share);
+    print_share(out, ", 3-way", f->coverage->threeway_share);
+    fputc('\n', out);
+    fprintf(out, "\n%s%s%s", col ? C_BOLD : "", info->adequate ? "ADEQUATE" : "NOT ADEQUATE",
+            col ? C_RESET : "");
+    if (info->adequate)
+        fprintf(out, ": every testable claim reaches power %.2f.\n", o->power.target);
+    else if (count[COV_THIN] > 0)
+        fprintf(out, ": %lld testable claim%s below power %.2f.\n", count[COV_THIN],
+                count[COV_THIN] == 1 ? " is" : "s are", o->power.target);
+    else if (unrun > 0)
+        fprintf(out, ": %lld claim%s testable by the graph cannot be tested on these runs.\n",
+                unrun, unrun == 1 ? "" : "s");
+    else
+        fputs(".\n", out);
+    if (info->gate_note) fprintf(out, "%s\n", info->gate_note);
+
+    size_t *order = malloc((f->claims->n ? f->claims->n : 1) * sizeof *order);
+    if (order != NULL) {
+        cov_report_order(f, order);
+        size_t shown = 0, left = 0;
+        for (size_t k = 0; k < f->claims->n; k++) {
+            size_t i = order[k];
+            const cov_claim *c = &f->claims->items[i];
+            const cov_assessment *a = &f->assess->items[i];
+            if (a->verdict == COV_AMPLE) continue;
+            if (shown == TERMINAL_CLAIMS) {
+                left++;
+                continue;
+            }
+            if (shown++ == 0) fputs("\nthinnest first:\n", out);
+            fprintf(out, "  %s%-10s%s ", col ? verdict_colour(a->verdict) : "",
+                    cov_verdict_word(a->verdict), col ? C_RESET : "");
+            term_text(out, g->vars[c->treatment].name);
+            fputs(c->kind == COV_CLAIM_EFFECT ? " -> " : " _||_ ", out);
+            term_text(out, g->vars[c->outcome].name);
+            /* The assessment's reason already gives power and runs needed; say them here only
+             * when it is silent. */
+            if (a->verdict == COV_THIN && a->reason == NULL) {
+                fprintf(out, "  power %.2f", a->power);
+                if (isinf(a->runs_needed))
+                    fputs(", not reachable by more runs like these", out);
+                else if (isfinite(a->runs_needed))
+                    fprintf(out, ", needs %.0f runs (%.0f more)", a->runs_needed,
+                            a->runs_needed > (double)a->n ? a->runs_needed - (double)a->n : 0.0);
+            }
+            const char *why = a->reason ? a->reason : c->reason;
+            if (why == NULL && f->support->items[i].reason) why = f->support->items[i].reason;
+            fputs("\n             ", out);
+            term_text(out, why);
+            fputc('\n', out);
+        }
+        if (left > 0) fprintf(out, "  ... and %zu more in the report\n", left);
+        free(order);
+    }
+    if (info->plot_note) {
+        fputs("\nplots skipped: ", out);
+        term_text(out, info->plot_note);
+        fputc('\n', out);
+    }
+    fputs("\nreport: ", out);
+    term_text(out, dir);
+    fputs("/index.html (also report.md, summary.json, claims.csv)\n", out);
+    if (info->store == COV_HISTORY_NONE) {
+        fputs("history: not kept (the archive is not shoal's own; --history FILE keeps it)\n", out);
+    } else {
+        fprintf(out, "history: round %zu, kept in ", info->n_rounds);
+        term_text(out, info->history_path);
+        fputc('\n', out);
+    }
+}
+
+/* ---- the command ----------------------------------------------------------------------------- */
+
+/* The first --need-* gate the campaign misses, written into buf; 0 when every gate is met. */
+static int gate_missed(const cov_options *o, const cov_coverage *cv, char *buf, size_t size)
+{
+    const struct { const char *name; double need, got; } gate[] = {
+        {"marginal", o->need_marginal, cv->marginal_share},
+        {"2-way", o->need_pairwise, cv->pairwise_share},
+        {"3-way", o->need_threeway, cv->threeway_share},
+    };
+    for (size_t k = 0; k < sizeof gate / sizeof gate[0]; k++) {
+        if (isnan(gate[k].need)) continue;
+        if (!isfinite(gate[k].got)) {
+            /* No cells to count (too few inputs or runs): the gate is missed, but nothing was
+             * measured, so the message must not claim 0% was reached. */
+            snprintf(buf, size, "The %s coverage gate is missed: %s coverage was not measured, "
+                                "%.1f%% needed.", gate[k].name, gate[k].name, 100 * gate[k].need);
+            return 1;
+        }
+        if (gate[k].got < gate[k].need) {
+            snprintf(buf, size, "The %s coverage gate is missed: %.1f%% of cells reached, %.1f%% "
+                                "needed.", gate[k].name, 100 * gate[k].got, 100 * gate[k].need);
+            return 1;
+        }
+    }
+    return 0;
+}
+
+int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate, cov_error *err)
+{
+    cov_options o = *o_in;
+    const char *dir = o.out_path ? o.out_path : DEFAULT_REPORT_DIR;
+    cov_graph *g = NULL;
+    cov_claims *claims = NULL;
+    cov_archive *ar = NULL;
+    cov_data *d = NULL;
+    cov_assessments *as = NULL;
+    cov_coverage *cv = NULL;
+    cov_supports *sp = NULL;
+    cov_round *rounds = NULL;
+    size_t n_rounds = 0;
+    double *planned = NULL;
+    size_t n_planned = 0;
+    char tmp[4096] = "", gate[256], plot_msg[sizeof err->msg + 64], at[32];
+    int rc;
+    *adequate = 0;
+
+    if (o.archive_path == NULL) return cov_fail(err, COV_EINPUT, "", "survey needs an ARCHIVE");
+    if (!isnan(o.need_threeway) && o.coverage.way == 2)
+        return cov_fail(err, COV_EINPUT, "", "--need-threeway needs 3-way coverage, but --way 2 "
+                                             "was given");
+    if (!isnan(o.need_threeway)) o.coverage.way = 3;
+    if ((rc = check_replaceable(dir, err)) != COV_OK) return rc;
+
+    step_note(&o, note, "reading the graph");
+    if ((rc = cov_graph_parse_file(o.graph_path, &g, err)) != COV_OK) goto fail;
+    if ((rc = cov_claims_derive(g, &claims, err)) != COV_OK) goto fail;
+    /* A plan file is read before the archive, so a bad one stops the survey early. */
+    if (o.plan_path != NULL &&
+        (rc = cov_plan_read_csv(g, o.plan_path, &planned, &n_planned, err)) != COV_OK)
+        goto fail;
+    if ((rc = cov_archive_open(o.archive_path, o.table, &ar, err)) != COV_OK) goto fail;
+    int owned = cov_archive_owned(ar);
+    rc = cov_data_read(ar, g, o.progress && note && !o.quiet ? cov_progress_note : NULL, note, &d, err);
+    if (rc != COV_OK) goto fail;
+    /* The read-only connection is closed before anything writes history into the archive. */
+    cov_archive_close(ar);
+    ar = NULL;
+
+    /* Where the history goes: an explicit side file, else shoal's own archive, else nowhere. */
+    cov_history_store store = o.history_path ? COV_HISTORY_SIDE
+                              : owned        ? COV_HISTORY_ARCHIVE
+                                             : COV_HISTORY_NONE;
+    const char *history_path = store == COV_HISTORY_SIDE ? o.history_path
+                               : store == COV_HISTORY_ARCHIVE ? o.archive_path : NULL;
+    if (store == COV_HISTORY_SIDE) {
+        struct stat sa, sh;
+        if (stat(o.archive_path, &sa) == 0 && stat(o.history_path, &sh) == 0 &&
+            sa.st_dev == sh.st_dev && sa.st_ino == sh.st_ino) {
+            rc = cov_fail(err, COV_EINPUT, "", "--history %s is the archive itself; the history "
+                                               "needs a file of its own", o.history_path);
+            goto fail;
+        }
+    }
+    if (store != COV_HISTORY_NONE &&
+        (rc = cov_history_load(history_path, store == COV_HISTORY_SIDE, &rounds, &n_rounds,
+                               err)) != COV_OK)
+        goto fail;
+
+    step_note(&o, note, "assessing the claims");
+    if ((rc = cov_assess(g, claims, d, &o.power, &as, err)) != COV_OK) goto fail;
+    step_note(&o, note, "measuring coverage and support");
+    if ((rc = cov_coverage_measure(g, d, &o.coverage, &cv, err)) != COV_OK) goto fail;
+    if ((rc = cov_support_measure(g, claims, d, &o.coverage, &sp, err)) != COV_OK) goto fail;
+
+    cov_findings f = {&o, g, claims, d, as, cv, sp, planned, n_planned};
+    int all_ample = 1;
+    /* The same gate as shoal power: a claim the graph makes testable but the runs cannot test
+     * (too few runs, a treatment that never varies) is not adequately covered either. */
+    for (size_t i = 0; i < as->n; i++)
+        if (claims->items[i].status == COV_TESTABLE && as->items[i].verdict != COV_AMPLE)
+            all_ample = 0;
+    int missed = gate_missed(&o, cv, gate, sizeof gate);
+
+    /* Everything is written into a fresh directory beside DIR and renamed at the end. */
+    if (sibling_name(dir, "tmp", tmp, sizeof tmp) != 0 || mkdtemp(tmp) == NULL) {
+        rc = cov_fail(err, COV_EIO, "", "cannot create a directory beside %s: %s", dir,
+                      strerror(errno));
+        tmp[0] = '\0';
+        goto fail;
+    }
+    /* mkdtemp makes the directory private; the report gets the usual mode under the umask. */
+    mode_t mask = umask(0);
+    umask(mask);
+    if (chmod(tmp, 0777 & ~mask) != 0) {
+        rc = cov_fail(err, COV_EIO, "", "cannot set the mode of %s: %s", tmp, strerror(errno));
+        goto fail;
+    }
+    step_note(&o, note, "drawing the plots");
+    cov_error perr = {{0}, {0}};
+    const char *plot_note = NULL;
+    rc = cov_plot_all(&f, tmp, o.quiet ? NULL : note, &perr);
+    if (rc == COV_ENOPLOT) {
+        remove_plot_files(tmp);
+        snprintf(plot_msg, sizeof plot_msg, "%s", perr.msg[0] ? perr.msg : "gnuplot failed");
+        plot_note = plot_msg;
+        if (!o.quiet && note != NULL) fprintf(note, "shoal: plots skipped: %s\n", plot_note);
+    } else if (rc != COV_OK) {
+        *err = perr;
+        goto fail;
+    }
+
+    time_t now = time(NULL);
+    struct tm tm_utc;
+    if (gmtime_r(&now, &tm_utc) == NULL || strftime(at, sizeof at, "%Y-%m-%dT%H:%M:%SZ",
+                                                   &tm_utc) == 0)
+        snprintf(at, sizeof at, "unknown");
+    cov_round *grown = realloc(rounds, (n_rounds + 1) * sizeof *grown);
+    if (grown == NULL) {
+        rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
+        goto fail;
+    }
+    rounds = grown;
+    cov_round *now_round = &rounds[n_rounds++];
+    cov_round_from_findings(&f, now_round);
+    snprintf(now_round->at, sizeof now_round->at, "%s", at);
+
+    cov_report_info info = {at, all_ample && !missed, missed ? gate : NULL, plot_note, store,
+                            history_path, rounds, n_rounds};
+    step_note(&o, note, "writing the report");
+    if ((rc = cov_report_write(&f, &info, tmp, err)) != COV_OK) goto fail;
+    if (store != COV_HISTORY_NONE &&
+        (rc = cov_history_record(history_path, &f, now_round, err)) != COV_OK)
+        goto fail;
+    if ((rc = move_into_place(tmp, dir, err)) != COV_OK) goto fail;
+    tmp[0] = '\0';
+
+    if (!o.quiet) {
+        if (o.format == COV_FMT_JSON) cov_report_summary_json(&f, &info, out);
+        else if (o.format == COV_FMT_CSV) cov_report_claims_csv(&f, out);
+        else print_verdict(&f, &info, dir, out);
+    }
+    *adequate = info.adequate;
+    rc = COV_OK;
+fail:
+    if (tmp[0] != '\0') remove_flat_dir(tmp);
+    free(rounds);
+    free(planned);
+    cov_supports_free(sp);
+    cov_coverage_free(cv);
+    cov_assessments_free(as);
+    cov_data_free(d);
+    cov_archive_close(ar);
+    cov_claims_free(claims);
+    cov_graph_free(g);
+    return rc;
+}

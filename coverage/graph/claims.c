@@ -1,0 +1,322 @@
+/* Claims: the effect and absence claims a graph implies, each with its separating set.
+ * See LICENSE. */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coverage/graph/graph.h"
+
+/* How the design node is shown in reasons; brackets keep it apart from any variable's name. */
+#define DESIGN_LABEL "[design]"
+
+void cov_claims_free(cov_claims *c)
+{
+    if (c == NULL) return;
+    for (size_t i = 0; i < c->n; i++) {
+        free(c->items[i].cond);
+        free(c->items[i].min_cond);
+        free(c->items[i].reason);
+    }
+    free(c->items);
+    free(c);
+}
+
+static int recorded(const cov_graph *g, size_t v)
+{
+    return v < g->n_vars && g->vars[v].role != COV_HIDDEN;
+}
+
+static const char *node_name(const cov_graph *g, size_t v)
+{
+    return v < g->n_vars ? g->vars[v].name : DESIGN_LABEL;
+}
+
+/* A growable string for reasons. */
+typedef struct {
+    char *s;
+    size_t n, cap;
+    int oom;
+} strbuf;
+
+static void sb_add(strbuf *b, const char *t)
+{
+    size_t k = strlen(t);
+    if (b->oom) return;
+    if (b->n + k + 1 > b->cap) {
+        size_t cap = b->cap ? b->cap : 64;
+        while (cap < b->n + k + 1) cap *= 2;
+        char *s = realloc(b->s, cap);
+        if (s == NULL) {
+            b->oom = 1;
+            return;
+        }
+        b->s = s;
+        b->cap = cap;
+    }
+    memcpy(b->s + b->n, t, k + 1);
+    b->n += k;
+}
+
+/* "open path a <- h -> b runs through hidden h": the path comes from the walk that finds the
+ * largest candidate set open, so each of its non-colliders is unrecorded. */
+static int untestable_reason(const cov_graph *g, const cov_dag *d, size_t x, size_t y,
+                             const unsigned char *z, char **out)
+{
+    size_t *path = malloc((2 * d->n + 1) * sizeof *path);
+    int *dir = malloc((2 * d->n + 1) * sizeof *dir);
+    strbuf b = {NULL, 0, 0, 0};
+    size_t len = 0;
+    int rc = COV_ENOMEM;
+    if (path == NULL || dir == NULL) goto fail;
+    if (cov_dsep_open_path(d, x, y, z, path, dir, &len)) goto fail;
+    if (len == 0) {
+        sb_add(&b, "no separating set among recorded variables");
+    } else {
+        sb_add(&b, "open path ");
+        for (size_t i = 0; i < len; i++) {
+            sb_add(&b, node_name(g, path[i]));
+            if (i + 1 < len) sb_add(&b, dir[i] > 0 ? " -> " : " <- ");
+        }
+        int n_hidden = 0, via_design = 0;
+        for (size_t i = 1; i + 1 < len; i++) {
+            int collider = dir[i - 1] > 0 && dir[i] < 0;
+            if (collider || recorded(g, path[i])) continue;
+            int dup = 0;
+            for (size_t j = 1; j < i; j++) dup |= path[j] == path[i];
+            if (dup) continue;
+            sb_add(&b, n_hidden ? ", " : " runs through hidden ");
+            sb_add(&b, node_name(g, path[i]));
+            if (path[i] == d->design) via_design = 1;
+            n_hidden++;
+        }
+        if (via_design)
+            sb_add(&b, " (the campaign may set inputs together; say 'design independent' if it "
+                   "set them independently)");
+    }
+    if (b.oom) goto fail;
+    *out = b.s;
+    b.s = NULL;
+    rc = COV_OK;
+fail:
+    free(b.s);
+    free(path);
+    free(dir);
+    return rc;
+}
+
+/* The marked nodes as an ascending index array; *steerable = 1 when all are inputs. */
+static int to_set(const cov_graph *g, const unsigned char *z, size_t n, size_t **set, size_t *k,
+                  int *steerable)
+{
+    size_t m = 0;
+    for (size_t v = 0; v < n; v++) m += z[v] != 0;
+    *set = malloc((m ? m : 1) * sizeof **set);
+    if (*set == NULL) return COV_ENOMEM;
+    *k = 0;
+    *steerable = 1;
+    for (size_t v = 0; v < n; v++)
+        if (z[v]) {
+            (*set)[(*k)++] = v;
+            if (g->vars[v].role != COV_INPUT) *steerable = 0;
+        }
+    return COV_OK;
+}
+
+/* Find the sets of one claim. prefer marks the preferred set (the outcome's other parents, or
+ * the parents of both ends). When all of it is recorded the test adjusts for all of it: it always
+ * separates then (the local Markov property: a node is d-separated from its non-descendants by its
+ * parents; Lauritzen et al. 1990), and the extra parents of the outcome lower the residual
+ * variance, so the test is more precise than on a smaller set. min_cond is then a minimal subset
+ * of it; otherwise both are a minimal separator among all recorded variables. Each reported set
+ * is checked by an independent method, the Bayes-ball walk. */
+static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y,
+                    const unsigned char *prefer, cov_claim *c)
+{
+    size_t n = d->n;
+    unsigned char *allowed = calloc(n ? n : 1, 1), *z = calloc(n ? n : 1, 1);
+    int rc = COV_ENOMEM, found = 0, all_recorded = 1, sep = 0, steer = 0;
+    if (allowed == NULL || z == NULL) goto fail;
+    for (size_t v = 0; v < n; v++)
+        if (prefer[v] && !recorded(g, v)) all_recorded = 0;
+    if (all_recorded) {
+        for (size_t v = 0; v < n; v++) allowed[v] = prefer[v] && v != x && v != y;
+        if (cov_dsep_minsep(d, x, y, allowed, z, &found)) goto fail;
+    }
+    if (!found) {
+        all_recorded = 0;
+        for (size_t v = 0; v < n; v++) allowed[v] = recorded(g, v);
+        if (cov_dsep_minsep(d, x, y, allowed, z, &found)) goto fail;
+    }
+    if (!found) {
+        c->status = COV_UNTESTABLE;
+        c->steerable = 0;
+        if (untestable_reason(g, d, x, y, z, &c->reason)) goto fail;
+        rc = COV_OK;
+        goto fail;
+    }
+    if (cov_dsep_separated(d, x, y, z, &sep)) goto fail;
+    if (!sep) {
+        rc = COV_ENUMERIC;
+        goto fail;
+    }
+    if (to_set(g, z, n, &c->min_cond, &c->n_min_cond, &steer)) goto fail;
+    if (all_recorded) {
+        /* allowed still marks the whole preferred set. */
+        if (cov_dsep_separated(d, x, y, allowed, &sep)) goto fail;
+        if (!sep) {
+            rc = COV_ENUMERIC;
+            goto fail;
+        }
+        if (to_set(g, allowed, n, &c->cond, &c->n_cond, &c->steerable)) goto fail;
+    } else {
+        if (to_set(g, z, n, &c->cond, &c->n_cond, &c->steerable)) goto fail;
+    }
+    c->status = COV_TESTABLE;
+    rc = COV_OK;
+fail:
+    free(allowed);
+    free(z);
+    return rc;
+}
+
+static int push_claim(cov_claims *cl, size_t *cap, cov_claim **out)
+{
+    if (cl->n == *cap) {
+        size_t nc = *cap ? 2 * *cap : 16;
+        cov_claim *it = realloc(cl->items, nc * sizeof *it);
+        if (it == NULL) return COV_ENOMEM;
+        cl->items = it;
+        *cap = nc;
+    }
+    cov_claim *c = &cl->items[cl->n++];
+    memset(c, 0, sizeof *c);
+    *out = c;
+    return COV_OK;
+}
+
+/* Position of each variable in a topological order (Kahn 1962), taking among the variables that
+ * are ready the one declared first, so the order is fixed by the file. */
+static int topo_rank(const cov_graph *g, size_t *rank)
+{
+    size_t n = g->n_vars;
+    size_t *indeg = calloc(n ? n : 1, sizeof *indeg);
+    unsigned char *done = calloc(n ? n : 1, 1);
+    if (indeg == NULL || done == NULL) {
+        free(indeg);
+        free(done);
+        return COV_ENOMEM;
+    }
+    for (size_t i = 0; i < g->n_edges; i++) indeg[g->edges[i].to]++;
+    /* O(n^2 + n E) is ample for graphs a modeller writes by hand. */
+    for (size_t r = 0; r < n; r++) {
+        size_t pick = 0;
+        while (pick < n && (done[pick] || indeg[pick] != 0)) pick++;
+        if (pick == n) break;   /* cannot happen: the parser rejects cycles */
+        done[pick] = 1;
+        rank[pick] = r;
+        for (size_t i = 0; i < g->n_edges; i++)
+            if (g->edges[i].from == pick) indeg[g->edges[i].to]--;
+    }
+    free(indeg);
+    free(done);
+    return COV_OK;
+}
+
+static int adjacent(const cov_dag *d, size_t a, size_t b)
+{
+    for (size_t k = d->ch_start[a]; k < d->ch_start[a + 1]; k++)
+        if (d->ch[k] == b) return 1;
+    for (size_t k = d->ch_start[b]; k < d->ch_start[b + 1]; k++)
+        if (d->ch[k] == a) return 1;
+    return 0;
+}
+
+int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
+{
+    *out = NULL;
+    int with_design = !g->inputs_independent;
+    cov_claims *cl = calloc(1, sizeof *cl);
+    cov_dag *full = NULL, *cut = NULL;
+    size_t cap = 0, n = g->n_vars + 1;
+    unsigned char *prefer = calloc(n, 1);
+    size_t *rank = calloc(n, sizeof *rank);
+    int rc = COV_ENOMEM;
+    if (cl == NULL || prefer == NULL || rank == NULL) goto fail;
+    if (cov_dag_build(g, with_design, COV_NO_NODE, &full)) goto fail;
+
+    /* Effect claims, in edge order: the edge is removed so that the set isolates the direct
+     * effect; the preferred set is the outcome's other parents. */
+    for (size_t e = 0; e < g->n_edges; e++) {
+        size_t x = g->edges[e].from, y = g->edges[e].to;
+        if (!recorded(g, x) || !recorded(g, y)) continue;
+        if (cov_dag_build(g, with_design, e, &cut)) goto fail;
+        memset(prefer, 0, n);
+        for (size_t k = cut->par_start[y]; k < cut->par_start[y + 1]; k++) prefer[cut->par[k]] = 1;
+        cov_claim *c;
+        if (push_claim(cl, &cap, &c)) goto fail;
+        c->kind = COV_CLAIM_EFFECT;
+        c->treatment = x;
+        c->outcome = y;
+        c->sign = g->edges[e].sign;
+        c->effect = isnan(g->edges[e].effect.value) ? g->default_effect : g->edges[e].effect;
+        rc = separate(g, cut, x, y, prefer, c);
+        if (rc) goto fail;
+        rc = COV_ENOMEM;
+        cov_dag_free(cut);
+        cut = NULL;
+    }
+
+    /* Absence claims: every non-adjacent recorded pair that is not two inputs, oriented so that
+     * the outcome Y is an output and comes later in the topological order (Y is then no ancestor
+     * of X). The preferred set is Pa(X) u Pa(Y), the basis set of Shipley (2000), Structural
+     * Equation Modeling 7:206-218. Order: by outcome, then treatment, declaration index. */
+    if (topo_rank(g, rank)) goto fail;
+    for (size_t y = 0; y < g->n_vars; y++) {
+        if (g->vars[y].role != COV_OUTPUT) continue;
+        for (size_t x = 0; x < g->n_vars; x++) {
+            if (x == y || !recorded(g, x) || adjacent(full, x, y)) continue;
+            if (g->vars[x].role == COV_OUTPUT && rank[x] > rank[y]) continue;
+            if (isnan(g->margin.value)) {
+                char where[512];
+                snprintf(where, sizeof where, "%s:%d:%d", g->path ? g->path : "(graph)",
+                         g->vars[y].line, g->vars[y].col);
+                rc = cov_fail(err, COV_EINPUT, where, "found no edge between '%s' and '%s', which "
+                              "makes an absence claim; expected a 'default margin X [sd]' line "
+                              "giving the largest effect that still counts as no effect",
+                              g->vars[x].name, g->vars[y].name);
+                goto fail;
+            }
+            memset(prefer, 0, n);
+            for (size_t k = full->par_start[x]; k < full->par_start[x + 1]; k++)
+                prefer[full->par[k]] = 1;
+            for (size_t k = full->par_start[y]; k < full->par_start[y + 1]; k++)
+                prefer[full->par[k]] = 1;
+            cov_claim *c;
+            if (push_claim(cl, &cap, &c)) goto fail;
+            c->kind = COV_CLAIM_ABSENCE;
+            c->treatment = x;
+            c->outcome = y;
+            c->sign = 0;
+            c->effect = g->margin;
+            rc = separate(g, full, x, y, prefer, c);
+            if (rc) goto fail;
+            rc = COV_ENOMEM;
+        }
+    }
+    cov_dag_free(full);
+    free(prefer);
+    free(rank);
+    *out = cl;
+    return COV_OK;
+fail:
+    if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory deriving the claims");
+    else if (rc == COV_ENUMERIC)
+        cov_fail(err, rc, "", "internal check failed: a separating set did not separate");
+    cov_dag_free(full);
+    cov_dag_free(cut);
+    cov_claims_free(cl);
+    free(prefer);
+    free(rank);
+    return rc;
+}

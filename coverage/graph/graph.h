@@ -1,0 +1,86 @@
+/* shoal coverage/graph/: the graph file, d-separation and the claims it implies. Private to coverage/.
+ * See LICENSE. */
+#ifndef SHOAL_COVERAGE_GRAPH_H
+#define SHOAL_COVERAGE_GRAPH_H
+
+#include <stdio.h>
+
+#include "coverage/base/base.h"
+
+/* ---- graph and d-separation (coverage/graph.c, coverage/graph_lex.c, coverage/dsep.c, ...) --- */
+
+/* The graph file's tokens (coverage/graph_lex.c), which coverage/graph.c parses line by line. */
+typedef enum {
+    COV_TOK_END, COV_TOK_WORD, COV_TOK_QUOTED, COV_TOK_NUMBER, COV_TOK_ARROW, COV_TOK_COMMA,
+    COV_TOK_LBRACK, COV_TOK_RBRACK, COV_TOK_LBRACE, COV_TOK_RBRACE, COV_TOK_PLUS, COV_TOK_MINUS
+} cov_tok_kind;
+
+typedef struct {
+    cov_tok_kind kind;
+    char *text;     /* COV_TOK_WORD, COV_TOK_QUOTED, COV_TOK_NUMBER: owned, unescaped */
+    double num;     /* COV_TOK_NUMBER */
+    int col;        /* 1-based, in characters (UTF-8 continuation bytes do not count) */
+} cov_token;
+
+/* A growable array of tokens; the caller frees tok after a last cov_tokens_clear. */
+typedef struct {
+    cov_token *tok;
+    size_t n, cap;
+} cov_tokens;
+
+/* Read the whole file at path into *text, NUL-terminated and malloc'd (the caller frees it).
+ * Returns COV_OK; COV_EIO when it cannot be opened or read; COV_EINPUT with err->where
+ * "path:line:column" when it holds a NUL byte; COV_ENOMEM. */
+int cov_graph_read_text(const char *path, char **text, cov_error *err);
+/* Append the tokens of line number `line` [s, e) of the graph file `name` to toks, closed by a
+ * COV_TOK_END; a '#' starts a comment to the end of the line. Returns COV_OK; COV_EINPUT with
+ * err->where "name:line:column" for a character, number or quoted name it cannot read;
+ * COV_ENOMEM. */
+int cov_graph_lex_line(cov_tokens *toks, const char *name, int line, const char *s, const char *e,
+                       cov_error *err);
+/* Free the texts of the tokens in toks and empty it, keeping its array for the next line. */
+void cov_tokens_clear(cov_tokens *toks);
+/* Describe t for a "found ..." message ("the end of the line", "'->'", "the number 3") into buf of
+ * size bytes; returns buf. */
+const char *cov_token_describe(const cov_token *t, char *buf, size_t size);
+/* Fill err with the message fmt and err->where "name:line:col" (err may be NULL); returns
+ * COV_EINPUT. */
+int cov_graph_fail(cov_error *err, const char *name, int line, int col, const char *fmt, ...)
+    __attribute__((format(printf, 5, 6)));
+
+#define COV_NO_NODE ((size_t)-1)
+
+/* The DAG that separator searches work on: node i < g->n_vars is variable i; when the inputs are
+ * not declared independent, node g->n_vars is the hidden design node, a parent of every input.
+ * Parents and children are stored as offset arrays: the parents of v are par[par_start[v]] up to
+ * par[par_start[v + 1] - 1], and likewise for children. */
+typedef struct {
+    size_t n;             /* nodes */
+    size_t n_vars;        /* the graph's variables (nodes 0 .. n_vars - 1) */
+    size_t design;        /* the design node, or COV_NO_NODE */
+    size_t *par_start, *par;
+    size_t *ch_start, *ch;
+} cov_dag;
+
+/* Build the DAG of g, with the design node when with_design is 1, leaving out edge skip_edge
+ * (an index into g->edges, or COV_NO_NODE for none). Returns COV_OK or COV_ENOMEM. */
+int cov_dag_build(const cov_graph *g, int with_design, size_t skip_edge, cov_dag **out);
+void cov_dag_free(cov_dag *d);
+
+/* *separated = 1 when the node set in_z (in_z[v] != 0, length d->n) d-separates x and y, by the
+ * Bayes-ball reachability walk. x and y must not be in in_z. Returns COV_OK or COV_ENOMEM. */
+int cov_dsep_separated(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
+                       int *separated);
+/* A d-connecting path from x to y given in_z: writes its nodes to path (room for 2 * d->n) and
+ * the arrows between consecutive nodes to dir (dir[i] = +1: path[i] -> path[i+1]; -1: <-),
+ * *len nodes (0 when x and y are d-separated). Returns COV_OK or COV_ENOMEM. */
+int cov_dsep_open_path(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
+                       size_t *path, int *dir, size_t *len);
+/* A minimal d-separator of x and y drawn from the nodes with allowed[v] != 0 (FindMinSep). On
+ * success *found = 1 and z (length d->n) marks the separator. When none exists *found = 0 and z
+ * marks the largest candidate, allowed nodes among the ancestors of x and y, which leaves some
+ * path open. Returns COV_OK or COV_ENOMEM. */
+int cov_dsep_minsep(const cov_dag *d, size_t x, size_t y, const unsigned char *allowed,
+                    unsigned char *z, int *found);
+
+#endif

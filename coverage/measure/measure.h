@@ -1,0 +1,47 @@
+/* shoal coverage/measure/: measures of the campaign: coverage, discrepancy, gaps, dependence, support. Private to coverage/.
+ * See LICENSE. */
+#ifndef SHOAL_COVERAGE_MEASURE_H
+#define SHOAL_COVERAGE_MEASURE_H
+
+#include <stdio.h>
+
+#include "coverage/archive/archive.h"
+
+/* ---- coverage and support (coverage/space.c, coverage/support.c, ...) ------------------------- */
+
+/* Centred L2 discrepancy squared (Hickernell 1998) of n points in [0,1]^d, row-major; O(n^2 d).
+ * Returns NAN when n or d is 0. */
+double cov_cd2(const double *x, size_t n, size_t d);
+/* Expected CD^2 of n independent uniform points in [0,1]^d: ((5/4)^d - (13/12)^d) / n (derived in
+ * coverage/discrepancy.c). */
+double cov_cd2_random(size_t n, size_t d);
+
+/* Probe points for the fill distance: n points of [0,1)^d, row-major, a randomized low-discrepancy
+ * sequence fixed by seed (coverage/gaps.c says which). Returns COV_OK, COV_ENOMEM. */
+int cov_probe_points(size_t n, size_t d, unsigned long seed, double *out);
+/* Probe points the fill distance uses for d numeric inputs. */
+size_t cov_probe_count(size_t d);
+/* Runs cov_fill_gaps measures distances to when given n runs in d dimensions: n, or the size of
+ * the fixed-seed subsample that keeps the search within its work limit. */
+size_t cov_gap_runs(size_t n, size_t d);
+
+/* Fill distance of the n runs pts (row-major, n x d, unit cube) over cov_probe_count(d) probes:
+ * the largest distance from a probe to its nearest run, and up to max_gaps probes farthest from
+ * any run (gaps: max_gaps x d, gap_dist: max_gaps; written farthest first). *subsampled is 1 when
+ * the distances were measured to a fixed-seed random subsample of the runs (an upper bound).
+ * Returns COV_OK, COV_ENOMEM. */
+int cov_fill_gaps(const double *pts, size_t n, size_t d, unsigned long seed, size_t max_gaps,
+                  double *fill, double *gaps, double *gap_dist, size_t *n_gaps, int *subsampled);
+
+/* Cramer's V (Cramer 1946) of an na x nb table of counts, row-major; empty rows and columns are
+ * dropped; no bias correction. NAN when fewer than two non-empty rows or columns remain. */
+double cov_cramer_v(const size_t *count, size_t na, size_t nb);
+/* |Pearson r| of x and y over the indices where both are finite; NAN when a side is constant. */
+double cov_abs_pearson(const double *x, const double *y, size_t n);
+/* Fill c->dependence from c->pairs and the data (coverage/dependence.c). */
+int cov_dependence_fill(const cov_graph *g, const cov_data *d, cov_coverage *c);
+
+/* Kish's effective sample size (Kish 1965) of weights w: (sum w)^2 / sum w^2; NAN when all are 0. */
+double cov_kish_ess(const double *w, size_t n);
+
+#endif

@@ -1,0 +1,777 @@
+/* The next runs: claim design groups, greedy augmentation over the claims' designs, predicted power.
+ * See LICENSE. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coverage/plan/plan.h"
+
+/* Added to the diagonal of every claim's cross-products so that an empty or rank-deficient start
+ * stays invertible: a millionth of what one run at a domain end adds to a coded column (|z| <= 1),
+ * far below anything that moves a printed power. */
+#define PLAN_RIDGE 1e-6
+/* Weight of the coverage bonus (share of 2-way cells still under min_runs that a run would fall in,
+ * distance to the nearest run): it raises a claim score by at most 5%, so coverage breaks near-ties
+ * while some claim is short, and leads alone once none is. */
+#define PLAN_COVER_WEIGHT 0.05
+/* Rescore every candidate after each added run when that costs at most this many floating-point
+ * operations (about a millisecond); beyond it, rescore lazily. */
+#define PLAN_FULL_FLOPS 2e6
+/* --budget auto: a need is recomputed at the current run count once that count has grown by this
+ * factor (the run count changes the test's degrees of freedom, so the need falls slowly). */
+#define PLAN_NEED_REFRESH 1.5
+/* --budget auto: when the exact power of a claim whose need was met is still short, its need is
+ * raised by this factor and the search goes on; at most PLAN_MAX_BUMPS times in all. */
+#define PLAN_NEED_BUMP 1.02
+#define PLAN_MAX_BUMPS 200
+
+/* The coded column layout of the inputs: column 0 is the intercept; numeric inputs are scaled to
+ * [-1, 1]; bools are 0/1; a level set has L - 1 dummies against its first level. */
+typedef struct {
+    size_t n_cols;
+    size_t *first, *count;    /* per variable; count 0 for non-inputs */
+    size_t *slot;             /* per level-set input: its first level's index in a presence map */
+    size_t n_slots;           /* levels over all level-set inputs */
+} layout;
+
+int cov_plan_is_numeric(const cov_var *v) { return v->type == COV_REAL || v->type == COV_INTEGER; }
+
+static void code_row(const cov_graph *g, const layout *L, const double *vals, double *row)
+{
+    row[0] = 1.0;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        const cov_var *var = &g->vars[v];
+        if (L->count[v] == 0) continue;
+        double x = vals[v];
+        double *r = row + L->first[v];
+        if (cov_plan_is_numeric(var)) r[0] = 2.0 * (x - var->lo) / (var->hi - var->lo) - 1.0;
+        else if (var->type == COV_BOOL) r[0] = x;
+        else
+            for (size_t k = 1; k < var->n_levels; k++) r[k - 1] = (size_t)x == k ? 1.0 : 0.0;
+    }
+}
+
+typedef struct {
+    size_t *cols;
+    size_t p;
+    long outcome;             /* the outcome whose missing cells narrow the rows, or -1 */
+    size_t group;             /* in the pw_aug */
+    size_t n_rows;
+    unsigned char *present;   /* n_slots: the levels that occur in the group's archive rows */
+} plan_group;
+
+/* Per-claim working state. */
+typedef struct {
+    pw_design pd;
+    int have_pd;
+    double q_mul;             /* q^2 = info * q_mul (coded information to the test's q^2) */
+    size_t target;            /* in the pw_aug, for steered claims */
+    int steered;
+    double n_base;            /* runs the current figures rest on */
+    double runs_needed;       /* assumed claims: total runs for the target */
+    /* Predictions code the design as the assessment does (coverage/archive/design.c): a level-set input
+     * has dummies only for the levels present in the rows. pd0 is the test on the archive's rows
+     * in that coding (or sized from declared noise), q_mul0 its coded information to q^2. */
+    pw_design pd0;
+    double q_mul0;
+    size_t gi;                /* the claim's plan_group */
+} claim_work;
+
+struct plan_state {
+    const cov_graph *g;
+    const cov_claims *c;
+    const cov_data *d;
+    const cov_power_options *opt;
+    layout L;
+    plan_group *groups;
+    size_t n_groups;
+    claim_work *w;
+    pw_aug *aug;
+    size_t n_cand;
+    double *cand_vals;        /* n_cand * n_vars */
+    double *cand_rows;        /* n_cand * n_cols */
+    cov_plan_cover *cover;    /* the coverage bonus of each candidate */
+    struct delta_cache *dc;
+    unsigned char *planned;   /* n_slots: the levels the planned runs so far set */
+};
+
+int cov_plan_var_present(const cov_data *d, size_t v, size_t i)
+{
+    return d->col[v] != NULL && !isnan(d->col[v][i]);
+}
+
+/* The design group of a steered claim: intercept, treatment and separating-set columns in ascending
+ * order; claims with the same columns (and, when the outcome has missing cells, the same outcome)
+ * share one inverse. */
+static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, size_t *first,
+                      size_t *k)
+{
+    const cov_graph *g = st->g;
+    const layout *L = &st->L;
+    size_t *cols = malloc(L->n_cols * sizeof *cols);
+    unsigned char *use = calloc(L->n_cols, 1);
+    if (cols == NULL || use == NULL) {
+        free(cols);
+        free(use);
+        return COV_ENOMEM;
+    }
+    use[0] = 1;
+    for (size_t m = 0; m <= cl->n_cond; m++) {
+        size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
+        for (size_t j = 0; j < L->count[v]; j++) use[L->first[v] + j] = 1;
+    }
+    size_t p = 0;
+    for (size_t j = 0; j < L->n_cols; j++)
+        if (use[j]) cols[p++] = j;
+    free(use);
+    *k = L->count[cl->treatment];
+    for (size_t j = 0; j < p; j++)
+        if (cols[j] == L->first[cl->treatment]) *first = j;
+    long outcome = st->d != NULL && st->d->n_missing[cl->outcome] > 0 ? (long)cl->outcome : -1;
+    for (size_t i = 0; i < st->n_groups; i++) {
+        plan_group *gr = &st->groups[i];
+        if (gr->p == p && gr->outcome == outcome && memcmp(gr->cols, cols, p * sizeof *cols) == 0) {
+            free(cols);
+            *gi = i;
+            return COV_OK;
+        }
+    }
+    /* A new group: its cross-products over the runs with all its variables present. */
+    double *gram = calloc(p * p, sizeof *gram);
+    double *vals = malloc(g->n_vars * sizeof *vals), *row = malloc(L->n_cols * sizeof *row);
+    unsigned char *present = calloc(L->n_slots + 1, 1);
+    plan_group *ng = realloc(st->groups, (st->n_groups + 1) * sizeof *ng);
+    if (ng != NULL) st->groups = ng;
+    if (gram == NULL || vals == NULL || row == NULL || present == NULL || ng == NULL) {
+        free(cols);
+        free(gram);
+        free(vals);
+        free(row);
+        free(present);
+        return COV_ENOMEM;
+    }
+    size_t n_rows = 0;
+    const cov_data *d = st->d;
+    for (size_t i = 0; d != NULL && i < d->n_runs; i++) {
+        int ok = outcome < 0 || cov_plan_var_present(d, (size_t)outcome, i);
+        for (size_t m = 0; ok && m <= cl->n_cond; m++)
+            ok = cov_plan_var_present(d, m < cl->n_cond ? cl->cond[m] : cl->treatment, i);
+        if (!ok) continue;
+        for (size_t v = 0; v < g->n_vars; v++)
+            vals[v] = L->count[v] && d->col[v] != NULL && !isnan(d->col[v][i]) ? d->col[v][i]
+                                                                                : g->vars[v].lo;
+        for (size_t m = 0; m <= cl->n_cond; m++) {
+            size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
+            if (g->vars[v].type == COV_LEVELS && vals[v] >= 0 &&
+                vals[v] < (double)g->vars[v].n_levels)
+                present[L->slot[v] + (size_t)vals[v]] = 1;
+        }
+        code_row(g, L, vals, row);
+        for (size_t a = 0; a < p; a++)
+            for (size_t b = 0; b < p; b++) gram[a * p + b] += row[cols[a]] * row[cols[b]];
+        n_rows++;
+    }
+    free(vals);
+    free(row);
+    size_t ag;
+    int prc = pw_aug_add_group(st->aug, cols, p, gram, PLAN_RIDGE, &ag);
+    free(gram);
+    if (prc != PW_OK) {
+        free(cols);
+        free(present);
+        return prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
+    }
+    plan_group *gr = &st->groups[st->n_groups];
+    gr->cols = cols;
+    gr->p = p;
+    gr->outcome = outcome;
+    gr->group = ag;
+    gr->n_rows = n_rows;
+    gr->present = present;
+    *gi = st->n_groups++;
+    return COV_OK;
+}
+
+/* The test of a claim sized from the graph's declared noise SD of its outcome (no usable runs). */
+static int design_from_noise(const cov_graph *g, const cov_claim *cl, const cov_power_options *opt,
+                             size_t n_testable, const layout *L, pw_design *pd)
+{
+    const cov_var *y = &g->vars[cl->outcome], *x = &g->vars[cl->treatment];
+    if (!(y->noise_sd > 0)) return -1;
+    memset(pd, 0, sizeof *pd);
+    pd->sigma = y->noise_sd;
+    pd->effect = cl->effect.value * (cl->effect.unit == COV_UNIT_SD ? y->noise_sd : 1.0);
+    pd->target = opt->target;
+    pd->alpha = opt->bonferroni && n_testable > 1 ? opt->alpha / (double)n_testable : opt->alpha;
+    pd->sides = opt->one_sided && cl->sign != 0 ? 1 : 2;
+    double params = 1;
+    for (size_t m = 0; m < cl->n_cond; m++) params += L->count[cl->cond[m]] ? L->count[cl->cond[m]] : 1;
+    pd->n_params = params;
+    pd->ncp_per_run = NAN;
+    if (cl->kind == COV_CLAIM_ABSENCE) pd->test = PW_TEST_TOST;
+    else if (x->type == COV_LEVELS) {
+        pd->test = PW_TEST_LEVELS_F;
+        pd->n_levels = (double)x->n_levels;
+    } else pd->test = PW_TEST_COEF_T;
+    return 0;
+}
+
+/* The standardised noncentrality delta = effect q / sigma a test needs, cached by what else it
+ * depends on (test, level, sides, target, levels and residual degrees of freedom): claims of one
+ * family share it, and the exact search (a few dozen power evaluations, each an Owen's Q quadrature
+ * for equivalence tests) then runs once per distinct key instead of once per claim. Degrees of
+ * freedom above PLAN_DF_EXACT are rounded down to a grid of ratio PLAN_DF_RATIO: fewer degrees of
+ * freedom need a larger delta, so the rounding errs on the safe side, by well under 0.1% in delta
+ * there. */
+#define PLAN_DF_EXACT 100.0
+#define PLAN_DF_RATIO 1.01
+
+typedef struct {
+    int test, sides;
+    double alpha, target, n_levels, df, delta;
+} delta_entry;
+
+struct delta_cache {
+    delta_entry *e;
+    size_t n, cap;
+};
+
+static double delta_needed(struct delta_cache *dc, const pw_design *pd, double n)
+{
+    double k = pd->test == PW_TEST_LEVELS_F ? pd->n_levels - 1.0 : 1.0;
+    double df = n - pd->n_params - k;
+    if (!(df >= 1.0)) df = 1.0;
+    if (df > PLAN_DF_EXACT)
+        df = PLAN_DF_EXACT * pow(PLAN_DF_RATIO, floor(log(df / PLAN_DF_EXACT) / log(PLAN_DF_RATIO)));
+    else df = floor(df);
+    double nl = pd->test == PW_TEST_LEVELS_F ? pd->n_levels : 0.0;
+    for (size_t i = 0; i < dc->n; i++) {
+        const delta_entry *e = &dc->e[i];
+        if (e->test == (int)pd->test && e->sides == pd->sides && e->alpha == pd->alpha &&
+            e->target == pd->target && e->n_levels == nl && e->df == df)
+            return e->delta;
+    }
+    pw_design unit = *pd;
+    unit.effect = 1.0;
+    unit.sigma = 1.0;
+    double q = NAN;
+    if (pw_design_q_needed(&unit, df + pd->n_params + k, &q) != PW_OK) q = INFINITY;
+    if (dc->n == dc->cap) {
+        size_t nc = dc->cap ? 2 * dc->cap : 32;
+        delta_entry *ne = realloc(dc->e, nc * sizeof *ne);
+        if (ne == NULL) return q;
+        dc->e = ne;
+        dc->cap = nc;
+    }
+    dc->e[dc->n++] = (delta_entry){(int)pd->test, pd->sides, pd->alpha, pd->target, nl, df, q};
+    return q;
+}
+
+/* q_req^2 / q_mul: the coded information at which a claim reaches its target at n runs. */
+static double need_at(struct delta_cache *dc, const claim_work *w, double n)
+{
+    /* Below one residual degree of freedom the test has no power at all; size it there instead. */
+    double k = w->pd.test == PW_TEST_LEVELS_F ? w->pd.n_levels - 1.0 : 1.0;
+    if (n < w->pd.n_params + k + 2.0) n = w->pd.n_params + k + 2.0;
+    double q = NAN;
+    if (w->pd.test == PW_TEST_TWO_PROP) {
+        /* Two proportions depend on the base rate, not on effect / sigma alone: no cache. */
+        if (pw_design_q_needed(&w->pd, n, &q) != PW_OK) return INFINITY;
+    } else {
+        q = delta_needed(dc, &w->pd, n) * w->pd.sigma / w->pd.effect;
+    }
+    return q * q / w->q_mul;
+}
+
+static void state_free(struct plan_state *st)
+{
+    for (size_t i = 0; i < st->n_groups; i++) {
+        free(st->groups[i].cols);
+        free(st->groups[i].present);
+    }
+    free(st->planned);
+    free(st->L.slot);
+    free(st->groups);
+    free(st->w);
+    pw_aug_free(st->aug);
+    free(st->cand_vals);
+    free(st->cand_rows);
+    cov_plan_cover_free(st->cover);
+    free(st->L.first);
+    free(st->L.count);
+    if (st->dc != NULL) free(st->dc->e);
+}
+
+void cov_plan_free(cov_plan *p)
+{
+    if (p == NULL) return;
+    free(p->rows);
+    free(p->seeds);
+    free(p->items);
+    free(p);
+}
+
+/* ---- predictions ------------------------------------------------------------------------------- */
+
+/* Whether level l of level-set input v occurs in group gr's archive rows (or in the planned runs
+ * so far, with with_plan). */
+static int level_present(const struct plan_state *st, const plan_group *gr, size_t v, size_t l,
+                         int with_plan)
+{
+    size_t s = st->L.slot[v] + l;
+    return gr->present[s] || (with_plan && st->planned[s]);
+}
+
+/* A claim's test after the planned runs so far, coded as the assessment codes its regression
+ * (coverage/archive/design.c): a level-set input has dummies only for the levels present in the rows (the
+ * group's archive rows and the planned runs), against the first present level. A level a planned
+ * run brings in adds a column: one more parameter for a separating-set input, one more level (and
+ * from three on the F test, as coverage/assess/assess.c chooses) for the treatment. *t is w->pd0 so
+ * adjusted; *info its coded information in that design (PW_TEST_LEVELS_F: the least favourable
+ * pattern, power/levels.c), from the Sherman-Morrison inverse when every column is in and else
+ * from the kept cross-products of the columns that are. */
+static int exact_test(const struct plan_state *st, const cov_claim *cl, const claim_work *w,
+                      pw_design *t, double *info)
+{
+    const cov_graph *g = st->g;
+    const plan_group *gr = &st->groups[w->gi];
+    *t = w->pd0;
+    *info = 0.0;
+    unsigned char *on = malloc(gr->p);
+    if (on == NULL) return COV_ENOMEM;
+    memset(on, 1, gr->p);
+    size_t n_treat = 0;
+    for (size_t m = 0; m <= cl->n_cond; m++) {
+        size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;
+        const cov_var *var = &g->vars[v];
+        if (var->type != COV_LEVELS || st->L.count[v] == 0) continue;
+        size_t now = 0, before = 0;
+        long ref = -1;
+        for (size_t l = 0; l < var->n_levels; l++) {
+            int here = level_present(st, gr, v, l, 1);
+            now += (size_t)here;
+            before += (size_t)level_present(st, gr, v, l, 0);
+            if (here && ref < 0) ref = (long)l;
+            if (l == 0) continue;
+            size_t col = st->L.first[v] + l - 1;
+            for (size_t j = 0; j < gr->p; j++)
+                if (gr->cols[j] == col) on[j] = (unsigned char)(here && (long)l != ref);
+        }
+        if (m < cl->n_cond)
+            t->n_params += (double)(now > 0 ? now - 1 : 0) - (double)(before > 0 ? before - 1 : 0);
+        else n_treat = now;
+    }
+    int pattern = t->test == PW_TEST_LEVELS_F;
+    if (g->vars[cl->treatment].type == COV_LEVELS) {
+        if (n_treat < 2) {
+            /* One level or none: no contrast to test yet. */
+            free(on);
+            return COV_ENUMERIC;
+        }
+        size_t tr = n_treat - 1;
+        if (t->test == PW_TEST_LEVELS_F || t->test == PW_TEST_COEF_T)
+            t->test = tr >= 2 ? PW_TEST_LEVELS_F : PW_TEST_COEF_T;
+        t->n_levels = tr >= 2 ? (double)(tr + 1) : 0.0;
+        pattern = t->test == PW_TEST_LEVELS_F;
+    }
+    int prc = pw_aug_info_subset(st->aug, w->target, on, pattern, info);
+    free(on);
+    if (prc != PW_OK) return prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
+    return COV_OK;
+}
+
+/* The test of a steered claim at n runs after the planned runs so far. */
+static int exact_design(const struct plan_state *st, const cov_claim *cl, const claim_work *w,
+                        double n, pw_design *out)
+{
+    pw_design t;
+    double info = 0.0;
+    int rc = exact_test(st, cl, w, &t, &info);
+    if (rc != COV_OK) return rc;
+    if (!(n > 0) || !(info >= 0.0) || pw_design_with_q(&t, n, sqrt(info * w->q_mul0), out) != PW_OK)
+        return COV_ENUMERIC;
+    return COV_OK;
+}
+
+/* Predicted power of plan item it after `planned` configurations of the plan's replicates. */
+static double predict(const struct plan_state *st, const cov_plan_claim *it, double added)
+{
+    const claim_work *w = &st->w[it->claim];
+    pw_design t;
+    double pw = NAN;
+    if (it->mode == COV_PLAN_UNSIZED) return NAN;
+    if (it->mode == COV_PLAN_ASSUMED) {
+        t = w->pd;
+        t.n = w->n_base + added;
+    } else if (exact_design(st, &st->c->items[it->claim], w, w->n_base + added, &t) != COV_OK) {
+        return NAN;
+    }
+    if (pw_power(&t, &pw) != PW_OK) return NAN;
+    return pw;
+}
+
+/* Set up each testable claim: its mode, its test now and, when steered, its design group. */
+static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_plan *p)
+{
+    const cov_graph *g = st->g;
+    size_t n_testable = 0;
+    for (size_t i = 0; i < st->c->n; i++) n_testable += st->c->items[i].status == COV_TESTABLE;
+    p->items = calloc(n_testable + 1, sizeof *p->items);
+    st->w = calloc(st->c->n + 1, sizeof *st->w);
+    if (p->items == NULL || st->w == NULL) return COV_ENOMEM;
+    int have_runs = st->d != NULL && st->d->n_runs > 0 && a != NULL;
+    for (size_t i = 0; i < st->c->n; i++) {
+        const cov_claim *cl = &st->c->items[i];
+        if (cl->status != COV_TESTABLE) continue;
+        cov_plan_claim *it = &p->items[p->n++];
+        claim_work *w = &st->w[i];
+        it->claim = i;
+        it->power_now = NAN;
+        int steer = g->vars[cl->treatment].role == COV_INPUT;
+        for (size_t m = 0; m < cl->n_cond; m++) steer &= g->vars[cl->cond[m]].role == COV_INPUT;
+        double pw = NAN;
+        if (have_runs && cov_assess_design(g, st->c, a, i, &w->pd) == COV_OK &&
+            pw_power(&w->pd, &pw) == PW_OK && w->pd.n > 0) {
+            w->have_pd = 1;
+            it->power_now = pw;
+            w->n_base = w->pd.n;
+            w->pd0 = w->pd;
+        }
+        if (!steer) {
+            it->mode = w->have_pd ? COV_PLAN_ASSUMED : COV_PLAN_UNSIZED;
+            if (w->have_pd && pw_runs_needed(&w->pd, &w->runs_needed) != PW_OK)
+                w->runs_needed = INFINITY;
+            continue;
+        }
+        size_t gi = 0, first = 0, k = 1;
+        int rc = find_group(st, cl, &gi, &first, &k);
+        if (rc != COV_OK) return rc;
+        size_t n_rows = st->groups[gi].n_rows;
+        w->gi = gi;
+        /* The pd decides the measure; without one yet, a level-set effect claim is an F test. */
+        int pattern = w->have_pd ? w->pd.test == PW_TEST_LEVELS_F
+                                 : cl->kind == COV_CLAIM_EFFECT && g->vars[cl->treatment].type == COV_LEVELS;
+        int prc = pw_aug_add_target(st->aug, st->groups[gi].group, first, k, pattern, INFINITY,
+                                    &w->target);
+        if (prc != PW_OK) return COV_ENOMEM;
+        double info0 = pw_aug_info(st->aug, w->target);
+        double q_now = w->have_pd ? pw_design_q(&w->pd) : NAN;
+        const cov_var *x = &g->vars[cl->treatment];
+        double half = cov_plan_is_numeric(x) ? 0.5 * (x->hi - x->lo) : 1.0;
+        /* A level the archive never ran is missing from its regression (and carries only the
+         * ridge in the steering design), so a ratio to the current information would be
+         * meaningless: steer such a claim absolutely, with the archive's sigma and every declared
+         * level, so that the search brings the missing levels in. Its predictions (exact_test)
+         * count only the levels present, as the assessment does. */
+        int levels_missing = x->type == COV_LEVELS && w->have_pd &&
+                             w->pd.n_levels != (double)x->n_levels;
+        if (levels_missing && w->pd.sigma > 0) {
+            w->pd.n_levels = (double)x->n_levels;
+            w->q_mul = 1.0;
+        } else if (w->have_pd && q_now > 0 && isfinite(q_now) && n_rows > st->groups[gi].p &&
+                   info0 > 0) {
+            /* The archive's own figures, moved by the ratio of information the runs add. */
+            w->q_mul = q_now * q_now / info0;
+        } else if (design_from_noise(g, cl, st->opt, n_testable, &st->L, &w->pd) == 0) {
+            w->have_pd = 1;
+            it->from_noise = 1;
+            w->q_mul = half * half;
+            w->n_base = (double)n_rows;
+            /* The predictions' test counts a level-set input's levels present in the rows. */
+            w->pd0 = w->pd;
+            w->pd0.n_params = 1.0;
+            for (size_t m = 0; m < cl->n_cond; m++) {
+                size_t v = cl->cond[m], present = 0;
+                if (g->vars[v].type != COV_LEVELS) {
+                    w->pd0.n_params += 1.0;
+                    continue;
+                }
+                for (size_t l = 0; l < g->vars[v].n_levels; l++)
+                    present += (size_t)level_present(st, &st->groups[gi], v, l, 0);
+                w->pd0.n_params += present > 0 ? (double)(present - 1) : 0.0;
+            }
+        } else {
+            it->mode = COV_PLAN_UNSIZED;
+            continue;
+        }
+        /* The predictions' coded information to q^2: the archive's own ratio in their coding, or
+         * (sized from noise) the scale of the coding: a numeric column was scaled by half its
+         * range. */
+        pw_design t0;
+        double info0e = 0.0;
+        w->q_mul0 = half * half;
+        if (exact_test(st, cl, w, &t0, &info0e) == COV_OK && !it->from_noise) {
+            double q0 = pw_design_q(&w->pd0);
+            if (q0 > 0 && isfinite(q0) && info0e > 0 && isfinite(info0e))
+                w->q_mul0 = q0 * q0 / info0e;
+        }
+        if (it->from_noise && n_rows > 0) {
+            pw_design t;
+            if (exact_design(st, cl, w, (double)n_rows, &t) != COV_OK ||
+                pw_power(&t, &it->power_now) != PW_OK)
+                it->power_now = NAN;
+        }
+        it->mode = COV_PLAN_STEERED;
+        w->steered = 1;
+        pw_aug_set_need(st->aug, w->target, need_at(st->dc, w, w->n_base));
+    }
+    return COV_OK;
+}
+
+/* The candidate set, with the level combinations of the thin claims: only the steered claims still
+ * short of their need ask for their combinations. */
+static int plan_candidates(struct plan_state *st, unsigned long seed)
+{
+    unsigned char *thin = calloc(st->c->n + 1, 1);
+    if (thin == NULL) return COV_ENOMEM;
+    for (size_t i = 0; i < st->c->n; i++)
+        thin[i] = st->c->items[i].status == COV_TESTABLE && st->w[i].steered &&
+                  pw_aug_active(st->aug, st->w[i].target);
+    int rc = cov_plan_candidates(st->g, st->c, thin, seed, &st->cand_vals, &st->n_cand);
+    free(thin);
+    return rc;
+}
+
+/* ---- the greedy search ------------------------------------------------------------------------- */
+
+static void refresh_needs(struct plan_state *st, const cov_plan *p, double added, int only_active)
+{
+    for (size_t j = 0; j < p->n; j++) {
+        const cov_plan_claim *it = &p->items[j];
+        if (it->mode != COV_PLAN_STEERED || it->unreachable) continue;
+        const claim_work *w = &st->w[it->claim];
+        /* Needs only fall as runs are added, so a claim that has met its need stays met. */
+        if (!only_active || pw_aug_active(st->aug, w->target))
+            pw_aug_set_need(st->aug, w->target, need_at(st->dc, w, w->n_base + added));
+    }
+}
+
+/* Score candidate c. While some claim is short, the claims' share-of-need score, raised by at most
+ * PLAN_COVER_WEIGHT for filling cells and gaps (so coverage breaks near-ties but never buys a run
+ * that no claim needs); once none is short, the coverage bonus alone. Both parts only fall as runs
+ * are added. */
+static int score_candidate(struct plan_state *st, size_t c, double w, double *claim_part,
+                           double *total)
+{
+    double s = 0.0;
+    if (pw_aug_score(st->aug, st->cand_rows + c * st->L.n_cols, w, &s) != PW_OK) return COV_ENUMERIC;
+    *claim_part = s;
+    double bonus = cov_plan_cover_bonus(st->cover, c);
+    *total = pw_aug_n_active(st->aug) > 0 ? s * (1.0 + PLAN_COVER_WEIGHT * bonus) : bonus;
+    return COV_OK;
+}
+
+static int push_row(cov_plan *p, size_t *cap, const double *vals)
+{
+    if (p->n_configs == *cap) {
+        size_t nc = *cap ? 2 * *cap : 64;
+        double *nr = realloc(p->rows, nc * p->n_vars * sizeof *nr);
+        if (nr == NULL) return COV_ENOMEM;
+        p->rows = nr;
+        *cap = nc;
+    }
+    memcpy(p->rows + p->n_configs * p->n_vars, vals, p->n_vars * sizeof *vals);
+    p->n_configs++;
+    return COV_OK;
+}
+
+/* Distinct seeds: an affine map with an odd multiplier is a bijection of the integers mod 2^31
+ * (Knuth, TAOCP vol. 2, sec. 3.2.1.2), so seeds for distinct run numbers never collide. */
+#define SEED_MUL 1103515245UL
+#define SEED_MOD 2147483648UL
+
+static void make_seeds(cov_plan *p, unsigned long seed)
+{
+    size_t n = p->n_configs * (size_t)p->replicates;
+    unsigned long base = (seed * 2654435761UL + 12345UL) % SEED_MOD;
+    for (size_t i = 0; i < n; i++)
+        p->seeds[i] = (SEED_MUL * ((base + i) % SEED_MOD) + 12345UL) % SEED_MOD;
+}
+
+int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                  const cov_assessments *a, const cov_power_options *opt,
+                  const cov_coverage_options *copt, long budget, int replicates,
+                  cov_plan **out, cov_error *err)
+{
+    *out = NULL;
+    if (budget < -1) return cov_fail(err, COV_EINPUT, "", "--budget expects a whole number >= 0 or 'auto'");
+    if (replicates < 1) return cov_fail(err, COV_EINPUT, "", "--replicates expects a whole number >= 1");
+    unsigned long seed = copt != NULL ? copt->seed : 20261202UL;
+    struct plan_state st;
+    memset(&st, 0, sizeof st);
+    st.g = g;
+    st.c = c;
+    st.d = d != NULL && d->n_runs > 0 ? d : NULL;
+    st.opt = opt;
+    struct delta_cache dc = {NULL, 0, 0};
+    st.dc = &dc;
+    int rc = COV_ENOMEM;
+    double *bound = NULL, *part = NULL;
+    unsigned char *fresh = NULL;
+    cov_plan *p = calloc(1, sizeof *p);
+    st.L.first = calloc(g->n_vars + 1, sizeof(size_t));
+    st.L.count = calloc(g->n_vars + 1, sizeof(size_t));
+    st.L.slot = calloc(g->n_vars + 1, sizeof(size_t));
+    if (p == NULL || st.L.first == NULL || st.L.count == NULL || st.L.slot == NULL) goto fail;
+    p->n_vars = g->n_vars;
+    p->replicates = replicates;
+    st.L.n_cols = 1;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        const cov_var *var = &g->vars[v];
+        if (var->role != COV_INPUT) continue;
+        st.L.first[v] = st.L.n_cols;
+        st.L.count[v] = var->type == COV_LEVELS ? var->n_levels - 1 : 1;
+        st.L.n_cols += st.L.count[v];
+        if (var->type == COV_LEVELS) {
+            st.L.slot[v] = st.L.n_slots;
+            st.L.n_slots += var->n_levels;
+        }
+    }
+    st.planned = calloc(st.L.n_slots + 1, 1);
+    if (st.planned == NULL) goto fail;
+    if (pw_aug_alloc(st.L.n_cols, &st.aug) != PW_OK) goto fail;
+    if ((rc = setup_claims(&st, a, p)) != COV_OK) goto fail;
+    if ((rc = plan_candidates(&st, seed)) != COV_OK) goto fail;
+    rc = COV_ENOMEM;
+    p->n_candidates = st.n_cand;
+    st.cand_rows = malloc((st.n_cand * st.L.n_cols + 1) * sizeof *st.cand_rows);
+    bound = malloc((st.n_cand + 1) * sizeof *bound);
+    part = malloc((st.n_cand + 1) * sizeof *part);
+    fresh = malloc(st.n_cand + 1);
+    if (st.cand_rows == NULL || bound == NULL || part == NULL || fresh == NULL) goto fail;
+    for (size_t k = 0; k < st.n_cand; k++)
+        code_row(g, &st.L, st.cand_vals + k * g->n_vars, st.cand_rows + k * st.L.n_cols);
+    rc = cov_plan_cover_alloc(g, st.d, st.cand_vals, st.n_cand, copt, seed, &st.cover);
+    if (rc != COV_OK) goto fail;
+
+    /* Assumed claims need configurations in proportion; beyond the cap they are unreachable. */
+    double k_rep = (double)replicates;
+    size_t assumed_configs = 0;
+    for (size_t j = 0; j < p->n; j++) {
+        cov_plan_claim *it = &p->items[j];
+        if (it->mode != COV_PLAN_ASSUMED) continue;
+        const claim_work *w = &st.w[it->claim];
+        double more = ceil((w->runs_needed - w->n_base) / k_rep);
+        if (!(more <= (double)COV_PLAN_AUTO_CAP)) it->unreachable = budget < 0;
+        else if (more > (double)assumed_configs) assumed_configs = (size_t)more;
+    }
+
+    size_t row_cap = 0, last_refresh = 0, bumps = 0;
+    for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY, fresh[k] = 0;
+    for (;;) {
+        size_t planned = p->n_configs;
+        if (budget >= 0 && planned >= (size_t)budget) break;
+        if (budget < 0 && pw_aug_n_active(st.aug) == 0 && planned >= assumed_configs) {
+            /* Needs are met: confirm with the exact power, and raise any need that fell short. */
+            refresh_needs(&st, p, (double)planned * k_rep, 0);
+            int short_any = 0;
+            for (size_t j = 0; j < p->n; j++) {
+                cov_plan_claim *it = &p->items[j];
+                if (it->mode != COV_PLAN_STEERED || it->unreachable) continue;
+                const claim_work *w = &st.w[it->claim];
+                double pw = predict(&st, it, (double)planned * k_rep);
+                if (pw >= opt->target) continue;
+                short_any = 1;
+                if (++bumps > PLAN_MAX_BUMPS) it->unreachable = 1;
+                else pw_aug_set_need(st.aug, w->target,
+                                     fmax(pw_aug_need(st.aug, w->target),
+                                          pw_aug_info(st.aug, w->target)) * PLAN_NEED_BUMP);
+            }
+            if (!short_any) break;
+            for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY, fresh[k] = 0;
+            continue;
+        }
+        if (budget < 0 && planned >= COV_PLAN_AUTO_CAP) {
+            p->capped = 1;
+            break;
+        }
+        /* Lazy greedy (Minoux 1978): the scores only fall as runs are added, so a stale score is an
+         * upper bound and only the leader needs rescoring. */
+        size_t best = 0;
+        for (;;) {
+            best = 0;
+            for (size_t k = 1; k < st.n_cand; k++)
+                if (bound[k] > bound[best]) best = k;
+            if (fresh[best]) break;
+            if ((rc = score_candidate(&st, best, k_rep, &part[best], &bound[best])) != COV_OK)
+                goto fail;
+            fresh[best] = 1;
+        }
+        if (part[best] <= 0.0 && pw_aug_n_active(st.aug) > 0) {
+            /* Every candidate's score is bounded by the leader's, which is 0: no run the domains
+             * allow moves the claims still short. */
+            for (size_t j = 0; j < p->n; j++) {
+                cov_plan_claim *it = &p->items[j];
+                if (it->mode != COV_PLAN_STEERED || !pw_aug_active(st.aug, st.w[it->claim].target))
+                    continue;
+                it->unreachable = budget < 0;
+                pw_aug_set_need(st.aug, st.w[it->claim].target, INFINITY);
+            }
+            for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY, fresh[k] = 0;
+            continue;
+        }
+        int was_active = pw_aug_n_active(st.aug) > 0;
+        if (pw_aug_commit(st.aug, st.cand_rows + best * st.L.n_cols, k_rep) != PW_OK) {
+            rc = cov_fail(err, COV_ENUMERIC, "", "the planned design became singular");
+            goto fail;
+        }
+        cov_plan_cover_commit(st.cover, best, replicates);
+        if ((rc = push_row(p, &row_cap, st.cand_vals + best * g->n_vars)) != COV_OK) goto fail;
+        for (size_t v = 0; v < g->n_vars; v++) {
+            double lv = st.cand_vals[best * g->n_vars + v];
+            if (g->vars[v].role == COV_INPUT && g->vars[v].type == COV_LEVELS && lv >= 0 &&
+                lv < (double)g->vars[v].n_levels)
+                st.planned[st.L.slot[v] + (size_t)lv] = 1;
+        }
+        for (size_t k = 0; k < st.n_cand; k++) fresh[k] = 0;
+        if (pw_aug_n_active(st.aug) == 0 && was_active)
+            for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
+        if ((double)p->n_configs >= PLAN_NEED_REFRESH * (double)(last_refresh + 4)) {
+            last_refresh = p->n_configs;
+            refresh_needs(&st, p, (double)p->n_configs * k_rep, 1);
+            for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
+        }
+        /* Balance makes claim scores rise as well as fall (a run on the scarce side of a bool gains
+         * as the other side fills), so stale scores are not strict bounds while a claim is short:
+         * every candidate is rescored after each run when that costs little (exact greedy), and
+         * lazily otherwise. Coverage scores alone only fall, so lazy evaluation is exact then. */
+        if (pw_aug_n_active(st.aug) > 0 &&
+            (double)st.n_cand * (pw_aug_score_cost(st.aug) + cov_plan_cover_cost(st.cover)) <=
+                PLAN_FULL_FLOPS)
+            for (size_t k = 0; k < st.n_cand; k++) {
+                if ((rc = score_candidate(&st, k, k_rep, &part[k], &bound[k])) != COV_OK) goto fail;
+                fresh[k] = 1;
+            }
+    }
+    if (budget < 0 && p->capped)
+        for (size_t j = 0; j < p->n; j++)
+            if (p->items[j].mode == COV_PLAN_STEERED &&
+                pw_aug_active(st.aug, st.w[p->items[j].claim].target))
+                p->items[j].unreachable = 1;
+
+    double added = (double)p->n_configs * k_rep;
+    for (size_t j = 0; j < p->n; j++) {
+        cov_plan_claim *it = &p->items[j];
+        const claim_work *w = &st.w[it->claim];
+        it->n_now = w->n_base;
+        it->n_after = w->n_base + added;
+        it->power_after = predict(&st, it, added);
+        it->reaches = it->power_after >= opt->target;
+    }
+    p->seeds = malloc((p->n_configs * (size_t)replicates + 1) * sizeof *p->seeds);
+    if (p->seeds == NULL) goto fail;
+    make_seeds(p, seed);
+    *out = p;
+    p = NULL;
+    rc = COV_OK;
+fail:
+    if (rc == COV_ENOMEM) cov_fail(err, COV_ENOMEM, "", "out of memory while planning");
+    else if (rc == COV_ENUMERIC && err != NULL && err->msg[0] == '\0')
+        cov_fail(err, COV_ENUMERIC, "", "a numeric routine failed while planning");
+    free(bound);
+    free(part);
+    free(fresh);
+    state_free(&st);
+    cov_plan_free(p);
+    return rc;
+}

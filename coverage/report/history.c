@@ -1,0 +1,230 @@
+/* History of survey rounds: kept in shoal's own archive or in a --history side file.
+ * See LICENSE. */
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include <sqlite3.h>
+
+#include "coverage/report/report.h"
+
+/* A writer waits this long for another connection's lock before it gives up (milliseconds). */
+#define HISTORY_BUSY_MS 5000
+
+static const char history_schema[] =
+    "CREATE TABLE IF NOT EXISTS shoal_rounds ("
+    " id INTEGER PRIMARY KEY, surveyed_at TEXT NOT NULL, graph TEXT, archive TEXT,"
+    " runs INTEGER NOT NULL, batches INTEGER NOT NULL, ample INTEGER NOT NULL,"
+    " thin INTEGER NOT NULL, untestable INTEGER NOT NULL,"
+    " marginal_share REAL, pairwise_share REAL, threeway_share REAL);"
+    "CREATE TABLE IF NOT EXISTS shoal_round_claims ("
+    " round INTEGER NOT NULL REFERENCES shoal_rounds(id), claim INTEGER NOT NULL,"
+    " kind TEXT NOT NULL, treatment TEXT NOT NULL, outcome TEXT NOT NULL, verdict TEXT NOT NULL,"
+    " runs INTEGER, power REAL, mde REAL, runs_needed REAL, PRIMARY KEY (round, claim));";
+
+void cov_round_from_findings(const cov_findings *f, cov_round *r)
+{
+    r->n_runs = f->data ? (long long)f->data->n_runs : 0;
+    r->n_batches = f->data ? (long long)f->data->n_batches : 0;
+    r->n_ample = r->n_thin = r->n_blind = 0;
+    for (size_t i = 0; i < f->claims->n; i++) {
+        cov_verdict v = f->assess && i < f->assess->n ? f->assess->items[i].verdict
+                        : f->claims->items[i].status == COV_TESTABLE ? COV_THIN : COV_BLIND;
+        if (v == COV_AMPLE) r->n_ample++;
+        else if (v == COV_THIN) r->n_thin++;
+        else r->n_blind++;
+    }
+    r->marginal_share = f->coverage ? f->coverage->marginal_share : NAN;
+    r->pairwise_share = f->coverage ? f->coverage->pairwise_share : NAN;
+    r->threeway_share = f->coverage ? f->coverage->threeway_share : NAN;
+}
+
+/* Copy SQLite's message at once (it belongs to the connection) into err. */
+static int sql_fail(cov_error *err, int status, sqlite3 *db, const char *path, const char *what)
+{
+    return cov_fail(err, status, "", "%s %s: %s", what, path, db ? sqlite3_errmsg(db) : "no memory");
+}
+
+static double column_real(sqlite3_stmt *st, int k)
+{
+    return sqlite3_column_type(st, k) == SQLITE_NULL ? NAN : sqlite3_column_double(st, k);
+}
+
+int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_t *n,
+                     cov_error *err)
+{
+    *out = NULL;
+    *n = 0;
+    struct stat sb;
+    if (stat(db_path, &sb) != 0) {
+        if (missing_ok && errno == ENOENT) return COV_OK;
+        return cov_fail(err, COV_EIO, "", "cannot read the history in %s: %s", db_path,
+                        strerror(errno));
+    }
+    sqlite3 *db = NULL;
+    sqlite3_stmt *st = NULL;
+    cov_round *rounds = NULL;
+    size_t count = 0, cap = 0;
+    int rc;
+    if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READONLY, NULL) != SQLITE_OK) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot open");
+        goto fail;
+    }
+    /* Asking the schema first tells a file that is not SQLite (an error) from one with no
+     * history yet (no rounds). */
+    if (sqlite3_prepare_v2(db, "SELECT count(*) FROM sqlite_master WHERE type = 'table' AND "
+                               "name = 'shoal_rounds'", -1, &st, NULL) != SQLITE_OK ||
+        sqlite3_step(st) != SQLITE_ROW) {
+        rc = sql_fail(err, COV_EINPUT, db, db_path, "not an SQLite file with history:");
+        goto fail;
+    }
+    int has_table = sqlite3_column_int(st, 0) > 0;
+    sqlite3_finalize(st);
+    st = NULL;
+    if (has_table) {
+        if (sqlite3_prepare_v2(db, "SELECT surveyed_at, runs, batches, ample, thin, untestable, "
+                                   "marginal_share, pairwise_share, threeway_share "
+                                   "FROM shoal_rounds ORDER BY id", -1, &st, NULL) != SQLITE_OK) {
+            rc = sql_fail(err, COV_EIO, db, db_path, "cannot read the history in");
+            goto fail;
+        }
+        int step;
+        while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+            if (count == cap) {
+                size_t bigger = cap ? 2 * cap : 8;
+                cov_round *grown = realloc(rounds, bigger * sizeof *grown);
+                if (grown == NULL) {
+                    rc = cov_fail(err, COV_ENOMEM, "", "out of memory reading the history");
+                    goto fail;
+                }
+                rounds = grown;
+                cap = bigger;
+            }
+            cov_round *r = &rounds[count++];
+            const unsigned char *at = sqlite3_column_text(st, 0);
+            snprintf(r->at, sizeof r->at, "%s", at ? (const char *)at : "");
+            r->n_runs = sqlite3_column_int64(st, 1);
+            r->n_batches = sqlite3_column_int64(st, 2);
+            r->n_ample = sqlite3_column_int64(st, 3);
+            r->n_thin = sqlite3_column_int64(st, 4);
+            r->n_blind = sqlite3_column_int64(st, 5);
+            r->marginal_share = column_real(st, 6);
+            r->pairwise_share = column_real(st, 7);
+            r->threeway_share = column_real(st, 8);
+        }
+        if (step != SQLITE_DONE) {
+            rc = sql_fail(err, COV_EIO, db, db_path, "cannot read the history in");
+            goto fail;
+        }
+    }
+    sqlite3_finalize(st);
+    sqlite3_close(db);
+    *out = rounds;
+    *n = count;
+    return COV_OK;
+fail:
+    sqlite3_finalize(st);
+    sqlite3_close(db);
+    free(rounds);
+    return rc;
+}
+
+static void bind_real(sqlite3_stmt *st, int k, double x)
+{
+    if (isfinite(x)) sqlite3_bind_double(st, k, x);
+    else sqlite3_bind_null(st, k);
+}
+
+int cov_history_record(const char *db_path, const cov_findings *f, const cov_round *r,
+                       cov_error *err)
+{
+    sqlite3 *db = NULL;
+    sqlite3_stmt *st = NULL;
+    int rc = COV_OK, in_tx = 0;
+    /* A side file may be created; shoal's archive must already exist. */
+    int create = f->opt == NULL || f->opt->history_path == NULL ||
+                 strcmp(f->opt->history_path, db_path) != 0 ? 0 : SQLITE_OPEN_CREATE;
+    if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READWRITE | create, NULL) != SQLITE_OK) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot open for history");
+        goto fail;
+    }
+    sqlite3_busy_timeout(db, HISTORY_BUSY_MS);
+    if (sqlite3_exec(db, "BEGIN IMMEDIATE", NULL, NULL, NULL) != SQLITE_OK) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
+        goto fail;
+    }
+    in_tx = 1;
+    if (sqlite3_exec(db, history_schema, NULL, NULL, NULL) != SQLITE_OK ||
+        sqlite3_prepare_v2(db, "INSERT INTO shoal_rounds (surveyed_at, graph, archive, runs, "
+                               "batches, ample, thin, untestable, marginal_share, pairwise_share, "
+                               "threeway_share) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)", -1, &st,
+                           NULL) != SQLITE_OK) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
+        goto fail;
+    }
+    sqlite3_bind_text(st, 1, r->at, -1, SQLITE_TRANSIENT);
+    sqlite3_bind_text(st, 2, f->graph->path, -1, SQLITE_TRANSIENT);
+    if (f->opt && f->opt->archive_path)
+        sqlite3_bind_text(st, 3, f->opt->archive_path, -1, SQLITE_TRANSIENT);
+    sqlite3_bind_int64(st, 4, r->n_runs);
+    sqlite3_bind_int64(st, 5, r->n_batches);
+    sqlite3_bind_int64(st, 6, r->n_ample);
+    sqlite3_bind_int64(st, 7, r->n_thin);
+    sqlite3_bind_int64(st, 8, r->n_blind);
+    bind_real(st, 9, r->marginal_share);
+    bind_real(st, 10, r->pairwise_share);
+    bind_real(st, 11, r->threeway_share);
+    if (sqlite3_step(st) != SQLITE_DONE) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
+        goto fail;
+    }
+    sqlite3_int64 round_id = sqlite3_last_insert_rowid(db);
+    sqlite3_finalize(st);
+    st = NULL;
+    if (sqlite3_prepare_v2(db, "INSERT INTO shoal_round_claims (round, claim, kind, treatment, "
+                               "outcome, verdict, runs, power, mde, runs_needed) "
+                               "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)", -1, &st, NULL) != SQLITE_OK) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
+        goto fail;
+    }
+    for (size_t i = 0; i < f->claims->n; i++) {
+        const cov_claim *c = &f->claims->items[i];
+        const cov_assessment *a = f->assess && i < f->assess->n ? &f->assess->items[i] : NULL;
+        cov_verdict v = a ? a->verdict : c->status == COV_TESTABLE ? COV_THIN : COV_BLIND;
+        sqlite3_reset(st);
+        sqlite3_clear_bindings(st);
+        sqlite3_bind_int64(st, 1, round_id);
+        sqlite3_bind_int64(st, 2, (sqlite3_int64)i + 1);
+        sqlite3_bind_text(st, 3, c->kind == COV_CLAIM_EFFECT ? "effect" : "absence", -1,
+                          SQLITE_STATIC);
+        sqlite3_bind_text(st, 4, f->graph->vars[c->treatment].name, -1, SQLITE_TRANSIENT);
+        sqlite3_bind_text(st, 5, f->graph->vars[c->outcome].name, -1, SQLITE_TRANSIENT);
+        sqlite3_bind_text(st, 6, cov_verdict_word(v), -1, SQLITE_STATIC);
+        if (a != NULL && c->status == COV_TESTABLE) {
+            sqlite3_bind_int64(st, 7, (sqlite3_int64)a->n);
+            bind_real(st, 8, a->power);
+            bind_real(st, 9, a->mde);
+            bind_real(st, 10, a->runs_needed);
+        }
+        if (sqlite3_step(st) != SQLITE_DONE) {
+            rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
+            goto fail;
+        }
+    }
+    sqlite3_finalize(st);
+    st = NULL;
+    if (sqlite3_exec(db, "COMMIT", NULL, NULL, NULL) != SQLITE_OK) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot commit the history into");
+        goto fail;
+    }
+    sqlite3_close(db);
+    return COV_OK;
+fail:
+    sqlite3_finalize(st);
+    if (in_tx) sqlite3_exec(db, "ROLLBACK", NULL, NULL, NULL);
+    sqlite3_close(db);
+    return rc;
+}

@@ -1,0 +1,416 @@
+/* The survey report: what its formats share, summary.json, claims.csv and the report writer.
+ * See LICENSE. */
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coverage/report/report.h"
+
+/* Cautions, in the report and the README: what the verdict does not say. */
+const char *const cov_report_cautions[] = {
+    "An adequate campaign can still be testing a wrong graph: the verdict says whether the runs "
+    "could test each claim, not whether the claims are true.",
+    "The figures assume roughly linear effects, runs that are independent of one another, and "
+    "the noise model stated in the graph (or, where none is stated, the noise seen in the runs).",
+    "Power and the runs needed are computed at the declared effect of interest, never at the "
+    "effect the runs happen to show.",
+    "The final judgement belongs to people who know the domain, above all where the model informs "
+    "decisions about people.",
+};
+const size_t cov_report_n_cautions = sizeof cov_report_cautions / sizeof cov_report_cautions[0];
+
+/* ---- small helpers shared by the formats ----------------------------------------------------- */
+
+const char *cov_report_var(const cov_findings *f, size_t v) { return f->graph->vars[v].name; }
+
+const cov_assessment *cov_report_assessment(const cov_findings *f, size_t i)
+{
+    return f->assess != NULL && i < f->assess->n ? &f->assess->items[i] : NULL;
+}
+
+static const cov_support *support(const cov_findings *f, size_t i)
+{
+    return f->support != NULL && i < f->support->n ? &f->support->items[i] : NULL;
+}
+
+cov_verdict cov_report_verdict(const cov_findings *f, size_t i)
+{
+    const cov_assessment *a = cov_report_assessment(f, i);
+    if (a != NULL) return a->verdict;
+    return f->claims->items[i].status == COV_TESTABLE ? COV_THIN : COV_BLIND;
+}
+
+/* The one-line reason for a claim's verdict, or NULL when there is nothing to say. */
+const char *cov_report_reason(const cov_findings *f, size_t i)
+{
+    const cov_claim *c = &f->claims->items[i];
+    const cov_assessment *a = cov_report_assessment(f, i);
+    const cov_support *s = support(f, i);
+    if (c->status == COV_UNTESTABLE) return c->reason;
+    if (a != NULL && a->reason != NULL) return a->reason;
+    if (s != NULL && !s->ok && s->reason != NULL) return s->reason;
+    return NULL;
+}
+
+static double power_of(const cov_findings *f, size_t i)
+{
+    const cov_assessment *a = cov_report_assessment(f, i);
+    return a != NULL ? a->power : NAN;
+}
+
+static int order_rank(cov_verdict v) { return v == COV_THIN ? 0 : v == COV_BLIND ? 1 : 2; }
+
+void cov_report_order(const cov_findings *f, size_t *order)
+{
+    size_t n = f->claims->n;
+    for (size_t i = 0; i < n; i++) order[i] = i;
+    /* Insertion sort: stable, and claim lists are short. */
+    for (size_t i = 1; i < n; i++) {
+        size_t k = order[i], j = i;
+        while (j > 0) {
+            size_t p = order[j - 1];
+            int rk = order_rank(cov_report_verdict(f, k));
+            int rp = order_rank(cov_report_verdict(f, p));
+            double wk = power_of(f, k), wp = power_of(f, p);
+            if (isnan(wk)) wk = 2.0;
+            if (isnan(wp)) wp = 2.0;
+            if (rp < rk || (rp == rk && wp <= wk)) break;
+            order[j] = p;
+            j--;
+        }
+        order[j] = k;
+    }
+}
+
+void cov_report_count_verdicts(const cov_findings *f, long long count[3])
+{
+    count[COV_AMPLE] = count[COV_THIN] = count[COV_BLIND] = 0;
+    for (size_t i = 0; i < f->claims->n; i++) count[cov_report_verdict(f, i)]++;
+}
+
+const char *cov_report_kind(const cov_claim *c)
+{
+    return c->kind == COV_CLAIM_EFFECT ? "effect" : "absence";
+}
+
+/* The declared effect of interest: "+0.01", "0.25 sd", "|b| < 0.1 sd". */
+void cov_report_effect_text(const cov_claim *c, char *buf, size_t size)
+{
+    const char *unit = c->effect.unit == COV_UNIT_SD ? " sd" : "";
+    if (c->kind == COV_CLAIM_ABSENCE)
+        snprintf(buf, size, "|b| < %g%s", c->effect.value, unit);
+    else if (c->sign != 0)
+        snprintf(buf, size, "%c%g%s", c->sign > 0 ? '+' : '-', c->effect.value, unit);
+    else
+        snprintf(buf, size, "%g%s", c->effect.value, unit);
+}
+
+void cov_report_num_text(double x, const char *fmt, char *buf, size_t size)
+{
+    if (isnan(x)) snprintf(buf, size, "-");
+    else if (isinf(x)) snprintf(buf, size, "unreachable");
+    else snprintf(buf, size, fmt, x);
+}
+
+void cov_report_share_text(double x, char *buf, size_t size)
+{
+    if (isfinite(x)) snprintf(buf, size, "%.1f%%", 100.0 * x);
+    else snprintf(buf, size, "not computed");
+}
+
+static const char *store_word(cov_history_store s)
+{
+    return s == COV_HISTORY_ARCHIVE ? "archive" : s == COV_HISTORY_SIDE ? "side file" : "none";
+}
+
+/* ---- summary.json ----------------------------------------------------------------------------- */
+
+static void json_round(FILE *out, const cov_round *r)
+{
+    fputs("{\"at\": ", out);
+    cov_emit_json_string(out, r->at);
+    fprintf(out, ", \"runs\": %lld, \"batches\": %lld, \"ample\": %lld, \"thin\": %lld, "
+                 "\"untestable\": %lld, \"marginal_share\": ", r->n_runs, r->n_batches, r->n_ample,
+            r->n_thin, r->n_blind);
+    cov_emit_json_number(out, r->marginal_share);
+    fputs(", \"pairwise_share\": ", out);
+    cov_emit_json_number(out, r->pairwise_share);
+    fputs(", \"threeway_share\": ", out);
+    cov_emit_json_number(out, r->threeway_share);
+    fputc('}', out);
+}
+
+static void json_claim(FILE *out, const cov_findings *f, size_t i)
+{
+    const cov_claim *c = &f->claims->items[i];
+    const cov_assessment *a = cov_report_assessment(f, i);
+    const cov_support *s = support(f, i);
+    fprintf(out, "    {\"index\": %zu, ", i + 1);
+    cov_claim_json_fields(out, f->graph, c);
+    fprintf(out, ",\n     \"verdict\": \"%s\", \"why\": ",
+            cov_verdict_word(cov_report_verdict(f, i)));
+    const char *why = cov_report_reason(f, i);
+    if (why) cov_emit_json_string(out, why);
+    else fputs("null", out);
+    if (a != NULL && c->status == COV_TESTABLE) {
+        const struct { const char *key; double x; } fig[] = {
+            {"n", (double)a->n}, {"df", a->df}, {"estimate", a->estimate}, {"se", a->se},
+            {"sigma", a->sigma}, {"sd_treatment_resid", a->sd_treatment_resid}, {"vif", a->vif},
+            {"effect_raw", a->effect_raw}, {"alpha", a->alpha}, {"power", a->power},
+            {"power_lo", a->power_lo}, {"power_hi", a->power_hi}, {"mde", a->mde},
+            {"mde_lo", a->mde_lo}, {"mde_hi", a->mde_hi}, {"runs_needed", a->runs_needed},
+        };
+        for (size_t k = 0; k < sizeof fig / sizeof fig[0]; k++) {
+            fprintf(out, "%s\"%s\": ", k % 6 == 0 ? ",\n     " : ", ", fig[k].key);
+            cov_emit_json_number(out, fig[k].x);
+        }
+        fprintf(out, ", \"runs_unreachable\": %s", isinf(a->runs_needed) ? "true" : "false");
+        fprintf(out, ",\n     \"noise_flag\": %s, \"noise_note\": ", a->noise_flag ? "true" : "false");
+        if (a->noise_note) cov_emit_json_string(out, a->noise_note);
+        else fputs("null", out);
+        fprintf(out, ", \"pure_error\": %s", a->has_pure_error ? "true" : "false");
+        if (a->has_pure_error) {
+            fputs(", \"sigma_pure\": ", out);
+            cov_emit_json_number(out, a->sigma_pure);
+            fputs(", \"lack_of_fit_f\": ", out);
+            cov_emit_json_number(out, a->lof_f);
+            fputs(", \"lack_of_fit_p\": ", out);
+            cov_emit_json_number(out, a->lof_p);
+        }
+    }
+    if (s != NULL) {
+        fprintf(out, ",\n     \"support\": {\"ok\": %s, \"n\": %zu, \"distinct\": %zu, \"spread\": ",
+                s->ok ? "true" : "false", s->n, s->distinct);
+        cov_emit_json_number(out, s->spread);
+        fputs(", \"spread_resid\": ", out);
+        cov_emit_json_number(out, s->spread_resid);
+        fputs(", \"overlap\": ", out);
+        cov_emit_json_number(out, s->overlap);
+        fputs(", \"kish_ess\": ", out);
+        cov_emit_json_number(out, s->kish_ess);
+        fputs(", \"runs_per_config\": ", out);
+        cov_emit_json_number(out, s->runs_per_config);
+        fputs(", \"reason\": ", out);
+        if (s->reason) cov_emit_json_string(out, s->reason);
+        else fputs("null", out);
+        fputc('}', out);
+    }
+    fputc('}', out);
+}
+
+static void json_coverage(FILE *out, const cov_findings *f)
+{
+    const cov_coverage *cv = f->coverage;
+    const struct { const char *key; double x; } fig[] = {
+        {"marginal_share", cv->marginal_share}, {"pairwise_share", cv->pairwise_share},
+        {"threeway_share", cv->threeway_share}, {"cd2", cv->cd2}, {"cd2_random", cv->cd2_random},
+        {"fill_distance", cv->fill_distance},
+    };
+    fputs("  \"coverage\": {", out);
+    for (size_t k = 0; k < sizeof fig / sizeof fig[0]; k++) {
+        fprintf(out, "%s\"%s\": ", k ? ", " : "", fig[k].key);
+        cov_emit_json_number(out, fig[k].x);
+    }
+    fprintf(out, ", \"min_runs\": %zu, \"bins\": %zu, \"cd_subsampled\": %s, \"inputs_outside\": "
+                 "%zu,\n    \"marginal\": [", cv->opt.min_runs, cv->opt.bins,
+            cv->cd_subsampled ? "true" : "false", cv->n_outside);
+    for (size_t m = 0; m < cv->n_inputs; m++) {
+        const cov_marginal *mg = &cv->marginal[m];
+        fprintf(out, "%s\n      {\"input\": ", m ? "," : "");
+        cov_emit_json_string(out, cov_report_var(f, mg->var));
+        fputs(", \"share\": ", out);
+        cov_emit_json_number(out, mg->share);
+        fputs(", \"counts\": [", out);
+        for (size_t b = 0; b < mg->n_bins; b++) fprintf(out, "%s%zu", b ? ", " : "", mg->count[b]);
+        fputs("]}", out);
+    }
+    fputs("],\n    \"pairs\": [", out);
+    for (size_t k = 0; k < cv->n_pairs; k++) {
+        const cov_pair *p = &cv->pairs[cv->worst ? cv->worst[k] : k];
+        fprintf(out, "%s\n      {\"a\": ", k ? "," : "");
+        cov_emit_json_string(out, cov_report_var(f, p->a));
+        fputs(", \"b\": ", out);
+        cov_emit_json_string(out, cov_report_var(f, p->b));
+        fputs(", \"share\": ", out);
+        cov_emit_json_number(out, p->share);
+        fprintf(out, ", \"cells\": %zu, \"empty_cells\": %zu}", p->na * p->nb, p->n_empty);
+    }
+    fputs("],\n    \"dependence\": [", out);
+    size_t shown = 0;
+    for (size_t i = 0; cv->dependence && i < cv->n_inputs; i++)
+        for (size_t j = i + 1; j < cv->n_inputs; j++) {
+            double dep = cv->dependence[i * cv->n_inputs + j];
+            fprintf(out, "%s\n      {\"a\": ", shown++ ? "," : "");
+            cov_emit_json_string(out, cov_report_var(f, cv->inputs[i]));
+            fputs(", \"b\": ", out);
+            cov_emit_json_string(out, cov_report_var(f, cv->inputs[j]));
+            fputs(", \"strength\": ", out);
+            cov_emit_json_number(out, dep);
+            fprintf(out, ", \"flagged\": %s}",
+                    isfinite(dep) && dep > cv->opt.dependence_threshold ? "true" : "false");
+        }
+    fputs("],\n    \"gaps\": [", out);
+    for (size_t k = 0; k < cv->n_gaps; k++) {
+        fprintf(out, "%s\n      {\"distance\": ", k ? "," : "");
+        cov_emit_json_number(out, cv->gap_dist[k]);
+        fputs(", \"at\": {", out);
+        for (size_t d = 0; d < cv->n_numeric; d++) {
+            if (d) fputs(", ", out);
+            cov_emit_json_string(out, cov_report_var(f, cv->numeric[d]));
+            fputs(": ", out);
+            cov_emit_json_number(out, cv->gaps[k * cv->n_numeric + d]);
+        }
+        fputs("}}", out);
+    }
+    fputs("]},\n", out);
+}
+
+void cov_report_summary_json(const cov_findings *f, const cov_report_info *info, FILE *out)
+{
+    const cov_options *o = f->opt;
+    long long count[3];
+    cov_report_count_verdicts(f, count);
+    fputs("{\n  \"schema_version\": 1,\n  \"graph\": ", out);
+    cov_emit_json_string(out, f->graph->path);
+    fputs(",\n  \"archive\": ", out);
+    cov_emit_json_string(out, o && o->archive_path ? o->archive_path : "");
+    fputs(",\n  \"generated\": ", out);
+    cov_emit_json_string(out, info->generated ? info->generated : "");
+    fprintf(out, ",\n  \"adequate\": %s,\n  \"gate_note\": ", info->adequate ? "true" : "false");
+    if (info->gate_note) cov_emit_json_string(out, info->gate_note);
+    else fputs("null", out);
+    fprintf(out, ",\n  \"runs\": %zu, \"batches\": %zu,\n", f->data ? f->data->n_runs : 0,
+            f->data ? f->data->n_batches : 0);
+    fprintf(out, "  \"counts\": {\"claims\": %zu, \"ample\": %lld, \"thin\": %lld, "
+                 "\"untestable\": %lld},\n", f->claims->n, count[COV_AMPLE], count[COV_THIN],
+            count[COV_BLIND]);
+    if (o != NULL) {
+        fputs("  \"options\": {\"alpha\": ", out);
+        cov_emit_json_number(out, o->power.alpha);
+        fputs(", \"target_power\": ", out);
+        cov_emit_json_number(out, o->power.target);
+        fprintf(out, ", \"family\": \"%s\", \"one_sided\": %s, \"min_runs\": %zu, \"bins\": %zu, "
+                     "\"way\": %d,\n    \"need_marginal\": ", o->power.bonferroni ? "bonferroni" : "none",
+                o->power.one_sided ? "true" : "false", o->coverage.min_runs, o->coverage.bins,
+                o->coverage.way);
+        cov_emit_json_number(out, o->need_marginal);
+        fputs(", \"need_pairwise\": ", out);
+        cov_emit_json_number(out, o->need_pairwise);
+        fputs(", \"need_threeway\": ", out);
+        cov_emit_json_number(out, o->need_threeway);
+        fputs("},\n", out);
+    }
+    if (f->coverage != NULL) json_coverage(out, f);
+    fputs("  \"plots\": {\"made\": ", out);
+    fputs(info->plot_note ? "false, \"note\": " : "true, \"note\": null", out);
+    if (info->plot_note) cov_emit_json_string(out, info->plot_note);
+    fprintf(out, "},\n  \"history\": {\"store\": \"%s\", \"path\": ", store_word(info->store));
+    if (info->history_path) cov_emit_json_string(out, info->history_path);
+    else fputs("null", out);
+    fputs(", \"rounds\": [", out);
+    for (size_t r = 0; r < info->n_rounds; r++) {
+        fputs(r ? ",\n    " : "\n    ", out);
+        json_round(out, &info->rounds[r]);
+    }
+    fputs("]},\n  \"data\": {\"missing\": {", out);
+    size_t shown = 0;
+    for (size_t v = 0; f->data && v < f->data->n_vars; v++) {
+        if (f->graph->vars[v].role == COV_HIDDEN) continue;
+        fputs(shown++ ? ", " : "", out);
+        cov_emit_json_string(out, cov_report_var(f, v));
+        fprintf(out, ": %zu", f->data->n_missing ? f->data->n_missing[v] : 0);
+    }
+    fputs("}},\n  \"cautions\": [", out);
+    for (size_t k = 0; k < cov_report_n_cautions; k++) {
+        fputs(k ? ",\n    " : "\n    ", out);
+        cov_emit_json_string(out, cov_report_cautions[k]);
+    }
+    fputs("],\n  \"claims\": [\n", out);
+    for (size_t i = 0; i < f->claims->n; i++) {
+        json_claim(out, f, i);
+        fputs(i + 1 < f->claims->n ? ",\n" : "\n", out);
+    }
+    fputs("  ]\n}\n", out);
+}
+
+/* ---- claims.csv ------------------------------------------------------------------------------ */
+
+void cov_report_claims_csv(const cov_findings *f, FILE *out)
+{
+    fputs("index,kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,"
+          "steerable,verdict,n,power,power_lo,power_hi,mde,effect_raw,runs_needed,why,"
+          "minimal_conditioning\n", out);
+    for (size_t i = 0; i < f->claims->n; i++) {
+        const cov_claim *c = &f->claims->items[i];
+        const cov_assessment *a = c->status == COV_TESTABLE ? cov_report_assessment(f, i) : NULL;
+        fprintf(out, "%zu,", i + 1);
+        cov_claim_csv_fields(out, f->graph, c);
+        fprintf(out, ",%s,", cov_verdict_word(cov_report_verdict(f, i)));
+        const double fig[] = {a ? (double)a->n : NAN, a ? a->power : NAN, a ? a->power_lo : NAN,
+                              a ? a->power_hi : NAN, a ? a->mde : NAN, a ? a->effect_raw : NAN,
+                              a ? a->runs_needed : NAN};
+        for (size_t k = 0; k < sizeof fig / sizeof fig[0]; k++) {
+            cov_emit_csv_number(out, fig[k]);
+            fputc(',', out);
+        }
+        cov_emit_csv_field(out, cov_report_reason(f, i) ? cov_report_reason(f, i) : "");
+        fputc(',', out);
+        cov_claim_csv_min_field(out, f->graph, c);
+        fputc('\n', out);
+    }
+}
+
+/* ---- the report directory -------------------------------------------------------------------- */
+
+/* Open dir/name for writing. */
+static FILE *open_in(const char *dir, const char *name, cov_error *err, int *rc)
+{
+    char path[4096];
+    if (snprintf(path, sizeof path, "%s/%s", dir, name) >= (int)sizeof path) {
+        *rc = cov_fail(err, COV_EIO, "", "report path too long: %s/%s", dir, name);
+        return NULL;
+    }
+    FILE *f = fopen(path, "w");
+    if (f == NULL) *rc = cov_fail(err, COV_EIO, "", "cannot write %s: %s", path, strerror(errno));
+    return f;
+}
+
+static int close_checked(FILE *f, const char *dir, const char *name, cov_error *err)
+{
+    int bad = ferror(f);
+    if (fclose(f) != 0 || bad)
+        return cov_fail(err, COV_EIO, "", "could not finish writing %s/%s", dir, name);
+    return COV_OK;
+}
+
+int cov_report_write(const cov_findings *f, const cov_report_info *info, const char *dir,
+                     cov_error *err)
+{
+    int rc = COV_OK;
+    FILE *out;
+    if ((out = open_in(dir, "summary.json", err, &rc)) == NULL) return rc;
+    cov_report_summary_json(f, info, out);
+    if ((rc = close_checked(out, dir, "summary.json", err)) != COV_OK) return rc;
+
+    if ((out = open_in(dir, "claims.csv", err, &rc)) == NULL) return rc;
+    cov_report_claims_csv(f, out);
+    if ((rc = close_checked(out, dir, "claims.csv", err)) != COV_OK) return rc;
+
+    /* A test hook: fail halfway through, to check that no half-written report is left behind. */
+    const char *fault = getenv("SHOAL_TEST_FAULT");
+    if (fault != NULL && strcmp(fault, "report") == 0)
+        return cov_fail(err, COV_EIO, "", "injected failure while writing the report "
+                                          "(SHOAL_TEST_FAULT=report)");
+
+    if ((out = open_in(dir, "report.md", err, &rc)) == NULL) return rc;
+    rc = cov_report_markdown(f, info, out);
+    int rc2 = close_checked(out, dir, "report.md", err);
+    if (rc != COV_OK || rc2 != COV_OK) return rc != COV_OK ? rc : rc2;
+
+    if ((out = open_in(dir, "index.html", err, &rc)) == NULL) return rc;
+    rc = cov_report_html(f, info, dir, out, err);
+    rc2 = close_checked(out, dir, "index.html", err);
+    return rc != COV_OK ? rc : rc2;
+}

@@ -1,0 +1,185 @@
+/* shoal coverage/report/: the survey's report: plots, gnuplot pipe, HTML, Markdown, history rounds. Private to coverage/.
+ * See LICENSE. */
+#ifndef SHOAL_COVERAGE_REPORT_H
+#define SHOAL_COVERAGE_REPORT_H
+
+#include <stdio.h>
+
+#include "coverage/assess/assess.h"
+#include "coverage/measure/measure.h"
+
+/* ---- survey: plots, report, history (coverage/plot.c, coverage/report.c, ...) ----------------- */
+
+/* Everything one survey found, borrowed (not owned) by the plot and report writers. */
+typedef struct {
+    const cov_options *opt;
+    const cov_graph *graph;
+    const cov_claims *claims;
+    const cov_data *data;
+    const cov_assessments *assess;
+    const cov_coverage *coverage;
+    const cov_supports *support;
+    const double *planned;    /* planned runs from `shoal plan`: n_planned rows of graph->n_vars
+                                 values (NAN for non-inputs), or NULL */
+    size_t n_planned;
+} cov_findings;
+
+/* The figures of one survey, one round of the campaign's history (coverage/history.c). */
+typedef struct {
+    char at[32];              /* UTC, ISO 8601: "2026-12-02T01:30:00Z" */
+    long long n_runs;
+    long long n_batches;
+    long long n_ample, n_thin, n_blind;
+    double marginal_share, pairwise_share, threeway_share;   /* NAN when not computed */
+} cov_round;
+
+/* Where a survey keeps its history: in the owned archive, in a --history side file, or nowhere. */
+typedef enum { COV_HISTORY_NONE, COV_HISTORY_ARCHIVE, COV_HISTORY_SIDE } cov_history_store;
+
+/* Fill r with the counts and shares of f (the time is the caller's). */
+void cov_round_from_findings(const cov_findings *f, cov_round *r);
+/* Read the rounds kept in the SQLite file db_path, oldest first. A file without history tables,
+ * or (side files only, missing_ok 1) no file at all, gives *n = 0. The file is opened read-only.
+ * Free *out with free(). Returns COV_OK, COV_EIO, COV_EINPUT (not SQLite), COV_ENOMEM. */
+int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_t *n,
+                     cov_error *err);
+/* Append round r and each claim's power to the history tables (shoal_rounds, shoal_round_claims)
+ * of db_path, created when missing (the side file itself too), in one transaction. The caller
+ * guarantees db_path is shoal's own archive or a side file: never the user's archive. */
+int cov_history_record(const char *db_path, const cov_findings *f, const cov_round *r,
+                       cov_error *err);
+
+/* What the report says besides the findings. */
+typedef struct {
+    const char *generated;    /* UTC time of the survey */
+    int adequate;             /* the verdict, gates included */
+    const char *gate_note;    /* NULL, or which --need-* gate failed */
+    const char *plot_note;    /* NULL when plots were made; else why they were skipped */
+    cov_history_store store;
+    const char *history_path; /* archive or side file; NULL with COV_HISTORY_NONE */
+    const cov_round *rounds;  /* earlier rounds and this one, oldest first */
+    size_t n_rounds;
+} cov_report_info;
+
+/* Write index.html, report.md, summary.json and claims.csv into the existing directory dir. The
+ * plots of cov_plot_list already in dir (NAME.svg) are inlined in index.html as <svg> elements (a
+ * file that gnuplot's plain svg terminal could not have written becomes an <img> data URI), unless
+ * info->plot_note says they were skipped. Every user string is escaped for its format. Test hook:
+ * with the environment variable SHOAL_TEST_FAULT=report it fails halfway (COV_EIO).
+ * Returns COV_OK, COV_EIO, COV_ENOMEM. */
+int cov_report_write(const cov_findings *f, const cov_report_info *info, const char *dir,
+                     cov_error *err);
+/* summary.json alone, to any stream (`shoal survey --json` prints it to stdout). */
+void cov_report_summary_json(const cov_findings *f, const cov_report_info *info, FILE *out);
+/* claims.csv alone, to any stream (`shoal survey --csv`). */
+void cov_report_claims_csv(const cov_findings *f, FILE *out);
+/* Ordering of claims for the terminal and the report: thin first by rising power, then
+ * untestable, then ample by rising power. Fills order (f->claims->n entries). */
+void cov_report_order(const cov_findings *f, size_t *order);
+
+/* Shared by the report files: coverage/report.c (these helpers, summary.json, claims.csv and the
+ * writer), coverage/report_html.c and coverage/report_md.c. */
+/* The cautions every format prints (what the verdict does not say), cov_report_n_cautions of
+ * them. */
+extern const char *const cov_report_cautions[];
+extern const size_t cov_report_n_cautions;
+/* The name of variable v of f->graph. */
+const char *cov_report_var(const cov_findings *f, size_t v);
+/* The assessment of claim i, or NULL when f->assess is NULL or does not reach i. */
+const cov_assessment *cov_report_assessment(const cov_findings *f, size_t i);
+/* Claim i's verdict: its assessment's, else thin for a testable claim and untestable otherwise. */
+cov_verdict cov_report_verdict(const cov_findings *f, size_t i);
+/* The one-line reason for claim i's verdict (borrowed from f), or NULL when there is none. */
+const char *cov_report_reason(const cov_findings *f, size_t i);
+/* Count the claims of f by verdict into count[COV_AMPLE], count[COV_THIN], count[COV_BLIND]. */
+void cov_report_count_verdicts(const cov_findings *f, long long count[3]);
+/* "effect" or "absence". */
+const char *cov_report_kind(const cov_claim *c);
+/* The declared effect of interest ("+0.01", "0.25 sd", "|b| < 0.1 sd") into buf of size bytes. */
+void cov_report_effect_text(const cov_claim *c, char *buf, size_t size);
+/* x by the printf format fmt (one double) into buf; "-" for NAN, "unreachable" for infinity. */
+void cov_report_num_text(double x, const char *fmt, char *buf, size_t size);
+/* A share as "12.5%" into buf, or "not computed" when x is not finite. */
+void cov_report_share_text(double x, char *buf, size_t size);
+/* Write index.html (coverage/report_html.c) of f to out, embedding the plots NAME.svg found in
+ * dir unless info->plot_note is set. Returns COV_OK or COV_ENOMEM (err filled). */
+int cov_report_html(const cov_findings *f, const cov_report_info *info, const char *dir,
+                    FILE *out, cov_error *err);
+/* Write report.md (coverage/report_md.c) of f to out. Returns COV_OK or COV_ENOMEM (no message). */
+int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE *out);
+
+/* Plots (coverage/plot.c, coverage/plot_claims.c), drawn by gnuplot through a pipe
+ * (coverage/gnuplot.c). Each plot is written twice into the report directory: NAME.svg (svg
+ * terminal, to inline) and NAME.png (pngcairo). The names, in report order: "pairs" (pairwise
+ * coverage matrix, when >= 2 inputs), "pair-1" .. "pair-4" (cell grids of the thinnest pairs),
+ * then, when some claim is testable, "power" (power bars), "mde" (MDE beside the effect of
+ * interest) and "curves" (power over added runs). The SVG files start with an XML declaration
+ * and a DOCTYPE, which inlining must drop. */
+typedef struct {
+    char *name;       /* file name without extension: "pairs", "pair-1", "power", ... */
+    char *caption;    /* one plain sentence; holds user names unescaped, so escape it for HTML */
+} cov_plot;
+
+typedef struct {
+    cov_plot *items;  /* in report order */
+    size_t n;
+} cov_plots;
+
+/* The plots cov_plot_all writes for f, in order. Needs f->graph, f->claims, f->assess and
+ * f->coverage (either of the last two may be NULL: its plots are then left out). COV_ENOMEM. */
+int cov_plot_list(const cov_findings *f, cov_plots **out, cov_error *err);
+void cov_plots_free(cov_plots *p);
+
+/* Write every plot of cov_plot_list into the existing directory dir, in one gnuplot run with all
+ * data sent inline as datablocks (no data files are written). Returns COV_OK; COV_ENOPLOT with a
+ * plain message when gnuplot is not on PATH, fails, or leaves a file unwritten (the caller carries
+ * on without plots); COV_ENOMEM. gnuplot's warnings, if any, go to note (may be NULL). */
+int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *err);
+
+/* Shared by the two plot files: coverage/plot.c (the list, the script pieces, the coverage plots)
+ * and coverage/plot_claims.c (the claim plots). The usual plot height in pixels; the bytes of a
+ * name shown in tics and titles before "..."; the ink of reference lines and markers of the effect
+ * of interest; the colour of planned runs (vermilion open triangles, another shape and hue). */
+#define COV_PLOT_H 560
+#define COV_PLOT_NAME_SHOWN 28
+#define COV_PLOT_INK "#222222"
+#define COV_PLOT_PLANNED "#C8471B"
+
+/* Write x to a gnuplot script as %.9g, or NaN when it is not finite (gnuplot skips the point). */
+void cov_plot_num(FILE *s, double x);
+/* Start a plot: reset, UTF-8 and the SVG terminal at 900 x height pixels, border and tics inked. */
+void cov_plot_start(FILE *s, int height);
+/* Draw the plot command `plot` into DIR/BASE.svg, then again into DIR/BASE.png (pngcairo). */
+void cov_plot_finish(FILE *s, const char *dir, const char *base, int height, const char *plot);
+/* "set title 'line1'" with an optional second line (line2 may be NULL), both quoted for gnuplot. */
+void cov_plot_title(FILE *s, const char *line1, const char *line2);
+/* The name of variable v, cut at a UTF-8 boundary after COV_PLOT_NAME_SHOWN bytes with "..." into
+ * buf (size at least COV_PLOT_NAME_SHOWN + 4) when long; otherwise the name itself. */
+const char *cov_plot_var_name(const cov_findings *f, size_t v, char *buf, size_t size);
+
+/* The claim plots (coverage/plot_claims.c). How many claims each would show: testable ones
+ * (power), those with a positive effect of interest (mde), those whose test cov_assess_design can
+ * give again (curves); a plot is drawn only when its count is positive. */
+void cov_plot_claim_counts(const cov_findings *f, size_t *power, size_t *mde, size_t *curves);
+/* Write the datablock and commands of the "power", "mde" or "curves" plot of f into the script s,
+ * drawing into dir. Each needs f->assess and f->claims. Returns COV_OK or COV_ENOMEM. */
+int cov_plot_power(FILE *s, const cov_findings *f, const char *dir);
+int cov_plot_mde(FILE *s, const cov_findings *f, const char *dir);
+int cov_plot_curves(FILE *s, const cov_findings *f, const char *dir);
+
+/* Write s as a gnuplot string literal: single-quoted, ' doubled, control characters and invalid
+ * UTF-8 bytes replaced by '?'. The only way user text reaches gnuplot. s may be NULL (""). */
+void cov_gp_quote(FILE *f, const char *s);
+/* The same for the label of an explicit tic (set xtics ('label' 1)), which gnuplot reads as a
+ * format: '%' is doubled as well. */
+void cov_gp_quote_tic(FILE *f, const char *s);
+/* The same for a file name: bytes kept as they are (not checked as UTF-8), ' doubled; control
+ * characters still become '?', so callers refuse names holding them. */
+void cov_gp_quote_path(FILE *f, const char *s);
+/* Find an executable "gnuplot" on PATH; writes its path into path. 0 when found, else -1. */
+int cov_gp_find(char *path, size_t size);
+/* Run gnuplot (with -d: no init files) on the script of len bytes fed through a pipe. COV_OK when
+ * gnuplot exits with status 0; else COV_ENOPLOT, with gnuplot's last message line in err. */
+int cov_gp_run(const char *script, size_t len, FILE *note, cov_error *err);
+
+#endif

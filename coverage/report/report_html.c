@@ -1,0 +1,696 @@
+/* The survey report's index.html: one self-contained page, plots inlined as SVG elements.
+ * See LICENSE. */
+#include <ctype.h>
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coverage/report/report.h"
+
+/* The worst pairs and data-issue examples listed in the report. */
+#define REPORT_WORST_PAIRS 10
+
+/* Write s as HTML text or attribute content: & < > " ' become character references. */
+static void html_text(FILE *out, const char *s)
+{
+    for (const char *p = s ? s : ""; *p; p++) {
+        switch (*p) {
+        case '&': fputs("&amp;", out); break;
+        case '<': fputs("&lt;", out); break;
+        case '>': fputs("&gt;", out); break;
+        case '"': fputs("&quot;", out); break;
+        case '\'': fputs("&#39;", out); break;
+        default: fputc(*p, out);
+        }
+    }
+}
+
+/* RFC 4648 base64, for the data URI of a plot that cannot be inlined. */
+static void base64(FILE *out, const unsigned char *b, size_t n)
+{
+    static const char al[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+    size_t i = 0;
+    for (; i + 3 <= n; i += 3) {
+        unsigned long v = (unsigned long)b[i] << 16 | (unsigned long)b[i + 1] << 8 | b[i + 2];
+        fputc(al[v >> 18 & 63], out), fputc(al[v >> 12 & 63], out);
+        fputc(al[v >> 6 & 63], out), fputc(al[v & 63], out);
+    }
+    if (n - i == 1) {
+        unsigned long v = (unsigned long)b[i] << 16;
+        fputc(al[v >> 18 & 63], out), fputc(al[v >> 12 & 63], out), fputs("==", out);
+    } else if (n - i == 2) {
+        unsigned long v = (unsigned long)b[i] << 16 | (unsigned long)b[i + 1] << 8;
+        fputc(al[v >> 18 & 63], out), fputc(al[v >> 12 & 63], out);
+        fputc(al[v >> 6 & 63], out), fputc('=', out);
+    }
+}
+
+/* Read a whole file into memory, NUL-terminated after its len bytes; NULL when it is missing or
+ * unreadable. */
+static char *slurp(const char *path, size_t *len)
+{
+    FILE *f = fopen(path, "rb");
+    if (f == NULL) return NULL;
+    size_t cap = 1 << 16, n = 0;
+    char *buf = malloc(cap + 1);
+    while (buf != NULL) {
+        n += fread(buf + n, 1, cap - n, f);
+        if (n < cap) break;
+        char *bigger = realloc(buf, cap * 2 + 1);
+        if (bigger == NULL) free(buf);
+        buf = bigger;
+        cap *= 2;
+    }
+    if (buf != NULL && ferror(f)) {
+        free(buf);
+        buf = NULL;
+    }
+    fclose(f);
+    if (buf != NULL) buf[n] = '\0';
+    *len = n;
+    return buf;
+}
+
+/* ---- inline SVG ------------------------------------------------------------------------------ */
+
+/* gnuplot's svg terminal nests its groups a few levels deep; anything deeper is not its output. */
+#define SVG_MAX_DEPTH 64
+
+/* The elements gnuplot's svg terminal (without the mouse option, as coverage/report/plot.c sets it)
+ * writes. Anything else, <script> and <foreignObject> above all, keeps the plot out of the DOM.
+ * None of them is an HTML element that breaks out of foreign content (HTML Living Standard,
+ * 13.2.6.5 "The rules for parsing tokens in foreign content"). */
+static const char *const svg_elements[] = {
+    "g", "defs", "title", "desc", "rect", "circle", "ellipse", "line", "polyline", "polygon",
+    "path", "text", "tspan", "use", "filter", "feFlood", "feComposite", "feOffset",
+    "feGaussianBlur", "clipPath", "pattern", "linearGradient", "radialGradient", "stop", "symbol",
+};
+
+/* The CSS and transform functions an attribute value may call; url() only with a local #id. */
+static const char *const svg_functions[] = {
+    "url", "rgb", "rgba", "translate", "scale", "rotate", "matrix", "skewX", "skewY",
+};
+
+typedef struct {
+    const char *s;     /* the SVG file, NUL-terminated */
+    size_t pos;
+    FILE *out;         /* NULL: check only */
+    size_t plot;       /* 1-based: ids become pPLOT-ID */
+    const char *caption;
+} svg_walk;
+
+static int span_is(const char *p, size_t n, const char *word)
+{
+    return strlen(word) == n && strncmp(p, word, n) == 0;
+}
+
+/* Attribute names compare without case, as the HTML parser lowercases them (13.2.5.33). */
+static int attr_is(const char *p, size_t n, const char *word)
+{
+    if (strlen(word) != n) return 0;
+    for (size_t i = 0; i < n; i++)
+        if (tolower((unsigned char)p[i]) != tolower((unsigned char)word[i])) return 0;
+    return 1;
+}
+
+static int name_char(char c)
+{
+    return isalnum((unsigned char)c) || c == ':' || c == '_' || c == '-' || c == '.';
+}
+
+static void svg_put(svg_walk *w, const char *p, size_t n)
+{
+    if (w->out != NULL) fwrite(p, 1, n, w->out);
+}
+
+/* Whether attribute value v (n bytes) calls only the functions above, url() only on #ids. */
+static const char *svg_check_value(const char *v, size_t n)
+{
+    for (size_t i = 0; i < n; i++) {
+        if (v[i] == '&' || v[i] == '\\' || v[i] == '<')
+            return "a character reference, backslash or less-than sign in an attribute value";
+        if (v[i] != '(') continue;
+        size_t b = i;
+        while (b > 0 && (isalnum((unsigned char)v[b - 1]) || v[b - 1] == '-')) b--;
+        int known = 0;
+        for (size_t k = 0; k < sizeof svg_functions / sizeof *svg_functions; k++)
+            if (span_is(v + b, i - b, svg_functions[k])) known = 1;
+        if (!known) return "an unknown function in an attribute value";
+        if (span_is(v + b, i - b, "url") && (i + 1 >= n || v[i + 1] != '#'))
+            return "a url() reference that is not a local #id";
+    }
+    return NULL;
+}
+
+/* Write value v (n bytes) with every url(#X) turned into url(#pK-X). */
+static void svg_put_value(svg_walk *w, const char *v, size_t n)
+{
+    if (w->out == NULL) return;
+    for (size_t i = 0; i < n; i++) {
+        fputc(v[i], w->out);
+        if (v[i] == '#' && i >= 4 && strncmp(v + i - 4, "url(", 4) == 0)
+            fprintf(w->out, "p%zu-", w->plot);
+    }
+}
+
+/* One start tag at w->pos (just past '<'). depth is the number of open elements; dropped is set
+ * when the tag is gnuplot's own <title> of the root, which our caption replaces. *closed is set
+ * for a self-closing tag. Returns why the plot cannot be inlined, or NULL. */
+static const char *svg_start_tag(svg_walk *w, size_t depth, int text_only, const char **name,
+                                 size_t *name_len, int *closed, int *dropped)
+{
+    const char *s = w->s;
+    size_t p = w->pos, n0 = p;
+    while (name_char(s[p])) p++;
+    *name = s + n0;
+    *name_len = p - n0;
+    int root = depth == 0;
+    if (root != span_is(s + n0, p - n0, "svg")) return "an svg element nested in the plot";
+    if (span_is(s + n0, p - n0, "script")) return "a script element";
+    if (span_is(s + n0, p - n0, "foreignObject")) return "a foreignObject element";
+    int known = root;
+    for (size_t k = 0; k < sizeof svg_elements / sizeof *svg_elements; k++)
+        if (span_is(s + n0, p - n0, svg_elements[k])) known = 1;
+    if (!known) return "an element that gnuplot's svg terminal does not write";
+    if (text_only) return "markup inside title or desc";
+    *dropped = depth == 1 && span_is(s + n0, p - n0, "title");
+    if (!*dropped) {
+        svg_put(w, "<", 1);
+        svg_put(w, s + n0, p - n0);
+    }
+    if (root && w->out != NULL) {
+        fputs(" role=\"img\" aria-label=\"", w->out);
+        html_text(w->out, w->caption);
+        fputc('"', w->out);
+    }
+    int has_viewbox = 0;
+    double width = NAN, height = NAN;
+    for (;;) {
+        while (isspace((unsigned char)s[p])) p++;
+        if (s[p] == '>' || (s[p] == '/' && s[p + 1] == '>')) break;
+        size_t a0 = p;
+        while (name_char(s[p])) p++;
+        size_t a_len = p - a0;
+        if (a_len == 0) return "a malformed tag";
+        while (isspace((unsigned char)s[p])) p++;
+        if (s[p] != '=') return "an attribute without a value";
+        p++;
+        while (isspace((unsigned char)s[p])) p++;
+        char quote = s[p];
+        if (quote != '"' && quote != '\'') return "an unquoted attribute value";
+        const char *v = s + p + 1, *end = strchr(v, quote);
+        if (end == NULL) return "an unterminated attribute value";
+        size_t v_len = (size_t)(end - v);
+        p += v_len + 2;
+        const char *a = s + a0;
+        if (a_len >= 2 && tolower((unsigned char)a[0]) == 'o' && tolower((unsigned char)a[1]) == 'n')
+            return "an on... event attribute";
+        const char *why = svg_check_value(v, v_len);
+        if (why != NULL) return why;
+        int href = attr_is(a, a_len, "href") ||
+                   (a_len > 5 && attr_is(a + a_len - 5, 5, ":href"));
+        if (href && (v_len == 0 || v[0] != '#')) return "an href that is not a local #id";
+        if (root && attr_is(a, a_len, "viewBox")) has_viewbox = 1;
+        if (root && (attr_is(a, a_len, "width") || attr_is(a, a_len, "height"))) {
+            char num[32], *num_end;
+            snprintf(num, sizeof num, "%.*s", (int)(v_len < 31 ? v_len : 31), v);
+            errno = 0;
+            double x = strtod(num, &num_end);
+            if (num_end != num && *num_end == '\0' && errno == 0 && isfinite(x) && x > 0)
+                *(tolower((unsigned char)a[0]) == 'w' ? &width : &height) = x;
+        }
+        if (*dropped || (root && (attr_is(a, a_len, "role") || attr_is(a, a_len, "aria-label"))))
+            continue;
+        svg_put(w, " ", 1);
+        svg_put(w, a, a_len);
+        svg_put(w, "=", 1);
+        svg_put(w, &quote, 1);
+        if (w->out != NULL && attr_is(a, a_len, "id")) fprintf(w->out, "p%zu-", w->plot);
+        if (href) {
+            svg_put(w, "#", 1);
+            if (w->out != NULL) fprintf(w->out, "p%zu-", w->plot);
+            svg_put(w, v + 1, v_len - 1);
+        } else {
+            svg_put_value(w, v, v_len);
+        }
+        svg_put(w, &quote, 1);
+    }
+    *closed = s[p] == '/';
+    p += *closed ? 2 : 1;
+    w->pos = p;
+    if (root) {
+        if (*closed) return "an empty plot";
+        if (!has_viewbox) {
+            /* Without a viewBox the plot cannot scale to the column: derive it from the size. */
+            if (!isfinite(width) || !isfinite(height)) return "no viewBox and no numeric size";
+            if (w->out != NULL) fprintf(w->out, " viewBox=\"0 0 %.9g %.9g\"", width, height);
+        }
+        svg_put(w, ">", 1);
+        if (w->out != NULL) {
+            fputs("<title>", w->out);
+            html_text(w->out, w->caption);
+            fputs("</title>", w->out);
+        }
+    } else if (!*dropped) {
+        svg_put(w, *closed ? "/>" : ">", *closed ? 2 : 1);
+    }
+    return NULL;
+}
+
+/* Check (w->out NULL) or write (w->out set) the SVG file w->s as an inline <svg> element: the
+ * prologue (XML declaration, DOCTYPE, comments) dropped, comments dropped, every id X renamed
+ * pK-X together with its references (href="#X", url(#X)), role="img" and the caption as its
+ * aria-label and <title>. Returns why it cannot be inlined, or NULL. */
+static const char *svg_inline(svg_walk *w)
+{
+    const char *s = w->s;
+    size_t p = 0;
+    if (strncmp(s, "\xEF\xBB\xBF", 3) == 0) p = 3;
+    for (;;) {   /* the prologue */
+        while (isspace((unsigned char)s[p])) p++;
+        const char *end;
+        if (strncmp(s + p, "<?", 2) == 0 && (end = strstr(s + p, "?>")) != NULL)
+            p = (size_t)(end - s) + 2;
+        else if (strncmp(s + p, "<!--", 4) == 0 && (end = strstr(s + p + 4, "-->")) != NULL)
+            p = (size_t)(end - s) + 3;
+        else if (strncmp(s + p, "<!DOCTYPE", 9) == 0 && (end = strchr(s + p, '>')) != NULL &&
+                 memchr(s + p, '[', (size_t)(end - s) - p) == NULL)
+            p = (size_t)(end - s) + 1;
+        else break;
+    }
+    if (strncmp(s + p, "<svg", 4) != 0 || !(isspace((unsigned char)s[p + 4]) || s[p + 4] == '>'))
+        return "no root svg element after the prologue";
+    const char *open_name[SVG_MAX_DEPTH];
+    size_t open_len[SVG_MAX_DEPTH], depth = 0;
+    int text_only = 0, dropping = 0;
+    while (s[p] != '\0') {
+        if (s[p] != '<') {
+            size_t n = strcspn(s + p, "<");
+            if (!dropping) svg_put(w, s + p, n);
+            p += n;
+            continue;
+        }
+        if (strncmp(s + p, "<!--", 4) == 0) {
+            const char *end = strstr(s + p + 4, "-->");
+            if (end == NULL) return "an unterminated comment";
+            p = (size_t)(end - s) + 3;
+            continue;
+        }
+        if (s[p + 1] == '/') {
+            size_t n0 = p + 2, e = n0;
+            while (name_char(s[e])) e++;
+            size_t n = e - n0;
+            while (isspace((unsigned char)s[e])) e++;
+            if (s[e] != '>' || depth == 0 || n != open_len[depth - 1] ||
+                strncmp(s + n0, open_name[depth - 1], n) != 0)
+                return "a mismatched end tag";
+            if (!dropping) svg_put(w, s + p, e + 1 - p);
+            p = e + 1;
+            depth--;
+            text_only = dropping = 0;
+            if (depth == 0) return NULL;   /* what follows the root is not part of the plot */
+            continue;
+        }
+        if (!isalpha((unsigned char)s[p + 1]))
+            return "markup other than elements and comments (CDATA, declarations or processing instructions)";
+        const char *name;
+        size_t name_len;
+        int closed = 0, dropped = 0;
+        w->pos = p + 1;
+        const char *why = svg_start_tag(w, depth, text_only, &name, &name_len, &closed, &dropped);
+        if (why != NULL) return why;
+        p = w->pos;
+        if (closed) continue;
+        if (depth == SVG_MAX_DEPTH) return "elements nested too deeply";
+        open_name[depth] = name;
+        open_len[depth++] = name_len;
+        text_only = span_is(name, name_len, "title") || span_is(name, name_len, "desc");
+        dropping = dropped;
+    }
+    return "the file ends inside the plot";
+}
+
+/* ---- index.html ------------------------------------------------------------------------------ */
+
+/* Our own palette, told apart without colour vision too (each verdict also carries its word). */
+static const char html_style[] =
+    "body{font:15px/1.45 system-ui,sans-serif;color:#1d232a;background:#fbfbf8;margin:0 auto;"
+    "max-width:1180px;padding:1.2em 1.6em 3em}\n"
+    "h1{font-size:1.6em;margin:.2em 0}h2{font-size:1.25em;margin-top:1.8em;border-bottom:2px solid "
+    "#d9dcd3;padding-bottom:.2em}\n"
+    ".sub{color:#5a6169;margin:0}code{background:#eef0ea;padding:0 .25em;border-radius:3px}\n"
+    ".verdict{border-left:8px solid #c96f1b;background:#fff4e6;padding:.7em 1.1em;margin:1em 0}\n"
+    ".verdict.ok{border-color:#1f6e99;background:#e8f2f8}.verdict .big{font-size:1.35em;"
+    "font-weight:700;margin:.1em 0 .4em}\n"
+    ".cards{display:flex;flex-wrap:wrap;gap:.8em;margin:.4em 0}.card{background:#fff;border:1px "
+    "solid #d9dcd3;border-radius:6px;padding:.4em .9em;min-width:8em}\n"
+    ".card b{display:block;font-size:1.4em}\n"
+    "table{border-collapse:collapse;margin:.6em 0;font-size:.93em}th,td{border-bottom:1px solid "
+    "#e1e3dc;padding:.3em .55em;text-align:left;vertical-align:top}\n"
+    "th{background:#eef0ea}table.sortable th{cursor:pointer}table.sortable th:after{content:' "
+    "\\2195';color:#8a9099}\n"
+    "td.num{text-align:right;font-variant-numeric:tabular-nums}\n"
+    ".v-ample{color:#1f6e99;font-weight:600}.v-thin{color:#b35c0c;font-weight:600}"
+    ".v-untestable{color:#5b5f66;font-weight:600;font-style:italic}\n"
+    "figure{margin:1em 0;background:#fff;border:1px solid #e1e3dc;padding:.6em}figure img,figure svg{"
+    "max-width:100%;height:auto;display:block}figcaption{color:#4a5058;margin-top:.3em}\n"
+    ".note{background:#f3f1e8;border:1px dashed #b9b39b;padding:.5em .9em}\n"
+    "#claims-table td:last-child{min-width:14em}td small{color:#6a7079;white-space:nowrap}\n"
+    ".wide{overflow-x:auto}\n"
+    "ul.cautions li{margin:.35em 0}\n";
+
+/* Sorts the claims table by the clicked column: numbers by data-v, text by its content. */
+static const char html_script[] =
+    "document.querySelectorAll('table.sortable').forEach(function(t){\n"
+    " t.querySelectorAll('th').forEach(function(th,i){th.addEventListener('click',function(){\n"
+    "  var body=t.tBodies[0],rows=Array.prototype.slice.call(body.rows),up=th.dataset.dir!=='up';\n"
+    "  th.dataset.dir=up?'up':'down';var num=th.dataset.type==='num';\n"
+    "  rows.sort(function(a,b){var x=a.cells[i],y=b.cells[i];\n"
+    "   if(num){var p=parseFloat(x.dataset.v),q=parseFloat(y.dataset.v);\n"
+    "    if(isNaN(p))p=Infinity;if(isNaN(q))q=Infinity;return up?p-q:q-p;}\n"
+    "   return up?x.textContent.localeCompare(y.textContent):y.textContent.localeCompare(x.textContent);});\n"
+    "  rows.forEach(function(r){body.appendChild(r);});});});});\n";
+
+/* One numeric table cell whose sort key is x (Infinity sorts last). */
+static void html_num_cell(FILE *out, double x, const char *text)
+{
+    fputs("<td class=\"num\" data-v=\"", out);
+    if (isnan(x)) fputs("NaN", out);
+    else if (isinf(x)) fputs("Infinity", out);
+    else fprintf(out, "%.9g", x);
+    fputs("\">", out);
+    html_text(out, text);
+    fputs("</td>", out);
+}
+
+static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
+{
+    fputs("<div class=\"wide\"><table id=\"claims-table\" class=\"sortable\"><thead><tr>"
+          "<th data-type=\"num\">#</th><th>verdict</th><th>kind</th><th>treatment</th>"
+          "<th>outcome</th><th>adjusted for</th><th>effect of interest</th>"
+          "<th data-type=\"num\">in outcome units</th><th data-type=\"num\">runs used</th>"
+          "<th data-type=\"num\">power</th><th data-type=\"num\">MDE</th>"
+          "<th data-type=\"num\">runs needed</th><th>why</th></tr></thead>\n<tbody>\n", out);
+    for (size_t k = 0; k < f->claims->n; k++) {
+        size_t i = order[k];
+        const cov_claim *c = &f->claims->items[i];
+        const cov_assessment *a = c->status == COV_TESTABLE ? cov_report_assessment(f, i) : NULL;
+        const char *word = cov_verdict_word(cov_report_verdict(f, i));
+        char buf[160];
+        fprintf(out, "<tr class=\"claim v-row-%s\">", word);
+        snprintf(buf, sizeof buf, "%zu", i + 1);
+        html_num_cell(out, (double)(i + 1), buf);
+        fprintf(out, "<td class=\"v-%s\">%s</td><td>%s</td><td>", word, word, cov_report_kind(c));
+        html_text(out, cov_report_var(f, c->treatment));
+        fputs("</td><td>", out);
+        html_text(out, cov_report_var(f, c->outcome));
+        fputs("</td><td>", out);
+        if (c->status != COV_TESTABLE) fputs("-", out);
+        else if (c->n_cond == 0) fputs("nothing", out);
+        for (size_t m = 0; c->status == COV_TESTABLE && m < c->n_cond; m++) {
+            if (m) fputs(", ", out);
+            html_text(out, cov_report_var(f, c->cond[m]));
+        }
+        cov_report_effect_text(c, buf, sizeof buf);
+        fputs("</td><td>", out);
+        html_text(out, buf);
+        fputs("</td>", out);
+        double fx = a ? a->effect_raw : NAN;
+        cov_report_num_text(fx, "%.4g", buf, sizeof buf);
+        html_num_cell(out, fx, buf);
+        cov_report_num_text(a ? (double)a->n : NAN, "%.0f", buf, sizeof buf);
+        html_num_cell(out, a ? (double)a->n : NAN, buf);
+        cov_report_num_text(a ? a->power : NAN, "%.2f", buf, sizeof buf);
+        if (a && isfinite(a->power) && isfinite(a->power_lo) && isfinite(a->power_hi))
+            fprintf(out, "<td class=\"num\" data-v=\"%.9g\">%s<br><small>%.2f to %.2f</small></td>",
+                    a->power, buf, a->power_lo, a->power_hi);
+        else html_num_cell(out, a ? a->power : NAN, buf);
+        cov_report_num_text(a ? a->mde : NAN, "%.4g", buf, sizeof buf);
+        html_num_cell(out, a ? a->mde : NAN, buf);
+        cov_report_num_text(a ? a->runs_needed : NAN, "%.0f", buf, sizeof buf);
+        html_num_cell(out, a ? a->runs_needed : NAN, buf);
+        fputs("<td>", out);
+        html_text(out, cov_report_reason(f, i) ? cov_report_reason(f, i) : "");
+        fputs("</td></tr>\n", out);
+    }
+    fputs("</tbody></table></div>\n", out);
+}
+
+static void html_plots(FILE *out, const cov_findings *f, const cov_report_info *info,
+                       const char *dir, cov_error *err, int *rc)
+{
+    fputs("<section id=\"plots\"><h2>Where the runs are thin</h2>\n", out);
+    if (info->plot_note != NULL) {
+        fputs("<p class=\"note\">Plots were skipped: ", out);
+        html_text(out, info->plot_note);
+        fputs("</p>\n</section>\n", out);
+        return;
+    }
+    cov_plots *plots = NULL;
+    if ((*rc = cov_plot_list(f, &plots, err)) != COV_OK) return;
+    size_t shown = 0;
+    for (size_t k = 0; k < plots->n; k++) {
+        char path[4096];
+        size_t len = 0;
+        snprintf(path, sizeof path, "%s/%s.svg", dir, plots->items[k].name);
+        char *svg = slurp(path, &len);
+        if (svg == NULL) continue;
+        svg_walk w = {svg, 0, NULL, k + 1, plots->items[k].caption};
+        const char *why = strlen(svg) == len ? svg_inline(&w) : "a NUL byte in the file";
+        fputs("<figure>", out);
+        if (why == NULL) {
+            w.out = out;
+            svg_inline(&w);
+        } else {
+            /* Refused markup stays out of the DOM: an image cannot run script or reach out. */
+            fprintf(out, "<!-- %s.svg is shown as an image, not inline (refused: %s) -->",
+                    plots->items[k].name, why);
+            fputs("<img alt=\"", out);
+            html_text(out, plots->items[k].caption);
+            fputs("\" src=\"data:image/svg+xml;base64,", out);
+            base64(out, (const unsigned char *)svg, len);
+            fputs("\">", out);
+        }
+        fputs("<figcaption>", out);
+        html_text(out, plots->items[k].caption);
+        fputs("</figcaption></figure>\n", out);
+        free(svg);
+        shown++;
+    }
+    if (shown == 0) fputs("<p class=\"note\">No plot applies to this campaign.</p>\n", out);
+    fputs("</section>\n", out);
+    cov_plots_free(plots);
+}
+
+static void html_coverage(FILE *out, const cov_findings *f)
+{
+    const cov_coverage *cv = f->coverage;
+    char buf[64];
+    fputs("<section id=\"coverage\"><h2>Coverage of the input space</h2>\n<table><tbody>", out);
+    cov_report_share_text(cv->marginal_share, buf, sizeof buf);
+    fprintf(out, "<tr><th>bins of each input with at least %zu runs</th><td class=\"num\">%s</td>"
+                 "</tr>", cv->opt.min_runs, buf);
+    cov_report_share_text(cv->pairwise_share, buf, sizeof buf);
+    fprintf(out, "<tr><th>cells of input pairs (2-way) with at least %zu runs</th>"
+                 "<td class=\"num\">%s</td></tr>", cv->opt.min_runs, buf);
+    cov_report_share_text(cv->threeway_share, buf, sizeof buf);
+    fprintf(out, "<tr><th>cells of input triples (3-way) with at least %zu runs</th>"
+                 "<td class=\"num\">%s</td></tr>", cv->opt.min_runs, buf);
+    if (isfinite(cv->cd2))
+        fprintf(out, "<tr><th>centred L2 discrepancy squared of the numeric inputs (as many "
+                     "random points would give about %.3g)</th><td class=\"num\">%.3g</td></tr>",
+                cv->cd2_random, cv->cd2);
+    if (isfinite(cv->fill_distance))
+        fprintf(out, "<tr><th>fill distance (largest gap, unit cube of the numeric inputs)</th>"
+                     "<td class=\"num\">%.3g</td></tr>", cv->fill_distance);
+    fputs("</tbody></table>\n<h3>Each input</h3>\n<table><thead><tr><th>input</th>"
+          "<th>bins</th><th>covered</th><th>fewest runs in a bin</th></tr></thead><tbody>\n", out);
+    for (size_t m = 0; m < cv->n_inputs; m++) {
+        const cov_marginal *mg = &cv->marginal[m];
+        size_t least = mg->n_bins ? mg->count[0] : 0;
+        for (size_t b = 1; b < mg->n_bins; b++)
+            if (mg->count[b] < least) least = mg->count[b];
+        fputs("<tr><td>", out);
+        html_text(out, cov_report_var(f, mg->var));
+        cov_report_share_text(mg->share, buf, sizeof buf);
+        fprintf(out, "</td><td class=\"num\">%zu</td><td class=\"num\">%s</td>"
+                     "<td class=\"num\">%zu</td></tr>\n", mg->n_bins, buf, least);
+    }
+    fputs("</tbody></table>\n", out);
+    if (cv->n_pairs > 0) {
+        fputs("<h3>Thinnest pairs of inputs</h3>\n<table><thead><tr><th>pair</th><th>cells</th>"
+              "<th>covered</th><th>empty cells</th><th>dependence</th></tr></thead><tbody>\n", out);
+        for (size_t k = 0; k < cv->n_pairs && k < REPORT_WORST_PAIRS; k++) {
+            const cov_pair *p = &cv->pairs[cv->worst ? cv->worst[k] : k];
+            double dep = NAN;
+            for (size_t i = 0; cv->dependence && i < cv->n_inputs; i++)
+                for (size_t j = 0; j < cv->n_inputs; j++)
+                    if (cv->inputs[i] == p->a && cv->inputs[j] == p->b)
+                        dep = cv->dependence[i * cv->n_inputs + j];
+            fputs("<tr><td>", out);
+            html_text(out, cov_report_var(f, p->a));
+            fputs(" &times; ", out);
+            html_text(out, cov_report_var(f, p->b));
+            cov_report_share_text(p->share, buf, sizeof buf);
+            fprintf(out, "</td><td class=\"num\">%zu</td><td class=\"num\">%s</td>"
+                         "<td class=\"num\">%zu</td>", p->na * p->nb, buf, p->n_empty);
+            cov_report_num_text(dep, "%.2f", buf, sizeof buf);
+            fprintf(out, "<td class=\"num\">%s%s</td></tr>\n", buf,
+                    isfinite(dep) && dep > cv->opt.dependence_threshold ? " (set together)" : "");
+        }
+        fputs("</tbody></table>\n<p>Dependence is |r| for two numeric inputs and Cram&eacute;r's V "
+              "otherwise; above the threshold the campaign moved the two inputs together, so "
+              "their effects are hard to tell apart.</p>\n", out);
+    }
+    fputs("</section>\n", out);
+}
+
+/* The rounds as a small chart of ample claims against total runs, drawn directly as SVG. */
+static void html_history(FILE *out, const cov_findings *f, const cov_report_info *info)
+{
+    fputs("<section id=\"history\"><h2>Campaign rounds</h2>\n", out);
+    if (info->store == COV_HISTORY_NONE) {
+        fputs("<p class=\"note\">No history is kept for this archive: it is not one that "
+              "<code>shoal import</code> made, and no <code>--history FILE</code> was given, so "
+              "only this round is shown.</p>\n", out);
+    } else {
+        fputs("<p>History kept in the ", out);
+        fputs(info->store == COV_HISTORY_ARCHIVE ? "archive " : "side file ", out);
+        fputs("<code>", out);
+        html_text(out, info->history_path);
+        fputs("</code>.</p>\n", out);
+    }
+    /* The vertical scale ends at the testable claims: the most that can ever be ample. */
+    long long count[3];
+    cov_report_count_verdicts(f, count);
+    double max_runs = 1, max_claims = (double)(count[COV_AMPLE] + count[COV_THIN]);
+    if (max_claims < 1) max_claims = 1;
+    for (size_t r = 0; r < info->n_rounds; r++)
+        if ((double)info->rounds[r].n_runs > max_runs) max_runs = (double)info->rounds[r].n_runs;
+    const double w = 520, h = 230, left = 50, right = 20, top = 15, bottom = 40;
+    fprintf(out, "<svg id=\"rounds-chart\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" "
+                 "role=\"img\" aria-label=\"ample claims against total runs\">\n", w, h, w, h);
+    fprintf(out, "<rect x=\"0\" y=\"0\" width=\"%.0f\" height=\"%.0f\" fill=\"#ffffff\"/>\n", w, h);
+    fprintf(out, "<line x1=\"%.0f\" y1=\"%.0f\" x2=\"%.0f\" y2=\"%.0f\" stroke=\"#555\"/>"
+                 "<line x1=\"%.0f\" y1=\"%.0f\" x2=\"%.0f\" y2=\"%.0f\" stroke=\"#555\"/>\n",
+            left, h - bottom, w - right, h - bottom, left, top, left, h - bottom);
+    fprintf(out, "<text x=\"%.0f\" y=\"%.0f\" font-size=\"12\" text-anchor=\"middle\">total runs"
+                 "</text><text x=\"14\" y=\"%.0f\" font-size=\"12\" text-anchor=\"middle\" "
+                 "transform=\"rotate(-90 14 %.0f)\">ample claims</text>\n",
+            (left + w - right) / 2, h - 6, (top + h - bottom) / 2, (top + h - bottom) / 2);
+    for (int t = 0; t <= 2; t++) {
+        double xr = max_runs * t / 2, yc = floor(max_claims * t / 2);
+        double px = left + (w - left - right) * t / 2;
+        double py = h - bottom - (h - top - bottom) * yc / max_claims;
+        fprintf(out, "<text x=\"%.1f\" y=\"%.0f\" font-size=\"11\" text-anchor=\"middle\">%.0f"
+                     "</text><text x=\"%.0f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">%.0f"
+                     "</text>\n", px, h - bottom + 16, xr, left - 6, py + 4, yc);
+    }
+    fprintf(out, "<line x1=\"%.0f\" y1=\"%.0f\" x2=\"%.0f\" y2=\"%.0f\" stroke=\"#b35c0c\" "
+                 "stroke-dasharray=\"5 4\"/><text x=\"%.0f\" y=\"%.0f\" font-size=\"11\" "
+                 "text-anchor=\"end\" fill=\"#b35c0c\">all %.0f testable claims</text>\n",
+            left, top, w - right, top, w - right, top + 13, max_claims);
+    fputs("<polyline fill=\"none\" stroke=\"#1f6e99\" stroke-width=\"2\" points=\"", out);
+    for (size_t r = 0; r < info->n_rounds; r++)
+        fprintf(out, "%.1f,%.1f ", left + (w - left - right) * info->rounds[r].n_runs / max_runs,
+                h - bottom - (h - top - bottom) * info->rounds[r].n_ample / max_claims);
+    fputs("\"/>\n", out);
+    for (size_t r = 0; r < info->n_rounds; r++)
+        fprintf(out, "<circle cx=\"%.1f\" cy=\"%.1f\" r=\"4.5\" fill=\"#1f6e99\"/>\n",
+                left + (w - left - right) * info->rounds[r].n_runs / max_runs,
+                h - bottom - (h - top - bottom) * info->rounds[r].n_ample / max_claims);
+    fputs("</svg>\n<table><thead><tr><th>round</th><th>when (UTC)</th><th>runs</th>"
+          "<th>batches</th><th>ample</th><th>thin</th><th>untestable</th><th>2-way</th></tr>"
+          "</thead><tbody>\n", out);
+    for (size_t r = 0; r < info->n_rounds; r++) {
+        const cov_round *rd = &info->rounds[r];
+        char buf[64];
+        cov_report_share_text(rd->pairwise_share, buf, sizeof buf);
+        fprintf(out, "<tr><td class=\"num\">%zu</td><td>", r + 1);
+        html_text(out, rd->at);
+        fprintf(out, "</td><td class=\"num\">%lld</td><td class=\"num\">%lld</td>"
+                     "<td class=\"num\">%lld</td><td class=\"num\">%lld</td>"
+                     "<td class=\"num\">%lld</td><td class=\"num\">%s</td></tr>\n", rd->n_runs,
+                rd->n_batches, rd->n_ample, rd->n_thin, rd->n_blind, buf);
+    }
+    fputs("</tbody></table>\n</section>\n", out);
+}
+
+int cov_report_html(const cov_findings *f, const cov_report_info *info, const char *dir,
+                           FILE *out, cov_error *err)
+{
+    long long count[3];
+    cov_report_count_verdicts(f, count);
+    size_t *order = malloc((f->claims->n ? f->claims->n : 1) * sizeof *order);
+    if (order == NULL) return cov_fail(err, COV_ENOMEM, "", "out of memory writing the report");
+    cov_report_order(f, order);
+    char buf[64];
+    fputs("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\n<meta name=\"viewport\""
+          " content=\"width=device-width, initial-scale=1\">\n<title>Survey of ", out);
+    html_text(out, f->graph->path);
+    fprintf(out, "</title>\n<style>\n%s</style></head>\n<body>\n<header><h1>Is this campaign "
+                 "enough to test the graph?</h1>\n<p class=\"sub\">Graph <code>", html_style);
+    html_text(out, f->graph->path);
+    fputs("</code>, archive <code>", out);
+    html_text(out, f->opt && f->opt->archive_path ? f->opt->archive_path : "");
+    fputs("</code>, surveyed ", out);
+    html_text(out, info->generated);
+    fputs(" (UTC).</p></header>\n", out);
+
+    fprintf(out, "<section id=\"summary\" class=\"verdict%s\"><p class=\"big\">%s</p>\n",
+            info->adequate ? " ok" : "",
+            info->adequate ? "Adequate: every testable claim has the power it needs."
+                           : "Not adequate yet: some testable claims are too thin.");
+    if (info->gate_note) {
+        fputs("<p>", out);
+        html_text(out, info->gate_note);
+        fputs("</p>\n", out);
+    }
+    fputs("<div class=\"cards\">", out);
+    fprintf(out, "<div class=\"card\"><b>%zu</b>runs in %zu batch%s</div>",
+            f->data ? f->data->n_runs : 0, f->data ? f->data->n_batches : 0,
+            f->data && f->data->n_batches == 1 ? "" : "es");
+    fprintf(out, "<div class=\"card\"><b class=\"v-ample\">%lld</b>ample claims</div>"
+                 "<div class=\"card\"><b class=\"v-thin\">%lld</b>thin claims</div>"
+                 "<div class=\"card\"><b class=\"v-untestable\">%lld</b>untestable claims</div>",
+            count[COV_AMPLE], count[COV_THIN], count[COV_BLIND]);
+    if (f->coverage != NULL) {
+        cov_report_share_text(f->coverage->marginal_share, buf, sizeof buf);
+        fprintf(out, "<div class=\"card\"><b>%s</b>marginal coverage</div>", buf);
+        cov_report_share_text(f->coverage->pairwise_share, buf, sizeof buf);
+        fprintf(out, "<div class=\"card\"><b>%s</b>2-way coverage</div>", buf);
+        cov_report_share_text(f->coverage->threeway_share, buf, sizeof buf);
+        fprintf(out, "<div class=\"card\"><b>%s</b>3-way coverage</div>", buf);
+    }
+    fputs("</div>\n", out);
+    if (f->opt != NULL)
+        fprintf(out, "<p>Targets: power %.2f at family-wise level %.3g (%s), effects as declared in "
+                     "the graph.</p>\n", f->opt->power.target, f->opt->power.alpha,
+                f->opt->power.bonferroni ? "Bonferroni over the testable claims" : "no correction");
+    fputs("</section>\n", out);
+
+    fputs("<section id=\"claims\"><h2>Claims</h2>\n<p>Thin claims first, weakest first. Click a "
+          "heading to sort. Power is at the declared effect of interest; for an absence claim it "
+          "is the chance of showing the effect lies within the margin, and the MDE is the "
+          "smallest margin the runs could show.</p>\n", out);
+    html_claims(out, f, order);
+    fputs("</section>\n", out);
+    int rc = COV_OK;
+    html_plots(out, f, info, dir, err, &rc);
+    if (rc == COV_OK) {
+        if (f->coverage != NULL) html_coverage(out, f);
+        html_history(out, f, info);
+        fputs("<section id=\"cautions\"><h2>Read with care</h2>\n<ul class=\"cautions\">\n", out);
+        for (size_t k = 0; k < cov_report_n_cautions; k++) {
+            fputs("<li>", out);
+            html_text(out, cov_report_cautions[k]);
+            fputs("</li>\n", out);
+        }
+        fprintf(out, "</ul>\n</section>\n<script>\n%s</script>\n</body></html>\n", html_script);
+    }
+    free(order);
+    return rc;
+}
+
