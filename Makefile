@@ -20,8 +20,11 @@ LIBS       = $(PKG_LIBS) -lm
 
 # Debian packages: to build, to plot, and for the reference checks in `make check`.
 DEB_BUILD = libgsl-dev libsqlite3-dev pkg-config gnuplot-nox sqlite3
-DEB_CHECK = python3-scipy python3-numpy python3-networkx python3-statsmodels r-cran-pwr valgrind \
-            chromium
+# Keep in step with tests/deps/manifest, which the guard reads before any test runs.
+DEB_CHECK = python3-scipy python3-numpy python3-mpmath python3-pandas python3-networkx \
+            python3-statsmodels r-cran-pwr valgrind chromium
+# Stops a check with one line per missing dependency and its Debian package.
+GUARD     = PYTHON=$(PYTHON) sh tests/deps/guard.sh
 
 LIB_SRC  = $(wildcard coverage/*/*.c) $(wildcard power/*.c)
 LIB_OBJ  = $(LIB_SRC:%.c=$(BUILD)/%.o)
@@ -76,10 +79,12 @@ demo: deps
 	@sh .ci/demo "$(SHOAL)" "$(DEMO_GRAPH)" "$(DEMO_CSV)" "$(DEMO_ARCHIVE)"
 
 check: deps deps-check
+	@$(GUARD)
 	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN)
 	@SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/run.sh
 
 check-slow: deps deps-check
+	@$(GUARD)
 	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN)
 	@SHOAL_SLOW=1 SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/run.sh
 
@@ -91,10 +96,12 @@ check-asan: deps deps-check
 
 # The C tests under valgrind (memcheck, leak check, non-zero exit on any error).
 check-valgrind: deps deps-check
+	@$(GUARD)
 	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN)
 	@VALGRIND=1 SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/run.sh
 
 bench: deps deps-check
+	@$(GUARD)
 	@$(MAKE) --no-print-directory all $(BENCH_BIN)
 	@SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/bench/run.sh
 
