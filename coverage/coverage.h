@@ -105,7 +105,7 @@ typedef struct {
     int sign;                   /* expected sign from the edge, 0 if none (absence: 0) */
     cov_claim_status status;
     char *reason;               /* untestable: the hidden variable or open path; NULL otherwise */
-    int steerable;              /* 1 when the separating set holds inputs only */
+    int steerable;              /* 1 when the adjustment set holds inputs only */
     size_t *min_cond;           /* a minimal separator among recorded variables, ascending; equal
                                    to cond when cond is already minimal (testable claims only) */
     size_t n_min_cond;
@@ -175,9 +175,9 @@ void cov_data_free(cov_data *d);
 /* ---------------------------------------------------------------------------------------------
  * Per-claim assessment: regression, power, MDE, runs needed (coverage/assess/assess.c). */
 
-typedef enum { COV_AMPLE, COV_THIN, COV_BLIND } cov_verdict;   /* enough / too thin / untestable */
+typedef enum { COV_AMPLE, COV_UNDERPOWERED, COV_BLIND } cov_verdict;   /* enough / underpowered / untestable */
 
-/* The word printed for a verdict: "ample", "thin", "untestable". */
+/* The word printed for a verdict: "ample", "underpowered", "untestable". */
 const char *cov_verdict_word(cov_verdict v);
 
 typedef struct {
@@ -205,7 +205,7 @@ typedef struct {
     int has_pure_error;   /* replicated configurations allow a pure-error sigma */
     double sigma_pure, lof_f, lof_p;
     cov_verdict verdict;
-    char *reason;         /* one line: why thin or untestable; NULL when ample */
+    char *reason;         /* one line: why underpowered or untestable; NULL when ample */
     int has_design;       /* 1 when design holds the claim's test (for cov_assess_design) */
     pw_design design;     /* the test at the current figures (effect = effect_raw) */
     double sd_outcome;    /* the outcome's SD over the complete cases (divisor n - 1), or NAN */

@@ -222,7 +222,7 @@ typedef struct {
     int sides;           /* 1 or 2; TOST ignores it */
     double target;       /* target power, in (0, 1) */
     double effect;       /* effect of interest per unit of treatment (t, F) or margin (TOST), > 0 */
-    double sigma;        /* residual SD of the outcome given treatment and conditioning set */
+    double sigma;        /* residual SD of the outcome given treatment and adjustment set */
     double sd_x_resid;   /* sd(X | S) with divisor n: the treatment's spread left after S */
     double n;            /* runs (complete cases) */
     double n_params;     /* columns besides the treatment's own: intercept + dummy-coded S */
@@ -256,7 +256,7 @@ int pw_level_pattern(const double *M, size_t t, double *q_min, double *v_max, si
  *   lambda = ncp_per_run n (effect / sigma)^2, power = P(F'(df1, df2, lambda) > F_{1-alpha}).
  * - PW_TEST_TWO_PROP: p1, p2 = p_base -+ effect / 2 clipped to [PW_PROP_EPS, 1 - PW_PROP_EPS],
  *   Cohen's h = 2 asin sqrt(p2) - 2 asin sqrt(p1), normal test on n sd_x_resid^2 effective units
- *   (n1 n2 / (n1 + n2) when the conditioning set is empty), as pwr.2p2n.test computes it.
+ *   (n1 n2 / (n1 + n2) when the adjustment set is empty), as pwr.2p2n.test computes it.
  * - PW_TEST_TOST: se = sigma / (sd_x_resid sqrt(n)), df = n - n_params - max(1, L - 1), exact
  *   power through pw_tost_power at a true effect of 0 with margins -+effect. */
 #define PW_PROP_EPS 1e-9     /* keeps both proportions inside (0, 1), where the arcsine is smooth */

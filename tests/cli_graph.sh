@@ -53,7 +53,7 @@ for g in fixtures/graphs/clinic.graph fixtures/demo/triage.graph; do
   rc=$?
   if [ "$rc" -eq 0 ]; then ok "claims $g exits 0"
   else bad "claims $g exits $rc: $(cat "$tmp/err")"; fi
-  hdr="^kind  *treatment  *outcome  *separating set  *effect of interest  *status"
+  hdr="^kind  *treatment  *outcome  *adjustment set  *effect of interest  *status"
   if head -1 "$tmp/table" | grep -q "$hdr"; then ok "claims $g prints the table header"
   else bad "claims $g table header: $(head -1 "$tmp/table")"; fi
   "$SHOAL" claims --json "$g" >"$tmp/json" 2>"$tmp/err"
@@ -66,13 +66,13 @@ for g in fixtures/graphs/clinic.graph fixtures/demo/triage.graph; do
 import json, sys
 doc = json.load(open(sys.argv[1]))
 rows = [l for l in open(sys.argv[2]).read().splitlines()[1:] if l.startswith(("effect", "absence"))]
-assert doc["schema_version"] == 1 and isinstance(doc["graph"], str)
+assert doc["schema_version"] == 2 and isinstance(doc["graph"], str)
 assert len(doc["claims"]) == len(rows) > 0, "table and JSON list different claims"
 for c in doc["claims"]:
     assert c["kind"] in ("effect", "absence")
     assert isinstance(c["treatment"], str) and isinstance(c["outcome"], str)
-    assert isinstance(c["conditioning"], list)
-    assert all(isinstance(n, str) for n in c["conditioning"])
+    assert isinstance(c["adjustment_set"], list)
+    assert all(isinstance(n, str) for n in c["adjustment_set"])
     assert isinstance(c["effect_of_interest"], (int, float)) and c["effect_of_interest"] > 0
     assert c["effect_unit"] in ("raw", "sd") and c["sign"] in (-1, 0, 1)
     assert c["status"] in ("testable", "untestable")
@@ -91,8 +91,8 @@ assert len(rows) == len(doc["claims"])
 for r, c in zip(rows, doc["claims"]):
     assert (r["kind"], r["treatment"], r["outcome"]) == (c["kind"], c["treatment"], c["outcome"])
     assert float(r["effect_of_interest"]) == c["effect_of_interest"]
-    names = next(csv.reader([r["conditioning"]], delimiter=";")) if r["conditioning"] else []
-    assert names == c["conditioning"], (names, c["conditioning"])
+    names = next(csv.reader([r["adjustment_set"]], delimiter=";")) if r["adjustment_set"] else []
+    assert names == c["adjustment_set"], (names, c["adjustment_set"])
 EOF
   then ok "claims --csv $g agrees with --json (python csv module)"
   else bad "claims --csv $g"; fi
@@ -117,7 +117,7 @@ if "$PYTHON" -c '
 import json, sys
 c = json.load(sys.stdin)["claims"]
 assert [x["treatment"] for x in c] == ["it'"'"'s; \"odd\"", "<script>"], c
-assert c[0]["conditioning"] == ["<script>"] and c[1]["conditioning"] == ["it'"'"'s; \"odd\""]
+assert c[0]["adjustment_set"] == ["<script>"] and c[1]["adjustment_set"] == ["it'"'"'s; \"odd\""]
 ' <"$tmp/json" && ! grep -q "<script>" "$tmp/json"
 then ok "claims --json keeps quoted names exactly and never writes a raw <script>"
 else bad "claims --json with odd names: $(cat "$tmp/json" "$tmp/err")"; fi
@@ -126,7 +126,7 @@ if "$PYTHON" -c '
 import csv, sys
 r = list(csv.DictReader(sys.stdin))
 assert r[0]["treatment"] == "it'"'"'s; \"odd\"" and r[0]["outcome"] == "wait, min", r
-assert next(csv.reader([r[1]["conditioning"]], delimiter=";")) == ["it'"'"'s; \"odd\""], r
+assert next(csv.reader([r[1]["adjustment_set"]], delimiter=";")) == ["it'"'"'s; \"odd\""], r
 ' <"$tmp/csv"
 then ok "claims --csv quotes names holding commas, quotes and semicolons (python csv module)"
 else bad "claims --csv with odd names: $(cat "$tmp/csv" "$tmp/err")"; fi

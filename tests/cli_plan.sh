@@ -50,7 +50,7 @@ check '! cmp -s "$tmp/p.csv" "$tmp/p3.csv"' "another --seed gives another plan f
 check '"$PYTHON" -c "import json,sys; d=json.load(open(sys.argv[1])); assert d[\"configurations\"] == 3 and all(\"power_after\" in c for c in d[\"claims\"])" "$tmp/j.json"' \
   "--json parses (Python json) with configurations and power_after per claim"
 
-# --budget auto on the demo: site -/-> wait cannot be reached, so the plan is not adequate (1).
+# --budget auto on the demo: site -0-> wait cannot be reached, so the plan is not adequate (1).
 "$SHOAL" plan "$graph" "$db" --budget auto -o "$tmp/auto.csv" >"$tmp/auto.out" 2>&1
 rc=$?
 check '[ $rc -eq 1 ]' "--budget auto on the demo exits 1 when a claim cannot reach the target (got $rc)"

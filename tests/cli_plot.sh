@@ -68,7 +68,7 @@ def check(cond, desc):
     global fails
     print(("PASS: " if cond else "FAIL: ") + desc)
     fails += not cond
-# The names of the module headers under coverage/: the matrix, up to 4 thin pairs, power, MDE, curves.
+# The names of the module headers under coverage/: the matrix, up to 4 sparse pairs, power, MDE, curves.
 want = ["pairs", "pair-1", "power", "mde", "curves"]
 svgs = sorted(glob.glob(rep + "/*.svg"))
 for name in want:

@@ -1,6 +1,6 @@
 #!/bin/sh
 # `shoal survey` through the command line: exit statuses, gnuplot missing, escaping of user names in
-# every report format, atomic writing of the report, and the history rounds. See LICENSE.
+# every report format, atomic writing of the report, and the history snapshots. See LICENSE.
 #
 # Reference parsers outside shoal check the output: Python's json (RFC 8259), csv (RFC 4180),
 # html.parser (HTML5 tokenising), xml.etree (XML 1.0), base64 (RFC 4648) and sqlite3 modules. The synthetic campaigns
@@ -64,13 +64,13 @@ rows = list(csv.DictReader(open(sys.argv[1] + "/claims.csv", newline="")))
 term = open(sys.argv[2]).read()
 c = d["counts"]
 assert d["adequate"] is False and d["runs"] == 600
-assert c["ample"] + c["thin"] + c["untestable"] == c["claims"] == len(d["claims"]) == len(rows)
-m = re.search(r"(\d+) ample\s+(\d+) thin\s+(\d+) untestable", term)
-assert m and tuple(map(int, m.groups())) == (c["ample"], c["thin"], c["untestable"]), term
-assert c["thin"] > 0 and c["untestable"] > 0 and c["ample"] > 0
+assert c["ample"] + c["underpowered"] + c["untestable"] == c["claims"] == len(d["claims"]) == len(rows)
+m = re.search(r"(\d+) ample\s+(\d+) underpowered\s+(\d+) untestable", term)
+assert m and tuple(map(int, m.groups())) == (c["ample"], c["underpowered"], c["untestable"]), term
+assert c["underpowered"] > 0 and c["untestable"] > 0 and c["ample"] > 0
 for row, cl in zip(rows, d["claims"]):
     assert row["verdict"] == cl["verdict"] and row["treatment"] == cl["treatment"]
-assert all(cl["verdict"] != "thin" or cl["power"] < d["options"]["target_power"] for cl in d["claims"])
+assert all(cl["verdict"] != "underpowered" or cl["power"] < d["options"]["target_power"] for cl in d["claims"])
 EOF
 check $? "summary.json, claims.csv and the terminal agree on the demo's counts (python json/csv) $(cat "$tmp/py")"
 "$SHOAL" survey "$demo_graph" "$tmp/demo.db" -o "$tmp/r-json" --json >"$tmp/json" 2>/dev/null
@@ -336,8 +336,8 @@ check $([ ! -e "$tmp/r-fresh" ]; echo $?) "a failure midway with no earlier repo
 rc=$?
 check $([ "$rc" -eq 2 ] && [ ! -s "$tmp/plainfile" ]; echo $?) "an out path whose parent cannot hold it exits 2 (got $rc)"
 
-# ---- history rounds ---------------------------------------------------------------------------------
-# Two imports and two surveys of shoal's own archive give two rounds, in the archive's own tables.
+# ---- history snapshots ---------------------------------------------------------------------------------
+# Two imports and two surveys of shoal's own archive give two snapshots, in the archive's own tables.
 head -301 "$demo_csv" >"$tmp/half1.csv"
 { head -1 "$demo_csv"; tail -n +302 "$demo_csv"; } >"$tmp/half2.csv"
 "$SHOAL" import "$tmp/half1.csv" --archive "$tmp/rounds.db" >/dev/null 2>&1
@@ -348,18 +348,18 @@ head -301 "$demo_csv" >"$tmp/half1.csv"
 import json, sqlite3, sys
 h = json.load(open(sys.argv[1] + "/summary.json"))["history"]
 assert h["store"] == "archive", h["store"]
-runs = [r["runs"] for r in h["rounds"]]
+runs = [r["runs"] for r in h["snapshots"]]
 assert runs == [300, 600], runs
-assert [r["batches"] for r in h["rounds"]] == [1, 2]
+assert [r["batches"] for r in h["snapshots"]] == [1, 2]
 db = sqlite3.connect(sys.argv[2])
-assert db.execute("select count(*) from shoal_rounds").fetchone()[0] == 2
-assert db.execute("select count(distinct round) from shoal_round_claims").fetchone()[0] == 2
+assert db.execute("select count(*) from shoal_snapshots").fetchone()[0] == 2
+assert db.execute("select count(distinct snapshot) from shoal_snapshot_claims").fetchone()[0] == 2
 page = open(sys.argv[1] + "/index.html").read()
-chart = page[page.index('<svg id="rounds-chart"'):]
-assert chart[:chart.index("</svg>")].count("<circle") == 2, "the rounds chart should show two points"
+chart = page[page.index('<svg id="snapshots-chart"'):]
+assert chart[:chart.index("</svg>")].count("<circle") == 2, "the snapshots chart should show two points"
 EOF
-check $? "two imports and two surveys give two rounds, in the archive (python sqlite3) $(cat "$tmp/py")"
-check $(grep -q "history: round 2" "$tmp/out"; echo $?) "the terminal says this is round 2"
+check $? "two imports and two surveys give two snapshots, in the archive (python sqlite3) $(cat "$tmp/py")"
+check $(grep -q "history: snapshot 2" "$tmp/out"; echo $?) "the terminal says this is snapshot 2"
 # An archive of the user's own: never written; history only in a --history side file.
 "$PYTHON" - "$demo_csv" "$tmp/own.db" <<'EOF'
 import csv, sqlite3, sys
@@ -378,11 +378,11 @@ check $(grep -q "history: not kept" "$tmp/out" && grep -q "No history is kept" "
 check $([ "$sum_before" = "$(cksum <"$tmp/own.db")" ]; echo $?) "the user's archive is byte-for-byte unchanged"
 "$PYTHON" - "$tmp/side.db" "$tmp/r-own" <<'EOF' >"$tmp/py" 2>&1
 import json, sqlite3, sys
-assert sqlite3.connect(sys.argv[1]).execute("select count(*) from shoal_rounds").fetchone()[0] == 2
+assert sqlite3.connect(sys.argv[1]).execute("select count(*) from shoal_snapshots").fetchone()[0] == 2
 h = json.load(open(sys.argv[2] + "/summary.json"))["history"]
-assert h["store"] == "side file" and len(h["rounds"]) == 2
+assert h["store"] == "side file" and len(h["snapshots"]) == 2
 EOF
-check $? "two surveys with --history give two rounds in the side file $(cat "$tmp/py")"
+check $? "two surveys with --history give two snapshots in the side file $(cat "$tmp/py")"
 "$SHOAL" survey "$demo_graph" "$tmp/own.db" -o "$tmp/r-own" --history "$tmp/own.db" >/dev/null 2>&1
 rc=$?
 check $([ "$rc" -eq 2 ] && [ "$sum_before" = "$(cksum <"$tmp/own.db")" ]; echo $?) \

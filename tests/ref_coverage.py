@@ -175,7 +175,7 @@ def random_campaign(rng):
         else:
             specs.append(("levels", int(rng.integers(2, 5))))
     n = int(rng.integers(5, 400))
-    # Concentrate the runs so that some cells stay thin or empty.
+    # Concentrate the runs so that some cells stay sparse or empty.
     rows = []
     for _ in range(n):
         r = []

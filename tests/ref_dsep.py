@@ -184,8 +184,8 @@ def check_graph(idx, tmp, rng, n):
         return
     for c in doc["claims"]:
         counts["claims"] += 1
-        x, y, S = c["treatment"], c["outcome"], set(c["conditioning"])
-        M = set(c["minimal_conditioning"])
+        x, y, S = c["treatment"], c["outcome"], set(c["adjustment_set"])
+        M = set(c["minimal_adjustment_set"])
         H = G.copy()
         if c["kind"] == "effect":
             H.remove_edge(x, y)
@@ -293,12 +293,12 @@ def main():
     print("%s: %d of %d random graphs parsed and gave the claims the definitions imply (kinds, "
           "pairs, order, effects, steerable) %s" % (
               verdict("claims", counts["graphs"] == total), counts["graphs"], total, src))
-    print("%s: %d testable claims: conditioning and minimal_conditioning each d-separate, the "
-          "minimal set lies within conditioning and no single member of it can be dropped %s"
+    print("%s: %d testable claims: adjustment_set and minimal_adjustment_set each d-separate, the "
+          "minimal set lies within adjustment_set and no single member of it can be dropped %s"
           % (verdict("sep", counts["testable"]), counts["testable"], src))
     print("%s: %d testable claims whose preferred parent set is all recorded adjust for exactly "
           "that set, the others for the minimal set %s" % (verdict("pref", counts["preferred"]), counts["preferred"], src))
-    print("%s: %d testable claims on <= %d nodes: no proper subset of minimal_conditioning "
+    print("%s: %d testable claims on <= %d nodes: no proper subset of minimal_adjustment_set "
           "separates %s" % (
         verdict("subset", counts["subset"]), counts["subset"], BRUTE_MAX_NODES, src))
     print("%s: %d untestable claims on <= %d nodes confirmed by brute force over all subsets of "

@@ -127,7 +127,7 @@ static void simulate(campaign *c, gsl_rng *r)
     }
 }
 
-/* The F test of the level set (no conditioning): between-group over within-group mean squares. */
+/* The F test of the level set (no adjustment set): between-group over within-group mean squares. */
 static int level_f_rejects(const campaign *c, double alpha)
 {
     double sum[3] = {0}, cnt[3] = {0}, grand = 0;

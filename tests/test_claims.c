@@ -38,7 +38,7 @@ static void mark(const cov_graph *g, const cov_dag *d, const char *list, unsigne
     }
 }
 
-/* One row of the worked-example table: x _||_ y given z, expected true or false. */
+/* One row of the worked-example table: x and y d-separated given z, expected true or false. */
 static void query(const cov_graph *g, const cov_dag *d, const char *ex, const char *x,
                   const char *y, const char *z, int expect)
 {
@@ -48,7 +48,7 @@ static void query(const cov_graph *g, const cov_dag *d, const char *ex, const ch
     int rc = cov_dsep_separated(d, (size_t)cov_graph_find(g, x), (size_t)cov_graph_find(g, y),
                                 in_z, &sep);
     gsl_test(rc != COV_OK || sep != expect,
-             "claims: %s %s _||_ %s given {%s} is %s (REFERENCES.md 9, networkx 2.8.8)", ex, x, y,
+             "claims: %s %s -0-> %s given {%s} is %s (REFERENCES.md 9, networkx 2.8.8)", ex, x, y,
              z, expect ? "True" : "False");
 }
 

@@ -297,7 +297,7 @@ done:
 }
 
 /* The regression of claim cl on the given rows (n rows of g->n_vars values): intercept, treatment,
- * separating set in raw units (level sets as dummies against the first level). Returns columns. */
+ * adjustment set in raw units (level sets as dummies against the first level). Returns columns. */
 static size_t claim_columns(const cov_graph *g, const cov_claim *cl, const double *vals, double *x)
 {
     size_t k = 0;
@@ -424,9 +424,9 @@ static const char *levels_graph =
     "x -> y effect 1\n";
 
 /* The same model without the independence declaration, so that each claim adjusts for the other
- * input: s in the separating set of x -> y puts its dummies in that claim's design. */
+ * input: s in the adjustment set of x -> y puts its dummies in that claim's design. */
 static const char *levels_adjusted_graph =
-    "# invented level-set test model, claims adjusted for the other input\n"
+    "# invented level-set test model, claims adjusting for the other input\n"
     "input s levels {a, b, c, d}\n"
     "input x real [0, 1]\n"
     "output y real\n"
@@ -491,7 +491,7 @@ static void test_levels_prediction(gsl_rng *r, const char *graph, int drop_d)
             gsl_test_abs(p->items[j].power_after, pw, 1e-6,
                          "levels trial %d%s%s: predicted power of %s -> y equals the augmented "
                          "design's",
-                         trial, drop_d ? " (claims adjusted for the other input)" : "",
+                         trial, drop_d ? " (claims adjusting for the other input)" : "",
                          missing_d ? " (level d absent from the archive)" : "",
                          g->vars[c->items[p->items[j].claim].treatment].name);
         }
@@ -602,7 +602,7 @@ int main(void)
     test_levels_prediction(r, levels_graph, 0);
     test_empty_archive();
     /* Last, so that the draws above stay as they were: an archive that never ran level d, and
-     * claims whose separating set holds s. A planned run at d adds a dummy column (and a
+     * claims whose adjustment set holds s. A planned run at d adds a dummy column (and a
      * parameter) to x -> y; without one, s -> y is tested on the three levels present. */
     test_levels_prediction(r, levels_adjusted_graph, 1);
     gsl_rng_free(r);

@@ -194,7 +194,7 @@ static void make_assessments(void)
         it->power_hi = fmin(1, it->power + 0.08);
         it->mde_lo = it->mde * 0.85;
         it->mde_hi = it->mde * 1.2;
-        it->verdict = it->power >= 0.80 ? COV_AMPLE : COV_THIN;
+        it->verdict = it->power >= 0.80 ? COV_AMPLE : COV_UNDERPOWERED;
         it->has_design = 1;
         it->design = d;
     }
@@ -374,7 +374,7 @@ static void test_list(void)
     gsl_test_int(rc, COV_OK, "cov_plot_list succeeds");
     if (rc != COV_OK) return;
     gsl_test_int((int)p->n, (int)N_EXPECTED,
-                 "cov_plot_list: matrix, 4 thin pairs, power, MDE, curves");
+                 "cov_plot_list: matrix, 4 sparse pairs, power, MDE, curves");
     for (size_t i = 0; i < p->n && i < N_EXPECTED; i++) {
         gsl_test(strcmp(p->items[i].name, expected[i]) != 0, "plot %zu is named %s (got %s)", i + 1,
                  expected[i], p->items[i].name);
@@ -566,7 +566,7 @@ static void test_big(const char *tmp)
         pw_runs_needed(&d, &it->runs_needed);
         it->power_lo = it->power_hi = it->power;
         it->mde_lo = it->mde_hi = it->mde;
-        it->verdict = it->power >= 0.8 ? COV_AMPLE : COV_THIN;
+        it->verdict = it->power >= 0.8 ? COV_AMPLE : COV_UNDERPOWERED;
         it->has_design = 1;
         it->design = d;
     }

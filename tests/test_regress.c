@@ -161,7 +161,7 @@ static void test_moments_block(gsl_rng *r)
     pw_moments_free(b);
 }
 
-/* Level patterns with unequal groups and no conditioning: M = diag(n_l) - n n' / N over the
+/* Level patterns with unequal groups and no adjustment set: M = diag(n_l) - n n' / N over the
  * dummies, so b' M b = sum_l n_l (mu_l - mu_bar)^2 (the between-groups sum of squares, Searle
  * 1971, sec. 3.5) and a pairwise contrast has variance factor 1/n_i + 1/n_j. */
 static void test_level_pattern(void)
@@ -268,7 +268,7 @@ static void test_assess_numeric(gsl_rng *r)
     gsl_test_abs(p, a->power, 1e-15, "cov_assess_design reproduces the claim's power");
     gsl_test(!(a->power_lo <= a->power && a->power <= a->power_hi && a->mde_lo <= a->mde &&
                a->mde <= a->mde_hi), "power and MDE lie inside their intervals");
-    gsl_test(!(a->verdict == (a->power >= 0.8 ? COV_AMPLE : COV_THIN)), "verdict follows power");
+    gsl_test(!(a->verdict == (a->power >= 0.8 ? COV_AMPLE : COV_UNDERPOWERED)), "verdict follows power");
     const cov_assessment *b = &as->items[1];
     gsl_test(b->design.test != PW_TEST_TOST, "absence claim uses TOST");
     gsl_test_rel(b->effect_raw, 0.1 * b->sd_outcome, 1e-15, "sd margin = 0.1 x outcome SD");
@@ -333,7 +333,7 @@ static void test_assess_kinds(gsl_rng *r)
     gsl_test(rc, "cov_assess with level, bool and constant treatments");
     if (rc) goto done;
     const cov_assessment *a = &as->items[0];
-    /* Balanced three levels, no conditioning: the least favourable pattern (two levels one
+    /* Balanced three levels, no adjustment set: the least favourable pattern (two levels one
      * effect apart, the third at their midpoint) has lambda = n/3 (e^2/4 + e^2/4) / sigma^2, so
      * the noncentrality per run is 1 / (2 L) = 1/6 (Cohen 1988, sec. 8.2, pattern 1). */
     gsl_test(a->design.test != PW_TEST_LEVELS_F, "level-set treatment uses the F test");
@@ -385,7 +385,7 @@ done:
         pw_runs_needed(&g, &runs);
         gsl_test_rel(as->items[0].runs_needed, runs, 0, "no runs: plan from the declared noise SD "
                      "and the uniform spread of the domain (%g runs)", runs);
-        gsl_test(as->items[0].verdict != COV_THIN, "no runs: thin");
+        gsl_test(as->items[0].verdict != COV_UNDERPOWERED, "no runs: underpowered");
     } else {
         gsl_test(1, "cov_assess with no runs");
     }

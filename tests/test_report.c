@@ -1,4 +1,4 @@
-/* Tests of the survey report writers and the history rounds, on an invented graph whose names are
+/* Tests of the survey report writers and the history snapshots, on an invented graph whose names are
  * chosen to break naive escaping. See LICENSE. */
 #include <math.h>
 #include <stdio.h>
@@ -84,59 +84,59 @@ int main(void)
     snprintf(side, sizeof side, "%s/side.db", dir);
     o.history_path = side;
 
-    /* Hand-made verdicts: claim 1 ample (power 0.95), claim 2 thin (power 0.30), claim 3 thin
-     * (power 0.10). The report lists thin claims first, weakest first, then ample ones. */
+    /* Hand-made verdicts: claim 1 ample (power 0.95), claim 2 underpowered (power 0.30), claim 3 underpowered
+     * (power 0.10). The report lists underpowered claims first, weakest first, then ample ones. */
     cov_assessment items[3];
     memset(items, 0, sizeof items);
     const double power[3] = {0.95, 0.30, 0.10};
-    const cov_verdict verdict[3] = {COV_AMPLE, COV_THIN, COV_THIN};
+    const cov_verdict verdict[3] = {COV_AMPLE, COV_UNDERPOWERED, COV_UNDERPOWERED};
     for (size_t i = 0; i < 3; i++) {
         items[i].claim = i;
         items[i].n = 100;
         items[i].power = power[i];
         items[i].power_lo = items[i].power_hi = items[i].mde = items[i].runs_needed = NAN;
         items[i].verdict = verdict[i];
-        items[i].reason = verdict[i] == COV_THIN ? "too few runs for <b>this</b>" : NULL;
+        items[i].reason = verdict[i] == COV_UNDERPOWERED ? "too few runs for <b>this</b>" : NULL;
     }
     cov_assessments as = {o.power, 3, items, 3};
     cov_findings f = {&o, g, cl, NULL, &as, NULL, NULL, NULL, 0};
     size_t order[3];
     cov_report_order(&f, order);
     gsl_test(!(order[0] == 2 && order[1] == 1 && order[2] == 0),
-             "claims ordered thin by rising power, then ample (got %zu %zu %zu)", order[0],
+             "claims ordered underpowered by rising power, then ample (got %zu %zu %zu)", order[0],
              order[1], order[2]);
 
-    /* Two rounds recorded into a side file come back in order; the side file is created. */
-    cov_round r1, r2;
-    cov_round_from_findings(&f, &r1);
-    gsl_test(!(r1.n_ample == 1 && r1.n_thin == 2 && r1.n_blind == 0),
-             "a round counts 1 ample, 2 thin, 0 untestable");
+    /* Two snapshots recorded into a side file come back in order; the side file is created. */
+    cov_snapshot r1, r2;
+    cov_snapshot_from_findings(&f, &r1);
+    gsl_test(!(r1.n_ample == 1 && r1.n_underpowered == 2 && r1.n_blind == 0),
+             "a snapshot counts 1 ample, 2 underpowered, 0 untestable");
     snprintf(r1.at, sizeof r1.at, "2026-01-01T00:00:00Z");
     r1.n_runs = 100;
     r2 = r1;
     snprintf(r2.at, sizeof r2.at, "2026-01-02T00:00:00Z");
     r2.n_runs = 250;
     r2.n_ample = 3;
-    cov_round *rounds = NULL;
-    size_t n_rounds = 9;
-    rc = cov_history_load(side, 1, &rounds, &n_rounds, &err);
-    gsl_test(rc != COV_OK || n_rounds != 0, "a side file that does not exist yet holds no rounds");
-    free(rounds);
-    rc = cov_history_load(side, 0, &rounds, &n_rounds, &err);
+    cov_snapshot *snaps = NULL;
+    size_t n_snapshots = 9;
+    rc = cov_history_load(side, 1, &snaps, &n_snapshots, &err);
+    gsl_test(rc != COV_OK || n_snapshots != 0, "a side file that does not exist yet holds no snapshots");
+    free(snaps);
+    rc = cov_history_load(side, 0, &snaps, &n_snapshots, &err);
     gsl_test_int(rc, COV_EIO, "a missing file is an error when it must exist");
     memset(&err, 0, sizeof err);
     rc = cov_history_record(side, &f, &r1, &err);
-    gsl_test_int(rc, COV_OK, "round 1 recorded (%s)", err.msg);
+    gsl_test_int(rc, COV_OK, "snapshot 1 recorded (%s)", err.msg);
     memset(&err, 0, sizeof err);
     rc = cov_history_record(side, &f, &r2, &err);
-    gsl_test_int(rc, COV_OK, "round 2 recorded (%s)", err.msg);
-    rc = cov_history_load(side, 1, &rounds, &n_rounds, &err);
-    gsl_test(rc != COV_OK || n_rounds != 2, "two rounds come back (got %zu)", n_rounds);
-    if (rc == COV_OK && n_rounds == 2) {
-        gsl_test(!(rounds[0].n_runs == 100 && rounds[1].n_runs == 250 && rounds[1].n_ample == 3),
-                 "the rounds keep their runs and counts, oldest first");
-        gsl_test(strcmp(rounds[1].at, "2026-01-02T00:00:00Z") != 0, "the round keeps its time");
-        gsl_test(!isnan(rounds[0].pairwise_share), "a share not computed comes back as NAN");
+    gsl_test_int(rc, COV_OK, "snapshot 2 recorded (%s)", err.msg);
+    rc = cov_history_load(side, 1, &snaps, &n_snapshots, &err);
+    gsl_test(rc != COV_OK || n_snapshots != 2, "two snapshots come back (got %zu)", n_snapshots);
+    if (rc == COV_OK && n_snapshots == 2) {
+        gsl_test(!(snaps[0].n_runs == 100 && snaps[1].n_runs == 250 && snaps[1].n_ample == 3),
+                 "the snapshots keep their runs and counts, oldest first");
+        gsl_test(strcmp(snaps[1].at, "2026-01-02T00:00:00Z") != 0, "the snapshot keeps its time");
+        gsl_test(!isnan(snaps[0].pairwise_share), "a share not computed comes back as NAN");
     }
     char notsql[4200];
     snprintf(notsql, sizeof notsql, "%s/notsql.db", dir);
@@ -146,7 +146,7 @@ int main(void)
               junk);
         fclose(junk);
     }
-    cov_round *none = NULL;
+    cov_snapshot *none = NULL;
     size_t n_none = 0;
     rc = cov_history_load(notsql, 1, &none, &n_none, &err);
     gsl_test_int(rc, COV_EINPUT, "a history file that is not SQLite is bad input");
@@ -154,7 +154,7 @@ int main(void)
 
     /* The report, with every user string escaped for its format. */
     cov_report_info info = {"2026-01-02T00:00:00Z", 0, NULL, "gnuplot is not on PATH",
-                            COV_HISTORY_SIDE, side, rounds, n_rounds};
+                            COV_HISTORY_SIDE, side, snaps, n_snapshots};
     memset(&err, 0, sizeof err);
     rc = cov_report_write(&f, &info, dir, &err);
     gsl_test_int(rc, COV_OK, "the report is written (%s)", err.msg);
@@ -175,8 +175,8 @@ int main(void)
     gsl_test(count_of(json, "\"\\u003cscript>\"") < 2 || count_of(json, "<script>") != 0,
              "summary.json escapes '<' in names");
     gsl_test(count_of(json, "\"it's; \\\"odd\\\"\"") < 2, "summary.json escapes quotes");
-    gsl_test(count_of(json, "\"rounds\": [") != 1 || count_of(json, "\"runs\": 250") != 1,
-             "summary.json lists the rounds");
+    gsl_test(count_of(json, "\"snapshots\": [") != 1 || count_of(json, "\"runs\": 250") != 1,
+             "summary.json lists the snapshots");
     /* RFC 4180: a field with a quote is quoted and its quotes doubled. */
     gsl_test(count_of(csv, "\"it's; \"\"odd\"\"\"") != 1, "claims.csv quotes the odd name");
     /* CommonMark code spans: a name with a backtick gets a longer fence, padded by spaces. */
@@ -194,7 +194,7 @@ int main(void)
     gsl_test_int(rc, COV_EIO, "SHOAL_TEST_FAULT=report makes the writer fail");
     unsetenv("SHOAL_TEST_FAULT");
 
-    free(rounds);
+    free(snaps);
     remove_dir(dir);
     cov_claims_free(cl);
     cov_graph_free(g);

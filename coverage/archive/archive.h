@@ -60,9 +60,9 @@ int cov_ascii_casecmp(const char *a, const char *b);
 /* ---- one claim's regression data (coverage/design.c) ------------------------------------------ */
 
 /* The regression of one claim on the archive. Rows are the runs where the treatment, the outcome
- * and every member of the separating set are present. Columns: [0] the intercept; then the
+ * and every member of the adjustment set are present. Columns: [0] the intercept; then the
  * treatment (one column, or L - 1 dummies against its first level for a level-set treatment);
- * then the separating set in ascending variable order (numeric and bool as they are, level sets as
+ * then the adjustment set in ascending variable order (numeric and bool as they are, level sets as
  * L - 1 dummies against the first level; a dummy for a level absent from these rows is dropped). */
 typedef struct {
     size_t n, p;          /* rows, columns */

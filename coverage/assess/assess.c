@@ -44,7 +44,7 @@ typedef struct {
     int dummies;
 } term;
 
-/* A claim's variables in regression order: the separating set, the treatment, the outcome. */
+/* A claim's variables in regression order: the adjustment set, the treatment, the outcome. */
 typedef struct {
     term *terms;
     size_t n_terms;
@@ -313,7 +313,7 @@ static void decide(cov_assessment *a, const cov_claim *c, double target)
         a->verdict = COV_AMPLE;
         return;
     }
-    a->verdict = COV_THIN;
+    a->verdict = COV_UNDERPOWERED;
     char runs[160];
     if (isfinite(a->runs_needed))
         snprintf(runs, sizeof runs, "needs %.0f runs in all, %.0f more", a->runs_needed,
@@ -333,7 +333,7 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     double spread = planned_spread(x);
     if (!(y->noise_sd > 0) || (x->type != COV_LEVELS && !(spread > 0))) {
         note_add(&a->noise_note, "no noise estimate from %zu runs", a->n);
-        a->verdict = COV_THIN;
+        a->verdict = COV_UNDERPOWERED;
         note_add(&a->reason, "too few complete runs (%zu) to estimate the noise, and %s", a->n,
                  !(y->noise_sd > 0) ? "the graph declares no noise SD for the outcome"
                                     : "the treatment has no declared domain to plan from");
@@ -368,13 +368,13 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     int rc = size_claim(a, d, NAN, NAN);
     if (rc == PW_ENOMEM) return COV_ENOMEM;
     if (rc != PW_OK) {
-        a->verdict = COV_THIN;
+        a->verdict = COV_UNDERPOWERED;
         note_add(&a->reason, "the power computation failed (%s)", pw_strerror(rc));
         return COV_OK;
     }
     a->power_lo = a->power_hi = a->power;
     decide(a, c, opt->target);
-    if (a->verdict == COV_THIN) {
+    if (a->verdict == COV_UNDERPOWERED) {
         free(a->reason);
         a->reason = NULL;
         note_add(&a->reason, "too few complete runs (%zu) to estimate the noise; planning from "
@@ -417,7 +417,7 @@ static void global_index(const assess_ctx *x, const layout *lay, size_t *idx)
     }
 }
 
-/* A claim whose outcome given the treatment and separating set was fitted: everything else. */
+/* A claim whose outcome given the treatment and adjustment set was fitted: everything else. */
 static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
                          const pw_moments *m, const size_t *idx, const cov_data *d,
                          const size_t *rows, size_t n_rows, int fast,
@@ -432,7 +432,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     if (pw_xfit_solve(m, idx, k, t, &fit) != PW_OK) goto fail;
     double n = m->n;
 
-    /* The treatment must vary apart from the separating set. */
+    /* The treatment must vary apart from the adjustment set. */
     if (fit->t_rank == 0) {
         int constant = 1;
         for (size_t a0 = k - t; a0 < k; a0++)
@@ -442,7 +442,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
             note_add(&a->reason, "treatment '%s' never varies in the %zu complete runs", xv->name,
                      a->n);
         else
-            note_add(&a->reason, "treatment '%s' is fixed by the separating set in the %zu "
+            note_add(&a->reason, "treatment '%s' is fixed by the adjustment set in the %zu "
                      "complete runs", xv->name, a->n);
         rc = COV_OK;
         goto fail;
@@ -588,7 +588,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     }
 
     if (!(a->effect_raw > 0)) {
-        a->verdict = COV_THIN;
+        a->verdict = COV_UNDERPOWERED;
         note_add(&a->reason, "the outcome never varies, so an effect in SD units is undefined");
         rc = COV_OK;
         goto fail;
@@ -625,7 +625,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     }
     if (src != PW_OK) {
         /* One claim's numerics failing should not hide every other claim's figures. */
-        a->verdict = COV_THIN;
+        a->verdict = COV_UNDERPOWERED;
         note_add(&a->reason, "the power computation failed (%s), so the claim cannot be shown "
                  "ample", pw_strerror(src));
         rc = COV_OK;
@@ -752,7 +752,7 @@ int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
         assessment_init(a, i);
         if (cl->status != COV_TESTABLE) {
             a->verdict = COV_BLIND;
-            a->reason = text_dup(cl->reason ? cl->reason : "no separating set among the recorded "
+            a->reason = text_dup(cl->reason ? cl->reason : "no adjustment set among the recorded "
                                                            "variables");
             if (a->reason == NULL) {
                 rc = COV_ENOMEM;
@@ -804,11 +804,11 @@ int cov_assess_design(const cov_graph *g, const cov_claims *c, const cov_assessm
 void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c)
 {
     fprintf(out, "\"kind\": \"%s\", \"treatment\": ",
-            c->kind == COV_CLAIM_EFFECT ? "effect" : "absence");
+            cov_claim_kind_word(c->kind));
     cov_emit_json_string(out, g->vars[c->treatment].name);
     fputs(", \"outcome\": ", out);
     cov_emit_json_string(out, g->vars[c->outcome].name);
-    fputs(", \"conditioning\": [", out);
+    fputs(", \"adjustment_set\": [", out);
     for (size_t k = 0; k < c->n_cond; k++) {
         if (k) fputs(", ", out);
         cov_emit_json_string(out, g->vars[c->cond[k]].name);
@@ -820,7 +820,7 @@ void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c)
             c->status == COV_TESTABLE ? "testable" : "untestable");
     if (c->reason) cov_emit_json_string(out, c->reason);
     else fputs("null", out);
-    fprintf(out, ", \"steerable\": %s, \"minimal_conditioning\": [",
+    fprintf(out, ", \"steerable\": %s, \"minimal_adjustment_set\": [",
             c->steerable ? "true" : "false");
     for (size_t k = 0; k < c->n_min_cond; k++) {
         if (k) fputs(", ", out);
@@ -854,7 +854,7 @@ char *cov_claim_csv_set(const cov_graph *g, const cov_claim *c)
 
 void cov_claim_csv_min_field(FILE *out, const cov_graph *g, const cov_claim *c)
 {
-    /* The same cell as the conditioning set's, written from a view of the claim whose set is the
+    /* The same cell as the adjustment set's, written from a view of the claim whose set is the
      * minimal one. */
     cov_claim view = *c;
     view.cond = c->min_cond;
@@ -868,7 +868,7 @@ void cov_claim_csv_min_field(FILE *out, const cov_graph *g, const cov_claim *c)
 
 void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c)
 {
-    fprintf(out, "%s,", c->kind == COV_CLAIM_EFFECT ? "effect" : "absence");
+    fprintf(out, "%s,", cov_claim_kind_word(c->kind));
     cov_emit_csv_field(out, g->vars[c->treatment].name);
     fputc(',', out);
     cov_emit_csv_field(out, g->vars[c->outcome].name);

@@ -20,9 +20,23 @@ void cov_emit_csv_number(FILE *f, double x);
 /* A progress callback for cov_data_read: ctx is the FILE * of notes (a terminal); it rewrites one
  * line "reading the archive NN%" and ends it at 100%. */
 void cov_progress_note(double share, void *ctx);
-/* The claim as one line of text: "a -> y | {s, t}" for an effect claim, "a _||_ y | {s, t}" for an
- * absence claim; truncated to fit size bytes. */
+/* ---- the notation of a claim (coverage/emit.c; README "Notation") ------------------------------
+ * shoal's own compact form, used by every table, plot, plan and CSV label:
+ *   "x -> y"   an effect claim: x has an effect on y;
+ *   "x -0-> y" an absence claim: no effect of x on y (the 0 stands for the zero effect);
+ * followed by the adjustment set in brackets when it is not empty: "x -0-> y [s, t]".
+ * Reports say it in words: "no effect of x on y given s, t". */
+
+/* The arrow of a claim kind: "->" (effect) or "-0->" (absence). Never NULL. */
+const char *cov_claim_arrow(cov_claim_kind kind);
+/* The word for a claim kind, as JSON, CSV and tables print it: "effect" or "absence". */
+const char *cov_claim_kind_word(cov_claim_kind kind);
+/* The claim in the compact form with its adjustment set, "a -0-> y [s, t]"; truncated to fit size
+ * bytes (size > 0). */
 void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size);
+/* The claim in words: "an effect of a on y given s, t", "no effect of a on y" (empty adjustment
+ * set); truncated to fit size bytes (size > 0). */
+void cov_claim_sentence(const cov_graph *g, const cov_claim *c, char *buf, size_t size);
 /* Width of a UTF-8 string in characters (code points), for aligning table columns. */
 size_t cov_text_width(const char *s);
 /* The length of the longest prefix of s[0..n) that is well-formed UTF-8 (n when all of it is). */

@@ -63,17 +63,44 @@ void cov_progress_note(double share, void *ctx)
     fflush(note);
 }
 
-void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
+const char *cov_claim_arrow(cov_claim_kind kind)
 {
-    size_t used = (size_t)snprintf(buf, size, "%s %s %s", g->vars[c->treatment].name,
-                                   c->kind == COV_CLAIM_EFFECT ? "->" : "_||_",
-                                   g->vars[c->outcome].name);
-    if (used >= size || c->n_cond == 0) return;
-    used += (size_t)snprintf(buf + used, size - used, " | {");
+    return kind == COV_CLAIM_EFFECT ? "->" : "-0->";
+}
+
+const char *cov_claim_kind_word(cov_claim_kind kind)
+{
+    return kind == COV_CLAIM_EFFECT ? "effect" : "absence";
+}
+
+/* Append the names of c's adjustment set to buf[used..size), joined by ", ". */
+static size_t append_set(const cov_graph *g, const cov_claim *c, char *buf, size_t used,
+                         size_t size)
+{
     for (size_t k = 0; k < c->n_cond && used < size; k++)
         used += (size_t)snprintf(buf + used, size - used, "%s%s", k ? ", " : "",
                                  g->vars[c->cond[k]].name);
-    if (used < size) snprintf(buf + used, size - used, "}");
+    return used;
+}
+
+void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
+{
+    size_t used = (size_t)snprintf(buf, size, "%s %s %s", g->vars[c->treatment].name,
+                                   cov_claim_arrow(c->kind), g->vars[c->outcome].name);
+    if (used >= size || c->n_cond == 0) return;
+    used += (size_t)snprintf(buf + used, size - used, " [");
+    used = append_set(g, c, buf, used, size);
+    if (used < size) snprintf(buf + used, size - used, "]");
+}
+
+void cov_claim_sentence(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
+{
+    size_t used = (size_t)snprintf(buf, size, "%s of %s on %s",
+                                   c->kind == COV_CLAIM_EFFECT ? "an effect" : "no effect",
+                                   g->vars[c->treatment].name, g->vars[c->outcome].name);
+    if (used >= size || c->n_cond == 0) return;
+    used += (size_t)snprintf(buf + used, size - used, " given ");
+    append_set(g, c, buf, used, size);
 }
 
 size_t cov_utf8_valid_prefix(const char *s, size_t n)

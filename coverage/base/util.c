@@ -23,7 +23,7 @@ const char *cov_verdict_word(cov_verdict v)
 {
     switch (v) {
     case COV_AMPLE: return "ample";
-    case COV_THIN: return "thin";
+    case COV_UNDERPOWERED: return "underpowered";
     case COV_BLIND: return "untestable";
     }
     return "?";

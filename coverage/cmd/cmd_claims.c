@@ -8,24 +8,20 @@
 #include "coverage/plan/plan.h"
 #include "coverage/report/report.h"
 
-static const char *kind_word(const cov_claim *c)
-{
-    return c->kind == COV_CLAIM_EFFECT ? "effect" : "absence";
-}
-
-/* The separating set for the table: "{a, b}", or "{}" when nothing needs adjusting. */
+/* The adjustment set for the table: "[a, b]", or "[]" when nothing needs adjusting (the brackets
+ * of the claim notation, base.h). */
 static char *set_text(const cov_graph *g, const cov_claim *c)
 {
     size_t len = 3;
     for (size_t i = 0; i < c->n_cond; i++) len += strlen(g->vars[c->cond[i]].name) + 2;
     char *s = malloc(len);
     if (s == NULL) return NULL;
-    strcpy(s, "{");
+    strcpy(s, "[");
     for (size_t i = 0; i < c->n_cond; i++) {
         if (i) strcat(s, ", ");
         strcat(s, g->vars[c->cond[i]].name);
     }
-    strcat(s, "}");
+    strcat(s, "]");
     return s;
 }
 
@@ -37,7 +33,7 @@ static void pad(FILE *f, const char *s, size_t width)
 
 static int print_table(const cov_graph *g, const cov_claims *cl, FILE *out)
 {
-    static const char *const head[5] = {"kind", "treatment", "outcome", "separating set",
+    static const char *const head[5] = {"kind", "treatment", "outcome", "adjustment set",
                                         "effect of interest"};
     size_t width[5];
     for (int k = 0; k < 5; k++) width[k] = strlen(head[k]);
@@ -49,7 +45,7 @@ static int print_table(const cov_graph *g, const cov_claims *cl, FILE *out)
         char eff[64];
         if (c->status == COV_TESTABLE && (sets[i] = set_text(g, c)) == NULL) goto fail;
         cov_report_effect_text(c, eff, sizeof eff);
-        size_t w[5] = {cov_text_width(kind_word(c)), cov_text_width(g->vars[c->treatment].name),
+        size_t w[5] = {cov_text_width(cov_claim_kind_word(c->kind)), cov_text_width(g->vars[c->treatment].name),
                        cov_text_width(g->vars[c->outcome].name), sets[i] ? cov_text_width(sets[i]) : 1,
                        cov_text_width(eff)};
         for (int k = 0; k < 5; k++)
@@ -62,7 +58,7 @@ static int print_table(const cov_graph *g, const cov_claims *cl, FILE *out)
         const cov_claim *c = &cl->items[i];
         char eff[64];
         cov_report_effect_text(c, eff, sizeof eff);
-        pad(out, kind_word(c), width[0]);
+        pad(out, cov_claim_kind_word(c->kind), width[0]);
         pad(out, g->vars[c->treatment].name, width[1]);
         pad(out, g->vars[c->outcome].name, width[2]);
         pad(out, sets[i] ? sets[i] : "-", width[3]);
@@ -86,13 +82,13 @@ fail:
 
 static int print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
 {
-    fputs("kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,reason,"
-          "steerable,minimal_conditioning\n", out);
+    fputs("kind,treatment,outcome,adjustment_set,effect_of_interest,effect_unit,sign,status,reason,"
+          "steerable,minimal_adjustment_set\n", out);
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
         char *set = cov_claim_csv_set(g, c);
         if (set == NULL) return COV_ENOMEM;
-        fprintf(out, "%s,", kind_word(c));
+        fprintf(out, "%s,", cov_claim_kind_word(c->kind));
         cov_emit_csv_field(out, g->vars[c->treatment].name);
         fputc(',', out);
         cov_emit_csv_field(out, g->vars[c->outcome].name);
@@ -113,7 +109,7 @@ static int print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
 
 static void print_json(const cov_graph *g, const cov_claims *cl, const char *path, FILE *out)
 {
-    fputs("{\"schema_version\": 1, \"graph\": ", out);
+    fputs("{\"schema_version\": 2, \"graph\": ", out);
     cov_emit_json_string(out, path);
     fputs(", \"claims\": [", out);
     for (size_t i = 0; i < cl->n; i++) {

@@ -49,7 +49,7 @@ static const char *reading(double cd2, double random)
     return cd2 < random ? "better than random" : cd2 > random ? "worse than random" : "as random";
 }
 
-/* Variance inflation of claim k's treatment given its separating set: (sd / sd(X|S))^2. */
+/* Variance inflation of claim k's treatment given its adjustment set: (sd / sd(X|S))^2. */
 static double vif_of(const cov_support *s)
 {
     if (!(s->spread > 0)) return NAN;
@@ -65,7 +65,7 @@ static int holds(const cov_claim *c, size_t v)
 }
 
 /* Claims whose power the dependence of inputs a and b costs: the treatment is one of them and the
- * separating set holds the other. */
+ * adjustment set holds the other. */
 static int costs(const cov_claim *c, size_t a, size_t b)
 {
     return c->status == COV_TESTABLE
@@ -92,7 +92,7 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
             char lab[96];
             bin_label(v, bins, b, lab, sizeof lab);
             fprintf(out, "%s%s %s (%zu)", shown++ ? ", " : "; short: ", lab,
-                    mg->count[b] ? "thin" : "empty", mg->count[b]);
+                    mg->count[b] ? "sparse" : "empty", mg->count[b]);
         }
         if (short_bins > shown) fprintf(out, ", ... (%zu short bins in all)", short_bins);
         fputc('\n', out);

@@ -214,8 +214,8 @@ fail:
 
 static void claim_label(const cov_graph *g, const cov_claim *cl, char *buf, size_t size)
 {
-    snprintf(buf, size, "%s %s %s", g->vars[cl->treatment].name,
-             cl->kind == COV_CLAIM_EFFECT ? "->" : "-/->", g->vars[cl->outcome].name);
+    snprintf(buf, size, "%s %s %s", g->vars[cl->treatment].name, cov_claim_arrow(cl->kind),
+             g->vars[cl->outcome].name);
 }
 
 static const char *mode_word(const cov_plan_claim *it);
@@ -269,7 +269,7 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
                 c->n - n_testable == 1 ? "it" : "them");
     if (n_assumed > 0)
         fprintf(out, "\nassumed (not steered): %zu claim%s with an output as treatment or in the "
-                     "separating set. The plan cannot set outputs, so it assumes new runs add "
+                     "adjustment set. The plan cannot set outputs, so it assumes new runs add "
                      "information as the current runs do (the run count is scaled).\n",
                 n_assumed, n_assumed == 1 ? "" : "s");
     if (n_noise > 0)
@@ -318,7 +318,7 @@ static void print_json(FILE *out, const cov_options *o, const cov_graph *g, cons
         const cov_plan_claim *it = &p->items[j];
         const cov_claim *cl = &c->items[it->claim];
         fprintf(out, "%s\n  {\"kind\": \"%s\", \"treatment\": ", j ? "," : "",
-                cl->kind == COV_CLAIM_EFFECT ? "effect" : "absence");
+                cov_claim_kind_word(cl->kind));
         cov_emit_json_string(out, g->vars[cl->treatment].name);
         fputs(", \"outcome\": ", out);
         cov_emit_json_string(out, g->vars[cl->outcome].name);

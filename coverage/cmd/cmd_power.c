@@ -79,13 +79,13 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
             fprintf(out, "%s: noise%s: %s\n", label, a->noise_flag ? " (cannot be trusted)" : "",
                     a->noise_note);
     }
-    size_t n_ample = 0, n_thin = 0, n_blind = 0;
+    size_t n_ample = 0, n_underpowered = 0, n_blind = 0;
     for (size_t i = 0; i < as->n; i++) {
         n_ample += as->items[i].verdict == COV_AMPLE;
-        n_thin += as->items[i].verdict == COV_THIN;
+        n_underpowered += as->items[i].verdict == COV_UNDERPOWERED;
         n_blind += as->items[i].verdict == COV_BLIND;
     }
-    fprintf(out, "\n%zu claims: %zu ample, %zu thin, %zu untestable\n", as->n, n_ample, n_thin,
+    fprintf(out, "\n%zu claims: %zu ample, %zu underpowered, %zu untestable\n", as->n, n_ample, n_underpowered,
             n_blind);
 }
 
@@ -97,10 +97,10 @@ static void csv_text(FILE *out, const char *s)
 static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
                       FILE *out)
 {
-    fputs("kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,"
+    fputs("kind,treatment,outcome,adjustment_set,effect_of_interest,effect_unit,sign,status,"
           "steerable,n,df,sigma,sd_treatment_resid,alpha,power,power_lo,power_hi,mde,mde_lo,"
           "mde_hi,runs_needed,effect_raw,estimate,se,verdict,noise_flag,noise_note,reason,"
-          "minimal_conditioning\n", out);
+          "minimal_adjustment_set\n", out);
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
         const cov_assessment *a = &as->items[i];
@@ -140,7 +140,7 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_asses
                        FILE *out)
 {
     const cov_power_options *p = &as->opt;
-    fputs("{\"schema_version\": 1, \"alpha\": ", out);
+    fputs("{\"schema_version\": 2, \"alpha\": ", out);
     cov_emit_json_number(out, p->alpha);
     fprintf(out, ", \"family\": \"%s\", \"family_size\": %zu, \"sides\": \"%s\", "
             "\"target_power\": ", p->bonferroni ? "bonferroni" : "none", as->n_testable,

@@ -14,7 +14,7 @@
 #include "coverage/report/report.h"
 
 #define DEFAULT_REPORT_DIR "shoal-report"
-/* The terminal lists this many thin or untestable claims; the report has them all. */
+/* The terminal lists this many underpowered or untestable claims; the report has them all. */
 #define TERMINAL_CLAIMS 12
 
 /* ANSI colours, used only when the driver says stdout is a terminal without NO_COLOR. */
@@ -159,7 +159,7 @@ static void term_text(FILE *out, const char *s)
 
 static const char *verdict_colour(cov_verdict v)
 {
-    return v == COV_AMPLE ? C_AMPLE : v == COV_THIN ? C_THIN : C_BLIND;
+    return v == COV_AMPLE ? C_AMPLE : v == COV_UNDERPOWERED ? C_THIN : C_BLIND;
 }
 
 static void print_share(FILE *out, const char *label, double x)
@@ -187,9 +187,9 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
     term_text(out, o->archive_path);
     fprintf(out, ": %zu runs in %zu batch%s\n", f->data->n_runs, f->data->n_batches,
             f->data->n_batches == 1 ? "" : "es");
-    fprintf(out, "claims: %zu  %s%lld ample%s  %s%lld thin%s  %s%lld untestable%s\n", f->claims->n,
+    fprintf(out, "claims: %zu  %s%lld ample%s  %s%lld underpowered%s  %s%lld untestable%s\n", f->claims->n,
             col ? C_AMPLE : "", count[COV_AMPLE], col ? C_RESET : "", col ? C_THIN : "",
-            count[COV_THIN], col ? C_RESET : "", col ? C_BLIND : "", count[COV_BLIND],
+            count[COV_UNDERPOWERED], col ? C_RESET : "", col ? C_BLIND : "", count[COV_BLIND],
             col ? C_RESET : "");
     fprintf(out, "coverage (bins or cells with >= %zu runs): ", f->coverage->opt.min_runs);
     print_share(out, "marginal", f->coverage->marginal_share);
@@ -200,9 +200,9 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
             col ? C_RESET : "");
     if (info->adequate)
         fprintf(out, ": every testable claim reaches power %.2f.\n", o->power.target);
-    else if (count[COV_THIN] > 0)
-        fprintf(out, ": %lld testable claim%s below power %.2f.\n", count[COV_THIN],
-                count[COV_THIN] == 1 ? " is" : "s are", o->power.target);
+    else if (count[COV_UNDERPOWERED] > 0)
+        fprintf(out, ": %lld testable claim%s below power %.2f.\n", count[COV_UNDERPOWERED],
+                count[COV_UNDERPOWERED] == 1 ? " is" : "s are", o->power.target);
     else if (unrun > 0)
         fprintf(out, ": %lld claim%s testable by the graph cannot be tested on these runs.\n",
                 unrun, unrun == 1 ? "" : "s");
@@ -223,15 +223,15 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
                 left++;
                 continue;
             }
-            if (shown++ == 0) fputs("\nthinnest first:\n", out);
+            if (shown++ == 0) fputs("\nweakest first:\n", out);
             fprintf(out, "  %s%-10s%s ", col ? verdict_colour(a->verdict) : "",
                     cov_verdict_word(a->verdict), col ? C_RESET : "");
             term_text(out, g->vars[c->treatment].name);
-            fputs(c->kind == COV_CLAIM_EFFECT ? " -> " : " _||_ ", out);
+            fprintf(out, " %s ", cov_claim_arrow(c->kind));
             term_text(out, g->vars[c->outcome].name);
             /* The assessment's reason already gives power and runs needed; say them here only
              * when it is silent. */
-            if (a->verdict == COV_THIN && a->reason == NULL) {
+            if (a->verdict == COV_UNDERPOWERED && a->reason == NULL) {
                 fprintf(out, "  power %.2f", a->power);
                 if (isinf(a->runs_needed))
                     fputs(", not reachable by more runs like these", out);
@@ -259,7 +259,7 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
     if (info->store == COV_HISTORY_NONE) {
         fputs("history: not kept (the archive is not shoal's own; --history FILE keeps it)\n", out);
     } else {
-        fprintf(out, "history: round %zu, kept in ", info->n_rounds);
+        fprintf(out, "history: snapshot %zu, kept in ", info->n_snapshots);
         term_text(out, info->history_path);
         fputc('\n', out);
     }
@@ -304,8 +304,8 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     cov_assessments *as = NULL;
     cov_coverage *cv = NULL;
     cov_supports *sp = NULL;
-    cov_round *rounds = NULL;
-    size_t n_rounds = 0;
+    cov_snapshot *snaps = NULL;
+    size_t n_snapshots = 0;
     double *planned = NULL;
     size_t n_planned = 0;
     char tmp[4096] = "", gate[256], plot_msg[sizeof err->msg + 64], at[32];
@@ -350,7 +350,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         }
     }
     if (store != COV_HISTORY_NONE &&
-        (rc = cov_history_load(history_path, store == COV_HISTORY_SIDE, &rounds, &n_rounds,
+        (rc = cov_history_load(history_path, store == COV_HISTORY_SIDE, &snaps, &n_snapshots,
                                err)) != COV_OK)
         goto fail;
 
@@ -402,22 +402,22 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     if (gmtime_r(&now, &tm_utc) == NULL || strftime(at, sizeof at, "%Y-%m-%dT%H:%M:%SZ",
                                                    &tm_utc) == 0)
         snprintf(at, sizeof at, "unknown");
-    cov_round *grown = realloc(rounds, (n_rounds + 1) * sizeof *grown);
+    cov_snapshot *grown = realloc(snaps, (n_snapshots + 1) * sizeof *grown);
     if (grown == NULL) {
         rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
         goto fail;
     }
-    rounds = grown;
-    cov_round *now_round = &rounds[n_rounds++];
-    cov_round_from_findings(&f, now_round);
-    snprintf(now_round->at, sizeof now_round->at, "%s", at);
+    snaps = grown;
+    cov_snapshot *now_snap = &snaps[n_snapshots++];
+    cov_snapshot_from_findings(&f, now_snap);
+    snprintf(now_snap->at, sizeof now_snap->at, "%s", at);
 
     cov_report_info info = {at, all_ample && !missed, missed ? gate : NULL, plot_note, store,
-                            history_path, rounds, n_rounds};
+                            history_path, snaps, n_snapshots};
     step_note(&o, note, "writing the report");
     if ((rc = cov_report_write(&f, &info, tmp, err)) != COV_OK) goto fail;
     if (store != COV_HISTORY_NONE &&
-        (rc = cov_history_record(history_path, &f, now_round, err)) != COV_OK)
+        (rc = cov_history_record(history_path, &f, now_snap, err)) != COV_OK)
         goto fail;
     if ((rc = move_into_place(tmp, dir, err)) != COV_OK) goto fail;
     tmp[0] = '\0';
@@ -431,7 +431,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     rc = COV_OK;
 fail:
     if (tmp[0] != '\0') remove_flat_dir(tmp);
-    free(rounds);
+    free(snaps);
     free(planned);
     cov_supports_free(sp);
     cov_coverage_free(cv);

@@ -1,4 +1,4 @@
-/* Claims: the effect and absence claims a graph implies, each with its separating set.
+/* Claims: the effect and absence claims a graph implies, each with its adjustment set.
  * See LICENSE. */
 #include <math.h>
 #include <stdio.h>
@@ -71,7 +71,7 @@ static int untestable_reason(const cov_graph *g, const cov_dag *d, size_t x, siz
     if (path == NULL || dir == NULL) goto fail;
     if (cov_dsep_open_path(d, x, y, z, path, dir, &len)) goto fail;
     if (len == 0) {
-        sb_add(&b, "no separating set among recorded variables");
+        sb_add(&b, "no adjustment set among recorded variables");
     } else {
         sb_add(&b, "open path ");
         for (size_t i = 0; i < len; i++) {
@@ -312,7 +312,7 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
 fail:
     if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory deriving the claims");
     else if (rc == COV_ENUMERIC)
-        cov_fail(err, rc, "", "internal check failed: a separating set did not separate");
+        cov_fail(err, rc, "", "internal check failed: an adjustment set did not separate");
     cov_dag_free(full);
     cov_dag_free(cut);
     cov_claims_free(cl);

@@ -199,7 +199,7 @@ static int categorical_overlap(claim_rows *cr, cov_support *s, double treated_le
     size_t *cnt = NULL, *size = NULL;
     double *treated = NULL;
     int propensity = cl->n_cond > COV_STRATA_MAX_COND;
-    /* No separating set, or too few runs to fit a propensity model: one stratum of all runs. */
+    /* No adjustment set, or too few runs to fit a propensity model: one stratum of all runs. */
     int single = cl->n_cond == 0 || (propensity && n <= cr->q + 1);
     if (single) propensity = 0;
     if (stratum == NULL || e == NULL || w == NULL) goto done;
@@ -380,7 +380,7 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
     s->ok = 1;
     if (n == 0) {
         s->ok = 0;
-        s->reason = dup_printf("no run records %s, %s and the whole separating set together",
+        s->reason = dup_printf("no run records %s, %s and the whole adjustment set together",
                                tv->name, g->vars[cl->outcome].name);
         rc = s->reason != NULL ? COV_OK : COV_ENOMEM;
         goto done;
@@ -466,7 +466,7 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
         char share[64], lim[32];
         snprintf(share, sizeof share, "%.1f%%", 100 * s->spread_resid / s->spread);
         snprintf(lim, sizeof lim, "%.0f%%", 100 * COV_MIN_RESID_SHARE);
-        char *part = dup_printf("keeps %s of its spread once the separating set is known "
+        char *part = dup_printf("keeps %s of its spread once the adjustment set is known "
                                 "(below %s)", share, lim);
         if (part == NULL) goto done;
         s->ok = 0;

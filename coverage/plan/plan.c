@@ -100,7 +100,7 @@ int cov_plan_var_present(const cov_data *d, size_t v, size_t i)
     return d->col[v] != NULL && !isnan(d->col[v][i]);
 }
 
-/* The design group of a steered claim: intercept, treatment and separating-set columns in ascending
+/* The design group of a steered claim: intercept, treatment and adjustment-set columns in ascending
  * order; claims with the same columns (and, when the outcome has missing cells, the same outcome)
  * share one inverse. */
 static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, size_t *first,
@@ -325,7 +325,7 @@ static int level_present(const struct plan_state *st, const plan_group *gr, size
 /* A claim's test after the planned runs so far, coded as the assessment codes its regression
  * (coverage/archive/design.c): a level-set input has dummies only for the levels present in the rows (the
  * group's archive rows and the planned runs), against the first present level. A level a planned
- * run brings in adds a column: one more parameter for a separating-set input, one more level (and
+ * run brings in adds a column: one more parameter for a adjustment-set input, one more level (and
  * from three on the F test, as coverage/assess/assess.c chooses) for the treatment. *t is w->pd0 so
  * adjusted; *info its coded information in that design (PW_TEST_LEVELS_F: the least favourable
  * pattern, power/levels.c), from the Sherman-Morrison inverse when every column is in and else
@@ -518,17 +518,17 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
     return COV_OK;
 }
 
-/* The candidate set, with the level combinations of the thin claims: only the steered claims still
+/* The candidate set, with the level combinations of the underpowered claims: only the steered claims still
  * short of their need ask for their combinations. */
 static int plan_candidates(struct plan_state *st, unsigned long seed)
 {
-    unsigned char *thin = calloc(st->c->n + 1, 1);
-    if (thin == NULL) return COV_ENOMEM;
+    unsigned char *under = calloc(st->c->n + 1, 1);
+    if (under == NULL) return COV_ENOMEM;
     for (size_t i = 0; i < st->c->n; i++)
-        thin[i] = st->c->items[i].status == COV_TESTABLE && st->w[i].steered &&
+        under[i] = st->c->items[i].status == COV_TESTABLE && st->w[i].steered &&
                   pw_aug_active(st->aug, st->w[i].target);
-    int rc = cov_plan_candidates(st->g, st->c, thin, seed, &st->cand_vals, &st->n_cand);
-    free(thin);
+    int rc = cov_plan_candidates(st->g, st->c, under, seed, &st->cand_vals, &st->n_cand);
+    free(under);
     return rc;
 }
 

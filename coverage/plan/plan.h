@@ -12,9 +12,9 @@
 
 /* How the plan predicts one claim's power after the planned runs. */
 typedef enum {
-    COV_PLAN_STEERED,     /* treatment and separating set are inputs: the augmented design's
+    COV_PLAN_STEERED,     /* treatment and adjustment set are inputs: the augmented design's
                              coefficient variance, by Sherman-Morrison updates */
-    COV_PLAN_ASSUMED,     /* an output in the treatment or separating set: new runs assumed to add
+    COV_PLAN_ASSUMED,     /* an output in the treatment or adjustment set: new runs assumed to add
                              information as the current ones do (n scaled) */
     COV_PLAN_UNSIZED      /* no runs and no declared noise SD for the outcome: cannot be sized */
 } cov_plan_mode;
@@ -77,10 +77,10 @@ int cov_plan_is_numeric(const cov_var *v);
 int cov_plan_var_present(const cov_data *d, size_t v, size_t i);
 /* The candidate runs from seed: scrambled Sobol points, the same rounded to the domain ends, the
  * centre and one-at-a-time extremes, then the level combinations (capped) of the level-set inputs
- * of each claim i of c with thin[i] nonzero, in claim order. *cand_vals gets *n_cand rows of
+ * of each claim i of c with under[i] nonzero, in claim order. *cand_vals gets *n_cand rows of
  * g->n_vars values (NAN for non-inputs), malloc'd for the caller to free; COV_OK, COV_ENOMEM, or
  * COV_ENUMERIC when the Sobol generator fails (then *cand_vals is NULL). */
-int cov_plan_candidates(const cov_graph *g, const cov_claims *c, const unsigned char *thin,
+int cov_plan_candidates(const cov_graph *g, const cov_claims *c, const unsigned char *under,
                         unsigned long seed, double **cand_vals, size_t *n_cand);
 /* The coverage bonus of the candidates: the 2-way cells (copt's bins) still under copt->min_runs
  * runs that a candidate falls in, and its distance to the nearest run. */

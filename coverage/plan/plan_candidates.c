@@ -103,9 +103,9 @@ static int cand_push(cand_set *cs, const double *vals)
 }
 
 /* The candidate set: scrambled Sobol points, the same rounded to the domain ends (corners), the
- * centre and one-at-a-time extremes, and every combination of the level sets that thin steered
+ * centre and one-at-a-time extremes, and every combination of the level sets that underpowered steered
  * claims use. */
-int cov_plan_candidates(const cov_graph *g, const cov_claims *c, const unsigned char *thin,
+int cov_plan_candidates(const cov_graph *g, const cov_claims *c, const unsigned char *under,
                         unsigned long seed, double **cand_vals, size_t *n_cand)
 {
     size_t nv = g->n_vars;
@@ -167,7 +167,7 @@ int cov_plan_candidates(const cov_graph *g, const cov_claims *c, const unsigned 
         if ((rc = cand_push(&cs, vals)) != COV_OK) goto fail;
         vals[free_in[k]] = mid;
     }
-    /* Level combinations: for each thin claim's level-set inputs, every combination, the other
+    /* Level combinations: for each underpowered claim's level-set inputs, every combination, the other
      * inputs taken from the corner points in turn. */
     size_t *lv = malloc((nv + 1) * sizeof *lv), *digit = malloc((nv + 1) * sizeof *digit);
     if (lv == NULL || digit == NULL) {
@@ -179,7 +179,7 @@ int cov_plan_candidates(const cov_graph *g, const cov_claims *c, const unsigned 
     size_t rot = 0;
     for (size_t i = 0; i < c->n; i++) {
         const cov_claim *cl = &c->items[i];
-        if (!thin[i]) continue;
+        if (!under[i]) continue;
         size_t n_lv = 0;
         for (size_t m = 0; m <= cl->n_cond; m++) {
             size_t v = m < cl->n_cond ? cl->cond[m] : cl->treatment;

@@ -1,4 +1,4 @@
-/* History of survey rounds: kept in shoal's own archive or in a --history side file.
+/* History of surveys, one snapshot each: kept in shoal's own archive or in a --history side file.
  * See LICENSE. */
 #include <errno.h>
 #include <math.h>
@@ -15,26 +15,26 @@
 #define HISTORY_BUSY_MS 5000
 
 static const char history_schema[] =
-    "CREATE TABLE IF NOT EXISTS shoal_rounds ("
+    "CREATE TABLE IF NOT EXISTS shoal_snapshots ("
     " id INTEGER PRIMARY KEY, surveyed_at TEXT NOT NULL, graph TEXT, archive TEXT,"
     " runs INTEGER NOT NULL, batches INTEGER NOT NULL, ample INTEGER NOT NULL,"
-    " thin INTEGER NOT NULL, untestable INTEGER NOT NULL,"
+    " underpowered INTEGER NOT NULL, untestable INTEGER NOT NULL,"
     " marginal_share REAL, pairwise_share REAL, threeway_share REAL);"
-    "CREATE TABLE IF NOT EXISTS shoal_round_claims ("
-    " round INTEGER NOT NULL REFERENCES shoal_rounds(id), claim INTEGER NOT NULL,"
+    "CREATE TABLE IF NOT EXISTS shoal_snapshot_claims ("
+    " snapshot INTEGER NOT NULL REFERENCES shoal_snapshots(id), claim INTEGER NOT NULL,"
     " kind TEXT NOT NULL, treatment TEXT NOT NULL, outcome TEXT NOT NULL, verdict TEXT NOT NULL,"
-    " runs INTEGER, power REAL, mde REAL, runs_needed REAL, PRIMARY KEY (round, claim));";
+    " runs INTEGER, power REAL, mde REAL, runs_needed REAL, PRIMARY KEY (snapshot, claim));";
 
-void cov_round_from_findings(const cov_findings *f, cov_round *r)
+void cov_snapshot_from_findings(const cov_findings *f, cov_snapshot *r)
 {
     r->n_runs = f->data ? (long long)f->data->n_runs : 0;
     r->n_batches = f->data ? (long long)f->data->n_batches : 0;
-    r->n_ample = r->n_thin = r->n_blind = 0;
+    r->n_ample = r->n_underpowered = r->n_blind = 0;
     for (size_t i = 0; i < f->claims->n; i++) {
         cov_verdict v = f->assess && i < f->assess->n ? f->assess->items[i].verdict
-                        : f->claims->items[i].status == COV_TESTABLE ? COV_THIN : COV_BLIND;
+                        : f->claims->items[i].status == COV_TESTABLE ? COV_UNDERPOWERED : COV_BLIND;
         if (v == COV_AMPLE) r->n_ample++;
-        else if (v == COV_THIN) r->n_thin++;
+        else if (v == COV_UNDERPOWERED) r->n_underpowered++;
         else r->n_blind++;
     }
     r->marginal_share = f->coverage ? f->coverage->marginal_share : NAN;
@@ -53,7 +53,7 @@ static double column_real(sqlite3_stmt *st, int k)
     return sqlite3_column_type(st, k) == SQLITE_NULL ? NAN : sqlite3_column_double(st, k);
 }
 
-int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_t *n,
+int cov_history_load(const char *db_path, int missing_ok, cov_snapshot **out, size_t *n,
                      cov_error *err)
 {
     *out = NULL;
@@ -66,7 +66,7 @@ int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_
     }
     sqlite3 *db = NULL;
     sqlite3_stmt *st = NULL;
-    cov_round *rounds = NULL;
+    cov_snapshot *snaps = NULL;
     size_t count = 0, cap = 0;
     int rc;
     if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READONLY, NULL) != SQLITE_OK) {
@@ -74,9 +74,9 @@ int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_
         goto fail;
     }
     /* Asking the schema first tells a file that is not SQLite (an error) from one with no
-     * history yet (no rounds). */
+     * history yet (no snapshots). */
     if (sqlite3_prepare_v2(db, "SELECT count(*) FROM sqlite_master WHERE type = 'table' AND "
-                               "name = 'shoal_rounds'", -1, &st, NULL) != SQLITE_OK ||
+                               "name = 'shoal_snapshots'", -1, &st, NULL) != SQLITE_OK ||
         sqlite3_step(st) != SQLITE_ROW) {
         rc = sql_fail(err, COV_EINPUT, db, db_path, "not an SQLite file with history:");
         goto fail;
@@ -85,9 +85,9 @@ int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_
     sqlite3_finalize(st);
     st = NULL;
     if (has_table) {
-        if (sqlite3_prepare_v2(db, "SELECT surveyed_at, runs, batches, ample, thin, untestable, "
+        if (sqlite3_prepare_v2(db, "SELECT surveyed_at, runs, batches, ample, underpowered, untestable, "
                                    "marginal_share, pairwise_share, threeway_share "
-                                   "FROM shoal_rounds ORDER BY id", -1, &st, NULL) != SQLITE_OK) {
+                                   "FROM shoal_snapshots ORDER BY id", -1, &st, NULL) != SQLITE_OK) {
             rc = sql_fail(err, COV_EIO, db, db_path, "cannot read the history in");
             goto fail;
         }
@@ -95,21 +95,21 @@ int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_
         while ((step = sqlite3_step(st)) == SQLITE_ROW) {
             if (count == cap) {
                 size_t bigger = cap ? 2 * cap : 8;
-                cov_round *grown = realloc(rounds, bigger * sizeof *grown);
+                cov_snapshot *grown = realloc(snaps, bigger * sizeof *grown);
                 if (grown == NULL) {
                     rc = cov_fail(err, COV_ENOMEM, "", "out of memory reading the history");
                     goto fail;
                 }
-                rounds = grown;
+                snaps = grown;
                 cap = bigger;
             }
-            cov_round *r = &rounds[count++];
+            cov_snapshot *r = &snaps[count++];
             const unsigned char *at = sqlite3_column_text(st, 0);
             snprintf(r->at, sizeof r->at, "%s", at ? (const char *)at : "");
             r->n_runs = sqlite3_column_int64(st, 1);
             r->n_batches = sqlite3_column_int64(st, 2);
             r->n_ample = sqlite3_column_int64(st, 3);
-            r->n_thin = sqlite3_column_int64(st, 4);
+            r->n_underpowered = sqlite3_column_int64(st, 4);
             r->n_blind = sqlite3_column_int64(st, 5);
             r->marginal_share = column_real(st, 6);
             r->pairwise_share = column_real(st, 7);
@@ -122,13 +122,13 @@ int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_
     }
     sqlite3_finalize(st);
     sqlite3_close(db);
-    *out = rounds;
+    *out = snaps;
     *n = count;
     return COV_OK;
 fail:
     sqlite3_finalize(st);
     sqlite3_close(db);
-    free(rounds);
+    free(snaps);
     return rc;
 }
 
@@ -138,7 +138,7 @@ static void bind_real(sqlite3_stmt *st, int k, double x)
     else sqlite3_bind_null(st, k);
 }
 
-int cov_history_record(const char *db_path, const cov_findings *f, const cov_round *r,
+int cov_history_record(const char *db_path, const cov_findings *f, const cov_snapshot *r,
                        cov_error *err)
 {
     sqlite3 *db = NULL;
@@ -158,8 +158,8 @@ int cov_history_record(const char *db_path, const cov_findings *f, const cov_rou
     }
     in_tx = 1;
     if (sqlite3_exec(db, history_schema, NULL, NULL, NULL) != SQLITE_OK ||
-        sqlite3_prepare_v2(db, "INSERT INTO shoal_rounds (surveyed_at, graph, archive, runs, "
-                               "batches, ample, thin, untestable, marginal_share, pairwise_share, "
+        sqlite3_prepare_v2(db, "INSERT INTO shoal_snapshots (surveyed_at, graph, archive, runs, "
+                               "batches, ample, underpowered, untestable, marginal_share, pairwise_share, "
                                "threeway_share) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)", -1, &st,
                            NULL) != SQLITE_OK) {
         rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
@@ -172,7 +172,7 @@ int cov_history_record(const char *db_path, const cov_findings *f, const cov_rou
     sqlite3_bind_int64(st, 4, r->n_runs);
     sqlite3_bind_int64(st, 5, r->n_batches);
     sqlite3_bind_int64(st, 6, r->n_ample);
-    sqlite3_bind_int64(st, 7, r->n_thin);
+    sqlite3_bind_int64(st, 7, r->n_underpowered);
     sqlite3_bind_int64(st, 8, r->n_blind);
     bind_real(st, 9, r->marginal_share);
     bind_real(st, 10, r->pairwise_share);
@@ -181,10 +181,10 @@ int cov_history_record(const char *db_path, const cov_findings *f, const cov_rou
         rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
         goto fail;
     }
-    sqlite3_int64 round_id = sqlite3_last_insert_rowid(db);
+    sqlite3_int64 snapshot_id = sqlite3_last_insert_rowid(db);
     sqlite3_finalize(st);
     st = NULL;
-    if (sqlite3_prepare_v2(db, "INSERT INTO shoal_round_claims (round, claim, kind, treatment, "
+    if (sqlite3_prepare_v2(db, "INSERT INTO shoal_snapshot_claims (snapshot, claim, kind, treatment, "
                                "outcome, verdict, runs, power, mde, runs_needed) "
                                "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)", -1, &st, NULL) != SQLITE_OK) {
         rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
@@ -193,12 +193,12 @@ int cov_history_record(const char *db_path, const cov_findings *f, const cov_rou
     for (size_t i = 0; i < f->claims->n; i++) {
         const cov_claim *c = &f->claims->items[i];
         const cov_assessment *a = f->assess && i < f->assess->n ? &f->assess->items[i] : NULL;
-        cov_verdict v = a ? a->verdict : c->status == COV_TESTABLE ? COV_THIN : COV_BLIND;
+        cov_verdict v = a ? a->verdict : c->status == COV_TESTABLE ? COV_UNDERPOWERED : COV_BLIND;
         sqlite3_reset(st);
         sqlite3_clear_bindings(st);
-        sqlite3_bind_int64(st, 1, round_id);
+        sqlite3_bind_int64(st, 1, snapshot_id);
         sqlite3_bind_int64(st, 2, (sqlite3_int64)i + 1);
-        sqlite3_bind_text(st, 3, c->kind == COV_CLAIM_EFFECT ? "effect" : "absence", -1,
+        sqlite3_bind_text(st, 3, cov_claim_kind_word(c->kind), -1,
                           SQLITE_STATIC);
         sqlite3_bind_text(st, 4, f->graph->vars[c->treatment].name, -1, SQLITE_TRANSIENT);
         sqlite3_bind_text(st, 5, f->graph->vars[c->outcome].name, -1, SQLITE_TRANSIENT);

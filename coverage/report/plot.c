@@ -12,7 +12,7 @@
 
 /* Layout: 900 x 560 (COV_PLOT_H) reads well beside text in a report and on a laptop screen. */
 #define PLOT_W 900
-#define MAX_PAIR_PLOTS 4       /* cell grids of the thinnest pairs */
+#define MAX_PAIR_PLOTS 4       /* cell grids of the sparsest pairs */
 #define MATRIX_LABEL_MAX 14    /* beyond this many inputs the matrix cells are too small to label */
 #define GRID_LABEL_MAX 144     /* likewise for the cells of a pair's grid */
 #define MAX_POINTS 4000        /* runs drawn per pair grid; more are thinned evenly */
@@ -36,12 +36,12 @@ enum plot_kind { PLOT_PAIRS, PLOT_PAIR, PLOT_POWER, PLOT_MDE, PLOT_CURVES };
 
 typedef struct {
     enum plot_kind kind;
-    size_t arg;       /* PLOT_PAIR: the rank among the thinnest pairs (0 = thinnest) */
+    size_t arg;       /* PLOT_PAIR: the rank among the thinnest pairs (0 = sparsest) */
 } plot_ref;
 
 #define MAX_PLOTS (1 + MAX_PAIR_PLOTS + 3)
 
-/* The thin pairs drawn cell by cell: up to MAX_PAIR_PLOTS of those not fully covered, worst first;
+/* The sparse pairs drawn cell by cell: up to MAX_PAIR_PLOTS of those not fully covered, worst first;
  * when every pair is covered, the worst one still, so the report always shows where runs lie. */
 static size_t pair_plot_count(const cov_findings *f)
 {
@@ -92,7 +92,7 @@ static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
     case PLOT_PAIRS:
         snprintf(out, size,
                  "Pairwise coverage: for every pair of inputs, the share of its cells that hold at "
-                 "least %zu runs. Darker is thinner; the outlined pairs are drawn cell by cell "
+                 "least %zu runs. Darker is sparser; the outlined pairs are drawn cell by cell "
                  "next.",
                  min_runs);
         return;
@@ -101,7 +101,7 @@ static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
         snprintf(out, size,
                  "%s pair %zu: %s by %s. Each cell shows its run count; grey cells hold no run, "
                  "sand cells fewer than %zu; dots are runs%s.",
-                 p->share < 1 ? "Thin" : "Every pair is covered;", r.arg + 1,
+                 p->share < 1 ? "Sparse" : "Every pair is covered;", r.arg + 1,
                  cov_plot_var_name(f, p->a, a, sizeof a), cov_plot_var_name(f, p->b, b, sizeof b),
                  min_runs,
                  f->n_planned ? ", triangles the planned runs" : "");
@@ -110,7 +110,7 @@ static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
     case PLOT_POWER:
         snprintf(out, size,
                  "Power of each testable claim at its effect of interest, lowest first, with the "
-                 "target power dashed. Blue bars are ample, orange bars too thin.");
+                 "target power dashed. Blue bars are ample, orange bars underpowered.");
         return;
     case PLOT_MDE:
         snprintf(out, size,
@@ -278,7 +278,7 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
     snprintf(line, sizeof line, "Pairwise coverage: share of each pair's cells with at least %zu "
              "runs", c->opt.min_runs);
     cov_plot_title(s, line,
-              "outlined and numbered: the thinnest pairs, drawn cell by cell in the next plots");
+              "outlined and numbered: the sparsest pairs, drawn cell by cell in the next plots");
     fputs("set size ratio -1\nset xtics scale 0 rotate by 40 right (", s);
     for (size_t i = 0; i + 1 < n; i++) {
         if (i) fputs(", ", s);
@@ -317,7 +317,7 @@ static int plot_pairs(FILE *s, const cov_findings *f, const char *dir)
     return COV_OK;
 }
 
-/* ---- 2. the cell grid of one thin pair ------------------------------------------------------- */
+/* ---- 2. the cell grid of one sparse pair ------------------------------------------------------- */
 
 /* How one input's bins sit on its axis. */
 typedef struct {
@@ -463,7 +463,7 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
     }
     const char *name_a = cov_plot_var_name(f, p->a, na, sizeof na);
     const char *name_b = cov_plot_var_name(f, p->b, nb, sizeof nb);
-    snprintf(line, sizeof line, "%s %zu: %s by %s", p->share < 1 ? "Thin pair" : "Pair", rank + 1,
+    snprintf(line, sizeof line, "%s %zu: %s by %s", p->share < 1 ? "Sparse pair" : "Pair", rank + 1,
              name_a, name_b);
     snprintf(line2, sizeof line2, "%zu of %zu cells hold at least %zu runs; %zu cells are empty",
              covered, p->na * p->nb, min_runs, p->n_empty);

@@ -12,7 +12,7 @@
 #define PLOT_MAX_ROWS 30
 #define ROW_PX 17
 #define ROW_MARGIN_PX 150
-#define MAX_CURVES 4           /* power curves of the thinnest claims */
+#define MAX_CURVES 4           /* power curves of the weakest claims */
 #define CURVE_STEPS 80         /* points per power curve: smooth at 900 px */
 #define CURVE_HEADROOM 1.3     /* the x axis runs 30% past the largest need, to show the plateau */
 #define CURVE_LOG_RATIO 8.0    /* needs further apart than this share one plot on a log axis */
@@ -20,7 +20,7 @@
 
 /* Verdict colours, chosen by the palette's rules in coverage/report/plot.c. */
 #define C_AMPLE   "#2B5C9E"   /* ample: dark blue, CIE L* about 39 */
-#define C_THIN    "#E3872D"   /* thin: orange, L* about 65; blue against orange survives deutan and
+#define C_UNDER   "#E3872D"   /* underpowered: orange, L* about 65; blue against orange survives deutan and
                                  protan vision, the lightness gap tritan vision and grey */
 /* Power curves: navy, vermilion, sky, gold; L* about 25, 48, 67, 82; distinct dashes and points. */
 static const char *const curve_colour[MAX_CURVES] = {"#1B3A6B", "#C8471B", "#5AA9D6", "#E9C46A"};
@@ -84,13 +84,13 @@ void cov_plot_claim_counts(const cov_findings *f, size_t *power, size_t *mde, si
     }
 }
 
-/* "A -> B" for an effect claim, "A -/-> B" for an absence claim. */
+/* The claim in the compact notation without its adjustment set (cov_claim_arrow). */
 static void claim_label(const cov_findings *f, size_t claim, char *out, size_t size)
 {
     const cov_claim *c = &f->claims->items[claim];
     char a[COV_PLOT_NAME_SHOWN + 8], b[COV_PLOT_NAME_SHOWN + 8];
     snprintf(out, size, "%s %s %s", cov_plot_var_name(f, c->treatment, a, sizeof a),
-             c->kind == COV_CLAIM_EFFECT ? "->" : "-/->",
+             cov_claim_arrow(c->kind),
              cov_plot_var_name(f, c->outcome, b, sizeof b));
 }
 
@@ -122,24 +122,24 @@ static void row_tics(FILE *s, const cov_findings *f, const row_key *rows, size_t
     fprintf(s, ")\nset yrange [%zu.5:0.5]\n", n);
 }
 
-/* Legend entries for the verdict colours present among the shown rows: "ample" and "too thin",
+/* Legend entries for the verdict colours present among the shown rows: "ample" and "underpowered",
  * each drawn as `sample` (a gnuplot style) and titled with `prefix` in front. */
 static void verdict_keys(char *out, size_t size, const cov_findings *f, const row_key *rows,
                          size_t n, const char *sample, const char *prefix)
 {
-    int ample = 0, thin = 0;
+    int ample = 0, under = 0;
     for (size_t r = 0; r < n; r++) {
         if (f->assess->items[rows[r].idx].verdict == COV_AMPLE) ample = 1;
-        else thin = 1;
+        else under = 1;
     }
     int len = 0;
     out[0] = '\0';
     if (ample)
         len = snprintf(out, size, ", \\\n  keyentry with %s lc rgb '" C_AMPLE "' title '%sample'",
                        sample, prefix);
-    if (thin && len >= 0 && (size_t)len < size)
+    if (under && len >= 0 && (size_t)len < size)
         snprintf(out + len, size - (size_t)len,
-                 ", \\\n  keyentry with %s lc rgb '" C_THIN "' title '%stoo thin'", sample, prefix);
+                 ", \\\n  keyentry with %s lc rgb '" C_UNDER "' title '%sunderpowered'", sample, prefix);
 }
 
 static void rows_title(FILE *s, const char *what, size_t shown_n, size_t total, const char *line2)

@@ -39,7 +39,7 @@ cov_verdict cov_report_verdict(const cov_findings *f, size_t i)
 {
     const cov_assessment *a = cov_report_assessment(f, i);
     if (a != NULL) return a->verdict;
-    return f->claims->items[i].status == COV_TESTABLE ? COV_THIN : COV_BLIND;
+    return f->claims->items[i].status == COV_TESTABLE ? COV_UNDERPOWERED : COV_BLIND;
 }
 
 /* The one-line reason for a claim's verdict, or NULL when there is nothing to say. */
@@ -60,7 +60,7 @@ static double power_of(const cov_findings *f, size_t i)
     return a != NULL ? a->power : NAN;
 }
 
-static int order_rank(cov_verdict v) { return v == COV_THIN ? 0 : v == COV_BLIND ? 1 : 2; }
+static int order_rank(cov_verdict v) { return v == COV_UNDERPOWERED ? 0 : v == COV_BLIND ? 1 : 2; }
 
 void cov_report_order(const cov_findings *f, size_t *order)
 {
@@ -86,13 +86,13 @@ void cov_report_order(const cov_findings *f, size_t *order)
 
 void cov_report_count_verdicts(const cov_findings *f, long long count[3])
 {
-    count[COV_AMPLE] = count[COV_THIN] = count[COV_BLIND] = 0;
+    count[COV_AMPLE] = count[COV_UNDERPOWERED] = count[COV_BLIND] = 0;
     for (size_t i = 0; i < f->claims->n; i++) count[cov_report_verdict(f, i)]++;
 }
 
 const char *cov_report_kind(const cov_claim *c)
 {
-    return c->kind == COV_CLAIM_EFFECT ? "effect" : "absence";
+    return cov_claim_kind_word(c->kind);
 }
 
 /* The declared effect of interest: "+0.01", "0.25 sd", "|b| < 0.1 sd". */
@@ -127,13 +127,13 @@ static const char *store_word(cov_history_store s)
 
 /* ---- summary.json ----------------------------------------------------------------------------- */
 
-static void json_round(FILE *out, const cov_round *r)
+static void json_round(FILE *out, const cov_snapshot *r)
 {
     fputs("{\"at\": ", out);
     cov_emit_json_string(out, r->at);
-    fprintf(out, ", \"runs\": %lld, \"batches\": %lld, \"ample\": %lld, \"thin\": %lld, "
+    fprintf(out, ", \"runs\": %lld, \"batches\": %lld, \"ample\": %lld, \"underpowered\": %lld, "
                  "\"untestable\": %lld, \"marginal_share\": ", r->n_runs, r->n_batches, r->n_ample,
-            r->n_thin, r->n_blind);
+            r->n_underpowered, r->n_blind);
     cov_emit_json_number(out, r->marginal_share);
     fputs(", \"pairwise_share\": ", out);
     cov_emit_json_number(out, r->pairwise_share);
@@ -272,7 +272,7 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
     const cov_options *o = f->opt;
     long long count[3];
     cov_report_count_verdicts(f, count);
-    fputs("{\n  \"schema_version\": 1,\n  \"graph\": ", out);
+    fputs("{\n  \"schema_version\": 2,\n  \"graph\": ", out);
     cov_emit_json_string(out, f->graph->path);
     fputs(",\n  \"archive\": ", out);
     cov_emit_json_string(out, o && o->archive_path ? o->archive_path : "");
@@ -283,8 +283,8 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
     else fputs("null", out);
     fprintf(out, ",\n  \"runs\": %zu, \"batches\": %zu,\n", f->data ? f->data->n_runs : 0,
             f->data ? f->data->n_batches : 0);
-    fprintf(out, "  \"counts\": {\"claims\": %zu, \"ample\": %lld, \"thin\": %lld, "
-                 "\"untestable\": %lld},\n", f->claims->n, count[COV_AMPLE], count[COV_THIN],
+    fprintf(out, "  \"counts\": {\"claims\": %zu, \"ample\": %lld, \"underpowered\": %lld, "
+                 "\"untestable\": %lld},\n", f->claims->n, count[COV_AMPLE], count[COV_UNDERPOWERED],
             count[COV_BLIND]);
     if (o != NULL) {
         fputs("  \"options\": {\"alpha\": ", out);
@@ -309,10 +309,10 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
     fprintf(out, "},\n  \"history\": {\"store\": \"%s\", \"path\": ", store_word(info->store));
     if (info->history_path) cov_emit_json_string(out, info->history_path);
     else fputs("null", out);
-    fputs(", \"rounds\": [", out);
-    for (size_t r = 0; r < info->n_rounds; r++) {
+    fputs(", \"snapshots\": [", out);
+    for (size_t r = 0; r < info->n_snapshots; r++) {
         fputs(r ? ",\n    " : "\n    ", out);
-        json_round(out, &info->rounds[r]);
+        json_round(out, &info->snapshots[r]);
     }
     fputs("]},\n  \"data\": {\"missing\": {", out);
     size_t shown = 0;
@@ -339,9 +339,9 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
 
 void cov_report_claims_csv(const cov_findings *f, FILE *out)
 {
-    fputs("index,kind,treatment,outcome,conditioning,effect_of_interest,effect_unit,sign,status,"
+    fputs("index,kind,treatment,outcome,adjustment_set,effect_of_interest,effect_unit,sign,status,"
           "steerable,verdict,n,power,power_lo,power_hi,mde,effect_raw,runs_needed,why,"
-          "minimal_conditioning\n", out);
+          "minimal_adjustment_set\n", out);
     for (size_t i = 0; i < f->claims->n; i++) {
         const cov_claim *c = &f->claims->items[i];
         const cov_assessment *a = c->status == COV_TESTABLE ? cov_report_assessment(f, i) : NULL;

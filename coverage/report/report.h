@@ -1,4 +1,4 @@
-/* shoal coverage/report/: the survey's report: plots, gnuplot pipe, HTML, Markdown, history rounds. Private to coverage/.
+/* shoal coverage/report/: the survey's report: plots, gnuplot pipe, HTML, Markdown, history snapshots. Private to coverage/.
  * See LICENSE. */
 #ifndef SHOAL_COVERAGE_REPORT_H
 #define SHOAL_COVERAGE_REPORT_H
@@ -24,29 +24,29 @@ typedef struct {
     size_t n_planned;
 } cov_findings;
 
-/* The figures of one survey, one round of the campaign's history (coverage/history.c). */
+/* The figures of one survey, one snapshot in the history of surveys (coverage/history.c). */
 typedef struct {
     char at[32];              /* UTC, ISO 8601: "2026-12-02T01:30:00Z" */
     long long n_runs;
     long long n_batches;
-    long long n_ample, n_thin, n_blind;
+    long long n_ample, n_underpowered, n_blind;
     double marginal_share, pairwise_share, threeway_share;   /* NAN when not computed */
-} cov_round;
+} cov_snapshot;
 
 /* Where a survey keeps its history: in the owned archive, in a --history side file, or nowhere. */
 typedef enum { COV_HISTORY_NONE, COV_HISTORY_ARCHIVE, COV_HISTORY_SIDE } cov_history_store;
 
 /* Fill r with the counts and shares of f (the time is the caller's). */
-void cov_round_from_findings(const cov_findings *f, cov_round *r);
-/* Read the rounds kept in the SQLite file db_path, oldest first. A file without history tables,
+void cov_snapshot_from_findings(const cov_findings *f, cov_snapshot *r);
+/* Read the snapshots kept in the SQLite file db_path, oldest first. A file without history tables,
  * or (side files only, missing_ok 1) no file at all, gives *n = 0. The file is opened read-only.
  * Free *out with free(). Returns COV_OK, COV_EIO, COV_EINPUT (not SQLite), COV_ENOMEM. */
-int cov_history_load(const char *db_path, int missing_ok, cov_round **out, size_t *n,
+int cov_history_load(const char *db_path, int missing_ok, cov_snapshot **out, size_t *n,
                      cov_error *err);
-/* Append round r and each claim's power to the history tables (shoal_rounds, shoal_round_claims)
+/* Append snapshot r and each claim's power to the history tables (shoal_snapshots, shoal_snapshot_claims)
  * of db_path, created when missing (the side file itself too), in one transaction. The caller
  * guarantees db_path is shoal's own archive or a side file: never the user's archive. */
-int cov_history_record(const char *db_path, const cov_findings *f, const cov_round *r,
+int cov_history_record(const char *db_path, const cov_findings *f, const cov_snapshot *r,
                        cov_error *err);
 
 /* What the report says besides the findings. */
@@ -57,8 +57,8 @@ typedef struct {
     const char *plot_note;    /* NULL when plots were made; else why they were skipped */
     cov_history_store store;
     const char *history_path; /* archive or side file; NULL with COV_HISTORY_NONE */
-    const cov_round *rounds;  /* earlier rounds and this one, oldest first */
-    size_t n_rounds;
+    const cov_snapshot *snapshots; /* earlier snapshots and this one, oldest first */
+    size_t n_snapshots;
 } cov_report_info;
 
 /* Write index.html, report.md, summary.json and claims.csv into the existing directory dir. The
@@ -73,7 +73,7 @@ int cov_report_write(const cov_findings *f, const cov_report_info *info, const c
 void cov_report_summary_json(const cov_findings *f, const cov_report_info *info, FILE *out);
 /* claims.csv alone, to any stream (`shoal survey --csv`). */
 void cov_report_claims_csv(const cov_findings *f, FILE *out);
-/* Ordering of claims for the terminal and the report: thin first by rising power, then
+/* Ordering of claims for the terminal and the report: underpowered first by rising power, then
  * untestable, then ample by rising power. Fills order (f->claims->n entries). */
 void cov_report_order(const cov_findings *f, size_t *order);
 
@@ -87,11 +87,11 @@ extern const size_t cov_report_n_cautions;
 const char *cov_report_var(const cov_findings *f, size_t v);
 /* The assessment of claim i, or NULL when f->assess is NULL or does not reach i. */
 const cov_assessment *cov_report_assessment(const cov_findings *f, size_t i);
-/* Claim i's verdict: its assessment's, else thin for a testable claim and untestable otherwise. */
+/* Claim i's verdict: its assessment's, else underpowered for a testable claim and untestable otherwise. */
 cov_verdict cov_report_verdict(const cov_findings *f, size_t i);
 /* The one-line reason for claim i's verdict (borrowed from f), or NULL when there is none. */
 const char *cov_report_reason(const cov_findings *f, size_t i);
-/* Count the claims of f by verdict into count[COV_AMPLE], count[COV_THIN], count[COV_BLIND]. */
+/* Count the claims of f by verdict into count[COV_AMPLE], count[COV_UNDERPOWERED], count[COV_BLIND]. */
 void cov_report_count_verdicts(const cov_findings *f, long long count[3]);
 /* "effect" or "absence". */
 const char *cov_report_kind(const cov_claim *c);
@@ -111,7 +111,7 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
 /* Plots (coverage/plot.c, coverage/plot_claims.c), drawn by gnuplot through a pipe
  * (coverage/gnuplot.c). Each plot is written twice into the report directory: NAME.svg (svg
  * terminal, to inline) and NAME.png (pngcairo). The names, in report order: "pairs" (pairwise
- * coverage matrix, when >= 2 inputs), "pair-1" .. "pair-4" (cell grids of the thinnest pairs),
+ * coverage matrix, when >= 2 inputs), "pair-1" .. "pair-4" (cell grids of the sparsest pairs),
  * then, when some claim is testable, "power" (power bars), "mde" (MDE beside the effect of
  * interest) and "curves" (power over added runs). The SVG files start with an XML declaration
  * and a DOCTYPE, which inlining must drop. */

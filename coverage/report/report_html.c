@@ -352,7 +352,7 @@ static const char html_style[] =
     "th{background:#eef0ea}table.sortable th{cursor:pointer}table.sortable th:after{content:' "
     "\\2195';color:#8a9099}\n"
     "td.num{text-align:right;font-variant-numeric:tabular-nums}\n"
-    ".v-ample{color:#1f6e99;font-weight:600}.v-thin{color:#b35c0c;font-weight:600}"
+    ".v-ample{color:#1f6e99;font-weight:600}.v-underpowered{color:#b35c0c;font-weight:600}"
     ".v-untestable{color:#5b5f66;font-weight:600;font-style:italic}\n"
     "figure{margin:1em 0;background:#fff;border:1px solid #e1e3dc;padding:.6em}figure img,figure svg{"
     "max-width:100%;height:auto;display:block}figcaption{color:#4a5058;margin-top:.3em}\n"
@@ -389,7 +389,7 @@ static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
 {
     fputs("<div class=\"wide\"><table id=\"claims-table\" class=\"sortable\"><thead><tr>"
           "<th data-type=\"num\">#</th><th>verdict</th><th>kind</th><th>treatment</th>"
-          "<th>outcome</th><th>adjusted for</th><th>effect of interest</th>"
+          "<th>outcome</th><th>adjustment set</th><th>effect of interest</th>"
           "<th data-type=\"num\">in outcome units</th><th data-type=\"num\">runs used</th>"
           "<th data-type=\"num\">power</th><th data-type=\"num\">MDE</th>"
           "<th data-type=\"num\">runs needed</th><th>why</th></tr></thead>\n<tbody>\n", out);
@@ -402,7 +402,13 @@ static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
         fprintf(out, "<tr class=\"claim v-row-%s\">", word);
         snprintf(buf, sizeof buf, "%zu", i + 1);
         html_num_cell(out, (double)(i + 1), buf);
-        fprintf(out, "<td class=\"v-%s\">%s</td><td>%s</td><td>", word, word, cov_report_kind(c));
+        /* The claim in words as the kind cell's tooltip: "no effect of x on y given s". */
+        char words[1024];
+        cov_claim_sentence(f->graph, c, words, sizeof words);
+        words[cov_utf8_valid_prefix(words, strlen(words))] = '\0';
+        fprintf(out, "<td class=\"v-%s\">%s</td><td title=\"", word, word);
+        html_text(out, words);
+        fprintf(out, "\">%s</td><td>", cov_report_kind(c));
         html_text(out, cov_report_var(f, c->treatment));
         fputs("</td><td>", out);
         html_text(out, cov_report_var(f, c->outcome));
@@ -441,7 +447,7 @@ static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
 static void html_plots(FILE *out, const cov_findings *f, const cov_report_info *info,
                        const char *dir, cov_error *err, int *rc)
 {
-    fputs("<section id=\"plots\"><h2>Where the runs are thin</h2>\n", out);
+    fputs("<section id=\"plots\"><h2>Where the runs are sparse</h2>\n", out);
     if (info->plot_note != NULL) {
         fputs("<p class=\"note\">Plots were skipped: ", out);
         html_text(out, info->plot_note);
@@ -547,14 +553,14 @@ static void html_coverage(FILE *out, const cov_findings *f)
     fputs("</section>\n", out);
 }
 
-/* The rounds as a small chart of ample claims against total runs, drawn directly as SVG. */
+/* The snapshots as a small chart of ample claims against total runs, drawn directly as SVG. */
 static void html_history(FILE *out, const cov_findings *f, const cov_report_info *info)
 {
-    fputs("<section id=\"history\"><h2>Campaign rounds</h2>\n", out);
+    fputs("<section id=\"history\"><h2>History of surveys</h2>\n", out);
     if (info->store == COV_HISTORY_NONE) {
         fputs("<p class=\"note\">No history is kept for this archive: it is not one that "
               "<code>shoal import</code> made, and no <code>--history FILE</code> was given, so "
-              "only this round is shown.</p>\n", out);
+              "only this survey is shown.</p>\n", out);
     } else {
         fputs("<p>History kept in the ", out);
         fputs(info->store == COV_HISTORY_ARCHIVE ? "archive " : "side file ", out);
@@ -565,12 +571,12 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
     /* The vertical scale ends at the testable claims: the most that can ever be ample. */
     long long count[3];
     cov_report_count_verdicts(f, count);
-    double max_runs = 1, max_claims = (double)(count[COV_AMPLE] + count[COV_THIN]);
+    double max_runs = 1, max_claims = (double)(count[COV_AMPLE] + count[COV_UNDERPOWERED]);
     if (max_claims < 1) max_claims = 1;
-    for (size_t r = 0; r < info->n_rounds; r++)
-        if ((double)info->rounds[r].n_runs > max_runs) max_runs = (double)info->rounds[r].n_runs;
+    for (size_t r = 0; r < info->n_snapshots; r++)
+        if ((double)info->snapshots[r].n_runs > max_runs) max_runs = (double)info->snapshots[r].n_runs;
     const double w = 520, h = 230, left = 50, right = 20, top = 15, bottom = 40;
-    fprintf(out, "<svg id=\"rounds-chart\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" "
+    fprintf(out, "<svg id=\"snapshots-chart\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" "
                  "role=\"img\" aria-label=\"ample claims against total runs\">\n", w, h, w, h);
     fprintf(out, "<rect x=\"0\" y=\"0\" width=\"%.0f\" height=\"%.0f\" fill=\"#ffffff\"/>\n", w, h);
     fprintf(out, "<line x1=\"%.0f\" y1=\"%.0f\" x2=\"%.0f\" y2=\"%.0f\" stroke=\"#555\"/>"
@@ -593,19 +599,19 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
                  "text-anchor=\"end\" fill=\"#b35c0c\">all %.0f testable claims</text>\n",
             left, top, w - right, top, w - right, top + 13, max_claims);
     fputs("<polyline fill=\"none\" stroke=\"#1f6e99\" stroke-width=\"2\" points=\"", out);
-    for (size_t r = 0; r < info->n_rounds; r++)
-        fprintf(out, "%.1f,%.1f ", left + (w - left - right) * info->rounds[r].n_runs / max_runs,
-                h - bottom - (h - top - bottom) * info->rounds[r].n_ample / max_claims);
+    for (size_t r = 0; r < info->n_snapshots; r++)
+        fprintf(out, "%.1f,%.1f ", left + (w - left - right) * info->snapshots[r].n_runs / max_runs,
+                h - bottom - (h - top - bottom) * info->snapshots[r].n_ample / max_claims);
     fputs("\"/>\n", out);
-    for (size_t r = 0; r < info->n_rounds; r++)
+    for (size_t r = 0; r < info->n_snapshots; r++)
         fprintf(out, "<circle cx=\"%.1f\" cy=\"%.1f\" r=\"4.5\" fill=\"#1f6e99\"/>\n",
-                left + (w - left - right) * info->rounds[r].n_runs / max_runs,
-                h - bottom - (h - top - bottom) * info->rounds[r].n_ample / max_claims);
-    fputs("</svg>\n<table><thead><tr><th>round</th><th>when (UTC)</th><th>runs</th>"
-          "<th>batches</th><th>ample</th><th>thin</th><th>untestable</th><th>2-way</th></tr>"
+                left + (w - left - right) * info->snapshots[r].n_runs / max_runs,
+                h - bottom - (h - top - bottom) * info->snapshots[r].n_ample / max_claims);
+    fputs("</svg>\n<table><thead><tr><th>snapshot</th><th>when (UTC)</th><th>runs</th>"
+          "<th>batches</th><th>ample</th><th>underpowered</th><th>untestable</th><th>2-way</th></tr>"
           "</thead><tbody>\n", out);
-    for (size_t r = 0; r < info->n_rounds; r++) {
-        const cov_round *rd = &info->rounds[r];
+    for (size_t r = 0; r < info->n_snapshots; r++) {
+        const cov_snapshot *rd = &info->snapshots[r];
         char buf[64];
         cov_report_share_text(rd->pairwise_share, buf, sizeof buf);
         fprintf(out, "<tr><td class=\"num\">%zu</td><td>", r + 1);
@@ -613,7 +619,7 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
         fprintf(out, "</td><td class=\"num\">%lld</td><td class=\"num\">%lld</td>"
                      "<td class=\"num\">%lld</td><td class=\"num\">%lld</td>"
                      "<td class=\"num\">%lld</td><td class=\"num\">%s</td></tr>\n", rd->n_runs,
-                rd->n_batches, rd->n_ample, rd->n_thin, rd->n_blind, buf);
+                rd->n_batches, rd->n_ample, rd->n_underpowered, rd->n_blind, buf);
     }
     fputs("</tbody></table>\n</section>\n", out);
 }
@@ -642,7 +648,7 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
     fprintf(out, "<section id=\"summary\" class=\"verdict%s\"><p class=\"big\">%s</p>\n",
             info->adequate ? " ok" : "",
             info->adequate ? "Adequate: every testable claim has the power it needs."
-                           : "Not adequate yet: some testable claims are too thin.");
+                           : "Not adequate yet: some testable claims are underpowered.");
     if (info->gate_note) {
         fputs("<p>", out);
         html_text(out, info->gate_note);
@@ -653,9 +659,9 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
             f->data ? f->data->n_runs : 0, f->data ? f->data->n_batches : 0,
             f->data && f->data->n_batches == 1 ? "" : "es");
     fprintf(out, "<div class=\"card\"><b class=\"v-ample\">%lld</b>ample claims</div>"
-                 "<div class=\"card\"><b class=\"v-thin\">%lld</b>thin claims</div>"
+                 "<div class=\"card\"><b class=\"v-underpowered\">%lld</b>underpowered claims</div>"
                  "<div class=\"card\"><b class=\"v-untestable\">%lld</b>untestable claims</div>",
-            count[COV_AMPLE], count[COV_THIN], count[COV_BLIND]);
+            count[COV_AMPLE], count[COV_UNDERPOWERED], count[COV_BLIND]);
     if (f->coverage != NULL) {
         cov_report_share_text(f->coverage->marginal_share, buf, sizeof buf);
         fprintf(out, "<div class=\"card\"><b>%s</b>marginal coverage</div>", buf);

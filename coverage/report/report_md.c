@@ -1,4 +1,4 @@
-/* The survey report's report.md: the verdict, the claims and the rounds in Markdown.
+/* The survey report's report.md: the verdict, the claims and the history of surveys in Markdown.
  * See LICENSE. */
 #include <math.h>
 #include <stdio.h>
@@ -55,10 +55,10 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
     md_name(out, f->opt && f->opt->archive_path ? f->opt->archive_path : "");
     fputs(", surveyed ", out);
     md_text(out, info->generated);
-    fprintf(out, " (UTC).\n\n**%s** %zu runs in %zu batch%s: %lld ample, %lld thin, %lld "
+    fprintf(out, " (UTC).\n\n**%s** %zu runs in %zu batch%s: %lld ample, %lld underpowered, %lld "
                  "untestable claims.\n", info->adequate ? "Adequate." : "Not adequate yet.",
             f->data ? f->data->n_runs : 0, f->data ? f->data->n_batches : 0,
-            f->data && f->data->n_batches == 1 ? "" : "es", count[COV_AMPLE], count[COV_THIN],
+            f->data && f->data->n_batches == 1 ? "" : "es", count[COV_AMPLE], count[COV_UNDERPOWERED],
             count[COV_BLIND]);
     if (info->gate_note) {
         fputs("\n", out);
@@ -73,7 +73,7 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
         fprintf(out, "\nCoverage (bins or cells with at least %zu runs): marginal %s, 2-way %s, "
                      "3-way %s.\n", f->coverage->opt.min_runs, m, p2, p3);
     }
-    fputs("\n## Claims\n\n| # | verdict | kind | treatment | outcome | adjusted for | effect of "
+    fputs("\n## Claims\n\n| # | verdict | kind | treatment | outcome | adjustment set | effect of "
           "interest | runs | power | MDE | runs needed | why |\n"
           "|---:|---|---|---|---|---|---|---:|---:|---:|---:|---|\n", out);
     for (size_t k = 0; k < f->claims->n; k++) {
@@ -112,17 +112,17 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
     } else {
         fputs("\nPlots (PNG and SVG) are beside this file and inside index.html.\n", out);
     }
-    fputs("\n## Campaign rounds\n\n", out);
+    fputs("\n## History of surveys\n\n", out);
     if (info->store == COV_HISTORY_NONE)
         fputs("No history is kept for this archive (not made by `shoal import`, and no "
               "`--history` file given).\n\n", out);
-    fputs("| round | when (UTC) | runs | ample | thin | untestable |\n|---:|---|---:|---:|---:|---:|\n",
+    fputs("| snapshot | when (UTC) | runs | ample | underpowered | untestable |\n|---:|---|---:|---:|---:|---:|\n",
           out);
-    for (size_t r = 0; r < info->n_rounds; r++) {
+    for (size_t r = 0; r < info->n_snapshots; r++) {
         fprintf(out, "| %zu | ", r + 1);
-        md_text(out, info->rounds[r].at);
-        fprintf(out, " | %lld | %lld | %lld | %lld |\n", info->rounds[r].n_runs,
-                info->rounds[r].n_ample, info->rounds[r].n_thin, info->rounds[r].n_blind);
+        md_text(out, info->snapshots[r].at);
+        fprintf(out, " | %lld | %lld | %lld | %lld |\n", info->snapshots[r].n_runs,
+                info->snapshots[r].n_ample, info->snapshots[r].n_underpowered, info->snapshots[r].n_blind);
     }
     fputs("\n## Read with care\n\n", out);
     for (size_t k = 0; k < cov_report_n_cautions; k++)

@@ -70,7 +70,7 @@ static void simulate(const model *m, const cov_graph *g, const double *in_vals, 
  * kept so that any added runs can be judged by the same yardstick. */
 typedef struct {
     size_t claim, p;
-    size_t *vars;           /* treatment, then the separating set */
+    size_t *vars;           /* treatment, then the adjustment set */
     double *gram;           /* p * p over [1, vars] raw */
     double q0, v0;          /* assessed q and the archive's treatment variance */
     double q_req;           /* q the target needs at the lower bound's run count */
@@ -169,7 +169,7 @@ int main(int argc, char **argv)
         fprintf(stderr, "bench_plan: %s %s\n", err.where, err.msg);
         return 2;
     }
-    /* The thin starting archive: n0 uniform random runs. */
+    /* The sparse starting archive: n0 uniform random runs. */
     double *in_vals = calloc(g->n_vars, sizeof *in_vals), *outs = calloc((size_t)m.n_out, sizeof *outs);
     cov_data *d = calloc(1, sizeof *d);
     d->n_runs = n0;
@@ -233,7 +233,7 @@ int main(int argc, char **argv)
     for (size_t i = 0; i < c->n; i++) {
         const cov_claim *cl = &c->items[i];
         pw_design pd;
-        /* Claims on an output (treatment or separating set) are not steered by any method. */
+        /* Claims on an output (treatment or adjustment set) are not steered by any method. */
         int steer = cl->status == COV_TESTABLE && g->vars[cl->treatment].role == COV_INPUT;
         for (size_t k = 0; steer && k < cl->n_cond; k++) steer = g->vars[cl->cond[k]].role == COV_INPUT;
         if (!steer || cov_assess_design(g, c, a, i, &pd) != COV_OK) continue;
@@ -320,7 +320,7 @@ int main(int argc, char **argv)
     size_t n_steered = 0, n_testable = 0;
     for (size_t j = 0; j < p->n; j++) n_steered += p->items[j].mode == COV_PLAN_STEERED;
     for (size_t i = 0; i < c->n; i++) n_testable += c->items[i].status == COV_TESTABLE;
-    printf("inputs %d outputs %d claims %zu (steered %zu) thin archive %zu runs\n", m.n_in, m.n_out,
+    printf("inputs %d outputs %d claims %zu (steered %zu) sparse archive %zu runs\n", m.n_in, m.n_out,
            n_testable, n_steered, n0);
     printf("plan_auto %zu lower_bound %.0f sobol %.0f lhs %.0f assess_seconds %.3f plan_seconds %.3f plan_all_reach %d "
            "plan_worst_power %.4f capped %d\n",

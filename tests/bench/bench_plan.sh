@@ -10,7 +10,7 @@ median3() { sort -g | sed -n 2p; }
 
 echo "Synthetic linear-Gaussian simulator (invented): real inputs on [0, 2], every third input"
 echo "bool, noise SD 1, effects exactly at their effects of interest, absences exactly zero;"
-echo "a thin starting archive of 30 uniform random runs. Counts are added runs until every"
+echo "a sparse starting archive of 30 uniform random runs. Counts are added runs until every"
 echo "steered claim reaches power 0.80 (Bonferroni over all claims), judged by one yardstick."
 echo
 for scenario in numeric mixed; do

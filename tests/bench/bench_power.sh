@@ -87,7 +87,7 @@ def run():
     alpha = 0.05 / len(testable)
     tp = TTestPower()
     for c in testable:
-        idx = [col[v] for v in c["conditioning"]] + [col[c["treatment"]]]
+        idx = [col[v] for v in c["adjustment_set"]] + [col[c["treatment"]]]
         y = col[c["outcome"]]
         A = C[np.ix_(idx, idx)]
         b = np.linalg.solve(A, C[idx, y])
