@@ -22,7 +22,7 @@ LIBS       = $(PKG_LIBS) -lm
 DEB_BUILD = libgsl-dev libsqlite3-dev pkg-config gnuplot-nox sqlite3
 # Keep in step with tests/deps/manifest, which the guard reads before any test runs.
 DEB_CHECK = python3-scipy python3-numpy python3-mpmath python3-pandas python3-networkx \
-            python3-statsmodels r-cran-pwr valgrind chromium
+            python3-statsmodels r-cran-pwr valgrind chromium clang libclang-rt-14-dev
 # Stops a check with one line per missing dependency and its Debian package.
 GUARD     = PYTHON=$(PYTHON) sh tests/deps/guard.sh
 
@@ -38,8 +38,17 @@ BENCH_BIN = $(BENCH_SRC:tests/bench/%.c=$(BUILD)/bench/%)
 FIXTURE_SRC = $(wildcard fixtures/*.c)
 FIXTURE_BIN = $(FIXTURE_SRC:fixtures/%.c=$(BUILD)/fixtures/%)
 SHOAL    = $(BUILD)/shoal
+# Fuzz harnesses (tests/fuzz/): libFuzzer binaries for `make fuzz`, replayers for `make check`.
+FUZZ_NAMES  = graph csv plan
+FUZZ_COMMON = $(BUILD)/tests/fuzz/fuzz_util.o
+REPLAY_BIN  = $(FUZZ_NAMES:%=$(BUILD)/fuzz/replay_%)
+FUZZ_BIN    = $(FUZZ_NAMES:%=$(BUILD)/fuzz/fuzz_%)
+# Seconds each harness runs under `make fuzz`; Debian's clang brings libFuzzer.
+FUZZ_SECONDS ?= 60
+FUZZ_CC   ?= clang
 
-.PHONY: all deps deps-check demo check check-slow check-asan check-valgrind bench install clean
+.PHONY: all deps deps-check demo check check-slow check-asan check-valgrind bench install clean \
+        fuzz
 
 all: $(SHOAL) $(FIXTURE_BIN)
 
@@ -67,6 +76,15 @@ $(BUILD)/bench/%: $(BUILD)/tests/bench/%.o $(BUILD)/libshoal.a
 	@mkdir -p $(dir $@)
 	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
 
+$(BUILD)/fuzz/replay_%: $(BUILD)/tests/fuzz/fuzz_%.o $(FUZZ_COMMON) $(BUILD)/tests/fuzz/replay.o \
+                      $(BUILD)/libshoal.a
+	@mkdir -p $(dir $@)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+
+$(BUILD)/fuzz/fuzz_%: $(BUILD)/tests/fuzz/fuzz_%.o $(FUZZ_COMMON) $(BUILD)/libshoal.a
+	@mkdir -p $(dir $@)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -fsanitize=fuzzer -o $@ $^ $(LIBS)
+
 $(BUILD)/fixtures/%: $(BUILD)/fixtures/%.o
 	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
 
@@ -80,7 +98,7 @@ demo: deps
 
 check: deps deps-check
 	@$(GUARD)
-	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN)
+	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN) $(REPLAY_BIN)
 	@SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/run.sh
 
 check-slow: deps deps-check
@@ -105,12 +123,20 @@ bench: deps deps-check
 	@$(MAKE) --no-print-directory all $(BENCH_BIN)
 	@SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/bench/run.sh
 
+# Each libFuzzer harness for FUZZ_SECONDS, seeded from fixtures/, with ASan and UBSan; a crash
+# leaves its input in build-fuzz/artifacts/ (copy it to tests/fuzz/regress/NAME/).
+fuzz: deps
+	@$(MAKE) --no-print-directory BUILD=build-fuzz CC=$(FUZZ_CC) \
+	  CFLAGS="-O1 -g -fsanitize=fuzzer-no-link,address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all" \
+	  LDFLAGS="-fsanitize=address,undefined" $(FUZZ_NAMES:%=build-fuzz/fuzz/fuzz_%)
+	@FUZZ_SECONDS=$(FUZZ_SECONDS) sh tests/fuzz/run.sh build-fuzz $(FUZZ_NAMES)
+
 install: $(SHOAL)
 	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1
 	install -m 755 $(SHOAL) $(DESTDIR)$(PREFIX)/bin/shoal
 	install -m 644 coverage/shoal.1 $(DESTDIR)$(PREFIX)/share/man/man1/shoal.1
 
 clean:
-	rm -rf build build-asan shoal-report
+	rm -rf build build-asan build-fuzz shoal-report
 
--include $(LIB_OBJ:.o=.d) $(BUILD)/shoal.d $(TEST_BIN:%=%.d) $(PROBE_BIN:%=%.d) $(BENCH_SRC:%.c=$(BUILD)/%.d)
+-include $(LIB_OBJ:.o=.d) $(BUILD)/shoal.d $(wildcard $(BUILD)/tests/fuzz/*.d) $(TEST_BIN:%=%.d) $(PROBE_BIN:%=%.d) $(BENCH_SRC:%.c=$(BUILD)/%.d)

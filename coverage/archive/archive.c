@@ -462,8 +462,8 @@ static char *insert_sql(const char *table, cov_csv *csv)
     return sql;
 }
 
-int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
-                   long long *batch_id, size_t *rows, cov_error *err)
+int cov_import_into(const char *csv_path, const char *db_path, const char *table,
+                    long long *batch_id, size_t *rows, cov_error *err)
 {
     if (table == NULL) table = COV_DEFAULT_TABLE;
     *batch_id = 0;
@@ -477,8 +477,6 @@ int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
     sqlite3_stmt *ins = NULL, *st = NULL;
     char *sql = NULL;
     int in_tx = 0, rc;
-    struct stat sb;
-    int created = stat(db_path, &sb) != 0;
 
     rc = cov_csv_open(csv_path, &csv, err);
     if (rc) goto fail;
@@ -492,7 +490,9 @@ int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
             goto fail;
         }
     }
-    if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE, NULL)) {
+    /* No SQLITE_OPEN_CREATE: cov_import_csv (archive_create.c) makes a new archive beside the
+     * target and links it into place, so this only ever opens a file that exists. */
+    if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READWRITE, NULL)) {
         rc = sql_fail(err, db, db_path, "cannot open or create the archive");
         goto fail;
     }
@@ -615,8 +615,5 @@ fail:
     sqlite3_close(db);
     free(sql);
     cov_csv_close(csv);
-    /* An archive this import created holds nothing after the rollback: remove it, so a failed
-     * import leaves the file system as it found it. */
-    if (created) unlink(db_path);
     return rc;
 }

@@ -50,6 +50,15 @@ typedef struct {
 int cov_archive_batches(cov_archive *a, cov_batch **out, size_t *n, cov_error *err);
 void cov_batches_free(cov_batch *b, size_t n);
 
+/* Append csv_path to the existing archive file db_path in one transaction (cov_import_csv's
+ * work once the file is there; coverage/archive/archive_create.c makes new archives). */
+int cov_import_into(const char *csv_path, const char *db_path, const char *table,
+                    long long *batch_id, size_t *rows, cov_error *err);
+
+/* path as a file name SQLite will not read as a URI ("file:x" becomes "./file:x"); malloc'd,
+ * NULL when out of memory (coverage/archive/archive_create.c). */
+char *cov_sqlite_filename(const char *path);
+
 /* Write name as an SQL identifier in double quotes, doubling embedded quotes, into a new string
  * (NULL when out of memory). Every identifier shoal puts into SQL goes through this. */
 char *cov_sql_ident(const char *name);

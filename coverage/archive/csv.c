@@ -151,9 +151,14 @@ static int read_quoted(cov_csv *c, cov_error *err)
         const unsigned char *stop = q ? q : end;
         size_t n = (size_t)(stop - p);
         if (rec_reserve(c, n)) return fail_nomem(err);
-        memcpy(c->rec + c->rec_len, p, n);
+        /* n may be 0 before rec is first allocated: memcpy with a null pointer is undefined. */
+        if (n > 0) memcpy(c->rec + c->rec_len, p, n);
         c->rec_len += n;
         for (const unsigned char *s = p; s < stop; s++) {
+            /* Every reader of a stored text stops at a NUL: refuse it here as outside quotes. */
+            if (*s == '\0')
+                return fail_at(c, c->line, c->col, err, COV_EINPUT,
+                               "found a NUL byte inside a quoted field, expected text");
             if (*s == '\n') {
                 c->line++;
                 c->col = 1;
@@ -227,7 +232,7 @@ static int read_record(cov_csv *c, int *got, cov_error *err)
                 }
                 size_t n = (size_t)(s - p);
                 if (rec_reserve(c, n)) return fail_nomem(err);
-                memcpy(c->rec + c->rec_len, p, n);
+                if (n > 0) memcpy(c->rec + c->rec_len, p, n);
                 c->rec_len += n;
                 c->pos += n;
                 c->col = col;
@@ -298,10 +303,10 @@ int cov_csv_open(const char *path, cov_csv **out, cov_error *err)
     c->path = strdup(path);
     c->buf = malloc(CSV_BUFFER_BYTES);
     if (c->path == NULL || c->buf == NULL) goto nomem;
-    c->f = fopen(path, "rb");
-    if (c->f == NULL) {
-        rc = cov_fail(err, errno == ENOENT ? COV_EINPUT : COV_EIO, path, "cannot open: %s",
-                      strerror(errno));
+    char why[160];
+    if (cov_open_regular(path, &c->f, why, sizeof why) != 0) {
+        rc = cov_fail(err, errno == 0 || errno == ENOENT ? COV_EINPUT : COV_EIO, path,
+                      "cannot open: %s", why);
         goto fail;
     }
     c->line = 1;

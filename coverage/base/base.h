@@ -4,6 +4,7 @@
 #define SHOAL_COVERAGE_BASE_H
 
 #include <stdio.h>
+#include <sys/types.h>
 
 #include "coverage/coverage.h"
 
@@ -41,5 +42,23 @@ void cov_claim_sentence(const cov_graph *g, const cov_claim *c, char *buf, size_
 size_t cov_text_width(const char *s);
 /* The length of the longest prefix of s[0..n) that is well-formed UTF-8 (n when all of it is). */
 size_t cov_utf8_valid_prefix(const char *s, size_t n);
+
+/* ---- safe files (coverage/base/files.c) ------------------------------------------------------- */
+
+/* "a directory", "a FIFO (named pipe)", "a character device", ... for a stat mode. */
+const char *cov_file_kind(mode_t mode);
+/* Open path for reading, refusing before reading a byte anything that is not a regular file (a
+ * FIFO without a writer would hang, a device would feed endless bytes). Returns 0 with *out set,
+ * or -1 with why (of why_size bytes) saying what was found and errno 0 (not a regular file, empty
+ * name) or the open error (ENOENT for a missing file). */
+int cov_open_regular(const char *path, FILE **out, char *why, size_t why_size);
+/* Check an output path given to option ("-o", "--history") before any work: not empty, not a
+ * symbolic link, a directory (want_dir 1) or a regular file (want_dir 0) when it exists, and not
+ * the same file as any of the n_inputs inputs (NULL entries are skipped). Returns COV_OK,
+ * COV_EINPUT naming the problem, or COV_EIO when the path cannot be inspected. */
+int cov_output_check(const char *path, int want_dir, const char *const *inputs, size_t n_inputs,
+                     const char *option, cov_error *err);
+/* The permission bits of a new file under the process's umask: 0666 & ~umask. */
+mode_t cov_new_file_mode(void);
 
 #endif

@@ -6,6 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <strings.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include "coverage/plan/plan.h"
@@ -59,7 +60,11 @@ int cov_plan_write_csv(const cov_graph *g, const cov_plan *p, const char *path, 
         return cov_fail(err, COV_EIO, path, "cannot create a temporary file beside it: %s",
                         strerror(e));
     }
-    FILE *f = fdopen(fd, "w");
+    /* mkstemp makes the file private; the plan gets the mode of the file it replaces, or the
+     * usual mode under the umask. */
+    struct stat sb;
+    mode_t mode = stat(path, &sb) == 0 ? (sb.st_mode & 07777) : cov_new_file_mode();
+    FILE *f = fchmod(fd, mode) == 0 ? fdopen(fd, "w") : NULL;
     if (f == NULL) {
         close(fd);
         unlink(tmp);
@@ -349,8 +354,18 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
     *adequate = 0;
     if (o->graph_path == NULL)
         return cov_fail(err, COV_EINPUT, "", "plan needs a graph file: shoal plan GRAPH [ARCHIVE]");
-    int rc = cov_graph_parse_file(o->graph_path, &g, err);
+    const char *path = o->out_path != NULL ? o->out_path : DEFAULT_PLAN_PATH;
+    const char *inputs[] = {o->graph_path, o->archive_path};
+    int rc = cov_output_check(path, 0, inputs, 2, "-o", err);
     if (rc != COV_OK) goto done;
+    if ((rc = cov_graph_parse_file(o->graph_path, &g, err)) != COV_OK) goto done;
+    size_t n_inputs = 0;
+    for (size_t v = 0; v < g->n_vars; v++) n_inputs += g->vars[v].role == COV_INPUT;
+    if (n_inputs == 0) {
+        rc = cov_fail(err, COV_EINPUT, o->graph_path, "found no input in the graph, expected at "
+                      "least one: a plan sets the inputs of new runs");
+        goto done;
+    }
     if ((rc = cov_claims_derive(g, &c, err)) != COV_OK) goto done;
     if (o->archive_path != NULL) {
         if ((rc = cov_archive_open(o->archive_path, o->table, &ar, err)) != COV_OK) goto done;
@@ -362,7 +377,6 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
     if ((rc = cov_plan_make(g, c, d, as, &o->power, &o->coverage, o->budget, o->replicates, &p,
                             err)) != COV_OK)
         goto done;
-    const char *path = o->out_path != NULL ? o->out_path : DEFAULT_PLAN_PATH;
     if ((rc = cov_plan_write_csv(g, p, path, err)) != COV_OK) goto done;
     size_t n_testable = 0;
     for (size_t i = 0; i < c->n; i++) n_testable += c->items[i].status == COV_TESTABLE;

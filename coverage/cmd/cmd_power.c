@@ -211,7 +211,11 @@ int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, co
                            &d, err);
     if (!rc) rc = cov_assess(g, cl, d, &o->power, &as, err);
     if (rc) goto done;
-    *adequate = 1;
+    /* A graph that implies no claim gives the runs nothing to be adequate for. */
+    *adequate = cl->n > 0;
+    if (cl->n == 0 && !o->quiet && note != NULL)
+        fprintf(note, "shoal: %s implies no claims, so no runs can be adequate for it\n",
+                o->graph_path);
     for (size_t i = 0; i < as->n; i++)
         if (cl->items[i].status == COV_TESTABLE && as->items[i].verdict != COV_AMPLE)
             *adequate = 0;

@@ -317,7 +317,19 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         return cov_fail(err, COV_EINPUT, "", "--need-threeway needs 3-way coverage, but --way 2 "
                                              "was given");
     if (!isnan(o.need_threeway)) o.coverage.way = 3;
+    /* Output paths are checked before any work, so a bad one records no history round. */
+    const char *inputs[] = {o.graph_path, o.archive_path, o.plan_path, o.history_path};
+    if ((rc = cov_output_check(dir, 1, inputs, 4, "-o", err)) != COV_OK) return rc;
     if ((rc = check_replaceable(dir, err)) != COV_OK) return rc;
+    if (o.history_path != NULL) {
+        struct stat sh;
+        if ((rc = cov_output_check(o.history_path, 0, inputs, 3, "--history", err)) != COV_OK)
+            return rc;
+        /* SQLite would silently make an empty file a database: it is someone else's file. */
+        if (stat(o.history_path, &sh) == 0 && sh.st_size == 0)
+            return cov_fail(err, COV_EINPUT, o.history_path, "--history names an empty file, "
+                            "expected a history file shoal made or a new name");
+    }
 
     step_note(&o, note, "reading the graph");
     if ((rc = cov_graph_parse_file(o.graph_path, &g, err)) != COV_OK) goto fail;
@@ -368,6 +380,11 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         if (claims->items[i].status == COV_TESTABLE && as->items[i].verdict != COV_AMPLE)
             all_ample = 0;
     int missed = gate_missed(&o, cv, gate, sizeof gate);
+    if (claims->n == 0) {
+        missed = 1;
+        snprintf(gate, sizeof gate, "The graph implies no claims, so there is nothing the runs "
+                                    "could be adequate for.");
+    }
 
     /* Everything is written into a fresh directory beside DIR and renamed at the end. */
     if (sibling_name(dir, "tmp", tmp, sizeof tmp) != 0 || mkdtemp(tmp) == NULL) {

@@ -217,9 +217,11 @@ const char *cov_token_describe(const cov_token *t, char *buf, size_t size)
 int cov_graph_read_text(const char *path, char **text, cov_error *err)
 {
     *text = NULL;
-    FILE *f = fopen(path, "rb");
-    if (f == NULL)
-        return cov_fail(err, COV_EIO, path, "cannot open the graph file: %s", strerror(errno));
+    FILE *f = NULL;
+    char why[160];
+    if (cov_open_regular(path, &f, why, sizeof why) != 0)
+        return cov_fail(err, errno == 0 || errno == ENOENT ? COV_EINPUT : COV_EIO, path,
+                        "cannot open the graph file: %s", why);
     char *buf = NULL;
     size_t len = 0, cap = 0;
     int rc = COV_OK;

@@ -565,7 +565,8 @@ static int push_row(cov_plan *p, size_t *cap, const double *vals)
 {
     if (p->n_configs == *cap) {
         size_t nc = *cap ? 2 * *cap : 64;
-        double *nr = realloc(p->rows, nc * p->n_vars * sizeof *nr);
+        /* At least one slot per row: realloc to 0 bytes frees the block and returns NULL. */
+        double *nr = realloc(p->rows, nc * (p->n_vars ? p->n_vars : 1) * sizeof *nr);
         if (nr == NULL) return COV_ENOMEM;
         p->rows = nr;
         *cap = nc;

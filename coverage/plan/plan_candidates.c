@@ -88,7 +88,8 @@ static int cand_push(cand_set *cs, const double *vals)
     const cov_graph *g = cs->g;
     if (cs->n == cs->cap) {
         size_t nc = cs->cap ? 2 * cs->cap : 512;
-        double *nv = realloc(cs->vals, nc * g->n_vars * sizeof *nv);
+        /* At least one slot per row: realloc to 0 bytes frees the block and returns NULL. */
+        double *nv = realloc(cs->vals, nc * (g->n_vars ? g->n_vars : 1) * sizeof *nv);
         if (nv == NULL) return COV_ENOMEM;
         cs->vals = nv;
         cs->cap = nc;

@@ -25,6 +25,10 @@ while read -r kind name pkg who; do
   prog)
     command -v "$name" >/dev/null 2>&1 ||
       { say "$pkg (program $name, needed by $who)"; pkgs="$pkgs $pkg"; } ;;
+  file)
+    # shellcheck disable=SC2086
+    set -- $name
+    [ -e "$1" ] || { say "$pkg (file $name, needed by $who)"; pkgs="$pkgs $pkg"; } ;;
   r)
     command -v Rscript >/dev/null 2>&1 && Rscript -e "suppressMessages(library($name))" >/dev/null 2>&1 ||
       { say "$pkg (R package $name, needed by $who)"; pkgs="$pkgs $pkg"; } ;;
