@@ -82,11 +82,12 @@ if grep -qF "3-way coverage was not measured, 50.0% needed" "$tmp/out"
 then ok "survey says the 3-way share was not measured rather than 0% reached"
 else bad "survey gate text with one input: $(grep -i gate "$tmp/out")"; fi
 
-# An empty graph has no claims at all: the family line must not speak of one testable claim.
+# An empty graph has no claims at all: the family line must not speak of one testable claim, and
+# with nothing to test the runs are not adequate (exit 1, issue 17).
 : >"$tmp/empty.graph"
 head -31 "$CSV" >"$tmp/thirty.csv"
 run 0 "import of 30 runs" import "$tmp/thirty.csv" --archive "$tmp/thirty.db" -q
-run 0 "power on an empty graph" power "$tmp/empty.graph" "$tmp/thirty.db"
+run 1 "power on an empty graph" power "$tmp/empty.graph" "$tmp/thirty.db"
 if grep -q "over 0 testable claims" "$tmp/out" && ! grep -q "over 1 testable claim" "$tmp/out"
 then ok "power on an empty graph says Bonferroni over 0 testable claims"
 else bad "power on an empty graph: $(head -1 "$tmp/out")"; fi
@@ -142,7 +143,7 @@ run 0 "check of the archive with a 4 MB field" check "$G" "$tmp/huge.db" -q
 
 # Files of the wrong kind, directories, tables that do not exist, paths that cannot be written.
 run 2 "claims on a directory" claims "$tmp"
-said "$tmp: cannot read the graph file" "claims on a directory names it"
+said "$tmp: cannot open the graph file: found a directory" "claims on a directory names it"
 run 2 "power on a directory as archive" power "$G" "$tmp"
 said "expected an SQLite archive file" "a directory as archive says what was expected"
 run 2 "power on a graph file as archive" power "$G" "$G"

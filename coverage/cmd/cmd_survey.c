@@ -319,8 +319,8 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     if (!isnan(o.need_threeway)) o.coverage.way = 3;
     /* Output paths are checked before any work, so a bad one records no history round. */
     const char *inputs[] = {o.graph_path, o.archive_path, o.plan_path, o.history_path};
-    if ((rc = cov_output_check(dir, 1, inputs, 4, "-o", err)) != COV_OK) return rc;
     if ((rc = check_replaceable(dir, err)) != COV_OK) return rc;
+    if ((rc = cov_output_check(dir, 1, inputs, 4, "-o", err)) != COV_OK) return rc;
     if (o.history_path != NULL) {
         struct stat sh;
         if ((rc = cov_output_check(o.history_path, 0, inputs, 3, "--history", err)) != COV_OK)

@@ -220,7 +220,7 @@ int cov_graph_read_text(const char *path, char **text, cov_error *err)
     FILE *f = NULL;
     char why[160];
     if (cov_open_regular(path, &f, why, sizeof why) != 0)
-        return cov_fail(err, errno == 0 || errno == ENOENT ? COV_EINPUT : COV_EIO, path,
+        return cov_fail(err, errno == 0 ? COV_EINPUT : COV_EIO, path,
                         "cannot open the graph file: %s", why);
     char *buf = NULL;
     size_t len = 0, cap = 0;
