@@ -28,7 +28,8 @@ struct command {
 
 static const struct command commands[] = {
     {"claims", cov_cmd_claims, 1, 1, "claims GRAPH [--csv|--json]"},
-    {"import", cov_cmd_import, 1, 1, "import FILE.csv --archive ARCHIVE.db [--table NAME]"},
+    {"import", cov_cmd_import, 1, 1,
+     "import FILE.csv --archive ARCHIVE.db [--table NAME] [--again]"},
     {"check", cov_cmd_check, 2, 2, "check GRAPH ARCHIVE [--table NAME] [--csv|--json]"},
     {"power", cov_cmd_power, 2, 2,
      "power GRAPH ARCHIVE [--alpha A] [--power P] [--family bonferroni|none] [--one-sided]"},
@@ -60,6 +61,7 @@ static void usage(FILE *f)
             "                        coverage shares the campaign must reach (0..1)\n"
             "  --budget N|auto       plan: runs to plan, or the fewest that reach the target\n"
             "  --replicates K        plan: seeds per planned configuration (default 1)\n"
+            "  --again               import: append a file whose rows the archive already holds\n"
             "  --seed S              seed for subsampling, probes and planned seeds\n"
             "  -o, --output PATH     survey: report directory; plan: CSV file\n"
             "  --history FILE        survey: history side file for a read-only archive\n"
@@ -101,7 +103,7 @@ static int parse_long(const char *opt, const char *text, long lo, long hi, long 
 enum long_only {
     OPT_TABLE = 256, OPT_ARCHIVE, OPT_ALPHA, OPT_POWER, OPT_FAMILY, OPT_ONE_SIDED, OPT_MIN_RUNS,
     OPT_BINS, OPT_WAY, OPT_NEED_MARGINAL, OPT_NEED_PAIRWISE, OPT_NEED_THREEWAY, OPT_BUDGET,
-    OPT_REPLICATES, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION
+    OPT_REPLICATES, OPT_AGAIN, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION
 };
 
 static const struct option long_options[] = {
@@ -120,6 +122,7 @@ static const struct option long_options[] = {
     {"budget", required_argument, NULL, OPT_BUDGET},
     {"replicates", required_argument, NULL, OPT_REPLICATES},
     {"seed", required_argument, NULL, OPT_SEED},
+    {"again", no_argument, NULL, OPT_AGAIN},
     {"output", required_argument, NULL, 'o'},
     {"history", required_argument, NULL, OPT_HISTORY},
     {"plan", required_argument, NULL, OPT_PLAN},
@@ -189,6 +192,7 @@ static int apply_option(int c, const char *arg, cov_options *o)
         return 0;
     case 'o': o->out_path = arg; return 0;
     case OPT_HISTORY: o->history_path = arg; return 0;
+    case OPT_AGAIN: o->again = 1; return 0;
     case OPT_PLAN: o->plan_path = arg; return 0;
     case OPT_CSV: o->format = COV_FMT_CSV; return 0;
     case OPT_JSON: o->format = COV_FMT_JSON; return 0;

@@ -68,6 +68,14 @@ typedef struct {
     int line, col;
 } cov_edge;
 
+/* A bookkeeping column declared with `ledger` (coverage/graph/ledger.c): kept in the archive,
+ * never analysed. */
+typedef struct {
+    char *name;
+    int is_cost;          /* 1 for the column marked `cost` (wall time or money per run) */
+    int line, col;        /* where it is declared */
+} cov_ledger;
+
 typedef struct {
     char *path;                 /* file name used in messages */
     cov_var *vars;
@@ -77,6 +85,10 @@ typedef struct {
     cov_amount default_effect;  /* `default effect`; NAN value when absent */
     cov_amount margin;          /* `default margin`: the equivalence margin for absence claims */
     int inputs_independent;     /* `design independent`: no shared hidden design node */
+    char *seed_name;            /* `runseed NAME`: the column holding each run's seed, or NULL */
+    int seed_line, seed_col;    /* where it is declared */
+    cov_ledger *ledger;         /* `ledger NAME [cost], ...`: bookkeeping columns */
+    size_t n_ledger;
 } cov_graph;
 
 /* Parse a graph file. On a syntax or consistency error returns COV_EINPUT with err->where set to
@@ -87,6 +99,11 @@ int cov_graph_parse_text(const char *name, const char *text, cov_graph **out, co
 void cov_graph_free(cov_graph *g);
 /* Index of the variable called name, or -1. */
 long cov_graph_find(const cov_graph *g, const char *name);
+/* The declared seed column's name (`runseed`), or NULL when the graph declares none. */
+const char *cov_graph_seed_column(const cov_graph *g);
+/* The bookkeeping column marked `cost` (`ledger NAME cost`), or NULL when none is declared. The
+ * pointer belongs to g. */
+const cov_ledger *cov_graph_cost_column(const cov_graph *g);
 
 /* ---------------------------------------------------------------------------------------------
  * Claims (coverage/graph/claims.c, coverage/graph/dsep.c). */
@@ -141,6 +158,28 @@ const char *cov_archive_path(const cov_archive *a);
 int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
                    long long *batch_id, size_t *rows, cov_error *err);
 
+/* Rows of an imported file that the archive already held, by content (the same value in every
+ * column of the file; coverage/archive/overlap.c). */
+#define COV_OVERLAP_BATCHES 8
+typedef struct {
+    size_t rows;                          /* rows of the file */
+    size_t matched;                       /* of them, rows already in the archive */
+    size_t n_batches;                     /* earlier batches holding them (up to 8 listed) */
+    long long batch[COV_OVERLAP_BATCHES];
+    size_t count[COV_OVERLAP_BATCHES];    /* matched rows per listed batch */
+    size_t other;                         /* matched rows in batches beyond the listed ones */
+    size_t unbatched;                     /* matched rows that carry no batch (the user's own) */
+    char first_batch[512];                /* "batch 1 (imported 2026-...Z from runs.csv)" */
+} cov_import_overlap;
+
+/* cov_import_csv with duplicate detection. When every row of the file (at least one) is already
+ * in the archive and again is 0, nothing is written and the status is COV_EINPUT naming the
+ * earlier batch; with again 1 the rows are appended anyway. ov (may be NULL) receives the overlap
+ * found, partial or whole. */
+int cov_import_csv_checked(const char *csv_path, const char *db_path, const char *table,
+                           int again, long long *batch_id, size_t *rows, cov_import_overlap *ov,
+                           cov_error *err);
+
 /* One data problem found while reading, kept as an example for the report. */
 typedef struct {
     size_t var;
@@ -161,7 +200,22 @@ typedef struct {
     size_t n_issues;
     long long *batch;     /* per run batch id, or NULL when the archive has no batches */
     size_t n_batches;
+    /* What counts as one run (coverage/archive/runs.c): rows equal in every input and in the seed
+     * are one run (without a seed, rows equal in every input and output). The columns above hold
+     * each run once, in the order its first row was read. */
+    long long *seed;      /* per run: its seed (`runseed`), COV_SEED_NONE when the cell is empty;
+                             NULL when the graph declares no seed column */
+    size_t n_rows;        /* rows of the table read, repeats included */
+    size_t n_duplicates;  /* rows dropped because an earlier row is the same run */
+    size_t n_conflicts;   /* runs sharing inputs and seed with another run but not its outputs
+                             (kept as replicates: the simulator or the archive is not consistent) */
+    size_t n_configs;     /* distinct configurations (every input) among the runs */
+    size_t n_replicated;  /* configurations run more than once */
+    size_t n_seeds;       /* distinct seeds among the runs (0 without a seed column) */
+    size_t n_shared_seeds;    /* seeds used by two or more configurations (common random numbers) */
 } cov_data;
+
+#define COV_SEED_NONE ((long long)-9223372036854775807LL - 1)
 
 #define COV_ISSUE_EXAMPLES 5
 
@@ -340,6 +394,7 @@ typedef struct {
     long budget;                  /* plan: runs to plan; -1 for auto */
     int replicates;               /* plan: seeds per configuration */
     const char *plan_path;        /* survey: a plan file whose runs the plots overlay, or NULL */
+    int again;                    /* import: append a file whose rows the archive already holds */
 } cov_options;
 
 /* Fill o with the defaults written in README.md. */

@@ -167,6 +167,7 @@ int pw_lack_of_fit(const double *keys, size_t kk, const double *y, const double 
                    double n_coef, pw_lof *out)
 {
     out->groups = 0;
+    out->repeated = 0;
     out->df_pe = 0;
     out->df_lof = 0;
     out->sigma_pure = NAN;
@@ -191,7 +192,11 @@ int pw_lack_of_fit(const double *keys, size_t kk, const double *y, const double 
         ss_resid += e * e;
     }
     double ss_pe = 0;
-    for (size_t g = 0; g < out->groups; g++) ss_pe += m2[g];
+    out->repeated = 0;
+    for (size_t g = 0; g < out->groups; g++) {
+        ss_pe += m2[g];
+        out->repeated += cnt[g] >= 2;
+    }
     out->df_pe = (double)(m - out->groups);
     out->df_lof = (double)out->groups - n_coef;
     rc = PW_OK;

@@ -200,6 +200,7 @@ typedef struct {
     size_t groups;        /* distinct configurations */
     double df_pe, df_lof;
     double sigma_pure, f, p;
+    size_t repeated;      /* configurations holding two or more rows (the ones pure error uses) */
 } pw_lof;
 int pw_lack_of_fit(const double *keys, size_t kk, const double *y, const double *fitted, size_t m,
                    double n_coef, pw_lof *out);

@@ -40,7 +40,7 @@ static cov_var vars[N_VARS] = {
 };
 
 static cov_graph graph = {"invented.graph", vars, N_VARS, NULL, 0, {0.25, COV_UNIT_SD},
-                          {0.1, COV_UNIT_SD}, 0};
+                          {0.1, COV_UNIT_SD}, 0, NULL, 0, 0, NULL, 0};
 
 static double columns[N_VARS][N_RUNS];
 static double *colp[N_VARS];
@@ -517,7 +517,7 @@ static void test_big(const char *tmp)
         bcol[v] = cols[v];
     }
     cov_graph bg = {"invented-big.graph", bv, BIG_VARS, NULL, 0, {0.25, COV_UNIT_SD},
-                    {0.1, COV_UNIT_SD}, 0};
+                    {0.1, COV_UNIT_SD}, 0, NULL, 0, 0, NULL, 0};
     size_t k = 0;
     for (size_t a = 0; a < BIG_IN; a++) {
         bin_in[a] = a;

@@ -462,9 +462,29 @@ static char *insert_sql(const char *table, cov_csv *csv)
     return sql;
 }
 
-int cov_import_into(const char *csv_path, const char *db_path, const char *table,
-                    long long *batch_id, size_t *rows, cov_error *err)
+/* "batch 2 (imported 2026-12-05T14:59:47Z from runs.csv)" for the refusal message. */
+static void describe_batch(sqlite3 *db, long long id, char *buf, size_t n)
 {
+    sqlite3_stmt *st = NULL;
+    snprintf(buf, n, "batch %lld", id);
+    if (sqlite3_prepare_v2(db, "SELECT imported_at, source FROM " BATCH_TABLE " WHERE id = ?1",
+                           -1, &st, NULL) == SQLITE_OK) {
+        sqlite3_bind_int64(st, 1, id);
+        if (sqlite3_step(st) == SQLITE_ROW)
+            snprintf(buf, n, "batch %lld (imported %.40s from %.300s)", id,
+                     (const char *)sqlite3_column_text(st, 0),
+                     (const char *)sqlite3_column_text(st, 1));
+    }
+    sqlite3_finalize(st);
+}
+
+int cov_import_into(const char *csv_path, const char *db_path, const char *table, int again,
+                    long long *batch_id, size_t *rows, cov_import_overlap *ov, cov_error *err)
+{
+    cov_overlap *seen = NULL;
+    cov_import_overlap local;
+    if (ov == NULL) ov = &local;
+    memset(ov, 0, sizeof *ov);
     if (table == NULL) table = COV_DEFAULT_TABLE;
     *batch_id = 0;
     *rows = 0;
@@ -519,6 +539,18 @@ int cov_import_into(const char *csv_path, const char *db_path, const char *table
     }
     rc = prepare_table(db, db_path, table, csv, err);
     if (rc) goto fail;
+    /* The rows already stored, by content, before this batch adds any (coverage/overlap.c). */
+    {
+        const char **cols = malloc((nf + 1) * sizeof *cols);
+        if (cols == NULL) {
+            rc = cov_fail(err, COV_ENOMEM, db_path, "out of memory");
+            goto fail;
+        }
+        for (size_t i = 0; i < nf; i++) cols[i] = cov_csv_header(csv, i);
+        rc = cov_overlap_load(db, table, cols, nf, &seen, err);
+        free(cols);
+        if (rc) goto fail;
+    }
 
     char now[32];
     utc_now(now, sizeof now);
@@ -554,6 +586,7 @@ int cov_import_into(const char *csv_path, const char *db_path, const char *table
         rc = cov_csv_next(csv, &got, err);
         if (rc) goto fail;
         if (!got) break;
+        uint64_t h = cov_overlap_start();
         for (size_t i = 0; i < nf; i++) {
             size_t len;
             const char *f = cov_csv_field(csv, i, &len);
@@ -562,20 +595,50 @@ int cov_import_into(const char *csv_path, const char *db_path, const char *table
             int col = (int)i + 1;
             if (len == 0) {
                 sqlite3_bind_null(ins, col);
+                h = cov_overlap_null(h);
                 continue;
             }
             switch (classify(f, len, &iv, &dv)) {
-            case CELL_INT: sqlite3_bind_int64(ins, col, iv); break;
-            case CELL_REAL: sqlite3_bind_double(ins, col, dv); break;
-            default: sqlite3_bind_text(ins, col, f, (int)len, SQLITE_STATIC); break;
+            case CELL_INT:
+                sqlite3_bind_int64(ins, col, iv);
+                h = cov_overlap_int(h, iv);
+                break;
+            case CELL_REAL:
+                sqlite3_bind_double(ins, col, dv);
+                h = cov_overlap_real(h, dv);
+                break;
+            default:
+                sqlite3_bind_text(ins, col, f, (int)len, SQLITE_STATIC);
+                h = cov_overlap_text(h, f, len);
+                break;
             }
         }
+        cov_overlap_match(seen, h);
         if (sqlite3_step(ins) != SQLITE_DONE) {
             rc = sql_fail(err, db, db_path, "cannot insert a row");
             goto fail;
         }
         sqlite3_reset(ins);
         n++;
+    }
+    cov_overlap_result(seen, ov);
+    if (ov->matched > 0) {
+        long long first = ov->n_batches > 0 ? ov->batch[0] : 0;
+        for (size_t k = 1; k < ov->n_batches; k++)
+            if (ov->batch[k] < first) first = ov->batch[k];
+        if (first > 0) describe_batch(db, first, ov->first_batch, sizeof ov->first_batch);
+        else snprintf(ov->first_batch, sizeof ov->first_batch, "rows the archive held before "
+                      "any batch");
+    }
+    /* A file whose every row is already stored is a repeated import (a script run twice, a
+     * retried job): refuse it unless the user asks for it, and leave the archive as it was. */
+    if (n > 0 && ov->matched == n && !again) {
+        char where[512];
+        snprintf(where, sizeof where, "%s", csv_path);
+        rc = cov_fail(err, COV_EINPUT, where, "found all %zu rows already in %s, first imported "
+                      "as %s; expected new runs, so nothing was imported (pass --again to append "
+                      "them anyway: each run still counts once)", n, db_path, ov->first_batch);
+        goto fail;
     }
     if (sqlite3_prepare_v2(db, "UPDATE " BATCH_TABLE " SET rows = ?1 WHERE id = ?2", -1, &st,
                            NULL) != SQLITE_OK) {
@@ -605,6 +668,7 @@ int cov_import_into(const char *csv_path, const char *db_path, const char *table
     db = NULL;
     free(sql);
     cov_csv_close(csv);
+    cov_overlap_free(seen);
     *batch_id = batch;
     *rows = n;
     return COV_OK;
@@ -615,5 +679,6 @@ fail:
     sqlite3_close(db);
     free(sql);
     cov_csv_close(csv);
+    cov_overlap_free(seen);
     return rc;
 }

@@ -3,6 +3,7 @@
 #ifndef SHOAL_COVERAGE_ARCHIVE_H
 #define SHOAL_COVERAGE_ARCHIVE_H
 
+#include <stdint.h>
 #include <stdio.h>
 
 #include "coverage/graph/graph.h"
@@ -52,8 +53,8 @@ void cov_batches_free(cov_batch *b, size_t n);
 
 /* Append csv_path to the existing archive file db_path in one transaction (cov_import_csv's
  * work once the file is there; coverage/archive/archive_create.c makes new archives). */
-int cov_import_into(const char *csv_path, const char *db_path, const char *table,
-                    long long *batch_id, size_t *rows, cov_error *err);
+int cov_import_into(const char *csv_path, const char *db_path, const char *table, int again,
+                    long long *batch_id, size_t *rows, cov_import_overlap *ov, cov_error *err);
 
 /* path as a file name SQLite will not read as a URI ("file:x" becomes "./file:x"); malloc'd,
  * NULL when out of memory (coverage/archive/archive_create.c). */
@@ -65,6 +66,35 @@ char *cov_sql_ident(const char *name);
 /* strcmp that folds ASCII A-Z to a-z and nothing else, as SQLite compares column names
  * (coverage/archive.c); unlike strcasecmp it ignores the locale. */
 int cov_ascii_casecmp(const char *a, const char *b);
+
+/* ---- rows an import would repeat (coverage/overlap.c) ------------------------------------------ */
+
+/* The stored rows of table, hashed over the columns cols (the CSV's, in its order) with their
+ * batch. The row hash of a CSV row is built with cov_overlap_start and one cov_overlap_null, _int,
+ * _real or _text per field, in column order, matching how the stored values were typed. */
+typedef struct cov_overlap cov_overlap;
+int cov_overlap_load(struct sqlite3 *db, const char *table, const char *const *cols,
+                     size_t n_cols, cov_overlap **out, cov_error *err);
+uint64_t cov_overlap_start(void);
+uint64_t cov_overlap_null(uint64_t h);
+uint64_t cov_overlap_int(uint64_t h, long long v);
+uint64_t cov_overlap_real(uint64_t h, double v);
+uint64_t cov_overlap_text(uint64_t h, const char *s, size_t len);
+/* Count the CSV row with hash h as matched when a stored row has it. */
+void cov_overlap_match(cov_overlap *o, uint64_t h);
+void cov_overlap_result(const cov_overlap *o, cov_import_overlap *res);
+void cov_overlap_free(cov_overlap *o);
+
+/* ---- what counts as one run (coverage/runs.c) ------------------------------------------------- */
+
+/* Make d hold each run once: rows equal in every input and the seed (d->seed, when the graph
+ * declares one; a run with an empty seed cell has no seed) are one run when their outputs are equal
+ * too; without a seed, rows equal in every input and output are one run. Missing cells compare
+ * equal to each other. Repeats are removed in place (the first row stays; batch, seed and n_missing
+ * follow), and d->n_rows, n_duplicates, n_conflicts, n_configs, n_replicated, n_seeds and
+ * n_shared_seeds are filled. kept (NULL, or room for d->n_runs flags on entry) receives 1 for each
+ * row kept and 0 for each repeat. Returns COV_OK or COV_ENOMEM. */
+int cov_runs_identify(cov_data *d, const cov_graph *g, unsigned char *kept, cov_error *err);
 
 /* ---- one claim's regression data (coverage/design.c) ------------------------------------------ */
 

@@ -60,8 +60,9 @@ static void sync_dir_of(const char *path)
 
 /* Build a new archive in a private file beside db_path, then link it to db_path. *raced is 1 when
  * a file appeared at db_path meanwhile (nothing was changed; the caller appends to it). */
-static int create_new(const char *csv_path, const char *db_path, const char *table,
-                      long long *batch_id, size_t *rows, int *raced, cov_error *err)
+static int create_new(const char *csv_path, const char *db_path, const char *table, int again,
+                      long long *batch_id, size_t *rows, cov_import_overlap *ov, int *raced,
+                      cov_error *err)
 {
     *raced = 0;
     char *tmp = sibling_template(db_path);
@@ -85,7 +86,8 @@ static int create_new(const char *csv_path, const char *db_path, const char *tab
     close(fd);
     char *name = cov_sqlite_filename(tmp);
     int rc = name == NULL ? cov_fail(err, COV_ENOMEM, db_path, "out of memory")
-                          : cov_import_into(csv_path, name, table, batch_id, rows, err);
+                          : cov_import_into(csv_path, name, table, again, batch_id, rows, ov,
+                                            err);
     free(name);
     if (rc == COV_OK) {
         /* Messages name the archive the user gave, not the temporary file. */
@@ -110,6 +112,13 @@ static int create_new(const char *csv_path, const char *db_path, const char *tab
 int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
                    long long *batch_id, size_t *rows, cov_error *err)
 {
+    return cov_import_csv_checked(csv_path, db_path, table, 0, batch_id, rows, NULL, err);
+}
+
+int cov_import_csv_checked(const char *csv_path, const char *db_path, const char *table,
+                           int again, long long *batch_id, size_t *rows, cov_import_overlap *ov,
+                           cov_error *err)
+{
     *batch_id = 0;
     *rows = 0;
     if (db_path[0] == '\0')
@@ -126,7 +135,7 @@ int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
                                 "(or a new name)", cov_file_kind(sb.st_mode));
             char *name = cov_sqlite_filename(db_path);
             if (name == NULL) return cov_fail(err, COV_ENOMEM, db_path, "out of memory");
-            int rc = cov_import_into(csv_path, name, table, batch_id, rows, err);
+            int rc = cov_import_into(csv_path, name, table, again, batch_id, rows, ov, err);
             free(name);
             return rc;
         }
@@ -137,7 +146,7 @@ int cov_import_csv(const char *csv_path, const char *db_path, const char *table,
             return cov_fail(err, COV_EINPUT, db_path, "found a symbolic link to a missing file, "
                             "expected an archive file (or a new name)");
         int raced = 0;
-        int rc = create_new(csv_path, db_path, table, batch_id, rows, &raced, err);
+        int rc = create_new(csv_path, db_path, table, again, batch_id, rows, ov, &raced, err);
         if (rc != COV_OK || !raced) return rc;
     }
     return cov_fail(err, COV_EIO, db_path, "the archive kept appearing and disappearing while "

@@ -43,6 +43,7 @@ void cov_data_free(cov_data *d)
     free(d->n_outside);
     free(d->issues);
     free(d->batch);
+    free(d->seed);
     free(d);
 }
 
@@ -215,8 +216,13 @@ static void prefault(void *p, size_t bytes)
 #endif
 }
 
-static int grow(cov_data *d, const cov_graph *g, size_t cap, int with_batch)
+static int grow(cov_data *d, const cov_graph *g, size_t cap, int with_batch, int with_seed)
 {
+    if (with_seed) {
+        long long *sd = realloc(d->seed, cap * sizeof *sd);
+        if (sd == NULL) return -1;
+        d->seed = sd;
+    }
     for (size_t v = 0; v < g->n_vars; v++) {
         if (d->col[v] == NULL && g->vars[v].role == COV_HIDDEN) continue;
         int fresh = d->col[v] == NULL;
@@ -271,6 +277,61 @@ static size_t estimate_rows(sqlite3 *db, const char *qt)
     return est;
 }
 
+/* A seed cell: a whole number (an integer, a whole real or text that reads as one), or empty. */
+static int read_seed(const cov_archive *a, const cov_graph *g, sqlite3_stmt *st, int c, size_t row,
+                     long long *seed, cov_error *err)
+{
+    char buf[256];
+    int type = sqlite3_column_type(st, c);
+    if (type == SQLITE_NULL) {
+        *seed = COV_SEED_NONE;
+        return COV_OK;
+    }
+    if (type == SQLITE_INTEGER) {
+        *seed = sqlite3_column_int64(st, c);
+        if (*seed != COV_SEED_NONE) return COV_OK;
+    } else if (type == SQLITE_FLOAT) {
+        double x = sqlite3_column_double(st, c);
+        /* Whole numbers of magnitude below 2^63 convert exactly. */
+        if (x == floor(x) && fabs(x) < 9.2e18) {
+            *seed = (long long)x;
+            return COV_OK;
+        }
+    } else if (type == SQLITE_TEXT) {
+        const char *t = (const char *)sqlite3_column_text(st, c);
+        char *end = NULL;
+        errno = 0;
+        long long v = t != NULL ? strtoll(t, &end, 10) : 0;
+        if (t != NULL && end != t && *end == '\0' && errno == 0 && v != COV_SEED_NONE) {
+            *seed = v;
+            return COV_OK;
+        }
+    }
+    cell_text(st, c, buf, sizeof buf);
+    char where[512];
+    snprintf(where, sizeof where, "%s: row %zu, column %s", cov_archive_path(a), row,
+             g->seed_name);
+    return cov_fail(err, COV_EINPUT, where, "found '%.200s', expected a whole-number seed (the "
+                    "seed column declared at %s:%d:%d)", buf, g->path, g->seed_line, g->seed_col);
+}
+
+/* Every declared seed and bookkeeping column must be in the table: a declaration that matches no
+ * column is a mistake in the graph file (or the wrong archive), named at its line and column. */
+static int check_ledger_columns(const cov_archive *a, const cov_graph *g, cov_error *err)
+{
+    if (g->seed_name != NULL && find_column(a, g->seed_name) < 0)
+        return cov_graph_fail(err, g->path, g->seed_line, g->seed_col, "found no column '%s' in "
+                              "table '%s' of %s, expected the seed column declared here",
+                              g->seed_name, cov_archive_table(a), cov_archive_path(a));
+    for (size_t i = 0; i < g->n_ledger; i++)
+        if (find_column(a, g->ledger[i].name) < 0)
+            return cov_graph_fail(err, g->path, g->ledger[i].line, g->ledger[i].col, "found no "
+                                  "column '%s' in table '%s' of %s, expected the bookkeeping "
+                                  "column declared here", g->ledger[i].name,
+                                  cov_archive_table(a), cov_archive_path(a));
+    return COV_OK;
+}
+
 int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double share, void *ctx),
                   void *ctx, cov_data **out, cov_error *err)
 {
@@ -284,6 +345,8 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     unsigned char *fast = NULL, *whole = NULL;
     double *stage = NULL;
     double *lo = NULL, *hi = NULL;
+    size_t *out_cells = NULL, n_out_cells = 0, cap_out_cells = 0;   /* (row, var) outside */
+    unsigned char *kept = NULL;
     int rc = COV_ENOMEM;
     cov_data *d = calloc(1, sizeof *d);
     if (d == NULL) goto nomem;
@@ -325,6 +388,9 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     }
     long batch_col = find_column(a, "shoal_batch");
     int with_batch = batch_col >= 0;
+    if ((rc = check_ledger_columns(a, g, err)) != COV_OK) goto fail;
+    rc = COV_ENOMEM;
+    long seed_col = g->seed_name != NULL ? find_column(a, g->seed_name) : -1;
 
     /* One SELECT of every needed column, in rowid order (the table's own order for a table
      * without rowids or a view, where ORDER BY rowid is refused). */
@@ -334,6 +400,7 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     for (size_t k = 0; k < n_rec; k++)
         len += 2 * strlen(cov_archive_column(a, (size_t)colidx[k])) + 4;
     len += 32;
+    if (seed_col >= 0) len += 2 * strlen(cov_archive_column(a, (size_t)seed_col)) + 4;
     sql = malloc(len);
     if (sql == NULL) goto nomem;
     at = (size_t)snprintf(sql, len, "SELECT ");
@@ -343,8 +410,14 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
         at += (size_t)snprintf(sql + at, len - at, "%s, ", q);
         free(q);
     }
-    at += (size_t)snprintf(sql + at, len - at, "%s FROM %s",
-                           with_batch ? "\"shoal_batch\"" : "NULL", qt);
+    at += (size_t)snprintf(sql + at, len - at, "%s", with_batch ? "\"shoal_batch\"" : "NULL");
+    if (seed_col >= 0) {
+        char *q = cov_sql_ident(cov_archive_column(a, (size_t)seed_col));
+        if (q == NULL) goto nomem;
+        at += (size_t)snprintf(sql + at, len - at, ", %s", q);
+        free(q);
+    }
+    at += (size_t)snprintf(sql + at, len - at, " FROM %s", qt);
     size_t base = at;
     snprintf(sql + at, len - at, " ORDER BY rowid");
     if (sqlite3_prepare_v2(db, sql, -1, &st, NULL) != SQLITE_OK) {
@@ -377,14 +450,14 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
 
     size_t est = estimate_rows(db, qt);
     size_t cap = est == 0 ? START_CAPACITY : est < MAX_FIRST_CAPACITY ? est : MAX_FIRST_CAPACITY;
-    if (grow(d, g, cap, with_batch)) goto nomem;
+    if (grow(d, g, cap, with_batch, seed_col >= 0)) goto nomem;
     reader r = {a, g, 0, err};
     size_t n = 0;
     int step;
     while ((step = sqlite3_step(st)) == SQLITE_ROW) {
         if (n == cap) {
             cap *= 2;
-            if (grow(d, g, cap, with_batch)) goto nomem;
+            if (grow(d, g, cap, with_batch, seed_col >= 0)) goto nomem;
         }
         r.row = n + 1;
         double *row = stage + (n % STAGE_ROWS) * n_rec;
@@ -413,7 +486,19 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
             } else {
                 char what[96];
                 if (!in_domain(&g->vars[v], x, what, sizeof what)) {
-                    if (g->vars[v].role == COV_INPUT) d->n_outside[v]++;
+                    if (g->vars[v].role == COV_INPUT) {
+                        d->n_outside[v]++;
+                        if (n_out_cells == cap_out_cells) {
+                            size_t nc = cap_out_cells ? 2 * cap_out_cells : 64;
+                            size_t *p2 = realloc(out_cells, 2 * nc * sizeof *p2);
+                            if (p2 == NULL) goto nomem;
+                            out_cells = p2;
+                            cap_out_cells = nc;
+                        }
+                        out_cells[2 * n_out_cells] = n;
+                        out_cells[2 * n_out_cells + 1] = v;
+                        n_out_cells++;
+                    }
                     d->n_missing[v]++;
                     if (n_examples[v]++ < COV_ISSUE_EXAMPLES) {
                         cov_data_issue *is = &d->issues[d->n_issues++];
@@ -430,6 +515,9 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
         if (with_batch)
             d->batch[n] = sqlite3_column_type(st, (int)n_rec) == SQLITE_NULL
                               ? 0 : sqlite3_column_int64(st, (int)n_rec);
+        if (seed_col >= 0 &&
+            (rc = read_seed(a, g, st, (int)n_rec + 1, n + 1, &d->seed[n], err)) != COV_OK)
+            goto fail;
         n++;
         if (n % STAGE_ROWS == 0) unstage(d, vars, n_rec, stage, n - STAGE_ROWS, STAGE_ROWS);
         if (progress != NULL && n % PROGRESS_EVERY_ROWS == 0)
@@ -442,6 +530,17 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     }
     unstage(d, vars, n_rec, stage, n - n % STAGE_ROWS, n % STAGE_ROWS);
     d->n_runs = n;
+    /* Each run once (coverage/archive/runs.c); inputs outside their domain are counted again
+     * over the runs kept. */
+    kept = malloc(n + 1);
+    if (kept == NULL) goto nomem;
+    if ((rc = cov_runs_identify(d, g, kept, err)) != COV_OK) goto fail;
+    if (d->n_duplicates > 0) {
+        for (size_t v = 0; v < g->n_vars; v++) d->n_outside[v] = 0;
+        for (size_t k = 0; k < n_out_cells; k++)
+            if (kept[out_cells[2 * k]]) d->n_outside[out_cells[2 * k + 1]]++;
+    }
+    n = d->n_runs;
     if (with_batch && n > 0) {
         long long *sorted = malloc(n * sizeof *sorted);
         if (sorted == NULL) goto nomem;
@@ -474,6 +573,8 @@ done:
     free(whole);
     free(lo);
     free(hi);
+    free(out_cells);
+    free(kept);
     cov_data_free(d);
     return rc;
 }

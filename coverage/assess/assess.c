@@ -536,7 +536,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     }
     a->n_diag = mrows;
     pw_resid_diag rd;
-    pw_lof lof = {0, 0, 0, NAN, NAN, NAN};
+    pw_lof lof = {0, 0, 0, NAN, NAN, NAN, 0};
     double mode_share = NAN;
     int drc = pw_resid_diagnose(yy, fitted, mrows, &rd), lrc = PW_EFEW, mrc = PW_OK;
     /* Replicates need every key variable to repeat a value; on the fast path a variable whose
@@ -561,8 +561,9 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         if (lof.p < COV_LOF_P) {
             a->noise_flag = 1;
             note_add(&a->noise_note, "lack of fit: F = %.3g, p = %.2g against pure error from "
-                     "%zu repeated configurations; sigma includes structure the linear model "
-                     "misses", lof.f, lof.p, lof.groups);
+                     "%zu repeated configuration%s (of %zu distinct in %zu runs); sigma includes "
+                     "structure the linear model misses", lof.f, lof.p, lof.repeated,
+                     lof.repeated == 1 ? "" : "s", lof.groups, mrows);
         }
     }
     if (mode_share >= COV_MODE_SHARE) {

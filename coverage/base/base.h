@@ -61,4 +61,16 @@ int cov_output_check(const char *path, int want_dir, const char *const *inputs, 
 /* The permission bits of a new file under the process's umask: 0666 & ~umask. */
 mode_t cov_new_file_mode(void);
 
+/* ---- what counts as one run, in words (coverage/base/runs_text.c) ---------------------------- */
+
+/* "600 runs (1200 rows: 600 repeated rows of the same run counted once); 590 configurations, 10 run
+ * more than once; 600 seeds, 0 shared by several configurations", truncated to n bytes. */
+void cov_runs_summary(const cov_data *d, char *buf, size_t n);
+/* The caution on runs that share inputs and seed but not outputs into buf; returns 1 when there is
+ * one, else 0 and buf "". */
+int cov_runs_caution(const cov_data *d, const cov_graph *g, char *buf, size_t n);
+/* The run figures as one JSON object: rows, runs, repeated_rows, conflicting_runs,
+ * configurations, configurations_repeated, seeds, seeds_shared (null without a seed column). */
+void cov_runs_json(FILE *f, const cov_data *d);
+
 #endif

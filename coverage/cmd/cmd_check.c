@@ -49,11 +49,12 @@ static size_t batch_runs(const cov_data *d, long long id)
 typedef struct {
     size_t vars_outside;      /* inputs with values outside the domain */
     size_t vars_empty;        /* recorded variables with no value at all */
+    size_t conflicts;         /* runs equal in inputs and seed but not in outputs */
 } problems;
 
 static problems count_problems(const cov_graph *g, const cov_data *d)
 {
-    problems p = {0, 0};
+    problems p = {0, 0, d->n_conflicts};
     for (size_t v = 0; v < g->n_vars; v++) {
         if (g->vars[v].role == COV_HIDDEN) continue;
         if (d->n_outside[v] > 0) p.vars_outside++;
@@ -67,9 +68,20 @@ static void print_table(const cov_graph *g, cov_archive *a,
 {
     fprintf(out, "archive   %s (table %s%s)\n", cov_archive_path(a), cov_archive_table(a),
             cov_archive_owned(a) ? ", written by shoal import" : ", the user's own: read only");
+    char runs[512];
+    cov_runs_summary(d, runs, sizeof runs);
     fprintf(out, "runs      %zu", d->n_runs);
     if (d->batch) fprintf(out, " in %zu batch%s", d->n_batches, d->n_batches == 1 ? "" : "es");
-    fprintf(out, "\n\n");
+    fprintf(out, "\nidentity  %s\n", runs);
+    if (g->seed_name != NULL) fprintf(out, "seed      column %s\n", g->seed_name);
+    if (g->n_ledger > 0) {
+        fprintf(out, "kept      ");
+        for (size_t i = 0; i < g->n_ledger; i++)
+            fprintf(out, "%s%s%s", i ? ", " : "", g->ledger[i].name,
+                    g->ledger[i].is_cost ? " (cost)" : "");
+        fprintf(out, " (bookkeeping, not analysed)\n");
+    }
+    fprintf(out, "\n");
 
     int wname = 8, wtype = 4;
     char type[256];
@@ -118,7 +130,9 @@ static void print_table(const cov_graph *g, cov_archive *a,
                     batch_runs(d, b[i].id), b[i].source);
     }
     fputc('\n', out);
-    if (p.vars_outside == 0 && p.vars_empty == 0) {
+    char caution[768];
+    if (cov_runs_caution(d, g, caution, sizeof caution)) fprintf(out, "caution: %s\n", caution);
+    if (p.vars_outside == 0 && p.vars_empty == 0 && p.conflicts == 0) {
         fprintf(out, "check passed: every recorded variable has values and every input is inside "
                 "its declared domain\n");
         return;
@@ -127,10 +141,14 @@ static void print_table(const cov_graph *g, cov_archive *a,
     if (p.vars_outside > 0)
         fprintf(out, " %zu input%s ha%s values outside the declared domain%s", p.vars_outside,
                 p.vars_outside == 1 ? "" : "s", p.vars_outside == 1 ? "s" : "ve",
-                p.vars_empty > 0 ? ";" : "");
+                p.vars_empty > 0 || p.conflicts > 0 ? ";" : "");
     if (p.vars_empty > 0)
-        fprintf(out, " %zu recorded variable%s ha%s no values at all", p.vars_empty,
-                p.vars_empty == 1 ? "" : "s", p.vars_empty == 1 ? "s" : "ve");
+        fprintf(out, " %zu recorded variable%s ha%s no values at all%s", p.vars_empty,
+                p.vars_empty == 1 ? "" : "s", p.vars_empty == 1 ? "s" : "ve",
+                p.conflicts > 0 ? ";" : "");
+    if (p.conflicts > 0)
+        fprintf(out, " %zu run%s disagree%s with another run of the same inputs and seed",
+                p.conflicts, p.conflicts == 1 ? "" : "s", p.conflicts == 1 ? "s" : "");
     fputc('\n', out);
 }
 
@@ -143,7 +161,13 @@ static void print_json(const cov_graph *g, cov_archive *a, const cov_data *d, co
     cov_emit_json_string(out, cov_archive_table(a));
     fprintf(out, ",\n  \"owned\": %s,\n  \"runs\": %zu,\n  \"adequate\": %s,\n",
             cov_archive_owned(a) ? "true" : "false", d->n_runs,
-            p.vars_outside == 0 && p.vars_empty == 0 ? "true" : "false");
+            p.vars_outside == 0 && p.vars_empty == 0 && p.conflicts == 0 ? "true" : "false");
+    fprintf(out, "  \"run_identity\": ");
+    cov_runs_json(out, d);
+    fprintf(out, ",\n  \"seed_column\": ");
+    if (g->seed_name != NULL) cov_emit_json_string(out, g->seed_name);
+    else fprintf(out, "null");
+    fprintf(out, ",\n");
     fprintf(out, "  \"variables\": [");
     int first = 1;
     for (size_t v = 0; v < g->n_vars; v++) {
@@ -227,7 +251,7 @@ int cov_cmd_check(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     rc = cov_archive_batches(a, &b, &nb, err);
     if (rc) goto done;
     problems p = count_problems(g, d);
-    *adequate = p.vars_outside == 0 && p.vars_empty == 0;
+    *adequate = p.vars_outside == 0 && p.vars_empty == 0 && p.conflicts == 0;
     if (o->quiet) goto done;
     if (o->format == COV_FMT_JSON) print_json(g, a, d, b, nb, p, out);
     else if (o->format == COV_FMT_CSV) print_csv(g, d, out);

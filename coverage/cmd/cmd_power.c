@@ -33,8 +33,12 @@ static void family_line(const cov_assessments *as, FILE *out)
 }
 
 static void print_table(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
-                        FILE *out)
+                        const cov_data *d, FILE *out)
 {
+    char run_line[512], caution[768];
+    cov_runs_summary(d, run_line, sizeof run_line);
+    fprintf(out, "runs: %s\n", run_line);
+    if (cov_runs_caution(d, g, caution, sizeof caution)) fprintf(out, "caution: %s\n", caution);
     family_line(as, out);
     int width = 5;
     for (size_t i = 0; i < cl->n; i++) {
@@ -137,10 +141,12 @@ static void json_text(FILE *out, const char *name, const char *s)
 }
 
 static void print_json(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
-                       FILE *out)
+                       const cov_data *d, FILE *out)
 {
     const cov_power_options *p = &as->opt;
-    fputs("{\"schema_version\": 2, \"alpha\": ", out);
+    fputs("{\"schema_version\": 2, \"run_identity\": ", out);
+    cov_runs_json(out, d);
+    fputs(", \"alpha\": ", out);
     cov_emit_json_number(out, p->alpha);
     fprintf(out, ", \"family\": \"%s\", \"family_size\": %zu, \"sides\": \"%s\", "
             "\"target_power\": ", p->bonferroni ? "bonferroni" : "none", as->n_testable,
@@ -221,9 +227,9 @@ int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, co
             *adequate = 0;
     if (o->quiet) goto done;
     switch (o->format) {
-    case COV_FMT_JSON: print_json(g, cl, as, out); break;
+    case COV_FMT_JSON: print_json(g, cl, as, d, out); break;
     case COV_FMT_CSV: print_csv(g, cl, as, out); break;
-    case COV_FMT_TABLE: print_table(g, cl, as, out); break;
+    case COV_FMT_TABLE: print_table(g, cl, as, d, out); break;
     }
 done:
     cov_assessments_free(as);

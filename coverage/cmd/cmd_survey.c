@@ -187,6 +187,11 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
     term_text(out, o->archive_path);
     fprintf(out, ": %zu runs in %zu batch%s\n", f->data->n_runs, f->data->n_batches,
             f->data->n_batches == 1 ? "" : "es");
+    char run_line[512], caution[768];
+    cov_runs_summary(f->data, run_line, sizeof run_line);
+    fprintf(out, "runs: %s\n", run_line);
+    if (cov_runs_caution(f->data, g, caution, sizeof caution))
+        fprintf(out, "%scaution%s: %s\n", col ? C_THIN : "", col ? C_RESET : "", caution);
     fprintf(out, "claims: %zu  %s%lld ample%s  %s%lld underpowered%s  %s%lld untestable%s\n", f->claims->n,
             col ? C_AMPLE : "", count[COV_AMPLE], col ? C_RESET : "", col ? C_THIN : "",
             count[COV_UNDERPOWERED], col ? C_RESET : "", col ? C_BLIND : "", count[COV_BLIND],

@@ -662,6 +662,7 @@ static int parse_statement(parser *p)
     if (is_word(t, "default")) return parse_default(p);
     if (is_word(t, "design")) return parse_design(p);
     if (is_word(t, "hold")) return parse_hold(p);
+    if (cov_ledger_is_statement(t)) return cov_ledger_parse(p->g, t, p->name, p->line, p->err);
     if (is_reserved(t->text))
         return perr(p, t->col, "found '%s' at the start of a statement, expected a statement "
                     "(input, output, hidden, default, design, hold) or an edge", t->text);
@@ -687,6 +688,7 @@ void cov_graph_free(cov_graph *g)
     }
     free(g->vars);
     free(g->edges);
+    cov_ledger_free(g);
     free(g->path);
     free(g);
 }
@@ -747,6 +749,7 @@ int cov_graph_parse_text(const char *name, const char *text, cov_graph **out, co
             goto fail;
         }
     }
+    if ((rc = cov_ledger_check(g, err)) != COV_OK) goto fail;
     cov_tokens_clear(&p.toks);
     free(p.toks.tok);
     for (size_t i = 0; i < g->n_vars; i++) free(p.children[i].item);

@@ -48,6 +48,22 @@ const char *cov_token_describe(const cov_token *t, char *buf, size_t size);
 int cov_graph_fail(cov_error *err, const char *name, int line, int col, const char *fmt, ...)
     __attribute__((format(printf, 5, 6)));
 
+/* ---- bookkeeping statements (coverage/graph/ledger.c) ---------------------------------------- */
+
+/* 1 when the statement in tok (ending with COV_TOK_END) is `runseed ...` or `ledger ...` rather
+ * than an edge from a variable that happens to carry one of those names. */
+int cov_ledger_is_statement(const cov_token *tok);
+/* Parse `runseed NAME` or `ledger NAME [cost] {, NAME [cost]}` into g. Errors are COV_EINPUT with
+ * err->where "name:line:column": a second seed column, a column declared twice, two cost columns.
+ * Returns COV_OK, COV_EINPUT or COV_ENOMEM. */
+int cov_ledger_parse(cov_graph *g, const cov_token *tok, const char *name, int line,
+                     cov_error *err);
+/* After the whole file: a seed or bookkeeping column that is also a variable of the graph, or
+ * that uses a name shoal reserves, is COV_EINPUT at its declaration. */
+int cov_ledger_check(const cov_graph *g, cov_error *err);
+/* Free the seed name and the bookkeeping columns of g. */
+void cov_ledger_free(cov_graph *g);
+
 #define COV_NO_NODE ((size_t)-1)
 
 /* The DAG that separator searches work on: node i < g->n_vars is variable i; when the inputs are

@@ -283,6 +283,11 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
     else fputs("null", out);
     fprintf(out, ",\n  \"runs\": %zu, \"batches\": %zu,\n", f->data ? f->data->n_runs : 0,
             f->data ? f->data->n_batches : 0);
+    if (f->data != NULL) {
+        fputs("  \"run_identity\": ", out);
+        cov_runs_json(out, f->data);
+        fputs(",\n", out);
+    }
     fprintf(out, "  \"counts\": {\"claims\": %zu, \"ample\": %lld, \"underpowered\": %lld, "
                  "\"untestable\": %lld},\n", f->claims->n, count[COV_AMPLE], count[COV_UNDERPOWERED],
             count[COV_BLIND]);

@@ -671,6 +671,18 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
         fprintf(out, "<div class=\"card\"><b>%s</b>3-way coverage</div>", buf);
     }
     fputs("</div>\n", out);
+    if (f->data != NULL) {
+        char run_line[512], caution[768];
+        cov_runs_summary(f->data, run_line, sizeof run_line);
+        fputs("<p>Runs: ", out);
+        html_text(out, run_line);
+        fputs(".</p>\n", out);
+        if (cov_runs_caution(f->data, f->graph, caution, sizeof caution)) {
+            fputs("<p class=\"caution\">Caution: ", out);
+            html_text(out, caution);
+            fputs(".</p>\n", out);
+        }
+    }
     if (f->opt != NULL)
         fprintf(out, "<p>Targets: power %.2f at family-wise level %.3g (%s), effects as declared in "
                      "the graph.</p>\n", f->opt->power.target, f->opt->power.alpha,

@@ -65,6 +65,18 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
         md_text(out, info->gate_note);
         fputs("\n", out);
     }
+    if (f->data != NULL) {
+        char run_line[512], caution[768];
+        cov_runs_summary(f->data, run_line, sizeof run_line);
+        fputs("\nRuns: ", out);
+        md_text(out, run_line);
+        fputs(".\n", out);
+        if (cov_runs_caution(f->data, f->graph, caution, sizeof caution)) {
+            fputs("\nCaution: ", out);
+            md_text(out, caution);
+            fputs(".\n", out);
+        }
+    }
     if (f->coverage != NULL) {
         char m[32], p2[32], p3[32];
         cov_report_share_text(f->coverage->marginal_share, m, sizeof m);

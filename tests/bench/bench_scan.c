@@ -101,7 +101,7 @@ int main(int argc, char **argv)
     }
     snprintf(sql + at, sql_len - at, " FROM runs");
     cov_graph g = {"bench.graph", vars, (size_t)n_cols, NULL, 0, {NAN, COV_UNIT_RAW},
-                   {NAN, COV_UNIT_RAW}, 0};
+                   {NAN, COV_UNIT_RAW}, 0, NULL, 0, 0, NULL, 0};
 
     double bare_wall[REPEATS], bare_cpu[REPEATS], read_wall[REPEATS], read_cpu[REPEATS], sink = 0;
     size_t runs = 0;

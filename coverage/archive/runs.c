@@ -1,0 +1,239 @@
+/* What counts as one run: a configuration (every input) plus its seed. Repeated rows of the same
+ * run are counted once, and the configurations, replicates and shared seeds are counted.
+ * See LICENSE. */
+#include <math.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coverage/archive/archive.h"
+
+/* The bits of a cell for hashing: every NaN alike (missing cells compare equal), -0 as +0. */
+static uint64_t cell_bits(double x)
+{
+    if (isnan(x)) return UINT64_C(0x7ff8000000000000);
+    if (x == 0) return 0;
+    uint64_t u;
+    memcpy(&u, &x, sizeof u);
+    return u;
+}
+
+/* A 64-bit mix per word (the finaliser of MurmurHash3, Appleby 2011), folded into h. */
+static uint64_t mix(uint64_t h, uint64_t w)
+{
+    w ^= w >> 33;
+    w *= UINT64_C(0xff51afd7ed558ccd);
+    w ^= w >> 33;
+    w *= UINT64_C(0xc4ceb9fe1a85ec53);
+    w ^= w >> 33;
+    return (h ^ w) * UINT64_C(0x100000001b3) + UINT64_C(0x9e3779b97f4a7c15);
+}
+
+static int same(double a, double b)
+{
+    return a == b || (isnan(a) && isnan(b));
+}
+
+typedef struct {
+    const cov_data *d;
+    size_t *in, n_in;     /* the input columns */
+    size_t *out, n_out;   /* the output columns */
+} run_view;
+
+static int seeded(const run_view *w, size_t i)
+{
+    return w->d->seed != NULL && w->d->seed[i] != COV_SEED_NONE;
+}
+
+static int inputs_equal(const run_view *w, size_t i, size_t j)
+{
+    for (size_t k = 0; k < w->n_in; k++)
+        if (!same(w->d->col[w->in[k]][i], w->d->col[w->in[k]][j])) return 0;
+    return 1;
+}
+
+static int outputs_equal(const run_view *w, size_t i, size_t j)
+{
+    for (size_t k = 0; k < w->n_out; k++)
+        if (!same(w->d->col[w->out[k]][i], w->d->col[w->out[k]][j])) return 0;
+    return 1;
+}
+
+static uint64_t hash_inputs(const run_view *w, size_t i)
+{
+    uint64_t h = UINT64_C(0xcbf29ce484222325);
+    for (size_t k = 0; k < w->n_in; k++) h = mix(h, cell_bits(w->d->col[w->in[k]][i]));
+    return h;
+}
+
+/* The identity of row i: its inputs and seed, or, without a seed, its inputs and outputs. */
+static uint64_t hash_identity(const run_view *w, size_t i)
+{
+    uint64_t h = hash_inputs(w, i);
+    if (seeded(w, i)) return mix(h ^ 1, (uint64_t)w->d->seed[i]);
+    for (size_t k = 0; k < w->n_out; k++) h = mix(h, cell_bits(w->d->col[w->out[k]][i]));
+    return h;
+}
+
+static int identity_equal(const run_view *w, size_t i, size_t j)
+{
+    if (seeded(w, i) != seeded(w, j) || !inputs_equal(w, i, j)) return 0;
+    if (seeded(w, i)) return w->d->seed[i] == w->d->seed[j];
+    return outputs_equal(w, i, j);
+}
+
+/* An open-addressing table of row numbers (row + 1; 0 is empty) with linear probing. */
+typedef struct {
+    size_t *slot;
+    uint64_t *hash;
+    size_t mask;
+} row_table;
+
+static int table_init(row_table *t, size_t n)
+{
+    size_t cap = 16;
+    while (cap < 2 * n) cap *= 2;
+    t->slot = calloc(cap, sizeof *t->slot);
+    t->hash = malloc(cap * sizeof *t->hash);
+    t->mask = cap - 1;
+    return t->slot != NULL && t->hash != NULL ? 0 : -1;
+}
+
+static void table_free(row_table *t)
+{
+    free(t->slot);
+    free(t->hash);
+}
+
+int cov_runs_identify(cov_data *d, const cov_graph *g, unsigned char *kept, cov_error *err)
+{
+    run_view w = {d, NULL, 0, NULL, 0};
+    row_table t = {NULL, NULL, 0}, tc = {NULL, NULL, 0}, ts = {NULL, NULL, 0};
+    unsigned char *keep = NULL, *conflict = NULL, *shared = NULL;
+    size_t *config_of = NULL, *config_runs = NULL;
+    size_t n = d->n_runs;
+    int rc = COV_ENOMEM;
+    w.in = malloc((g->n_vars + 1) * sizeof *w.in);
+    w.out = malloc((g->n_vars + 1) * sizeof *w.out);
+    keep = malloc(n + 1);
+    conflict = calloc(n + 1, 1);
+    if (w.in == NULL || w.out == NULL || keep == NULL || conflict == NULL || table_init(&t, n))
+        goto fail;
+    for (size_t v = 0; v < g->n_vars; v++) {
+        if (d->col[v] == NULL) continue;
+        if (g->vars[v].role == COV_INPUT) w.in[w.n_in++] = v;
+        else if (g->vars[v].role == COV_OUTPUT) w.out[w.n_out++] = v;
+    }
+
+    /* One pass: a row whose identity and outputs match an earlier row is a repeat; a row whose
+     * identity matches but whose outputs differ is a conflicting replicate, kept. */
+    d->n_rows = n;
+    d->n_duplicates = 0;
+    for (size_t i = 0; i < n; i++) {
+        uint64_t h = hash_identity(&w, i);
+        size_t s = (size_t)h & t.mask;
+        int dup = 0;
+        for (; t.slot[s] != 0; s = (s + 1) & t.mask) {
+            size_t j = t.slot[s] - 1;
+            if (t.hash[s] != h || !identity_equal(&w, i, j)) continue;
+            if (outputs_equal(&w, i, j)) {
+                dup = 1;
+                break;
+            }
+            conflict[i] = conflict[j] = 1;
+        }
+        keep[i] = (unsigned char)!dup;
+        if (dup) {
+            d->n_duplicates++;
+            continue;
+        }
+        t.slot[s] = i + 1;
+        t.hash[s] = h;
+    }
+
+    if (kept != NULL) memcpy(kept, keep, n);
+    /* Keep each run once, in first-seen order. */
+    if (d->n_duplicates > 0) {
+        size_t m = 0;
+        for (size_t i = 0; i < n; i++) {
+            if (!keep[i]) continue;
+            if (m != i) {
+                for (size_t v = 0; v < g->n_vars; v++)
+                    if (d->col[v] != NULL) d->col[v][m] = d->col[v][i];
+                if (d->batch != NULL) d->batch[m] = d->batch[i];
+                if (d->seed != NULL) d->seed[m] = d->seed[i];
+                conflict[m] = conflict[i];
+            }
+            m++;
+        }
+        n = d->n_runs = m;
+        for (size_t v = 0; v < g->n_vars; v++) {
+            if (d->col[v] == NULL) continue;
+            size_t miss = 0;
+            for (size_t i = 0; i < n; i++) miss += (size_t)isnan(d->col[v][i]);
+            d->n_missing[v] = miss;
+        }
+    }
+    d->n_conflicts = 0;
+    for (size_t i = 0; i < n; i++) d->n_conflicts += conflict[i];
+
+    /* Configurations and how often each was run. */
+    config_of = malloc((n + 1) * sizeof *config_of);
+    config_runs = calloc(n + 1, sizeof *config_runs);
+    if (config_of == NULL || config_runs == NULL || table_init(&tc, n)) goto fail;
+    d->n_configs = 0;
+    for (size_t i = 0; i < n; i++) {
+        uint64_t h = hash_inputs(&w, i);
+        size_t s = (size_t)h & tc.mask;
+        for (; tc.slot[s] != 0; s = (s + 1) & tc.mask)
+            if (tc.hash[s] == h && inputs_equal(&w, i, tc.slot[s] - 1)) break;
+        if (tc.slot[s] == 0) {
+            tc.slot[s] = i + 1;
+            tc.hash[s] = h;
+            config_of[i] = d->n_configs++;
+        } else {
+            config_of[i] = config_of[tc.slot[s] - 1];
+        }
+        config_runs[config_of[i]]++;
+    }
+    d->n_replicated = 0;
+    for (size_t c = 0; c < d->n_configs; c++) d->n_replicated += config_runs[c] >= 2;
+
+    /* Seeds, and those that more than one configuration used. */
+    d->n_seeds = d->n_shared_seeds = 0;
+    if (d->seed != NULL) {
+        shared = calloc(n + 1, 1);
+        if (shared == NULL || table_init(&ts, n)) goto fail;
+        for (size_t i = 0; i < n; i++) {
+            if (d->seed[i] == COV_SEED_NONE) continue;
+            uint64_t h = mix(0, (uint64_t)d->seed[i]);
+            size_t s = (size_t)h & ts.mask;
+            for (; ts.slot[s] != 0; s = (s + 1) & ts.mask)
+                if (d->seed[ts.slot[s] - 1] == d->seed[i]) break;
+            if (ts.slot[s] == 0) {
+                ts.slot[s] = i + 1;
+                d->n_seeds++;
+                continue;
+            }
+            size_t first = ts.slot[s] - 1;
+            if (config_of[first] != config_of[i] && !shared[first]) {
+                shared[first] = 1;
+                d->n_shared_seeds++;
+            }
+        }
+    }
+    rc = COV_OK;
+fail:
+    if (rc != COV_OK) cov_fail(err, rc, "", "out of memory while identifying runs");
+    table_free(&t);
+    table_free(&tc);
+    table_free(&ts);
+    free(w.in);
+    free(w.out);
+    free(keep);
+    free(conflict);
+    free(shared);
+    free(config_of);
+    free(config_runs);
+    return rc;
+}
