@@ -1,0 +1,158 @@
+#!/bin/sh
+# What counts as one run: the runseed and ledger statements, repeated rows counted once, conflicting
+# replicates, and imports that would double a campaign. The demo campaign is invented. See LICENSE.
+: "${SHOAL:=build/shoal}" "${PYTHON:=/usr/bin/python3}"
+fails=0
+ok() { echo "PASS: $1"; }
+bad() { echo "FAIL: $1"; fails=$((fails + 1)); }
+tmp=$(mktemp -d) || exit 1
+trap 'rm -rf "$tmp"' EXIT
+G=fixtures/demo/triage.graph
+CSV=fixtures/demo/triage-runs.csv
+
+# run WANT_RC DESC ARGS...: runs shoal (120 s cap), checks the status; stdout in $tmp/out, stderr in
+# $tmp/err.
+run() {
+  want=$1 desc=$2
+  shift 2
+  timeout 120 "$SHOAL" "$@" >"$tmp/out" 2>"$tmp/err"
+  rc=$?
+  if [ "$rc" -eq "$want" ]; then ok "$desc exits $want"
+  else bad "$desc exits $rc, expected $want: $(head -c 400 "$tmp/err")"; fi
+}
+# has FILE TEXT DESC: FILE holds TEXT.
+has() {
+  if grep -qF -- "$2" "$1"; then ok "$3"
+  else bad "$3: lacks '$2': $(head -c 600 "$1")"; fi
+}
+
+# ---- the graph statements: bad input names file:line:column -----------------------------------
+base='input a real [0, 1]
+output y real
+default effect 0.2 sd
+a -> y'
+printf '%s\nrunseed s\nrunseed t\n' "$base" >"$tmp/twice.graph"
+run 2 "a second runseed" claims "$tmp/twice.graph"
+has "$tmp/err" "twice.graph:6:1: found a second 'runseed' statement" "a second runseed is named at 6:1"
+printf '%s\nrunseed a\n' "$base" >"$tmp/input.graph"
+run 2 "a seed column that is also an input" claims "$tmp/input.graph"
+has "$tmp/err" "input.graph:5:9: found 'a' declared as an input on line 1 and as the seed column" \
+  "the seed column that is an input is named at 5:9"
+printf '%s\nledger wall cost, A\n' "$base" >"$tmp/ledger-input.graph"
+run 2 "a bookkeeping column that is also an input (ASCII case folded)" claims "$tmp/ledger-input.graph"
+has "$tmp/err" "ledger-input.graph:5:19: found 'A' declared as an input" \
+  "the bookkeeping column that is an input is named at 5:19"
+printf '%s\nledger wall cost, cpu cost\n' "$base" >"$tmp/cost2.graph"
+run 2 "two cost columns" claims "$tmp/cost2.graph"
+printf '%s\nrunseed\n' "$base" >"$tmp/noname.graph"
+run 2 "runseed without a name" claims "$tmp/noname.graph"
+has "$tmp/err" "noname.graph:5:8: found the end of the line, expected the seed column's name" \
+  "runseed without a name is named at 5:8"
+# A variable may still be called runseed or ledger: `ledger -> y` is an edge.
+printf 'input ledger real [0, 1]\noutput y real\ndefault effect 0.2 sd\nledger -> y\n' \
+  >"$tmp/edge.graph"
+run 0 "an edge from a variable called ledger" claims "$tmp/edge.graph"
+
+# The demo graph with its seed and bookkeeping columns declared.
+cp "$G" "$tmp/seeded.graph"
+printf 'runseed seed\nledger run_id\n' >>"$tmp/seeded.graph"
+run 0 "import of the demo campaign" import "$CSV" --archive "$tmp/one.db" -q
+run 0 "check of the demo with its seed declared" check "$tmp/seeded.graph" "$tmp/one.db"
+has "$tmp/out" "seed      column seed" "check names the seed column"
+has "$tmp/out" "600 seeds, 0 shared by several configurations" "check counts the demo's seeds"
+cp "$G" "$tmp/noseedcol.graph"
+printf '\nrunseed rng_seed\n' >>"$tmp/noseedcol.graph"
+line=$(wc -l <"$tmp/noseedcol.graph" | tr -d ' ')
+run 2 "a seed column missing from the archive" check "$tmp/noseedcol.graph" "$tmp/one.db"
+has "$tmp/err" "noseedcol.graph:$line:9: found no column 'rng_seed'" \
+  "the missing seed column is named at its declaration"
+# A seed that is not a whole number: row and column.
+awk -F, 'BEGIN{OFS=","} NR==4{$2="12.5"} {print}' "$CSV" >"$tmp/badseed.csv"
+run 0 "import of a campaign with a fractional seed" import "$tmp/badseed.csv" --archive "$tmp/bad.db" -q
+run 2 "a fractional seed" power "$tmp/seeded.graph" "$tmp/bad.db"
+has "$tmp/err" "row 3, column seed: found '12.5', expected a whole-number seed" \
+  "the fractional seed is named by row and column"
+
+# ---- the demo imported twice ---------------------------------------------------------------------
+cp "$tmp/one.db" "$tmp/two.db"
+sha_before=$(sha256sum "$tmp/two.db" | cut -d' ' -f1)
+run 2 "importing the same CSV a second time" import "$CSV" --archive "$tmp/two.db"
+has "$tmp/err" "found all 600 rows already in" "the refusal counts the rows"
+has "$tmp/err" "first imported as batch 1 (imported " "the refusal names the earlier batch"
+sha_after=$(sha256sum "$tmp/two.db" | cut -d' ' -f1)
+if [ "$sha_before" = "$sha_after" ]; then ok "a refused import leaves the archive unchanged (sha256)"
+else bad "a refused import changed the archive (sha256 $sha_before -> $sha_after)"; fi
+run 0 "importing it again with --again" import "$CSV" --archive "$tmp/two.db" --again
+has "$tmp/err" "600 of 600 rows were already in the archive (batch 1: 600), appended anyway" \
+  "--again says what it did"
+run 0 "check of the doubled archive" check "$G" "$tmp/two.db"
+has "$tmp/out" "600 runs (1200 rows: 600 repeated rows of the same run counted once)" \
+  "check reports the repeated rows"
+run 1 "power of the doubled archive" power "$G" "$tmp/two.db"
+has "$tmp/out" "600 repeated rows" "power reports the repeated rows"
+run 1 "survey of the single import" survey "$G" "$tmp/one.db" -o "$tmp/r1"
+grep -v '^shoal survey\|^runs:\|^report:\|^history:' "$tmp/out" >"$tmp/s1.txt"
+run 1 "survey of the doubled archive" survey "$G" "$tmp/two.db" -o "$tmp/r2"
+has "$tmp/out" "600 repeated rows of the same run counted once" "survey reports the repeated rows"
+grep -v '^shoal survey\|^runs:\|^report:\|^history:' "$tmp/out" >"$tmp/s2.txt"
+if cmp -s "$tmp/s1.txt" "$tmp/s2.txt"; then ok "the survey's terminal figures equal the single import's"
+else bad "the survey's figures differ: $(diff "$tmp/s1.txt" "$tmp/s2.txt" | head -5)"; fi
+has "$tmp/r2/report.md" "600 repeated rows" "the report gives the repeated rows"
+has "$tmp/r2/index.html" "600 repeated rows" "the HTML report gives the repeated rows"
+# Every figure of summary.json and claims.csv, bar the archive's name, the time and the row count.
+"$PYTHON" - "$tmp/r1" "$tmp/r2" <<'EOF'
+import csv, json, sys
+def strip(x):
+    if isinstance(x, dict):
+        return {k: strip(v) for k, v in x.items()
+                if k not in ("archive", "generated", "path", "at", "rows", "repeated_rows")}
+    if isinstance(x, list):
+        return [strip(v) for v in x]
+    return x
+a = json.load(open(sys.argv[1] + "/summary.json"))
+b = json.load(open(sys.argv[2] + "/summary.json"))
+n = b["run_identity"]
+ok = strip(a) == strip(b) and n["rows"] == 1200 and n["repeated_rows"] == 600 and n["runs"] == 600
+print(("PASS" if ok else "FAIL") + ": every summary.json figure of the doubled archive equals the "
+      "single import's (run_identity %s)" % n)
+ca = list(csv.reader(open(sys.argv[1] + "/claims.csv")))
+cb = list(csv.reader(open(sys.argv[2] + "/claims.csv")))
+print(("PASS" if ca == cb and len(ca) > 1 else "FAIL") + ": claims.csv of the doubled archive "
+      "equals the single import's (%d rows)" % len(ca))
+EOF
+
+# ---- partial overlap: reported with counts, appended ---------------------------------------------
+{ head -301 "$CSV"; sed -n '302,400p' "$CSV" | sed 's/^\([0-9]*\),/\1000,/'; } >"$tmp/mix.csv"
+cp "$tmp/one.db" "$tmp/mix.db"
+run 0 "importing a file that half repeats the archive" import "$tmp/mix.csv" --archive "$tmp/mix.db"
+has "$tmp/err" "300 of 399 rows were already in the archive (batch 1: 300)" \
+  "partial overlap is reported with counts"
+run 0 "check after the partial overlap" check "$G" "$tmp/mix.db"
+has "$tmp/out" "600 runs (999 rows: 399 repeated rows" "the partial overlap counts each run once"
+run 0 "import --json reports the overlap" import "$CSV" --archive "$tmp/mix.db" --again --json
+"$PYTHON" -c '
+import json, sys
+d = json.load(open(sys.argv[1]))
+ok = d["rows_already_present"] == 600 and d["appended_anyway"] is True
+print(("PASS" if ok else "FAIL") + ": import --json gives rows_already_present 600 and "
+      "appended_anyway (%s)" % d)' "$tmp/out"
+
+# ---- one seed, two outcomes: a data problem, kept as replicates ----------------------------------
+# Row 5 repeats row 2's inputs and seed with another wait: the simulator is not deterministic under
+# its seed, or two campaigns were mixed.
+awk -F, 'BEGIN{OFS=","} NR==2{keep=$0} {print} END{split(keep,f,","); f[1]=601; f[8]=f[8]+7;
+  s=f[1]; for(i=2;i<=9;i++) s=s "," f[i]; print s}' "$CSV" >"$tmp/conflict.csv"
+run 0 "import of a campaign with a conflicting replicate" import "$tmp/conflict.csv" \
+  --archive "$tmp/conflict.db" -q
+run 1 "check with a conflicting replicate" check "$tmp/seeded.graph" "$tmp/conflict.db"
+has "$tmp/out" "caution: 2 runs share every input and the seed (seed) with another run" \
+  "check cautions on the conflicting runs"
+has "$tmp/out" "601 runs; 597 configurations, 3 run more than once" \
+  "the conflicting runs are counted as replicates"
+run 1 "survey with a conflicting replicate" survey "$tmp/seeded.graph" "$tmp/conflict.db" \
+  -o "$tmp/r3"
+has "$tmp/out" "caution: 2 runs share every input" "the survey verdict carries the caution"
+has "$tmp/r3/report.md" "Caution: 2 runs share every input" "the report carries the caution"
+
+echo "cli_runs: $fails failed"
+[ "$fails" -eq 0 ]
