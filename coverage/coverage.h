@@ -40,12 +40,17 @@ int cov_fail(cov_error *err, int status, const char *where, const char *fmt, ...
 typedef enum { COV_INPUT, COV_OUTPUT, COV_HIDDEN } cov_role;
 typedef enum { COV_REAL, COV_INTEGER, COV_BOOL, COV_LEVELS } cov_type;
 typedef enum { COV_UNIT_RAW, COV_UNIT_SD } cov_unit;
+/* What an amount is counted over on the treatment's side: one unit of the treatment, a step of
+ * `step` units (`per STEP`), or the treatment's whole declared range (`over range`). */
+typedef enum { COV_PER_UNIT, COV_PER_STEP, COV_PER_RANGE } cov_per;
 
-/* An amount of effect: raw outcome units per unit of treatment, or SDs of the outcome per unit of
- * treatment. value is NAN when the file does not give it. */
+/* An amount of effect: raw outcome units, or SDs of the outcome, per unit of treatment, per a step
+ * of it or over its declared range. value is NAN when the file does not give it. */
 typedef struct {
     double value;
     cov_unit unit;
+    cov_per per;          /* COV_PER_UNIT unless the file says `per STEP` or `over range` */
+    double step;          /* COV_PER_STEP: the step, > 0, in the treatment's units */
 } cov_amount;
 
 typedef struct {
@@ -59,11 +64,31 @@ typedef struct {
     int held;             /* inputs: 1 when `hold` fixes it for planned runs */
     double held_value;    /* the held value (level index for level sets) */
     int line, col;        /* where it is declared */
+    char *unit;           /* `unit "TEXT"`: the variable's unit, or NULL; read it by cov_var_unit */
+    int ordered;          /* level sets: 1 when declared `ordered` */
+    double *positions;    /* ordered level sets: n_levels increasing positions (`at {...}`, else
+                             0, 1, ...); NULL otherwise */
+    int noise_own;        /* outputs: `noise independent NAME`: no shared run noise */
 } cov_var;
+
+/* The unit text of v, or "" when the graph gives none. Never NULL. */
+const char *cov_var_unit(const cov_var *v);
+/* The factor that turns an amount counted as a says into one per unit of treatment v: 1 per unit,
+ * 1 / step per step, 1 / (hi - lo) over the declared range (ordered level sets: the span of their
+ * positions). A bool or unordered level treatment has no units to count over: the amount is the
+ * difference between two levels, factor 1. NAN when the range is not declared (an output). */
+double cov_amount_per_unit_factor(const cov_amount *a, const cov_var *v);
+/* The amount as written, "5 per 1000", "2 sd over range", "0.01"; returns buf. */
+const char *cov_amount_text(const cov_amount *a, char *buf, size_t size);
+
+/* The expected shape of an edge's effect: monotone (a slope), or `expect turning` (it rises and
+ * falls, or the other way round), which is tested over a level or polynomial basis. */
+typedef enum { COV_SHAPE_MONOTONE, COV_SHAPE_TURNING } cov_shape;
 
 typedef struct {
     size_t from, to;      /* variable indices */
-    int sign;             /* +1 or -1 when an expected sign is given, else 0 */
+    int sign;             /* +1 or -1 when an expected sign is given, else 0 (`expect ?`) */
+    cov_shape shape;
     cov_amount effect;    /* smallest effect of interest of this edge; NAN value: the default */
     int line, col;
 } cov_edge;
@@ -89,6 +114,8 @@ typedef struct {
     int seed_line, seed_col;    /* where it is declared */
     cov_ledger *ledger;         /* `ledger NAME [cost], ...`: bookkeeping columns */
     size_t n_ledger;
+    int noise_independent;      /* `noise independent`: outputs share no run noise */
+    int default_effect_line, default_effect_col, margin_line, margin_col;   /* where they are */
 } cov_graph;
 
 /* Parse a graph file. On a syntax or consistency error returns COV_EINPUT with err->where set to
@@ -126,6 +153,9 @@ typedef struct {
     size_t *min_cond;           /* a minimal separator among recorded variables, ascending; equal
                                    to cond when cond is already minimal (testable claims only) */
     size_t n_min_cond;
+    int rests_on_noise;         /* 1: both ends are outputs and the claim is testable only because
+                                   the graph declares their run noise independent */
+    cov_shape shape;            /* the edge's expected shape (absence claims: monotone) */
 } cov_claim;
 
 typedef struct {
@@ -266,6 +296,17 @@ typedef struct {
     double excess_kurtosis;   /* of the residuals, or NAN */
     size_t n_diag;        /* rows the residual diagnostics used (a fixed-seed subsample when
                              fewer than n) */
+    /* What the graph claims about the effect (README.md, "What the graph claims"). */
+    double effect_written_raw;   /* the effect of interest in raw outcome units per the step or
+                                    range it was written over (= effect_raw for per-unit amounts) */
+    int trend;            /* 1: an ordered level treatment tested by its linear trend (1 df) */
+    double omnibus_f, omnibus_p, omnibus_df1;   /* ordered levels: the level set's F beside it */
+    double omnibus_power; /* the omnibus F test's power at the same straight-line effect */
+    size_t distinct;      /* numeric or ordered treatment: distinct values (levels) run; 0 else */
+    double shape_f, shape_p, shape_df1, shape_df2;   /* lack of fit of the straight line; NAN */
+    int shape_pure;       /* 1: against pure error from replicated configurations */
+    char *caution;        /* shape and never-run-level cautions, "; "-joined, or NULL (they are
+                             also in reason, so every output that shows the reason shows them) */
 } cov_assessment;
 
 typedef struct {

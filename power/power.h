@@ -213,7 +213,9 @@ typedef enum {
     PW_TEST_COEF_T,     /* t test of one regression coefficient (numeric or bool treatment) */
     PW_TEST_LEVELS_F,   /* F test of the L - 1 contrasts of a level-set treatment */
     PW_TEST_TWO_PROP,   /* two proportions through Cohen's h (bool outcome, bool treatment) */
-    PW_TEST_TOST        /* equivalence: two one-sided tests against +-margin (absence claims) */
+    PW_TEST_TOST,       /* equivalence: two one-sided tests against +-margin (absence claims) */
+    PW_TEST_TREND_T     /* t test of the linear trend contrast of an ordered level set: one df,
+                           fitted beside its other L - 2 level columns */
 } pw_test;
 
 /* What one claim's test looks like, in the outcome's units. */
@@ -258,6 +260,9 @@ int pw_level_pattern(const double *M, size_t t, double *q_min, double *v_max, si
  * - PW_TEST_TWO_PROP: p1, p2 = p_base -+ effect / 2 clipped to [PW_PROP_EPS, 1 - PW_PROP_EPS],
  *   Cohen's h = 2 asin sqrt(p2) - 2 asin sqrt(p1), normal test on n sd_x_resid^2 effective units
  *   (n1 n2 / (n1 + n2) when the adjustment set is empty), as pwr.2p2n.test computes it.
+ * - PW_TEST_TREND_T: as PW_TEST_COEF_T with df = n - n_params - (L - 1) (the level set keeps its
+ *   L - 1 columns; the contrast is one combination of them), sd_x_resid the contrast's
+ *   equivalent spread S_xx / sqrt(n c' M^-1 c), effect per unit of the levels' positions.
  * - PW_TEST_TOST: se = sigma / (sd_x_resid sqrt(n)), df = n - n_params - max(1, L - 1), exact
  *   power through pw_tost_power at a true effect of 0 with margins -+effect. */
 #define PW_PROP_EPS 1e-9     /* keeps both proportions inside (0, 1), where the arcsine is smooth */

@@ -122,6 +122,15 @@ int pw_power(const pw_design *d, double *power)
         if (!(spread > 0)) return PW_EDOM;
         return pw_prop_power_h(h, d->n * spread, d->alpha, d->sides, power);
     }
+    case PW_TEST_TREND_T: {
+        /* The trend contrast's t test is the coefficient test with the level set's other L - 2
+         * columns counted among the parameters. */
+        pw_design e = *d;
+        e.test = PW_TEST_COEF_T;
+        e.n_params = d->n_params + treat_df(d) - 1.0;
+        e.n_levels = 0;
+        return pw_power(&e, power);
+    }
     case PW_TEST_TOST: {
         double df = d->n - d->n_params - treat_df(d);
         if (!(df > 0) || !(d->n > 0)) return PW_EFEW;

@@ -9,7 +9,11 @@ check() { if eval "$1"; then pass "$2"; else fail "$2"; fi; }
 
 tmp=$(mktemp -d)
 trap 'rm -rf "$tmp"' EXIT
-graph=fixtures/demo/triage.graph
+# The demo graph with its outputs' run noise declared independent: under the default (outputs share
+# the run's noise) the claims that adjust for an output, and site -/-> wait, are untestable, and
+# these checks exercise how the plan treats exactly those claims.
+graph="$tmp/triage-indep.graph"
+{ cat fixtures/demo/triage.graph; echo "noise independent"; } >"$graph"
 db="$tmp/demo.db"
 "$SHOAL" import fixtures/demo/triage-runs.csv --archive "$db" >/dev/null 2>&1 ||
   fail "demo archive imports"

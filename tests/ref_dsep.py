@@ -20,11 +20,12 @@ N_SMALL = 520          # graphs of 3..12 nodes: exhaustive subset checks are aff
 N_LARGE = 60           # graphs of 13..22 nodes: separation and single-removal minimality only
 BRUTE_MAX_NODES = 12   # the brief's limit for brute force over all subsets
 DESIGN = "__design__"  # our own node for the campaign's design; no graph name can collide with it
+NOISE = "__run_noise__"  # our own node for the run's random stream, shared by outputs by default
 
 shoal = os.environ.get("SHOAL", "build/shoal")
 failures = []          # (category, message)
 counts = {"graphs": 0, "claims": 0, "testable": 0, "untestable": 0, "brute": 0, "subset": 0,
-          "preferred": 0}
+          "preferred": 0, "noise_modes": set(), "rests": 0}
 
 
 def fail(msg, cat="claims"):
@@ -63,7 +64,16 @@ def make_graph(rng, n):
     return edges, names, role, decl
 
 
-def write_graph(path, rng, edges, names, role, decl, independent):
+def noise_sharing(n, role, noise):
+    """The outputs that share the run's noise: all of them by default, none with `noise
+    independent`, the others with `noise independent NAME, ...`. One alone shares nothing."""
+    if noise == "all":
+        return set()
+    shared = {v for v in range(n) if role[v] == "output" and v not in noise}
+    return shared if len(shared) >= 2 else set()
+
+
+def write_graph(path, rng, edges, names, role, decl, independent, noise=None):
     lines = ["# Invented random graph for the d-separation cross-check."]
     types = {}
     for v in decl:
@@ -79,6 +89,10 @@ def write_graph(path, rng, edges, names, role, decl, independent):
     lines.append("default margin 0.05 sd")
     if independent:
         lines.append("design independent")
+    if noise == "all":
+        lines.append("noise independent")
+    elif noise:
+        lines.append("noise independent " + ", ".join(quote(names[v]) for v in sorted(noise)))
     # Edges: grouped by target as comma lists ("a, b -> t") or one per line, in a random order;
     # the written order is the expected order of effect claims.
     order = []
@@ -130,7 +144,7 @@ def topo_rank(n, edges, decl):
     return rank
 
 
-def expected_claims(n, order, edges, role, decl):
+def expected_claims(n, order, edges, role, decl, shared=frozenset()):
     rec = lambda v: role[v] != "hidden"
     out = [("effect", a, b) for a, b in order if rec(a) and rec(b)]
     rank = topo_rank(n, edges, decl)
@@ -143,6 +157,8 @@ def expected_claims(n, order, edges, role, decl):
                 continue
             if role[x] == "output" and rank[x] > rank[y]:
                 continue
+            if x in shared and y in shared:
+                continue       # two outputs sharing run noise: no absence claim is derived
             out.append(("absence", x, y))
     return out
 
@@ -154,11 +170,23 @@ def proper_subsets(s):
             yield set(sub)
 
 
-def check_graph(idx, tmp, rng, n):
-    edges, names, role, decl = make_graph(rng, n)
-    independent = rng.random() < 0.4
+def check_graph(idx, tmp, rng, n, forced=None):
+    if forced is None:
+        edges, names, role, decl = make_graph(rng, n)
+        independent = rng.random() < 0.4
+        # Run noise: shared by every output (the default), declared independent for all, or for
+        # a random subset of the outputs.
+        outs = [v for v in range(n) if role[v] == "output"]
+        r = rng.random()
+        noise = None if r < 0.5 else ("all" if r < 0.7 else
+                                      {v for v in outs if rng.random() < 0.5} or None)
+    else:
+        edges, names, role, decl, independent, noise = forced
+    counts["noise_modes"].add("shared" if noise is None else ("all" if noise == "all"
+                                                              else "named"))
+    shared = noise_sharing(n, role, noise or set())
     path = os.path.join(tmp, "g%03d.graph" % idx)
-    order, effects = write_graph(path, rng, edges, names, role, decl, independent)
+    order, effects = write_graph(path, rng, edges, names, role, decl, independent, noise)
     try:
         res = subprocess.run([shoal, "claims", "--json", path], capture_output=True, text=True)
     except OSError as e:
@@ -166,7 +194,7 @@ def check_graph(idx, tmp, rng, n):
         return
     if res.returncode != 0:
         fail("%s: exit %d: %s" % (path, res.returncode, res.stderr.strip()))
-        return
+        return None
     doc = json.loads(res.stdout)
     counts["graphs"] += 1
     G = nx.DiGraph()
@@ -174,18 +202,26 @@ def check_graph(idx, tmp, rng, n):
     G.add_edges_from((names[a], names[b]) for a, b in edges)
     if not independent:
         G.add_edges_from((DESIGN, names[v]) for v in range(n) if role[v] == "input")
+    G.add_edges_from((NOISE, names[v]) for v in shared)
     by_name = {names[v]: v for v in range(n)}
     recorded = {names[v] for v in range(n) if role[v] != "hidden"}
     inputs = {names[v] for v in range(n) if role[v] == "input"}
-    want = [(k, names[a], names[b]) for k, a, b in expected_claims(n, order, edges, role, decl)]
+    want = [(k, names[a], names[b])
+            for k, a, b in expected_claims(n, order, edges, role, decl, shared)]
     got = [(c["kind"], c["treatment"], c["outcome"]) for c in doc["claims"]]
     if got != want:
         fail("%s: claims differ from the definitions: got %s, expected %s" % (path, got, want))
-        return
+        return None
     for c in doc["claims"]:
         counts["claims"] += 1
         x, y, S = c["treatment"], c["outcome"], set(c["adjustment_set"])
         M = set(c["minimal_adjustment_set"])
+        bx, by = by_name[x], by_name[y]
+        rests = role[bx] == "output" and not (bx in shared and by in shared)
+        counts["rests"] += rests
+        if c["rests_on_noise_independence"] != rests:
+            fail("%s: %s %s->%s rests_on_noise_independence %s, expected %s" % (
+                path, c["kind"], x, y, c["rests_on_noise_independence"], rests))
         H = G.copy()
         if c["kind"] == "effect":
             H.remove_edge(x, y)
@@ -253,7 +289,7 @@ def check_graph(idx, tmp, rng, n):
                 fail("%s: untestable claim with sets %s, %s" % (path, S, M))
             r = c["reason"] or ""
             hidden_named = any(names[v] in r for v in range(n) if role[v] == "hidden") or \
-                "[design]" in r
+                "[design]" in r or "[run noise]" in r
             if not r.startswith("open path ") or not hidden_named:
                 fail("%s: %s %s->%s: reason %r names no open path through a hidden variable" %
                      (path, c["kind"], x, y, r))
@@ -274,6 +310,36 @@ def check_graph(idx, tmp, rng, n):
                 if nx.d_separated(H, {x}, {y}, set(cand) & anc):
                     fail("%s: %s %s->%s reported untestable but recorded ancestors separate" %
                          (path, c["kind"], x, y))
+    return doc
+
+
+def three_by_three(tmp, rng):
+    """Three inputs, three outputs, no output-output edge (invented): shared run noise gives no
+    output-output absence claim; `noise independent` gives all three, each pinned by networkx
+    through check_graph."""
+    names = ["in_a", "in_b", "in_c", "out_x", "out_y", "out_z"]
+    role = {0: "input", 1: "input", 2: "input", 3: "output", 4: "output", 5: "output"}
+    edges = [(0, 3), (1, 4), (2, 5), (0, 4)]
+    decl = list(range(6))
+    results = {}
+    for mode, noise in (("shared", None), ("independent", "all")):
+        doc = check_graph(900 + len(results), tmp, rng, 6,
+                          (edges, names, role, decl, False, noise))
+        pairs = set()
+        for c in (doc or {}).get("claims", []):
+            if c["kind"] == "absence" and c["treatment"].startswith("out_"):
+                pairs.add((c["treatment"], c["outcome"]))
+        results[mode] = (doc is not None, pairs)
+    ok_shared = results["shared"][0] and not results["shared"][1]
+    want = {("out_x", "out_y"), ("out_x", "out_z"), ("out_y", "out_z")}
+    ok_indep = results["independent"][0] and results["independent"][1] == want
+    print("%s: 3 inputs, 3 outputs, shared run noise: %d output-output absence claims (expected "
+          "0; separation checked against networkx)" % ("PASS" if ok_shared else "FAIL",
+                                                       len(results["shared"][1])))
+    print("%s: the same graph with 'noise independent': output-output absence claims %s "
+          "(expected %s; each one's sets checked against networkx d_separated)" % (
+              "PASS" if ok_indep else "FAIL", sorted(results["independent"][1]), sorted(want)))
+    return ok_shared and ok_indep
 
 
 def main():
@@ -283,12 +349,13 @@ def main():
             check_graph(i, tmp, rng, rng.randint(3, BRUTE_MAX_NODES))
         for i in range(N_LARGE):
             check_graph(N_SMALL + i, tmp, rng, rng.randint(13, 22))
+        ok33 = three_by_three(tmp, rng)
     src = "(source: networkx %s d_separated)" % nx.__version__
     for cat, m in failures[:25]:
         print("FAIL: %s %s" % (m, src))
     bad = {cat for cat, _ in failures}
     ok = not failures
-    total = N_SMALL + N_LARGE
+    total = N_SMALL + N_LARGE + 2   # and the two runs of three_by_three
     verdict = lambda cat, n: "PASS" if cat not in bad and n > 0 else "FAIL"
     print("%s: %d of %d random graphs parsed and gave the claims the definitions imply (kinds, "
           "pairs, order, effects, steerable) %s" % (
@@ -304,9 +371,14 @@ def main():
     print("%s: %d untestable claims on <= %d nodes confirmed by brute force over all subsets of "
           "recorded variables %s" % (verdict("brute", counts["brute"]), counts["brute"],
                                      BRUTE_MAX_NODES, src))
+    modes = counts["noise_modes"] >= {"shared", "all", "named"}
+    print("%s: run noise drawn shared, independent for all and for named outputs (%s); %d claims "
+          "rest on the declaration that two outputs' noise is independent %s" % (
+              "PASS" if modes and counts["rests"] > 0 else "FAIL",
+              ", ".join(sorted(counts["noise_modes"])), counts["rests"], src))
     print("%s: %d failures among %d claims in all" % ("PASS" if ok else "FAIL", len(failures),
                                                        counts["claims"]))
-    return 0 if ok else 1
+    return 0 if ok and ok33 and modes else 1
 
 
 if __name__ == "__main__":

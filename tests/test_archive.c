@@ -396,7 +396,9 @@ static void test_open(void)
     lv[0].role = COV_OUTPUT;
     lv[0].type = COV_REAL;
     lv[0].lo = lv[0].hi = lv[0].noise_sd = NAN;
-    cov_graph lg = {"invented.graph", lv, 1, NULL, 0, {NAN, COV_UNIT_RAW}, {NAN, COV_UNIT_RAW}, 0, NULL, 0, 0, NULL, 0};
+    cov_graph lg = {.path = "invented.graph", .vars = lv, .n_vars = 1,
+                    .default_effect = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN},
+                    .margin = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN}};
     cov_data *d = NULL;
     rc = cov_data_read(a, &lg, NULL, NULL, &d, &err);
     ok(rc == COV_OK && d->n_runs == 3 && d->col[0][1] == -300 && d->n_batches == 2,
@@ -479,7 +481,9 @@ static void test_data(void)
     vars[3].n_levels = 3;
     vars[4] = mkvar("mix", COV_HIDDEN, COV_REAL, NAN, NAN);
     vars[5] = mkvar("wait", COV_OUTPUT, COV_REAL, NAN, NAN);
-    cov_graph g = {"invented.graph", vars, 6, NULL, 0, {NAN, COV_UNIT_RAW}, {NAN, COV_UNIT_RAW}, 0, NULL, 0, 0, NULL, 0};
+    cov_graph g = {.path = "invented.graph", .vars = vars, .n_vars = 6,
+                    .default_effect = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN},
+                    .margin = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN}};
     cov_error err = {{0}, {0}};
     cov_data *d = NULL;
 
@@ -569,7 +573,9 @@ static void test_data(void)
     nv[0] = mkvar("dose", COV_INPUT, COV_LEVELS, 0, 1);
     nv[0].levels = lv_num;
     nv[0].n_levels = 2;
-    cov_graph g2 = {"invented.graph", nv, 1, NULL, 0, {NAN, COV_UNIT_RAW}, {NAN, COV_UNIT_RAW}, 0, NULL, 0, 0, NULL, 0};
+    cov_graph g2 = {.path = "invented.graph", .vars = nv, .n_vars = 1,
+                    .default_effect = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN},
+                    .margin = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN}};
     rc = read_against("dose\n2.5\n1\n", &g2, &d, &err);
     ok(rc == COV_OK && d->col[0][0] == 1 && d->col[0][1] == 0,
        "numeric-looking level names match cells stored as numbers (%s)", err.msg);

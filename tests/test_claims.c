@@ -129,7 +129,7 @@ static cov_claims *derive(const cov_graph *g, const char *ex)
 static void test_e1(void)
 {
     cov_graph *g = parse("e1.graph", "input A real [0, 1]\noutput B real\noutput C real\n"
-                                     "default effect 1\ndefault margin 0.1\nA -> B -> C\n");
+                                     "default effect 1\ndefault margin 0.1\nnoise independent\nA -> B -> C\n");
     cov_dag *d = NULL;
     if (g == NULL || cov_dag_build(g, 0, COV_NO_NODE, &d)) goto done;
     query(g, d, "E1", "A", "C", "", 0);
@@ -150,7 +150,7 @@ done:
 static void test_e2(void)
 {
     cov_graph *g = parse("e2.graph", "output A real\noutput B real\noutput C real\noutput D real\n"
-                                     "default effect 1\ndefault margin 0.1\nA, B -> C -> D\n");
+                                     "default effect 1\ndefault margin 0.1\nnoise independent\nA, B -> C -> D\n");
     cov_dag *d = NULL;
     if (g == NULL || cov_dag_build(g, 0, COV_NO_NODE, &d)) goto done;
     query(g, d, "E2", "A", "B", "", 1);
@@ -182,7 +182,7 @@ static void test_e3(void)
     cov_graph_free(g);
 
     g = parse("e3.graph", "hidden A real\nhidden B real\noutput X real\noutput M real\n"
-                          "output Y real\ndefault margin 0.1\nA -> X, M\nB -> M, Y\n");
+                          "output Y real\ndefault margin 0.1\nnoise independent\nA -> X, M\nB -> M, Y\n");
     cov_dag *d = NULL;
     if (g == NULL || cov_dag_build(g, 0, COV_NO_NODE, &d)) goto done;
     query(g, d, "E3", "X", "Y", "", 1);
@@ -218,7 +218,7 @@ static void test_e4(void)
 {
     cov_graph *g = parse("e4.graph", "output A real\noutput B real\noutput C real\noutput D real\n"
                                      "output E real\ndefault effect 0.5 sd\n"
-                                     "default margin 0.1 sd\nA -> B, C -> D -> E\n");
+                                     "default margin 0.1 sd\nnoise independent\nA -> B, C -> D -> E\n");
     cov_dag *d = NULL;
     if (g == NULL || cov_dag_build(g, 0, COV_NO_NODE, &d)) goto done;
     query(g, d, "E4", "A", "E", "D", 1);
@@ -266,7 +266,7 @@ done:
 static void test_design(void)
 {
     const char *base = "input X real [0, 1]\ninput W bool\noutput M real\noutput Y real\n"
-                       "default margin 0.1\nX -> Y effect 2 expect -\nW -> M -> Y effect 0.3 sd\n";
+                       "default margin 0.1\nnoise independent\nX -> Y effect 2 expect -\nW -> M -> Y effect 0.3 sd\n";
     char text[512];
     for (int indep = 0; indep < 2; indep++) {
         snprintf(text, sizeof text, "%s%s", base, indep ? "design independent\n" : "");

@@ -243,7 +243,7 @@ static const struct bad_case bad_cases[] = {
     {"hold undeclared", "input speed real [0, 1]\nhold sped 1\n", "2:6", "did you mean 'speed'"},
     {"edge without an effect of interest", "input x real [0, 1]\noutput y real\n\nx -> y\n",
      "4:1", "without a smallest effect of interest"},
-    {"bad expect", DECL_XY "x -> y expect 1\n", "5:15", "'+' or '-'"},
+    {"bad expect", DECL_XY "x -> y expect 1\n", "5:15", "'+', '-', '?' or 'turning'"},
     {"zero effect", DECL_XY "x -> y effect 0\n", "5:15", "greater than 0"},
     {"negative effect", DECL_XY "x -> y effect -0.5\n", "5:15", "greater than 0"},
     {"trailing word after an edge", DECL_XY "x -> y sometimes\n", "5:8", "'sometimes'"},

@@ -31,16 +31,17 @@ static const char *const LEVEL_PCT = "100% high";   /* a tic label is a format t
 static char *levels_script[3] = {"low", "a_b^c", "100% high"};
 
 static cov_var vars[N_VARS] = {
-    {"rate", COV_INPUT, COV_REAL, 0, 10, NULL, 0, NAN, 0, NAN, 1, 1},
-    {"it's;\"odd\"", COV_INPUT, COV_BOOL, 0, 1, NULL, 0, NAN, 0, NAN, 2, 1},
-    {"<script>", COV_INPUT, COV_LEVELS, 0, 2, levels_script, 3, NAN, 0, NAN, 3, 1},
-    {"batch", COV_INPUT, COV_INTEGER, 1, 5, NULL, 0, NAN, 0, NAN, 4, 1},
-    {"wait", COV_OUTPUT, COV_REAL, NAN, NAN, NULL, 0, 1.0, 0, NAN, 5, 1},
-    {"cost", COV_OUTPUT, COV_REAL, NAN, NAN, NULL, 0, 2.0, 0, NAN, 6, 1},
+    {"rate", COV_INPUT, COV_REAL, 0, 10, NULL, 0, NAN, 0, NAN, 1, 1, NULL, 0, NULL, 0},
+    {"it's;\"odd\"", COV_INPUT, COV_BOOL, 0, 1, NULL, 0, NAN, 0, NAN, 2, 1, NULL, 0, NULL, 0},
+    {"<script>", COV_INPUT, COV_LEVELS, 0, 2, levels_script, 3, NAN, 0, NAN, 3, 1, NULL, 0, NULL, 0},
+    {"batch", COV_INPUT, COV_INTEGER, 1, 5, NULL, 0, NAN, 0, NAN, 4, 1, NULL, 0, NULL, 0},
+    {"wait", COV_OUTPUT, COV_REAL, NAN, NAN, NULL, 0, 1.0, 0, NAN, 5, 1, NULL, 0, NULL, 0},
+    {"cost", COV_OUTPUT, COV_REAL, NAN, NAN, NULL, 0, 2.0, 0, NAN, 6, 1, NULL, 0, NULL, 0},
 };
 
-static cov_graph graph = {"invented.graph", vars, N_VARS, NULL, 0, {0.25, COV_UNIT_SD},
-                          {0.1, COV_UNIT_SD}, 0, NULL, 0, 0, NULL, 0};
+static cov_graph graph = {.path = "invented.graph", .vars = vars, .n_vars = N_VARS,
+                          .default_effect = {0.25, COV_UNIT_SD, COV_PER_UNIT, NAN},
+                          .margin = {0.1, COV_UNIT_SD, COV_PER_UNIT, NAN}};
 
 static double columns[N_VARS][N_RUNS];
 static double *colp[N_VARS];
@@ -136,13 +137,13 @@ static void make_coverage(void)
 
 #define N_CLAIMS 6
 static cov_claim claim_items[N_CLAIMS] = {
-    {COV_CLAIM_EFFECT, 0, 4, NULL, 0, {0.2, COV_UNIT_RAW}, 1, COV_TESTABLE, NULL, 1, NULL, 0},
-    {COV_CLAIM_EFFECT, 1, 4, NULL, 0, {0.5, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1, NULL, 0},
-    {COV_CLAIM_EFFECT, 2, 5, NULL, 0, {0.8, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1, NULL, 0},
-    {COV_CLAIM_EFFECT, 3, 5, NULL, 0, {0.3, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1, NULL, 0},
-    {COV_CLAIM_ABSENCE, 0, 5, NULL, 0, {0.1, COV_UNIT_SD}, 0, COV_TESTABLE, NULL, 1, NULL, 0},
-    {COV_CLAIM_ABSENCE, 3, 4, NULL, 0, {0.1, COV_UNIT_SD}, 0, COV_UNTESTABLE,
-     "open path through hidden load", 0, NULL, 0},
+    {COV_CLAIM_EFFECT, 0, 4, NULL, 0, {0.2, COV_UNIT_RAW, COV_PER_UNIT, NAN}, 1, COV_TESTABLE, NULL, 1, NULL, 0, 0, COV_SHAPE_MONOTONE},
+    {COV_CLAIM_EFFECT, 1, 4, NULL, 0, {0.5, COV_UNIT_RAW, COV_PER_UNIT, NAN}, 0, COV_TESTABLE, NULL, 1, NULL, 0, 0, COV_SHAPE_MONOTONE},
+    {COV_CLAIM_EFFECT, 2, 5, NULL, 0, {0.8, COV_UNIT_RAW, COV_PER_UNIT, NAN}, 0, COV_TESTABLE, NULL, 1, NULL, 0, 0, COV_SHAPE_MONOTONE},
+    {COV_CLAIM_EFFECT, 3, 5, NULL, 0, {0.3, COV_UNIT_RAW, COV_PER_UNIT, NAN}, 0, COV_TESTABLE, NULL, 1, NULL, 0, 0, COV_SHAPE_MONOTONE},
+    {COV_CLAIM_ABSENCE, 0, 5, NULL, 0, {0.1, COV_UNIT_SD, COV_PER_UNIT, NAN}, 0, COV_TESTABLE, NULL, 1, NULL, 0, 0, COV_SHAPE_MONOTONE},
+    {COV_CLAIM_ABSENCE, 3, 4, NULL, 0, {0.1, COV_UNIT_SD, COV_PER_UNIT, NAN}, 0, COV_UNTESTABLE,
+     "open path through hidden load", 0, NULL, 0, 0, COV_SHAPE_MONOTONE},
 };
 static cov_claims claims = {claim_items, N_CLAIMS};
 
@@ -512,12 +513,13 @@ static void test_big(const char *tmp)
         if (v < BIG_IN) snprintf(names[v], sizeof names[v], "knob_%02zu", v);
         else snprintf(names[v], sizeof names[v], "out_%zu", v - BIG_IN);
         bv[v] = (cov_var){names[v], v < BIG_IN ? COV_INPUT : COV_OUTPUT, COV_REAL, 0, 1, NULL, 0,
-                          1.0, 0, NAN, (int)v + 1, 1};
+                          1.0, 0, NAN, (int)v + 1, 1, NULL, 0, NULL, 0};
         for (size_t i = 0; i < BIG_RUNS; i++) cols[v][i] = uniform01() * (v % 2 ? 0.7 : 1.0);
         bcol[v] = cols[v];
     }
-    cov_graph bg = {"invented-big.graph", bv, BIG_VARS, NULL, 0, {0.25, COV_UNIT_SD},
-                    {0.1, COV_UNIT_SD}, 0, NULL, 0, 0, NULL, 0};
+    cov_graph bg = {.path = "invented-big.graph", .vars = bv, .n_vars = BIG_VARS,
+                    .default_effect = {0.25, COV_UNIT_SD, COV_PER_UNIT, NAN},
+                    .margin = {0.1, COV_UNIT_SD, COV_PER_UNIT, NAN}};
     size_t k = 0;
     for (size_t a = 0; a < BIG_IN; a++) {
         bin_in[a] = a;
@@ -551,7 +553,7 @@ static void test_big(const char *tmp)
     bc.worst = bworst;
     for (size_t c = 0; c < BIG_CLAIMS; c++) {
         bclaims[c] = (cov_claim){COV_CLAIM_EFFECT, c % BIG_IN, BIG_IN + c / BIG_IN, NULL, 0,
-                                 {0.2, COV_UNIT_RAW}, 0, COV_TESTABLE, NULL, 1, NULL, 0};
+                                 {0.2, COV_UNIT_RAW, COV_PER_UNIT, NAN}, 0, COV_TESTABLE, NULL, 1, NULL, 0, 0, COV_SHAPE_MONOTONE};
         cov_assessment *it = &bitems[c];
         memset(it, 0, sizeof *it);
         it->claim = c;

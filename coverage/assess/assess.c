@@ -828,6 +828,45 @@ void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c)
         cov_emit_json_string(out, g->vars[c->min_cond[k]].name);
     }
     fputc(']', out);
+    cov_claim_json_forms(out, g, c);
+}
+
+/* What the graph says about the claim beyond its sets (README.md, "What the graph claims"): the
+ * amount as written and what it is counted over, the variables' units, the expected shape, and
+ * whether the claim rests on the declaration that two outputs' run noise is independent. */
+void cov_claim_json_forms(FILE *out, const cov_graph *g, const cov_claim *c)
+{
+    char text[96];
+    static const char *const per_word[] = {"unit", "step", "range"};
+    fputs(", \"effect_written\": ", out);
+    cov_emit_json_string(out, cov_amount_text(&c->effect, text, sizeof text));
+    fprintf(out, ", \"effect_per\": \"%s\", \"effect_step\": ", per_word[c->effect.per]);
+    cov_emit_json_number(out, c->effect.per == COV_PER_STEP ? c->effect.step : NAN);
+    fputs(", \"effect_per_unit_factor\": ", out);
+    cov_emit_json_number(out, cov_amount_per_unit_factor(&c->effect, &g->vars[c->treatment]));
+    fputs(", \"treatment_unit\": ", out);
+    cov_emit_json_string(out, cov_var_unit(&g->vars[c->treatment]));
+    fputs(", \"outcome_unit\": ", out);
+    cov_emit_json_string(out, cov_var_unit(&g->vars[c->outcome]));
+    fprintf(out, ", \"shape\": \"%s\", \"rests_on_noise_independence\": %s",
+            c->shape == COV_SHAPE_TURNING ? "turning" : "monotone",
+            c->rests_on_noise ? "true" : "false");
+}
+
+void cov_claim_csv_forms(FILE *out, const cov_graph *g, const cov_claim *c)
+{
+    char text[96];
+    static const char *const per_word[] = {"unit", "step", "range"};
+    fputc(',', out);
+    cov_emit_csv_field(out, cov_amount_text(&c->effect, text, sizeof text));
+    fprintf(out, ",%s,", per_word[c->effect.per]);
+    cov_emit_csv_number(out, cov_amount_per_unit_factor(&c->effect, &g->vars[c->treatment]));
+    fputc(',', out);
+    cov_emit_csv_field(out, cov_var_unit(&g->vars[c->treatment]));
+    fputc(',', out);
+    cov_emit_csv_field(out, cov_var_unit(&g->vars[c->outcome]));
+    fprintf(out, ",%s,%d", c->shape == COV_SHAPE_TURNING ? "turning" : "monotone",
+            c->rests_on_noise);
 }
 
 char *cov_claim_csv_set(const cov_graph *g, const cov_claim *c)

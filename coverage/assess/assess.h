@@ -27,5 +27,52 @@ void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c);
 /* The claim's minimal adjustment set (min_cond) as one CSV field, written like adjustment_set; the
  * CSV writers put it last in the row, as minimal_adjustment_set, so earlier columns keep their place. */
 void cov_claim_csv_min_field(FILE *out, const cov_graph *g, const cov_claim *c);
+/* The claim's members from the graph's own forms, appended by cov_claim_json_fields: ",
+ * "effect_written", "effect_per", "effect_step", "effect_per_unit_factor", "treatment_unit",
+ * "outcome_unit", "shape", "rests_on_noise_independence". The CSV form writes the same as
+ * COV_CLAIM_CSV_FORMS_HEADER columns, each preceded by a comma (the CSV writers put them last). */
+void cov_claim_json_forms(FILE *out, const cov_graph *g, const cov_claim *c);
+void cov_claim_csv_forms(FILE *out, const cov_graph *g, const cov_claim *c);
+#define COV_CLAIM_CSV_FORMS_HEADER \
+    ",effect_written,effect_per,effect_per_unit_factor,treatment_unit,outcome_unit,shape," \
+    "rests_on_noise_independence"
+
+
+/* ---- shape of an effect (coverage/assess/shape.c) -------------------------------------------- */
+
+/* The linear trend of an ordered level-set treatment from a fit whose last t = L - 1 columns are
+ * its dummies against level 0 (idx maps them to m's columns). ok = 0 when it cannot be formed (a
+ * single level run, or a separating set that fixes part of the level set). */
+typedef struct {
+    int ok;
+    size_t n_present;     /* levels with runs */
+    char *unrun;          /* declared levels never run, ", "-joined, or NULL (owned) */
+    double sd_eq;         /* the spread with which the t noncentrality is slope sd_eq sqrt(n) /
+                             sigma, as for a numeric treatment */
+    double slope, slope_se_factor;   /* estimated slope per position unit; its SE / sigma */
+    double ss_levels;     /* b' M b: the level set's sum of squares given the separating set */
+    double q_linear;      /* the omnibus F noncentrality per (slope / sigma)^2 under a line */
+    double ss_trend;      /* the trend contrast's sum of squares */
+} cov_trend;
+int cov_trend_compute(const cov_var *xv, const pw_xfit *fit, const pw_moments *m,
+                      const size_t *idx, size_t k, size_t t, cov_trend *out);
+void cov_trend_free(cov_trend *t);
+
+/* Up to this many distinct values, a numeric treatment's lack of fit is tested against one mean
+ * per value; above it, against a cubic polynomial. */
+#define COV_SHAPE_LEVELS_MAX 10
+typedef struct {
+    size_t distinct;      /* distinct treatment values among the rows */
+    double f, p, df1, df2;    /* lack-of-fit F test of the straight line; NAN when not formed */
+    int pure;             /* 1: the denominator is pure error from replicated configurations */
+    const char *basis;    /* "levels" or "cubic" (static), NULL when not formed */
+} cov_shape_fit;
+/* Lack of fit of a straight line in x from its residuals e on m rows (n_coef coefficients in the
+ * fit, intercept included): the F of the residuals on a level basis (<= COV_SHAPE_LEVELS_MAX
+ * values) or the quadratic and cubic terms, against pure error when sigma_pure is finite. Exact
+ * when the separating set is empty; otherwise it leaves aside the set's correlation with the
+ * basis. Returns COV_OK or COV_ENOMEM. */
+int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
+                      double sigma_pure, double df_pe, cov_shape_fit *out);
 
 #endif

@@ -83,7 +83,7 @@ fail:
 static int print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
 {
     fputs("kind,treatment,outcome,adjustment_set,effect_of_interest,effect_unit,sign,status,reason,"
-          "steerable,minimal_adjustment_set\n", out);
+          "steerable,minimal_adjustment_set" COV_CLAIM_CSV_FORMS_HEADER "\n", out);
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
         char *set = cov_claim_csv_set(g, c);
@@ -101,6 +101,7 @@ static int print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
         cov_emit_csv_field(out, c->reason ? c->reason : "");
         fprintf(out, ",%d,", c->steerable);
         cov_claim_csv_min_field(out, g, c);
+        cov_claim_csv_forms(out, g, c);
         fputc('\n', out);
         free(set);
     }

@@ -9,6 +9,8 @@
 
 /* How the design node is shown in reasons; brackets keep it apart from any variable's name. */
 #define DESIGN_LABEL "[design]"
+/* The run's own random stream, which every output of the run shares unless declared otherwise. */
+#define NOISE_LABEL "[run noise]"
 
 void cov_claims_free(cov_claims *c)
 {
@@ -27,9 +29,9 @@ static int recorded(const cov_graph *g, size_t v)
     return v < g->n_vars && g->vars[v].role != COV_HIDDEN;
 }
 
-static const char *node_name(const cov_graph *g, size_t v)
+static const char *node_name(const cov_graph *g, const cov_dag *d, size_t v)
 {
-    return v < g->n_vars ? g->vars[v].name : DESIGN_LABEL;
+    return v < g->n_vars ? g->vars[v].name : v == d->noise ? NOISE_LABEL : DESIGN_LABEL;
 }
 
 /* A growable string for reasons. */
@@ -75,10 +77,10 @@ static int untestable_reason(const cov_graph *g, const cov_dag *d, size_t x, siz
     } else {
         sb_add(&b, "open path ");
         for (size_t i = 0; i < len; i++) {
-            sb_add(&b, node_name(g, path[i]));
+            sb_add(&b, node_name(g, d, path[i]));
             if (i + 1 < len) sb_add(&b, dir[i] > 0 ? " -> " : " <- ");
         }
-        int n_hidden = 0, via_design = 0;
+        int n_hidden = 0, via_design = 0, via_noise = 0;
         for (size_t i = 1; i + 1 < len; i++) {
             int collider = dir[i - 1] > 0 && dir[i] < 0;
             if (collider || recorded(g, path[i])) continue;
@@ -86,13 +88,18 @@ static int untestable_reason(const cov_graph *g, const cov_dag *d, size_t x, siz
             for (size_t j = 1; j < i; j++) dup |= path[j] == path[i];
             if (dup) continue;
             sb_add(&b, n_hidden ? ", " : " runs through hidden ");
-            sb_add(&b, node_name(g, path[i]));
+            sb_add(&b, node_name(g, d, path[i]));
             if (path[i] == d->design) via_design = 1;
+            if (path[i] == d->noise) via_noise = 1;
             n_hidden++;
         }
         if (via_design)
             sb_add(&b, " (the campaign may set inputs together; say 'design independent' if it "
                    "set them independently)");
+        if (via_noise)
+            sb_add(&b, " (outputs of one run share its random stream, so this claim rests on an "
+                   "assumption; say 'noise independent' for these outputs if their noise is "
+                   "independent)");
     }
     if (b.oom) goto fail;
     *out = b.s;
@@ -232,13 +239,27 @@ static int adjacent(const cov_dag *d, size_t a, size_t b)
     return 0;
 }
 
+/* A default counted `over range` needs a treatment with a declared range: an output has none. */
+static int check_default(const cov_graph *g, const cov_amount *a, size_t x, size_t y, int line,
+                         int col, const char *what, cov_error *err)
+{
+    if (a->per != COV_PER_RANGE || !isnan(cov_amount_per_unit_factor(a, &g->vars[x])))
+        return COV_OK;
+    char where[512];
+    snprintf(where, sizeof where, "%s:%d:%d", g->path ? g->path : "(graph)", line, col);
+    return cov_fail(err, COV_EINPUT, where, "found '%s ... over range', which the claim %s -> %s "
+                    "takes, but '%s' has no declared range; expected an amount per unit or "
+                    "'per STEP' (on the edge itself, or in the default)", what, g->vars[x].name,
+                    g->vars[y].name, g->vars[x].name);
+}
+
 int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
 {
     *out = NULL;
     int with_design = !g->inputs_independent;
     cov_claims *cl = calloc(1, sizeof *cl);
     cov_dag *full = NULL, *cut = NULL;
-    size_t cap = 0, n = g->n_vars + 1;
+    size_t cap = 0, n = g->n_vars + 2;   /* the variables, the design and run-noise nodes */
     unsigned char *prefer = calloc(n, 1);
     size_t *rank = calloc(n, sizeof *rank);
     int rc = COV_ENOMEM;
@@ -259,7 +280,14 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
         c->treatment = x;
         c->outcome = y;
         c->sign = g->edges[e].sign;
+        c->shape = g->edges[e].shape;
+        c->rests_on_noise = g->vars[x].role == COV_OUTPUT && !(cov_noise_shared(g, x) &&
+                                                               cov_noise_shared(g, y));
         c->effect = isnan(g->edges[e].effect.value) ? g->default_effect : g->edges[e].effect;
+        if (isnan(g->edges[e].effect.value) &&
+            (rc = check_default(g, &g->default_effect, x, y, g->default_effect_line,
+                                g->default_effect_col, "default effect", err)))
+            goto fail;
         rc = separate(g, cut, x, y, prefer, c);
         if (rc) goto fail;
         rc = COV_ENOMEM;
@@ -277,6 +305,10 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
         for (size_t x = 0; x < g->n_vars; x++) {
             if (x == y || !recorded(g, x) || adjacent(full, x, y)) continue;
             if (g->vars[x].role == COV_OUTPUT && rank[x] > rank[y]) continue;
+            /* Two outputs that share the run's noise are never independent given any recorded
+             * set: no absence claim is made between them. */
+            if (cov_noise_shared(g, x) && cov_noise_shared(g, y) && full->noise != COV_NO_NODE)
+                continue;
             if (isnan(g->margin.value)) {
                 char where[512];
                 snprintf(where, sizeof where, "%s:%d:%d", g->path ? g->path : "(graph)",
@@ -299,6 +331,10 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
             c->outcome = y;
             c->sign = 0;
             c->effect = g->margin;
+            c->rests_on_noise = g->vars[x].role == COV_OUTPUT;
+            if ((rc = check_default(g, &g->margin, x, y, g->margin_line, g->margin_col,
+                                    "default margin", err)))
+                goto fail;
             rc = separate(g, full, x, y, prefer, c);
             if (rc) goto fail;
             rc = COV_ENOMEM;

@@ -15,20 +15,33 @@ void cov_dag_free(cov_dag *d)
     free(d);
 }
 
+int cov_noise_shared(const cov_graph *g, size_t v)
+{
+    return v < g->n_vars && g->vars[v].role == COV_OUTPUT && !g->noise_independent &&
+           !g->vars[v].noise_own;
+}
+
 int cov_dag_build(const cov_graph *g, int with_design, size_t skip_edge, cov_dag **out)
 {
     *out = NULL;
     cov_dag *d = calloc(1, sizeof *d);
     if (d == NULL) return COV_ENOMEM;
+    /* Outputs of one run share its random stream: a hidden common cause of each output that
+     * shares it, as the design node is of the inputs. One output alone has nothing to share. */
+    size_t n_sharing = 0;
+    for (size_t v = 0; v < g->n_vars; v++) n_sharing += (size_t)cov_noise_shared(g, v);
+    int with_noise = n_sharing >= 2;
     d->n_vars = g->n_vars;
-    d->n = g->n_vars + (with_design ? 1 : 0);
+    d->n = g->n_vars + (with_design ? 1 : 0) + (with_noise ? 1 : 0);
     d->design = with_design ? g->n_vars : COV_NO_NODE;
+    d->noise = with_noise ? g->n_vars + (with_design ? 1 : 0) : COV_NO_NODE;
     size_t m = 0;
     for (size_t i = 0; i < g->n_edges; i++)
         if (i != skip_edge) m++;
     if (with_design)
         for (size_t v = 0; v < g->n_vars; v++)
             if (g->vars[v].role == COV_INPUT) m++;
+    if (with_noise) m += n_sharing;
     d->par_start = calloc(d->n + 1, sizeof *d->par_start);
     d->ch_start = calloc(d->n + 1, sizeof *d->ch_start);
     d->par = malloc((m ? m : 1) * sizeof *d->par);
@@ -47,6 +60,12 @@ int cov_dag_build(const cov_graph *g, int with_design, size_t skip_edge, cov_dag
                 d->par_start[v + 1]++;
                 d->ch_start[d->design + 1]++;
             }
+    if (with_noise)
+        for (size_t v = 0; v < g->n_vars; v++)
+            if (cov_noise_shared(g, v)) {
+                d->par_start[v + 1]++;
+                d->ch_start[d->noise + 1]++;
+            }
     for (size_t v = 0; v < d->n; v++) {
         d->par_start[v + 1] += d->par_start[v];
         d->ch_start[v + 1] += d->ch_start[v];
@@ -62,6 +81,12 @@ int cov_dag_build(const cov_graph *g, int with_design, size_t skip_edge, cov_dag
             if (g->vars[v].role == COV_INPUT) {
                 d->par[d->par_start[v] + fill_p[v]++] = d->design;
                 d->ch[d->ch_start[d->design] + fill_c[d->design]++] = v;
+            }
+    if (with_noise)
+        for (size_t v = 0; v < g->n_vars; v++)
+            if (cov_noise_shared(g, v)) {
+                d->par[d->par_start[v] + fill_p[v]++] = d->noise;
+                d->ch[d->ch_start[d->noise] + fill_c[d->noise]++] = v;
             }
     free(fill_p);
     free(fill_c);

@@ -28,7 +28,7 @@ typedef struct {
     index_list *children;   /* per variable, parallel to g->vars */
     size_t *slot;           /* name hash table: variable index + 1, 0 for empty */
     size_t n_slots;         /* a power of two, kept at least twice the variable count */
-    int seen_default_effect, seen_margin, seen_design;
+    int seen_default_effect, seen_margin, seen_design, seen_noise;
     cov_error *err;
 } parser;
 
@@ -41,7 +41,7 @@ static const char *const reserved_words[] = {
 #define N_RESERVED (sizeof reserved_words / sizeof reserved_words[0])
 
 static const char *const statement_words[] = {"input", "output", "hidden", "default", "design",
-                                              "hold"};
+                                              "hold", "noise"};
 #define N_STATEMENT (sizeof statement_words / sizeof statement_words[0])
 
 static int is_reserved(const char *w)
@@ -212,8 +212,22 @@ static int take_number(parser *p, const char *expected, cov_token **out)
 
 static int is_whole(double x) { return x == floor(x) && fabs(x) <= GRAPH_MAX_WHOLE; }
 
-/* An amount: a positive number, then optionally `sd`. */
+/* The cursor of coverage/graph/graph_forms.c on the current line. */
+static cov_cursor cursor(parser *p)
+{
+    return (cov_cursor){&p->toks, &p->pos, p->name, p->line, p->err};
+}
+
+/* An amount: a positive number, then optionally `sd`, then optionally `per STEP` or `over range`
+ * (*tail_col: the tail's column, 0 without one). */
+static int take_amount_tail(parser *p, const char *what, cov_amount *out, int *tail_col);
 static int take_amount(parser *p, const char *what, cov_amount *out)
+{
+    int tail_col = 0;
+    return take_amount_tail(p, what, out, &tail_col);
+}
+
+static int take_amount_tail(parser *p, const char *what, cov_amount *out, int *tail_col)
 {
     cov_token *t = NULL;
     int rc = take_number(p, what, &t);
@@ -226,7 +240,8 @@ static int take_amount(parser *p, const char *what, cov_amount *out)
         next(p);
         out->unit = COV_UNIT_SD;
     }
-    return COV_OK;
+    cov_cursor cur = cursor(p);
+    return cov_form_amount_tail(&cur, out, tail_col);
 }
 
 /* ---- declarations ---------------------------------------------------------------------------- */
@@ -358,6 +373,12 @@ static int parse_declaration(parser *p, cov_role role)
     if (ty == COV_LEVELS) {
         if (role != COV_HIDDEN || peek(p)->kind == COV_TOK_LBRACE) rc = take_levels(p, v);
         if (rc) return rc;
+        if (v->n_levels >= 2 && is_word(peek(p), "ordered")) {
+            next(p);
+            cov_cursor cur = cursor(p);
+            rc = cov_form_ordered(&cur, v);
+            if (rc) return rc;
+        }
         lo = 0;
         hi = (double)v->n_levels - 1;
         if (v->n_levels == 0) lo = hi = NAN;
@@ -384,9 +405,17 @@ static int parse_declaration(parser *p, cov_role role)
             return perr(p, sd->col, "found %s, expected a noise SD greater than 0", sd->text);
         v->noise_sd = sd->num;
     }
+    if (is_word(peek(p), "unit")) {
+        next(p);
+        cov_cursor cur = cursor(p);
+        rc = cov_form_unit(&cur, &v->unit);
+        if (rc) return rc;
+    }
     if (peek(p)->kind != COV_TOK_END) {
-        if (role == COV_OUTPUT) return expect_fail(p, peek(p), "'noise SD' or the end of the line");
-        return expect_end(p);
+        if (role == COV_OUTPUT)
+            return expect_fail(p, peek(p), "'noise SD', 'unit \"TEXT\"' or the end of the line");
+        return expect_fail(p, peek(p), ty == COV_LEVELS ? "'ordered', 'unit \"TEXT\"' or the end "
+                           "of the line" : "'unit \"TEXT\"' or the end of the line");
     }
     return COV_OK;
 }
@@ -400,16 +429,22 @@ static int parse_default(parser *p)
         if (p->seen_default_effect)
             return perr(p, what->col, "found a second 'default effect', expected one at most");
         p->seen_default_effect = 1;
+        p->g->default_effect_line = p->line;
+        p->g->default_effect_col = what->col;
         int rc = take_amount(p, "a smallest effect of interest", &p->g->default_effect);
-        return rc ? rc : expect_kind(p, COV_TOK_END, "'sd' or the end of the line");
+        return rc ? rc : expect_kind(p, COV_TOK_END, "'sd', 'per STEP', 'over range' or the end "
+                                     "of the line");
     }
     if (is_word(what, "margin")) {
         next(p);
         if (p->seen_margin)
             return perr(p, what->col, "found a second 'default margin', expected one at most");
         p->seen_margin = 1;
+        p->g->margin_line = p->line;
+        p->g->margin_col = what->col;
         int rc = take_amount(p, "an equivalence margin", &p->g->margin);
-        return rc ? rc : expect_kind(p, COV_TOK_END, "'sd' or the end of the line");
+        return rc ? rc : expect_kind(p, COV_TOK_END, "'sd', 'per STEP', 'over range' or the end "
+                                     "of the line");
     }
     return expect_fail(p, what, "'effect' or 'margin' after 'default'");
 }
@@ -424,6 +459,46 @@ static int parse_design(parser *p)
         return perr(p, first->col, "found a second 'design independent', expected one at most");
     p->seen_design = 1;
     p->g->inputs_independent = 1;
+    return expect_end(p);
+}
+
+/* `noise independent`: no output shares run noise; `noise independent A, B`: these outputs'
+ * noise is independent of every other output's. */
+static int parse_noise(parser *p)
+{
+    cov_token *first = next(p);
+    if (!is_word(peek(p), "independent"))
+        return expect_fail(p, peek(p), "'independent' after 'noise'");
+    next(p);
+    if (p->g->noise_independent)
+        return perr(p, first->col, "found 'noise independent' after 'noise independent' for all "
+                    "outputs, expected nothing more about run noise");
+    if (peek(p)->kind == COV_TOK_END) {
+        if (p->seen_noise)
+            return perr(p, first->col, "found 'noise independent' for all outputs after one for "
+                        "named outputs, expected one or the other");
+        p->g->noise_independent = 1;
+        p->seen_noise = 1;
+        return COV_OK;
+    }
+    for (;;) {
+        cov_token *t = NULL;
+        size_t k;
+        int rc = take_name(p, "the name of an output, or the end of the line", &t);
+        if (!rc) rc = resolve(p, t, &k);
+        if (rc) return rc;
+        cov_var *v = &p->g->vars[k];
+        if (v->role != COV_OUTPUT)
+            return perr(p, t->col, "found the %s '%s', expected an output (run noise is shared by "
+                        "outputs)", v->role == COV_INPUT ? "input" : "hidden variable", v->name);
+        if (v->noise_own)
+            return perr(p, t->col, "found '%s' a second time, expected each output once in "
+                        "'noise independent'", v->name);
+        v->noise_own = 1;
+        if (peek(p)->kind != COV_TOK_COMMA) break;
+        next(p);
+    }
+    p->seen_noise = 1;
     return expect_end(p);
 }
 
@@ -562,7 +637,10 @@ static int add_edge(parser *p, const cov_token *ft, size_t from, const cov_token
         g->edges = e;
         p->cap_edges = cap;
     }
-    g->edges[g->n_edges++] = (cov_edge){from, to, 0, {NAN, COV_UNIT_RAW}, p->line, ft->col};
+    g->edges[g->n_edges++] = (cov_edge){.from = from, .to = to, .sign = 0,
+                                        .shape = COV_SHAPE_MONOTONE,
+                                        .effect = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN},
+                                        .line = p->line, .col = ft->col};
     if (list_push(&p->children[from], to)) return cov_fail(p->err, COV_ENOMEM, "", "out of memory");
     return COV_OK;
 }
@@ -609,8 +687,9 @@ static int parse_edges(parser *p)
         prev_start = cur_start;
         prev_end = p->pos;
     }
-    int sign = 0, have_sign = 0, have_effect = 0;
-    cov_amount eff = {NAN, COV_UNIT_RAW};
+    int sign = 0, have_sign = 0, have_effect = 0, tail_col = 0;
+    cov_shape shape = COV_SHAPE_MONOTONE;
+    cov_amount eff = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN};
     while (peek(p)->kind != COV_TOK_END) {
         cov_token *t = peek(p);
         if (is_word(t, "expect")) {
@@ -619,14 +698,16 @@ static int parse_edges(parser *p)
             cov_token *s = peek(p);
             if (s->kind == COV_TOK_PLUS) sign = 1;
             else if (s->kind == COV_TOK_MINUS) sign = -1;
-            else return expect_fail(p, s, "'+' or '-' after 'expect'");
+            else if (s->kind == COV_TOK_QUERY) sign = 0;
+            else if (is_word(s, "turning")) shape = COV_SHAPE_TURNING;
+            else return expect_fail(p, s, "'+', '-', '?' or 'turning' after 'expect'");
             next(p);
             have_sign = 1;
         } else if (is_word(t, "effect")) {
             if (have_effect)
                 return perr(p, t->col, "found a second 'effect', expected one at most");
             next(p);
-            rc = take_amount(p, "a smallest effect of interest", &eff);
+            rc = take_amount_tail(p, "a smallest effect of interest", &eff, &tail_col);
             if (rc) return rc;
             have_effect = 1;
         } else {
@@ -641,7 +722,12 @@ static int parse_edges(parser *p)
     }
     for (size_t i = first_edge; i < p->g->n_edges; i++) {
         p->g->edges[i].sign = sign;
+        p->g->edges[i].shape = shape;
         p->g->edges[i].effect = eff;
+        cov_cursor cur = cursor(p);
+        rc = cov_form_check_amount(&cur, &eff, &p->g->vars[p->g->edges[i].from], tail_col,
+                                   "effect");
+        if (rc) return rc;
     }
     return COV_OK;
 }
@@ -654,8 +740,8 @@ static int parse_statement(parser *p)
     if (t->kind == COV_TOK_END) return COV_OK;
     if (t->kind == COV_TOK_QUOTED) return parse_edges(p);
     if (t->kind != COV_TOK_WORD)
-        return expect_fail(p, t, "a statement (input, output, hidden, default, design, hold) or an "
-                           "edge");
+        return expect_fail(p, t, "a statement (input, output, hidden, default, design, hold, "
+                           "noise) or an edge");
     if (is_word(t, "input")) return parse_declaration(p, COV_INPUT);
     if (is_word(t, "output")) return parse_declaration(p, COV_OUTPUT);
     if (is_word(t, "hidden")) return parse_declaration(p, COV_HIDDEN);
@@ -663,9 +749,10 @@ static int parse_statement(parser *p)
     if (is_word(t, "design")) return parse_design(p);
     if (is_word(t, "hold")) return parse_hold(p);
     if (cov_ledger_is_statement(t)) return cov_ledger_parse(p->g, t, p->name, p->line, p->err);
+    if (is_word(t, "noise")) return parse_noise(p);
     if (is_reserved(t->text))
         return perr(p, t->col, "found '%s' at the start of a statement, expected a statement "
-                    "(input, output, hidden, default, design, hold) or an edge", t->text);
+                    "(input, output, hidden, default, design, hold, noise) or an edge", t->text);
     cov_tok_kind after = p->toks.tok[p->pos + 1].kind;
     if (after == COV_TOK_ARROW || after == COV_TOK_COMMA) return parse_edges(p);
     if (lookup(p, t->text) >= 0)
@@ -675,7 +762,7 @@ static int parse_statement(parser *p)
         return perr(p, t->col, "found the unknown word '%s', expected a statement or an edge; "
                     "did you mean '%s'?", t->text, near);
     return perr(p, t->col, "found the unknown word '%s', expected a statement (input, output, "
-                "hidden, default, design, hold) or an edge (NAME -> NAME)", t->text);
+                "hidden, default, design, hold, noise) or an edge (NAME -> NAME)", t->text);
 }
 
 void cov_graph_free(cov_graph *g)
@@ -685,6 +772,8 @@ void cov_graph_free(cov_graph *g)
         free(g->vars[i].name);
         for (size_t j = 0; j < g->vars[i].n_levels; j++) free(g->vars[i].levels[j]);
         free(g->vars[i].levels);
+        free(g->vars[i].unit);
+        free(g->vars[i].positions);
     }
     free(g->vars);
     free(g->edges);
@@ -711,8 +800,8 @@ int cov_graph_parse_text(const char *name, const char *text, cov_graph **out, co
     cov_graph *g = calloc(1, sizeof *g);
     if (g == NULL) return cov_fail(err, COV_ENOMEM, "", "out of memory");
     p.g = g;
-    g->default_effect = (cov_amount){NAN, COV_UNIT_RAW};
-    g->margin = (cov_amount){NAN, COV_UNIT_RAW};
+    g->default_effect = (cov_amount){NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN};
+    g->margin = (cov_amount){NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN};
     g->path = strdup(p.name);
     if (g->path == NULL) {
         rc = cov_fail(err, COV_ENOMEM, "", "out of memory");

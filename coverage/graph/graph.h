@@ -12,7 +12,8 @@
 /* The graph file's tokens (coverage/graph_lex.c), which coverage/graph.c parses line by line. */
 typedef enum {
     COV_TOK_END, COV_TOK_WORD, COV_TOK_QUOTED, COV_TOK_NUMBER, COV_TOK_ARROW, COV_TOK_COMMA,
-    COV_TOK_LBRACK, COV_TOK_RBRACK, COV_TOK_LBRACE, COV_TOK_RBRACE, COV_TOK_PLUS, COV_TOK_MINUS
+    COV_TOK_LBRACK, COV_TOK_RBRACK, COV_TOK_LBRACE, COV_TOK_RBRACE, COV_TOK_PLUS, COV_TOK_MINUS,
+    COV_TOK_QUERY   /* '?': an unknown sign */
 } cov_tok_kind;
 
 typedef struct {
@@ -63,22 +64,52 @@ int cov_ledger_parse(cov_graph *g, const cov_token *tok, const char *name, int l
 int cov_ledger_check(const cov_graph *g, cov_error *err);
 /* Free the seed name and the bookkeeping columns of g. */
 void cov_ledger_free(cov_graph *g);
+/* A read position in one line's tokens, for the statement forms of coverage/graph/graph_forms.c
+ * (units, steps and ranges, ordered levels) that graph.c calls. */
+typedef struct {
+    cov_tokens *toks;
+    size_t *pos;          /* the next token to read */
+    const char *name;     /* the graph file, for messages */
+    int line;
+    cov_error *err;
+} cov_cursor;
+
+/* After the word `unit`: a quoted text without control characters (a newline, a tab) into
+ * *unit (malloc'd; the caller frees it). COV_EINPUT with file:line:column, COV_ENOMEM. */
+int cov_form_unit(cov_cursor *c, char **unit);
+/* After the word `ordered` of a level set v: the optional `at {P1, P2, ...}` of v->n_levels
+ * strictly increasing positions; fills v->ordered and v->positions (0, 1, ... without `at`). */
+int cov_form_ordered(cov_cursor *c, cov_var *v);
+/* The optional tail of an amount: `per STEP` (STEP > 0) or `over range`; sets a->per, a->step and
+ * *col to the tail's column (0 when there is none). */
+int cov_form_amount_tail(cov_cursor *c, cov_amount *a, int *col);
+/* Whether an edge's amount can be counted over its treatment: `per` needs a numeric or ordered
+ * treatment, `over range` a declared numeric range (not a bool, a level set or an output). */
+int cov_form_check_amount(cov_cursor *c, const cov_amount *a, const cov_var *treatment, int col,
+                          const char *what);
 
 #define COV_NO_NODE ((size_t)-1)
 
 /* The DAG that separator searches work on: node i < g->n_vars is variable i; when the inputs are
  * not declared independent, node g->n_vars is the hidden design node, a parent of every input.
+ * When two or more outputs share their run's noise (the default; see `noise independent`), the
+ * next node is the hidden run-noise node, a parent of each of those outputs.
  * Parents and children are stored as offset arrays: the parents of v are par[par_start[v]] up to
  * par[par_start[v + 1] - 1], and likewise for children. */
 typedef struct {
     size_t n;             /* nodes */
     size_t n_vars;        /* the graph's variables (nodes 0 .. n_vars - 1) */
     size_t design;        /* the design node, or COV_NO_NODE */
+    size_t noise;         /* the run-noise node, or COV_NO_NODE */
     size_t *par_start, *par;
     size_t *ch_start, *ch;
 } cov_dag;
 
-/* Build the DAG of g, with the design node when with_design is 1, leaving out edge skip_edge
+/* 1 when output v shares its run's noise with other outputs (no `noise independent` covers it). */
+int cov_noise_shared(const cov_graph *g, size_t v);
+
+/* Build the DAG of g, with the design node when with_design is 1 and the run-noise node when two
+ * or more outputs share run noise, leaving out edge skip_edge
  * (an index into g->edges, or COV_NO_NODE for none). Returns COV_OK or COV_ENOMEM. */
 int cov_dag_build(const cov_graph *g, int with_design, size_t skip_edge, cov_dag **out);
 void cov_dag_free(cov_dag *d);

@@ -178,12 +178,13 @@ int cov_graph_lex_line(cov_tokens *toks, const char *name, int line, const char 
         case '}': k = COV_TOK_RBRACE; break;
         case '+': k = COV_TOK_PLUS; break;
         case '-': k = COV_TOK_MINUS; break;
+        case '?': k = COV_TOK_QUERY; break;
         default: {
             /* Quote the whole UTF-8 sequence so the message shows the character the user typed. */
             size_t len = 1;
             while (q + len < e && len < 4 && ((unsigned char)q[len] & 0xC0) == 0x80) len++;
             return cov_graph_fail(err, name, line, start_col, "found the character '%.*s', "
-                                  "expected a name, a number or one of -> , [ ] { } + -",
+                                  "expected a name, a number or one of -> , [ ] { } + - ?",
                                   (int)len, q);
         }
         }
@@ -210,6 +211,7 @@ const char *cov_token_describe(const cov_token *t, char *buf, size_t size)
     case COV_TOK_RBRACE: snprintf(buf, size, "'}'"); break;
     case COV_TOK_PLUS: snprintf(buf, size, "'+'"); break;
     case COV_TOK_MINUS: snprintf(buf, size, "'-'"); break;
+    case COV_TOK_QUERY: snprintf(buf, size, "'?'"); break;
     }
     return buf;
 }

@@ -98,7 +98,15 @@ const char *cov_report_kind(const cov_claim *c)
 /* The declared effect of interest: "+0.01", "0.25 sd", "|b| < 0.1 sd". */
 void cov_report_effect_text(const cov_claim *c, char *buf, size_t size)
 {
-    const char *unit = c->effect.unit == COV_UNIT_SD ? " sd" : "";
+    char unit[64] = "";
+    /* The amount as written: `sd`, then `per STEP` or `over range` (issue 10's forms). */
+    snprintf(unit, sizeof unit, "%s", c->effect.unit == COV_UNIT_SD ? " sd" : "");
+    if (c->effect.per == COV_PER_STEP)
+        snprintf(unit + strlen(unit), sizeof unit - strlen(unit), " per %g", c->effect.step);
+    else if (c->effect.per == COV_PER_RANGE)
+        snprintf(unit + strlen(unit), sizeof unit - strlen(unit), " over range");
+    if (c->shape == COV_SHAPE_TURNING)
+        snprintf(unit + strlen(unit), sizeof unit - strlen(unit), ", turning");
     if (c->kind == COV_CLAIM_ABSENCE)
         snprintf(buf, size, "|b| < %g%s", c->effect.value, unit);
     else if (c->sign != 0)

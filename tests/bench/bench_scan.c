@@ -100,8 +100,9 @@ int main(int argc, char **argv)
         at += (size_t)snprintf(sql + at, sql_len - at, "%s\"c%ld\"", j ? ", " : "", j + 1);
     }
     snprintf(sql + at, sql_len - at, " FROM runs");
-    cov_graph g = {"bench.graph", vars, (size_t)n_cols, NULL, 0, {NAN, COV_UNIT_RAW},
-                   {NAN, COV_UNIT_RAW}, 0, NULL, 0, 0, NULL, 0};
+    cov_graph g = {.path = "bench.graph", .vars = vars, .n_vars = (size_t)n_cols,
+                    .default_effect = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN},
+                    .margin = {NAN, COV_UNIT_RAW, COV_PER_UNIT, NAN}};
 
     double bare_wall[REPEATS], bare_cpu[REPEATS], read_wall[REPEATS], read_cpu[REPEATS], sink = 0;
     size_t runs = 0;
