@@ -17,6 +17,9 @@ static const char graph_text[] = "# invented notation test model\n"
                                  "output z real\n"
                                  "default effect 0.5 sd\n"
                                  "default margin 0.1 sd\n"
+                                 /* y and z's run noise declared independent, so that the
+                                  * claims given y stay testable (issue 10's shared noise). */
+                                 "noise independent\n"
                                  "a, b -> y\n"
                                  "y -> z\n";
 
