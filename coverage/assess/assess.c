@@ -249,6 +249,31 @@ static void note_add(char **s, const char *fmt, ...)
     *s = n;
 }
 
+/* A caution about the claim's figures: kept in a->caution and in a->reason, so that every output
+ * that shows the reason (the terminal, the report) shows it too. */
+static void add_caution(cov_assessment *a, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void add_caution(cov_assessment *a, const char *fmt, ...)
+{
+    char buf[512];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    va_end(ap);
+    note_add(&a->caution, "%s", buf);
+    note_add(&a->reason, "%s", buf);
+}
+
+/* The effect of interest in raw outcome units per unit of treatment: SD units times the outcome's
+ * SD, then counted per unit of the treatment (README.md, "Effects per a step or over the range").
+ * a->effect_written_raw keeps it per the step or range it was written over. */
+static double effect_per_unit(const cov_graph *g, const cov_claim *c, double sd_outcome,
+                              cov_assessment *a)
+{
+    double raw = c->effect.unit == COV_UNIT_SD ? c->effect.value * sd_outcome : c->effect.value;
+    a->effect_written_raw = raw;
+    return raw * cov_amount_per_unit_factor(&c->effect, &g->vars[c->treatment]);
+}
+
 static char *text_dup(const char *s)
 {
     char *c = malloc(strlen(s) + 1);
@@ -303,6 +328,7 @@ static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, do
 
 static const char *test_word(const pw_design *d)
 {
+    if (d->test == PW_TEST_TREND_T) return "trend power";
     return d->test == PW_TEST_TOST ? "equivalence power" : "power";
 }
 
@@ -342,8 +368,7 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     note_add(&a->noise_note, "no noise estimate from %zu runs: sigma is the declared noise SD",
              a->n);
     a->sigma = y->noise_sd;
-    a->effect_raw = c->effect.unit == COV_UNIT_SD ? c->effect.value * y->noise_sd
-                                                  : c->effect.value;
+    a->effect_raw = effect_per_unit(g, c, y->noise_sd, a);
     pw_design *d = &a->design;
     memset(d, 0, sizeof *d);
     d->alpha = alpha;
@@ -354,7 +379,18 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     d->n = (double)a->n;
     d->n_params = 1.0 + (double)(lay->k - lay->t);
     d->ncp_per_run = NAN;
-    if (x->type == COV_LEVELS) {
+    if (x->type == COV_LEVELS && x->ordered && c->shape != COV_SHAPE_TURNING) {
+        /* Balanced groups: the trend contrast's equivalent spread is the SD of the positions
+         * (shape.c: S_xx / sqrt(n c' M^-1 c) with M = (n / L) I). */
+        double mean = 0, var = 0;
+        for (size_t l = 0; l < x->n_levels; l++) mean += x->positions[l] / (double)x->n_levels;
+        for (size_t l = 0; l < x->n_levels; l++)
+            var += pow(x->positions[l] - mean, 2) / (double)x->n_levels;
+        d->n_levels = (double)x->n_levels;
+        d->sd_x_resid = sqrt(var);
+        d->test = c->kind == COV_CLAIM_ABSENCE ? PW_TEST_TOST : PW_TEST_TREND_T;
+        a->trend = 1;
+    } else if (x->type == COV_LEVELS) {
         d->n_levels = (double)x->n_levels;
         /* Balanced groups: a pairwise contrast has variance 2 L sigma^2 / n. */
         d->sd_x_resid = 1.0 / sqrt(2.0 * d->n_levels);
@@ -455,8 +491,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     a->sigma = fit->sigma;
     double syy = pw_moments_at(m, idx[k], idx[k]);
     a->sd_outcome = n > 1 ? sqrt(syy / (n - 1)) : NAN;
-    a->effect_raw = c->effect.unit == COV_UNIT_SD ? c->effect.value * a->sd_outcome
-                                                  : c->effect.value;
+    a->effect_raw = effect_per_unit(g, c, a->sd_outcome, a);
 
     pw_design *dz = &a->design;
     memset(dz, 0, sizeof *dz);
@@ -506,6 +541,51 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     }
     if (tr >= 2 && dz->test != PW_TEST_LEVELS_F) dz->n_levels = (double)(tr + 1);
     if (tr < 2) dz->n_levels = 0;
+    /* A level-set treatment: levels never run are named, never dropped silently; an ordered one
+     * is tested by its linear trend (one df), with the level set's F beside it (shape.c). */
+    cov_trend trd;
+    if (xv->type == COV_LEVELS) {
+        if (cov_trend_compute(xv, fit, m, idx, k, t, &trd) != COV_OK) {
+            rc = COV_ENOMEM;
+            goto fail;
+        }
+        if (trd.unrun)
+            add_caution(a, "declared levels of '%s' never run: %s (the test covers the %zu "
+                        "levels run)", xv->name, trd.unrun, trd.n_present);
+        if (xv->ordered) a->distinct = trd.n_present;
+        if (trd.ok && c->shape != COV_SHAPE_TURNING &&
+            (dz->test == PW_TEST_LEVELS_F || dz->test == PW_TEST_COEF_T ||
+             dz->test == PW_TEST_TOST)) {
+            a->trend = 1;
+            dz->test = c->kind == COV_CLAIM_ABSENCE ? PW_TEST_TOST : PW_TEST_TREND_T;
+            dz->n_levels = (double)trd.n_present;
+            dz->ncp_per_run = NAN;
+            dz->sd_x_resid = a->sd_treatment_resid = trd.sd_eq;
+            a->estimate = trd.slope;
+            a->se = a->sigma * trd.slope_se_factor;
+            a->omnibus_df1 = (double)fit->t_rank;
+            if (a->sigma > 0) {
+                a->omnibus_f = trd.ss_levels / (a->omnibus_df1 * a->sigma * a->sigma);
+                a->omnibus_p = gsl_cdf_fdist_Q(a->omnibus_f, a->omnibus_df1, a->df);
+            }
+            if (fit->t_rank >= 2 && a->sigma > 0) {
+                /* Departure from the straight line: the level set's sum of squares less the
+                 * trend's, on t_rank - 1 df, against the residual mean square. */
+                double dev = trd.ss_levels - trd.ss_trend;
+                a->shape_df1 = (double)fit->t_rank - 1.0;
+                a->shape_df2 = a->df;
+                a->shape_f = (dev > 0 ? dev : 0) / a->shape_df1 / (a->sigma * a->sigma);
+                a->shape_p = gsl_cdf_fdist_Q(a->shape_f, a->shape_df1, a->shape_df2);
+            }
+        }
+        double q_lin = trd.q_linear;
+        cov_trend_free(&trd);
+        if (a->trend && xv->ordered && trd.n_present < 3)
+            add_caution(a, "only %zu levels of '%s' were run: the shape of its effect (straight, "
+                        "saturating, turning) cannot be checked; the figures assume a straight "
+                        "line", trd.n_present, xv->name);
+        a->omnibus_power = q_lin;   /* the noncentrality per (effect / sigma)^2, until sized */
+    }
     if (bool_outcome && dz->test != PW_TEST_TWO_PROP)
         note_add(&a->noise_note, "bool outcome: linear-probability %s, whose residuals are "
                  "heteroscedastic by construction", dz->test == PW_TEST_TOST ? "equivalence test"
@@ -553,6 +633,43 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         goto fail;
     }
     a->excess_kurtosis = rd.excess_kurtosis;
+    if (xv->type == COV_REAL || xv->type == COV_INTEGER) {
+        /* The shape of a numeric treatment's effect: fewer than three values cannot show it;
+         * with three or more, the straight line's lack of fit (shape.c). */
+        double *xs = malloc((mrows ? mrows : 1) * sizeof *xs), *es = malloc((mrows ? mrows : 1) *
+                                                                           sizeof *es);
+        cov_shape_fit sf;
+        int src0 = xs && es ? COV_OK : COV_ENOMEM;
+        for (size_t r = 0; src0 == COV_OK && r < mrows; r++) {
+            xs[r] = d->col[c->treatment][rows[r]];
+            es[r] = yy[r] - fitted[r];
+        }
+        int pure = lrc == PW_OK && isfinite(lof.sigma_pure);
+        if (src0 == COV_OK)
+            src0 = cov_shape_numeric(xs, es, mrows, 1.0 + (double)fit->rank,
+                                     pure ? lof.sigma_pure : NAN, pure ? lof.df_pe : 0, &sf);
+        free(xs);
+        free(es);
+        if (src0 != COV_OK) {
+            rc = COV_ENOMEM;
+            goto fail;
+        }
+        a->distinct = sf.distinct;
+        a->shape_f = sf.f;
+        a->shape_p = sf.p;
+        a->shape_df1 = sf.df1;
+        a->shape_df2 = sf.df2;
+        a->shape_pure = sf.pure;
+        if (sf.distinct < 3)
+            add_caution(a, "'%s' takes only %zu distinct value%s in these runs: the shape of its "
+                        "effect (straight, saturating, turning) cannot be checked; the figures "
+                        "assume a straight line", xv->name, sf.distinct,
+                        sf.distinct == 1 ? "" : "s");
+    }
+    if (isfinite(a->shape_p) && a->shape_p < COV_LOF_P)
+        add_caution(a, "the effect of '%s' departs from a straight line: lack of fit F = %.3g on "
+                    "%.0f and %.0f df, p = %.2g%s", xv->name, a->shape_f, a->shape_df1,
+                    a->shape_df2, a->shape_p, a->shape_pure ? " (against pure error)" : "");
     if (lrc == PW_OK && isfinite(lof.sigma_pure)) {
         a->has_pure_error = 1;
         a->sigma_pure = lof.sigma_pure;
@@ -632,6 +749,17 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         rc = COV_OK;
         goto fail;
     }
+    if (a->trend && a->omnibus_power > 0) {
+        /* The level set's F test at the same straight-line effect, for comparison. */
+        pw_design om = *dz;
+        om.test = PW_TEST_LEVELS_F;
+        om.n_levels = a->omnibus_df1 + 1.0;
+        om.ncp_per_run = a->omnibus_power / n;
+        double p_om = NAN;
+        a->omnibus_power = pw_power(&om, &p_om) == PW_OK ? p_om : NAN;
+    } else {
+        a->omnibus_power = NAN;
+    }
     decide(a, c, opt->target);
     rc = COV_OK;
 fail:
@@ -649,6 +777,8 @@ static void assessment_init(cov_assessment *a, size_t claim)
     a->mde = a->mde_lo = a->mde_hi = a->runs_needed = NAN;
     a->sigma_pure = a->lof_f = a->lof_p = NAN;
     a->sd_outcome = a->excess_kurtosis = NAN;
+    a->effect_written_raw = a->omnibus_f = a->omnibus_p = a->omnibus_df1 = NAN;
+    a->omnibus_power = a->shape_f = a->shape_p = a->shape_df1 = a->shape_df2 = NAN;
 }
 
 /* One claim: pick the fast path or accumulate its own complete cases, then fit and size it. */
@@ -787,6 +917,7 @@ void cov_assessments_free(cov_assessments *a)
         for (size_t i = 0; i < a->n; i++) {
             free(a->items[i].noise_note);
             free(a->items[i].reason);
+            free(a->items[i].caution);
         }
     free(a->items);
     free(a);

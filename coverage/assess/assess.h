@@ -75,4 +75,17 @@ typedef struct {
 int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
                       double sigma_pure, double df_pe, cov_shape_fit *out);
 
+/* An assessment's figures on the effect's shape and units, for the power outputs: the JSON
+ * members "effect_written_raw", "test", "omnibus" ({df1, f, p, power} or null),
+ * "distinct_values", "shape_checkable", "shape_lack_of_fit" ({f, df1, df2, p, pure_error} or null),
+ * "caution"; the CSV columns of COV_SHAPE_CSV_HEADER, each preceded by a comma; and the table's
+ * note lines for one claim. */
+void cov_assessment_json_shape(FILE *out, const cov_graph *g, const cov_claim *c,
+                               const cov_assessment *a);
+void cov_assessment_csv_shape(FILE *out, const cov_assessment *a);
+void cov_assessment_table_shape(FILE *out, const char *label, const cov_assessment *a);
+#define COV_SHAPE_CSV_HEADER \
+    ",trend,effect_written_raw,omnibus_f,omnibus_p,omnibus_power,distinct_values,shape_f," \
+    "shape_p,caution"
+
 #endif

@@ -73,7 +73,8 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
     int any = 0;
     for (size_t i = 0; i < cl->n; i++) {
         const cov_assessment *a = &as->items[i];
-        if (a->reason == NULL && a->noise_note == NULL) continue;
+        if (a->reason == NULL && a->noise_note == NULL && !a->trend && !isfinite(a->shape_f))
+            continue;
         if (!any) fputs("\n", out);
         any = 1;
         char label[512];
@@ -82,6 +83,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         if (a->noise_note)
             fprintf(out, "%s: noise%s: %s\n", label, a->noise_flag ? " (cannot be trusted)" : "",
                     a->noise_note);
+        cov_assessment_table_shape(out, label, a);
     }
     size_t n_ample = 0, n_underpowered = 0, n_blind = 0;
     for (size_t i = 0; i < as->n; i++) {
@@ -104,7 +106,7 @@ static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assess
     fputs("kind,treatment,outcome,adjustment_set,effect_of_interest,effect_unit,sign,status,"
           "steerable,n,df,sigma,sd_treatment_resid,alpha,power,power_lo,power_hi,mde,mde_lo,"
           "mde_hi,runs_needed,effect_raw,estimate,se,verdict,noise_flag,noise_note,reason,"
-          "minimal_adjustment_set\n", out);
+          "minimal_adjustment_set" COV_CLAIM_CSV_FORMS_HEADER COV_SHAPE_CSV_HEADER "\n", out);
     for (size_t i = 0; i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
         const cov_assessment *a = &as->items[i];
@@ -123,6 +125,8 @@ static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assess
         csv_text(out, a->reason);
         fputc(',', out);
         cov_claim_csv_min_field(out, g, c);
+        cov_claim_csv_forms(out, g, c);
+        cov_assessment_csv_shape(out, a);
         fputc('\n', out);
     }
 }
@@ -194,6 +198,7 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_asses
         } else {
             fputs("null", out);
         }
+        cov_assessment_json_shape(out, g, &cl->items[i], a);
         fputs("}", out);
     }
     fputs(cl->n ? "\n]}\n" : "]}\n", out);
