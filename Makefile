@@ -135,6 +135,8 @@ install: $(SHOAL)
 	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1
 	install -m 755 $(SHOAL) $(DESTDIR)$(PREFIX)/bin/shoal
 	install -m 644 coverage/shoal.1 $(DESTDIR)$(PREFIX)/share/man/man1/shoal.1
+	install -d $(DESTDIR)$(PREFIX)/share/man/man5
+	install -m 644 coverage/shoal.graph.5 $(DESTDIR)$(PREFIX)/share/man/man5/shoal.graph.5
 
 clean:
 	rm -rf build build-asan build-fuzz shoal-report

@@ -660,6 +660,10 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         a->shape_df1 = sf.df1;
         a->shape_df2 = sf.df2;
         a->shape_pure = sf.pure;
+        if (c->shape == COV_SHAPE_TURNING)
+            add_caution(a, "'%s' is expected to turn, but a numeric treatment is tested by its "
+                        "slope, which a turning effect can hide; see the lack of fit, or declare "
+                        "it an ordered level set to test every level", xv->name);
         if (sf.distinct < 3)
             add_caution(a, "'%s' takes only %zu distinct value%s in these runs: the shape of its "
                         "effect (straight, saturating, turning) cannot be checked; the figures "

@@ -43,9 +43,9 @@ int cov_form_unit(cov_cursor *c, char **unit)
      * at the end of the line, so a newline cannot get here; a carriage return can. */
     for (const char *q = t->text; *q; q++)
         if ((unsigned char)*q < 0x20 || *q == 0x7f)
-            return cerr(c, t->col, "found a control character (0x%02X) in the unit \"%s\", "
-                        "expected a unit on one line without control characters",
-                        (unsigned)(unsigned char)*q, t->text);
+            return cerr(c, t->col, "found a control character (0x%02X) in the unit, expected a "
+                        "unit on one line without control characters",
+                        (unsigned)(unsigned char)*q);
     char *u = strdup(t->text);
     if (u == NULL) return cov_fail(c->err, COV_ENOMEM, "", "out of memory");
     free(*unit);
