@@ -47,8 +47,8 @@ FUZZ_BIN    = $(FUZZ_NAMES:%=$(BUILD)/fuzz/fuzz_%)
 FUZZ_SECONDS ?= 60
 FUZZ_CC   ?= clang
 
-.PHONY: all deps deps-check demo check check-slow check-asan check-valgrind bench install clean \
-        fuzz
+.PHONY: all deps deps-check demo check check-arch check-slow check-asan check-valgrind bench install \
+        clean fuzz
 
 all: $(SHOAL) $(FIXTURE_BIN)
 
@@ -100,6 +100,10 @@ check: deps deps-check
 	@$(GUARD)
 	@$(MAKE) --no-print-directory all $(TEST_BIN) $(PROBE_BIN) $(REPLAY_BIN)
 	@SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/run.sh
+
+# The architecture check alone (make check runs it too, as tests/cli_arch.sh).
+check-arch:
+	@sh tests/arch/check.sh .
 
 check-slow: deps deps-check
 	@$(GUARD)

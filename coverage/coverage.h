@@ -316,8 +316,20 @@ typedef struct {
     size_t n;
 } cov_assessments;
 
+/* Assess every claim of c (derived from g) on the runs d (read against g): the adjusted
+ * regression of each testable claim on its complete cases, the noise checks, and power, MDE and
+ * runs needed at the claim's declared effect of interest (never at the observed effect), at the
+ * per-claim level cov_family_alpha(opt, testable claims) and the target power opt->target.
+ * opt->alpha and opt->target lie strictly in (0, 1), else COV_EINPUT. Effects and MDEs are in
+ * outcome units per treatment unit; powers in [0, 1]. d may hold no runs: claims are then sized
+ * from the graph's declared noise SDs where it gives them. On COV_OK *out holds one assessment
+ * per claim, in claim order, owned by the caller (cov_assessments_free); on error *out is NULL
+ * and err says why. A numeric failure of one claim's figures is reported in its reason (verdict
+ * underpowered), not as an error; COV_ENUMERIC only when a power computation did not converge,
+ * COV_ENOMEM when out of memory. g, c, d, opt and out must not be NULL. */
 int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
                const cov_power_options *opt, cov_assessments **out, cov_error *err);
+/* Free a and everything it owns; NULL is allowed. */
 void cov_assessments_free(cov_assessments *a);
 
 /* ---------------------------------------------------------------------------------------------
@@ -383,8 +395,19 @@ typedef struct {
     size_t dep_n;             /* runs |r| was computed on (a fixed-seed subsample above 100,000) */
 } cov_coverage;
 
+/* Measure how the runs d (read against g) cover the declared input space: the share of bins
+ * (marginal) and of cells of every pair (and, with opt->way 3, triple) of inputs holding at least
+ * opt->min_runs runs, with opt->bins equal-width bins for numeric inputs; the centred L2
+ * discrepancy, fill distance and largest gaps of the numeric inputs in the unit cube; the
+ * dependence between inputs. Shares lie in [0, 1], NAN when there is nothing to count (fewer than
+ * two inputs for pairs). Subsamples, where the work would be too large, are drawn with opt->seed
+ * and flagged. --min-runs >= 1 and --bins >= 2, a usable domain for every input and sizes within
+ * the limits of README.md, else COV_EINPUT. On COV_OK *out is the
+ * caller's (cov_coverage_free); on error it is NULL and err says why (COV_EINPUT, COV_ENOMEM).
+ * g, d, opt and out must not be NULL. */
 int cov_coverage_measure(const cov_graph *g, const cov_data *d, const cov_coverage_options *opt,
                          cov_coverage **out, cov_error *err);
+/* Free c and everything it owns; NULL is allowed. */
 void cov_coverage_free(cov_coverage *c);
 
 typedef struct {
@@ -407,8 +430,17 @@ typedef struct {
     size_t n;
 } cov_supports;
 
+/* Measure each claim's support in the runs d: on the complete cases of its treatment, outcome
+ * and adjustment set, the distinct treatment values, the treatment's spread and its spread given
+ * the adjustment set (sd(X | S), pw_resid_sd, in treatment units, divisor n), for bool and
+ * level-set treatments the overlap within propensity strata (each level at least
+ * opt->min_runs times) and Kish's effective sample size, the runs per configuration, and whether
+ * support is adequate with the reason when not. Untestable claims get ok = 0 and NAN figures. On
+ * COV_OK *out holds one item per claim, in claim order, owned by the caller (cov_supports_free);
+ * on error it is NULL (COV_ENOMEM, err filled). g, c, d, opt and out must not be NULL. */
 int cov_support_measure(const cov_graph *g, const cov_claims *c, const cov_data *d,
                         const cov_coverage_options *opt, cov_supports **out, cov_error *err);
+/* Free s and everything it owns; NULL is allowed. */
 void cov_supports_free(cov_supports *s);
 
 /* ---------------------------------------------------------------------------------------------
@@ -436,6 +468,10 @@ typedef struct {
     int replicates;               /* plan: seeds per configuration */
     const char *plan_path;        /* survey: a plan file whose runs the plots overlay, or NULL */
     int again;                    /* import: append a file whose rows the archive already holds */
+    /* A test seam, NULL in production (the driver never sets it): called at named points of a
+     * long write ("report": the survey's report, halfway); a nonzero return makes the write fail
+     * there with COV_EIO, so tests can check that a failure leaves nothing half-written. */
+    int (*fault_at)(const char *stage);
 } cov_options;
 
 /* Fill o with the defaults written in README.md. */

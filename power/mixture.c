@@ -3,7 +3,7 @@
 #include <float.h>
 #include <math.h>
 
-#include "power/power.h"
+#include "power/internal.h"
 
 /* The series stops once the bound on the neglected terms falls below this share of the tail's
  * sum: below double rounding, so truncation never shows beside rounding error (AS R84 and R's

@@ -7,7 +7,7 @@
 #include <gsl/gsl_math.h>
 #include <gsl/gsl_sf_gamma.h>
 
-#include "power/power.h"
+#include "power/internal.h"
 
 /* The continued fraction stops when a step changes it by under one ulp. */
 #define BETA_CF_EPS DBL_EPSILON

@@ -6,7 +6,7 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_sf_gamma.h>
 
-#include "power/power.h"
+#include "power/internal.h"
 
 /* P(a, z) and Q(a, z), the regularized incomplete gamma functions, from GSL. */
 static int gamma_pair(double a, double z, double *lo, double *up)

@@ -8,7 +8,7 @@
 #include <gsl/gsl_math.h>
 #include <gsl/gsl_sf_gamma.h>
 
-#include "power/power.h"
+#include "power/internal.h"
 
 /* The series stops once the bound on the neglected terms falls below this share of the sum of the
  * absolute values of the terms taken: below double rounding, so truncation never shows beside

@@ -10,7 +10,7 @@
 #include <gsl/gsl_sf_erf.h>
 #include <gsl/gsl_sf_gamma.h>
 
-#include "power/power.h"
+#include "power/internal.h"
 
 /* For nu >= 1 both integrands below are strongly log-concave: the chi density's -log has second
  * derivative (nu - 1) / x^2 + 1 >= 1, and the normal factor is the Gaussian measure of a convex
@@ -239,7 +239,7 @@ int pw_tost_power(double theta, double lo, double hi, double se, double df, doub
     /* Phillips (1990): power = Q_nu(-t_c, delta2; 0, R) - Q_nu(t_c, delta1; 0, R) with
      * delta1 = (theta - lo) / se, delta2 = (theta - hi) / se, t_c = t_{1 - alpha, nu} and
      * R = sqrt(nu) (delta1 - delta2) / (2 t_c). Integrating the difference of the two normal CDFs
-     * in one pass keeps small powers (0.00097 in REFERENCES.md 5) free of cancellation. */
+     * in one pass keeps small powers (0.00097 in tests/REFERENCES.md 5) free of cancellation. */
     double tc = gsl_cdf_tdist_Qinv(alpha, df);
     if (!isfinite(tc) || !(tc > 0.0))
         return PW_ENOCONV;

@@ -44,45 +44,6 @@ int pw_ncbeta_cdf(double x, double a, double b, double lambda, double *lower, do
 /* Noncentral F with df1, df2 > 0 and noncentrality lambda >= 0, through the noncentral beta. */
 int pw_ncf_cdf(double f, double df1, double df2, double lambda, double *lower, double *upper);
 
-/* Library-internal terms shared by the mixture series (power/ncbeta.c): the log of the Poisson term
- * e^{-lambda} lambda^x / Gamma(x + 1) and of the binomial term
- * Gamma(n + 1) / (Gamma(k + 1) Gamma(n - k + 1)) p^k q^(n - k), for real x, k, n (q = 1 - p, both
- * given), by Loader's (2000) saddle-point forms, which keep full relative accuracy where
- * differences of lgamma lose digits. Return -INFINITY for a zero term. */
-double pw_log_dpois(double x, double lambda);
-double pw_log_dbinom(double k, double n, double p, double q);
-/* Library-internal (power/ncbeta.c): I_x(a, b) into *lo and its complement I_y(b, a) into *up,
- * with x + y = 1 both given, each accurate even when x or y is below 1e-14: the continued fraction
- * (Numerical Recipes' betacf, as in GSL) on whichever side converges, with Loader's prefactor.
- * PW_OK or PW_ENOCONV. */
-int pw_beta_inc_pair(double x, double y, double a, double b, double *lo, double *up);
-/* Library-internal (power/ncbeta.c): log of x^a y^b / (a B(a, b)), the step of the recurrence
- * I_x(a + 1, b) = I_x(a, b) - step (Abramowitz & Stegun 26.5.16), by Loader's binomial term with
- * x and y = 1 - x both given; -INFINITY when x or y is 0. */
-double pw_log_beta_step(double x, double y, double a, double b);
-/* Library-internal (power/mixture.c): the Poisson mixture sum_j Pois(j; L) T(j) of a central pair
- * T_lo(j) + T_up(j) = 1 that moves by a step, T_lo(j + 1) = T_lo(j) - s(j), where s is the
- * incomplete gamma's z^(a+j) e^-z / Gamma(a + j + 1) (log_x = log z) or the incomplete beta's
- * x^(a+j) y^b / ((a + j) B(a + j, b)) (log_x = log x); everything at the mode k = floor(L) is the
- * caller's, and far_lo, far_up bound T_lo(k - span) and T_up(k + span) (1 for no bound). */
-enum pw_mix_family { PW_MIX_GAMMA, PW_MIX_BETA };
-typedef struct pw_mixture {
-    enum pw_mix_family family;
-    double L;                    /* Poisson mean, >= 0 */
-    double a, b;                 /* shape at j = 0 (a + j at term j); b for the beta only */
-    double log_x;
-    double lo_mode, up_mode;     /* T_lo(k), T_up(k) */
-    double log_step_mode;        /* log s(k) */
-    double far_lo, far_up;
-} pw_mixture;
-/* Library-internal (power/mixture.c): sums both tails of m from the mode both ways into *lower
- * and *upper (each capped at 1) until the neglected weights fall below double rounding of each
- * sum; PW_OK, or PW_ENOCONV after 2e5 terms on a side. */
-int pw_mixture_tails(const pw_mixture *m, double *lower, double *upper);
-/* Library-internal (power/mixture.c): the distance from the mode beyond which the Poisson(L)
- * weights are all below DBL_MIN, or 0 when L is too small for that shortcut. */
-double pw_mixture_far_span(double L);
-
 /* Noncentral chi-squared with df > 0 and lambda >= 0 (Ding 1992, AS 275, and the Poisson mixture).
  * All the mixtures sum at most 2e5 terms each side of the Poisson mode: enough for lambda up to
  * about 1e9 (|ncp| up to about 3e4 for the t); beyond that they return PW_ENOCONV. */
@@ -139,9 +100,12 @@ typedef struct {
     double *xprod;       /* k * k row-major: sum over rows of (x_i - mean_i)(x_j - mean_j), j >= i */
 } pw_moments;
 
-int pw_moments_alloc(size_t k, pw_moments **out);   /* PW_OK or PW_ENOMEM */
+/* Allocate moments of k >= 1 columns, no rows yet; *out is the caller's (pw_moments_free, which
+ * accepts NULL). PW_OK or PW_ENOMEM. */
+int pw_moments_alloc(size_t k, pw_moments **out);
 void pw_moments_free(pw_moments *m);
-void pw_moments_add(pw_moments *m, const double *row);   /* row: k values, none NaN */
+/* Add one row of k values, none NaN (the caller keeps complete cases only). */
+void pw_moments_add(pw_moments *m, const double *row);
 /* Add nb rows at once (row-major, nb * k values, none NaN): the block's own centred cross-products
  * merged by Chan, Golub & LeVeque (1983). The same figures as nb calls of pw_moments_add (to
  * rounding), and faster: the block's products stay in cache. PW_OK or PW_ENOMEM. */
@@ -178,6 +142,15 @@ typedef struct {
  * apart from the other predictors. */
 int pw_xfit_solve(const pw_moments *m, const size_t *idx, size_t k, size_t t, pw_xfit **out);
 void pw_xfit_free(pw_xfit *f);
+/* sd(X | S) of a fit with one treatment column (t = 1): sqrt(treat_info / n), the residual SD of
+ * the treatment given the intercept and the other predictors, divisor n; 0 when the treatment was
+ * dropped as aliased or constant (t_rank 0); NAN when t != 1. The one definition of sd(X | S) in
+ * shoal: the assessment reads it from its fit, the support measure through pw_resid_sd. */
+double pw_xfit_sd_treatment(const pw_xfit *f);
+/* sd(X | S) of column idx[k] given an intercept and the columns idx[0..k-1] of m, by the fit
+ * pw_xfit_solve makes (X as the treatment and as the outcome). Returns PW_OK, PW_EDOM, PW_ENOMEM;
+ * *out is written on PW_OK only. */
+int pw_resid_sd(const pw_moments *m, const size_t *idx, size_t k, double *out);
 
 /* Residual diagnostics of a fit on m rows (power/diag.c): excess kurtosis of the residuals
  * y - fitted; Koenker's (1981) studentised Breusch-Pagan (1979) LM statistic with the fitted values
@@ -202,6 +175,7 @@ typedef struct {
     double sigma_pure, f, p;
     size_t repeated;      /* configurations holding two or more rows (the ones pure error uses) */
 } pw_lof;
+/* Returns PW_OK, PW_EFEW (m = 0) or PW_ENOMEM. */
 int pw_lack_of_fit(const double *keys, size_t kk, const double *y, const double *fitted, size_t m,
                    double n_coef, pw_lof *out);
 
@@ -287,7 +261,7 @@ int pw_mde(const pw_design *d, double *mde);
 
 /* Total runs needed for d->target if new runs resemble the current ones (same sd_x_resid, sigma,
  * shares): the smallest integer n with power >= target. *runs is INFINITY when no n up to
- * PW_MAX_RUNS reaches it. */
+ * PW_MAX_RUNS reaches it. Returns PW_OK or the status of pw_power on d (PW_EDOM, PW_ENOCONV). */
 #define PW_MAX_RUNS 1e9
 int pw_runs_needed(const pw_design *d, double *runs);
 /* The same, given the MDE at d->n (from pw_mde), which places the first guess within a run or
@@ -338,7 +312,7 @@ int pw_design_with_q(const pw_design *d, double n_new, double q_new, pw_design *
  * finding on pw_power (power rises with q). *q is INFINITY when no q up to PW_Q_MAX (or, for two
  * proportions, a balanced allocation) reaches it. */
 #define PW_Q_MAX 1e8
-int pw_design_q_needed(const pw_design *d, double n_new, double *q);
+int pw_design_q_needed(const pw_design *d, double n_new, double *q);   /* PW_OK, PW_EDOM, PW_ENOCONV */
 
 /* Greedy sequential augmentation (Wynn 1970; Fedorov 1972, ch. 4), forward selection without
  * exchange. A pw_aug holds groups of claims that share design columns: each group keeps
@@ -347,6 +321,8 @@ int pw_design_q_needed(const pw_design *d, double n_new, double *q);
  * information it needs (pw_block_info units). Allocated by pw_aug_alloc, freed by pw_aug_free. */
 typedef struct pw_aug pw_aug;
 
+/* An empty augmentation over n_cols >= 1 global columns; *out is the caller's (pw_aug_free,
+ * which accepts NULL). PW_OK or PW_ENOMEM. */
 int pw_aug_alloc(size_t n_cols, pw_aug **out);
 void pw_aug_free(pw_aug *a);
 /* Add a group over the global columns cols[0..p-1] (cols[0] should be 0, the intercept) whose
@@ -382,7 +358,8 @@ int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, 
 /* Add w runs at row to every group (Sherman-Morrison, with a fresh Cholesky inverse of the kept
  * cross-products every PW_AUG_REFRESH commits to stop rounding drift). */
 #define PW_AUG_REFRESH 64
-int pw_aug_commit(pw_aug *a, const double *row, double w);
+int pw_aug_commit(pw_aug *a, const double *row, double w);   /* PW_OK, PW_EDOM (w <= 0), or the
+                                                                refresh's PW_ENOMEM or PW_ESING */
 
 /* ---------------------------------------------------------------------------------------------
  * Logistic regression (power/logit.c). */

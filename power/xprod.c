@@ -261,3 +261,26 @@ fail:
     pw_xfit_free(f);
     return rc;
 }
+
+double pw_xfit_sd_treatment(const pw_xfit *f)
+{
+    if (f == NULL || f->t != 1 || !(f->n > 0)) return NAN;
+    if (f->t_rank == 0) return 0.0;
+    return sqrt(f->treat_info[0] / f->n);
+}
+
+int pw_resid_sd(const pw_moments *m, const size_t *idx, size_t k, double *out)
+{
+    if (m == NULL || idx == NULL) return PW_EDOM;
+    size_t *full = malloc((k + 2) * sizeof *full);
+    if (full == NULL) return PW_ENOMEM;
+    for (size_t a = 0; a <= k; a++) full[a] = idx[a];
+    full[k + 1] = idx[k];   /* X as the outcome too: only the treatment block is read */
+    pw_xfit *f = NULL;
+    int rc = pw_xfit_solve(m, full, k + 1, 1, &f);
+    free(full);
+    if (rc != PW_OK) return rc;
+    *out = pw_xfit_sd_treatment(f);
+    pw_xfit_free(f);
+    return PW_OK;
+}

@@ -65,12 +65,13 @@ a -> x
 b -> y
 c -> z
 G
+# Columns of the claim record: index, kind, treatment, ... (README, "The claim record").
 "$SHOAL" claims "$tmp/three.graph" --csv >"$tmp/shared.csv"
-n_oo=$(awk -F, '$1 == "absence" && $2 ~ /^[xyz]$/' "$tmp/shared.csv" | wc -l)
+n_oo=$(awk -F, '$2 == "absence" && $3 ~ /^[xyz]$/' "$tmp/shared.csv" | wc -l)
 check '[ "$n_oo" -eq 0 ]' "shared run noise (the default): no output-output absence claim (got $n_oo)"
 echo "noise independent" >>"$tmp/three.graph"
 "$SHOAL" claims "$tmp/three.graph" --csv >"$tmp/indep.csv"
-n_oo=$(awk -F, '$1 == "absence" && $2 ~ /^[xyz]$/' "$tmp/indep.csv" | wc -l)
+n_oo=$(awk -F, '$2 == "absence" && $3 ~ /^[xyz]$/' "$tmp/indep.csv" | wc -l)
 check '[ "$n_oo" -eq 3 ]' "'noise independent': the 3 output-output absence claims (got $n_oo)"
 check 'head -n 1 "$tmp/indep.csv" | grep -q ",rests_on_noise_independence$"' \
   "claims CSV ends with the rests_on_noise_independence column"

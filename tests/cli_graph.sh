@@ -66,7 +66,7 @@ for g in fixtures/graphs/clinic.graph fixtures/demo/triage.graph; do
 import json, sys
 doc = json.load(open(sys.argv[1]))
 rows = [l for l in open(sys.argv[2]).read().splitlines()[1:] if l.startswith(("effect", "absence"))]
-assert doc["schema_version"] == 2 and isinstance(doc["graph"], str)
+assert doc["schema_version"] == 3 and isinstance(doc["graph"], str)
 assert len(doc["claims"]) == len(rows) > 0, "table and JSON list different claims"
 for c in doc["claims"]:
     assert c["kind"] in ("effect", "absence")

@@ -323,13 +323,15 @@ check $? "names are escaped in index.html (python html.parser), summary.json, cl
 
 # ---- atomic writing ---------------------------------------------------------------------------------
 cp "$tmp/r-demo/summary.json" "$tmp/before.json"
-SHOAL_TEST_FAULT=report "$SHOAL" survey "$demo_graph" "$tmp/demo.db" -o "$tmp/r-demo" >/dev/null 2>"$tmp/err"
+# tests/probe_survey.c runs the survey with the report writer made to fail halfway (the test seam
+# cov_options.fault_at, which the shoal binary never sets).
+"$BUILD/tests/probe_survey" "$demo_graph" "$tmp/demo.db" "$tmp/r-demo" >/dev/null 2>"$tmp/err"
 rc=$?
 check $([ "$rc" -eq 2 ] && grep -q "injected" "$tmp/err"; echo $?) "an injected failure midway exits 2 (got $rc)"
 check $(cmp -s "$tmp/before.json" "$tmp/r-demo/summary.json" && [ -s "$tmp/r-demo/index.html" ]; echo $?) \
   "after a failure midway the earlier report is intact"
 check $(ls -a "$tmp" | grep -q '^\.r-demo\.'; [ $? -ne 0 ]; echo $?) "no temporary directory is left beside the report"
-SHOAL_TEST_FAULT=report "$SHOAL" survey "$demo_graph" "$tmp/demo.db" -o "$tmp/r-fresh" >/dev/null 2>&1
+"$BUILD/tests/probe_survey" "$demo_graph" "$tmp/demo.db" "$tmp/r-fresh" >/dev/null 2>&1
 check $([ ! -e "$tmp/r-fresh" ]; echo $?) "a failure midway with no earlier report leaves no report at all"
 : >"$tmp/plainfile"
 "$SHOAL" survey "$demo_graph" "$tmp/demo.db" -o "$tmp/plainfile/report" >/dev/null 2>"$tmp/err"

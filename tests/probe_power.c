@@ -17,7 +17,12 @@
  *   p2n P1 P2 N1 N2 ALPHA SIDES      two proportions through pw_power
  *   mde D N1 N2 ALPHA SIDES POWER    MDE (in SDs) of the two-sample t test
  *   ols N P                          then N lines "y x1 .. x(P-1)"; answers coefficients, then SEs,
- *                                    then sigma and R^2, intercept first
+ *                                    then sigma and R^2, intercept first (pw_ols_fit)
+ *   xfit N P                         the same rows through the production solver: pw_moments
+ *                                    accumulated row by row, then pw_xfit_solve with the last
+ *                                    predictor as the treatment; answers coefficients (intercept
+ *                                    first), then the slopes' SEs (the intercept's is not formed:
+ *                                    "nan"), then sigma and R^2
  * Errors print "error <status text>". */
 static void answer(int rc, double x)
 {
@@ -67,6 +72,41 @@ fail:
     pw_ols_free(fit);
     free(X);
     free(y);
+    return rc;
+}
+
+static int do_xfit(size_t n, size_t p)
+{
+    size_t k = p - 1;                  /* slopes; the moments hold x1 .. x(P-1), then y */
+    double *row = malloc(p * sizeof *row);
+    size_t *idx = malloc(p * sizeof *idx);
+    pw_moments *m = NULL;
+    pw_xfit *fit = NULL;
+    int rc = 1;
+    if (row == NULL || idx == NULL || pw_moments_alloc(p, &m) != PW_OK) goto fail;
+    for (size_t i = 0; i < n; i++) {
+        if (scanf("%lf", &row[k]) != 1) goto fail;
+        for (size_t j = 0; j < k; j++)
+            if (scanf("%lf", &row[j]) != 1) goto fail;
+        pw_moments_add(m, row);
+    }
+    for (size_t j = 0; j < p; j++) idx[j] = j;
+    int st = pw_xfit_solve(m, idx, k, 1, &fit);
+    if (st != PW_OK) {
+        printf("error %s\n", pw_strerror(st));
+    } else {
+        printf("%.17g", fit->intercept);
+        for (size_t j = 0; j < k; j++) printf(" %.17g", fit->coef[j]);
+        printf("\nnan");
+        for (size_t j = 0; j < k; j++) printf(" %.17g", fit->se[j]);
+        printf("\n%.17g %.17g\n", fit->sigma, fit->r2);
+    }
+    rc = 0;
+fail:
+    pw_xfit_free(fit);
+    pw_moments_free(m);
+    free(row);
+    free(idx);
     return rc;
 }
 
@@ -130,6 +170,11 @@ int main(void)
         } else if (strcmp(cmd, "ols") == 0 && scanf("%lf %lf", &a, &b) == 2 && a >= 1 && b >= 1) {
             if (do_ols((size_t)a, (size_t)b)) {
                 printf("error bad ols input\n");
+                return 1;
+            }
+        } else if (strcmp(cmd, "xfit") == 0 && scanf("%lf %lf", &a, &b) == 2 && a >= 1 && b >= 2) {
+            if (do_xfit((size_t)a, (size_t)b)) {
+                printf("error bad xfit input\n");
                 return 1;
             }
         } else {

@@ -2,7 +2,7 @@
 # Reference checks of the coverage figures against scipy and an independent brute force.
 # See LICENSE.
 """Drives build/tests/probe_coverage and compares with:
-- scipy.stats.qmc.discrepancy(method='CD') (squared value; REFERENCES.md section 8), to 1e-10
+- scipy.stats.qmc.discrepancy(method='CD') (squared value; tests/REFERENCES.md section 8), to 1e-10
   absolute as the lead set (both sum the same O(n^2) terms; rounding stays near 1e-14);
 - a brute-force t-way count written here from the definitions of Kuhn, Kacker & Lei (2012,
   NISTIR 7878): every t-subset of inputs, every run, a dictionary of configurations; exact
@@ -54,7 +54,7 @@ def check_discrepancy(rng):
                    [0.5, 0.5], [6.5, 6.5], reverse=True)
     got = probe_cd2(s4)
     check(abs(got - 1013 / 124416) < 1e-10,
-          "CD^2 of the scipy docstring set (REFERENCES.md 8, S4) = 1013/124416: %.15g" % got)
+          "CD^2 of the scipy docstring set (tests/REFERENCES.md 8, S4) = 1013/124416: %.15g" % got)
     for n, d in [(1, 1), (7, 1), (20, 2), (50, 3), (300, 5), (64, 8)]:
         x = rng.random((n, d))
         ref = qmc.discrepancy(x, method="CD")
@@ -334,7 +334,7 @@ def check_command(rng):
         out = json.loads(r.stdout)
         share2, _ = brute_tway(specs, rows, 10, 5, 2)
         share3, _ = brute_tway(specs, rows, 10, 5, 3)
-        check(out["schema_version"] == 1 and abs(out["pairwise"]["share"] - share2) < 1e-9,
+        check(out["schema_version"] == 2 and abs(out["pairwise"]["share"] - share2) < 1e-9,
               "shoal coverage --json: pairwise share %.6f equals brute force %.6f"
               % (out["pairwise"]["share"], share2))
         check(out["threeway"] is not None and abs(out["threeway"]["share"] - share3) < 1e-9,
@@ -364,12 +364,12 @@ def main():
     rng = np.random.default_rng(20261202)
     check_discrepancy(rng)
 
-    # NIST example (NISTIR 7878; REFERENCES.md section 10) through the probe, m = 1, 3-way.
+    # NIST example (NISTIR 7878; tests/REFERENCES.md section 10) through the probe, m = 1, 3-way.
     specs = [("bool",)] * 4
     rows = [[0, 0, 0, 0], [0, 1, 1, 0], [1, 0, 0, 1], [0, 1, 1, 1]]
     res = check_campaign(specs, rows, 10, 1, 3, "NIST example")
     check(res["pairwise_share"] == 19 / 24, "NIST example: 19/24 configurations (NIST's figure)")
-    check(res["threeway"][0] == 15 / 32, "NIST example: 3-way 15/32 (REFERENCES.md 10)")
+    check(res["threeway"][0] == 15 / 32, "NIST example: 3-way 15/32 (tests/REFERENCES.md 10)")
 
     for k in range(12):
         specs, rows = random_campaign(rng)

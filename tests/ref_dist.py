@@ -6,12 +6,12 @@ build/tests/probe_dist (env BUILD). Prints PASS/FAIL/SKIP lines, one per grid ce
 Sources and tolerances:
 * scipy.stats.nct / ncf / ncx2 cdf and sf (Boost.Math non_central_t / non_central_f /
   non_central_chi_squared in scipy 1.10.1): both tails to 1e-9 absolute, the issue's accuracy
-  target; Boost itself is good to ~1e-14 (REFERENCES.md 3a/3b).
+  target; Boost itself is good to ~1e-14 (tests/REFERENCES.md 3a/3b).
 * The smaller tail, where below 1e-3, also to 1e-8 relative (no cancellation in far tails).
 * Where scipy and power/ differ by more than that, the point is re-checked against an mpmath
   40-digit reference computed by a different method (direct quadrature over the chi density for
   the noncentral t; the Poisson mixture at 40 digits for F and chi-squared) and the line says so.
-* REFERENCES.md pitfall 6: scipy 1.10.1 ncf.sf with nc = 0 returns -cdf (scipy issue #26188), so
+* tests/REFERENCES.md pitfall 6: scipy 1.10.1 ncf.sf with nc = 0 returns -cdf (scipy issue #26188), so
   at nc = 0 the F reference is the central scipy.stats.f (the exact same distribution).
 * Quantile round trips: cdf(quantile(p)) = p to 1e-10 absolute (the brief's figure), with the
   CDF evaluated by scipy so the check does not lean on power/ alone.
@@ -21,7 +21,7 @@ import os
 import sys
 import warnings
 
-warnings.simplefilter("ignore")   # Boost's spurious RuntimeWarnings (REFERENCES.md 1c, note)
+warnings.simplefilter("ignore")   # Boost's spurious RuntimeWarnings (tests/REFERENCES.md 1c, note)
 
 from scipy import stats  # noqa: E402
 
@@ -201,7 +201,7 @@ def main():
     for d1 in [1, 2, 5, 30, 1e3]:
         for d2 in DFS:
             for lam in NCPS:
-                if lam == 0:     # REFERENCES.md pitfall 6: ncf.sf(nc=0) returns -cdf
+                if lam == 0:     # tests/REFERENCES.md pitfall 6: ncf.sf(nc=0) returns -cdf
                     d = stats.f(d1, d2)
                     src = points(stats.f, (d1, d2))
                 else:

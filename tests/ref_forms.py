@@ -28,6 +28,19 @@ def check(ok, msg):
         fails += 1
 
 
+def grouped(c):
+    """The claim record's flat omnibus_* and shape_* fields (README, "The claim record") as the
+    groups the checks below read: omnibus {df1, f, p, power} for a trend test, shape_lack_of_fit
+    {f, df1, df2, p, pure_error} when that test was formed, else None."""
+    c = dict(c)
+    c["omnibus"] = ({k: c["omnibus_" + k] for k in ("df1", "f", "p", "power")}
+                    if c.get("trend") and c.get("omnibus_df1") is not None else None)
+    c["shape_lack_of_fit"] = ({"f": c["shape_f"], "df1": c["shape_df1"], "df2": c["shape_df2"],
+                               "p": c["shape_p"], "pure_error": c["shape_pure_error"]}
+                              if c.get("shape_f") is not None else None)
+    return c
+
+
 def rel(a, b):
     return abs(a - b) / max(abs(b), 1e-300)
 
@@ -74,7 +87,7 @@ with tempfile.TemporaryDirectory() as tmp:
         out = {}
         for c in json.loads(r.stdout)["claims"]:
             if c["kind"] == "effect":
-                out[(c["treatment"], c["outcome"])] = c
+                out[(c["treatment"], c["outcome"])] = grouped(c)
         return out
 
     base = "lim -> trend effect 0.015\ntwo -> shp2\nthree -> shp3\n"

@@ -11,7 +11,7 @@ BUILD). Prints PASS/FAIL lines.
   probability below 4e-3 (the false-alarm rate; with the seed fixed the outcome is deterministic,
   and the seed was chosen before the first run).
 * Quadrature: scipy.integrate.quad of Phillips' integral over the chi density (an independent
-  integrator, REFERENCES.md 5 used the same check) to 1e-11 absolute, 100 times inside the
+  integrator, tests/REFERENCES.md 5 used the same check) to 1e-11 absolute, 100 times inside the
   issue's 1e-9 target (quad is asked for 1e-12 relative).
 """
 import math
@@ -39,7 +39,7 @@ def probe(lines):
 def t_crit(alpha, df):
     """t_{1-alpha, df} by Brent's method on the regularized incomplete beta (Cephes incbet).
     Not stats.t.isf: in scipy 1.10.1 it is off by 2.5e-9 at df 38 and 5e-9 at df 4, which moves
-    the power in the 10th digit (and explains REFERENCES.md 5's last digit 0.815845281)."""
+    the power in the 10th digit (and explains tests/REFERENCES.md 5's last digit 0.815845281)."""
     return optimize.brentq(lambda t: special.betainc(df / 2, 0.5, df / (df + t * t)) / 2 - alpha,
                            1e-3, 1e3, xtol=1e-15, rtol=1e-15)
 
@@ -93,7 +93,7 @@ def main():
     rng = np.random.default_rng(SEED)
     lg = math.log
     sw20, sw30 = math.sqrt(lg(1.04)), math.sqrt(lg(1.09))
-    # (description, theta, lo, hi, se, df, alpha); the first six are REFERENCES.md 5's cases.
+    # (description, theta, lo, hi, se, df, alpha); the first six are tests/REFERENCES.md 5's cases.
     cases = [
         ("2x2 crossover CV .20 n 20 theta0 .95", lg(0.95), lg(0.8), lg(1.25),
          sw20 * math.sqrt(2 / 20), 18, 0.05),

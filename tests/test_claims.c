@@ -1,5 +1,5 @@
 /* Tests of d-separation, minimal separators and claims on the worked examples E1-E4 of
- * REFERENCES.md section 9, written as graph files. See LICENSE. */
+ * tests/REFERENCES.md section 9, written as graph files. See LICENSE. */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -11,7 +11,7 @@
 #include "coverage/plan/plan.h"
 #include "coverage/report/report.h"
 
-/* Sources: REFERENCES.md section 9 "Worked examples" (each verified there with networkx 2.8.8
+/* Sources: tests/REFERENCES.md section 9 "Worked examples" (each verified there with networkx 2.8.8
  * d_separated, a moral-graph test and Bayes-ball), its minimal separators found by FindMinSep
  * (van der Zander, Liskiewicz & Textor 2019) and its Shipley (2000) basis of E4. The answers are
  * true/false and sets, compared exactly: no tolerance applies. */
@@ -48,7 +48,7 @@ static void query(const cov_graph *g, const cov_dag *d, const char *ex, const ch
     int rc = cov_dsep_separated(d, (size_t)cov_graph_find(g, x), (size_t)cov_graph_find(g, y),
                                 in_z, &sep);
     gsl_test(rc != COV_OK || sep != expect,
-             "claims: %s %s -0-> %s given {%s} is %s (REFERENCES.md 9, networkx 2.8.8)", ex, x, y,
+             "claims: %s %s -0-> %s given {%s} is %s (tests/REFERENCES.md 9, networkx 2.8.8)", ex, x, y,
              z, expect ? "True" : "False");
 }
 
@@ -74,7 +74,7 @@ static void minsep(const cov_graph *g, const cov_dag *d, const char *ex, const c
     char got[256];
     set_names(g, z, d->n, got, sizeof got);
     gsl_test(rc != COV_OK || !found || strcmp(got, expect) != 0,
-             "claims: %s FindMinSep(%s, %s) = {%s} (REFERENCES.md 9; got {%s})", ex, x, y, expect,
+             "claims: %s FindMinSep(%s, %s) = {%s} (tests/REFERENCES.md 9; got {%s})", ex, x, y, expect,
              got);
 }
 
@@ -231,7 +231,7 @@ static void test_e4(void)
     minsep(g, d, "E4", "B", "C", "A");
     minsep(g, d, "E4", "A", "D", "B,C");
     minsep(g, d, "E4", "B", "E", "D");
-    /* The Shipley basis sets of E4 are all separators (REFERENCES.md 9). */
+    /* The Shipley basis sets of E4 are all separators (tests/REFERENCES.md 9). */
     query(g, d, "E4 Shipley basis", "B", "E", "A,D", 1);
     query(g, d, "E4 Shipley basis", "C", "E", "A,D", 1);
     cov_claims *c = derive(g, "E4");
@@ -242,7 +242,7 @@ static void test_e4(void)
     claim(g, c, 2, "E4", COV_CLAIM_EFFECT, "B", "D", "C", NULL);
     claim(g, c, 3, "E4", COV_CLAIM_EFFECT, "C", "D", "B", NULL);
     claim(g, c, 4, "E4", COV_CLAIM_EFFECT, "D", "E", "", NULL);
-    /* The tests adjust for the Shipley basis sets exactly as REFERENCES.md 9 lists them; the
+    /* The tests adjust for the Shipley basis sets exactly as tests/REFERENCES.md 9 lists them; the
      * minimal subsets drop A from {A, D} for B, E and C, E. */
     claim(g, c, 5, "E4", COV_CLAIM_ABSENCE, "B", "C", "A", NULL);
     claim(g, c, 6, "E4", COV_CLAIM_ABSENCE, "A", "D", "B,C", NULL);

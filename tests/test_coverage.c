@@ -17,7 +17,7 @@
  * 4 ulp (about 1e-15) where a formula adds rounding. */
 #define TOL_RATIO 1e-15
 /* CD^2 sums n^2 products of d factors near 1: each adds about one ulp, so 1e-13 is generous for
- * the n <= 6, d <= 3 sets of REFERENCES.md section 8. */
+ * the n <= 6, d <= 3 sets of tests/REFERENCES.md section 8. */
 #define TOL_CD 1e-13
 
 /* ---- building graphs and data in code ---------------------------------------------------------- */
@@ -121,7 +121,7 @@ static void test_bins(void)
     gsl_test_int((int)cov_bin_of(&l, 10, 3), -1, "bins: undeclared level index is -1");
 }
 
-/* ---- t-way coverage: NIST example and the hand-worked example of REFERENCES.md section 10 ------ */
+/* ---- t-way coverage: NIST example and the hand-worked example of tests/REFERENCES.md section 10 ------ */
 
 static size_t pair_index(const cov_coverage *c, size_t a, size_t b)
 {
@@ -134,7 +134,7 @@ static void test_nist_example(void)
 {
     /* Kuhn, Kacker & Lei (2012), NISTIR 7878, example: binary a, b, c, d; tests 0000, 0110, 1001,
      * 0111. NIST: 19 of 24 2-way configurations covered; per pair ab .75 ac .75 ad .75 bc .5
-     * bd 1 cd 1. REFERENCES.md section 10 adds 3-way total 15/32. With m = 1 our pooled share is
+     * bd 1 cd 1. tests/REFERENCES.md section 10 adds 3-way total 15/32. With m = 1 our pooled share is
      * NIST's total variable-value configuration coverage. Tolerance TOL_RATIO: exact ratios. */
     static const double t[4][4] = {{0, 0, 0, 0}, {0, 1, 1, 0}, {1, 0, 0, 1}, {0, 1, 1, 1}};
     fixture f;
@@ -161,7 +161,7 @@ static void test_nist_example(void)
                          want[k]);
         }
         gsl_test_rel(c->threeway_share, 15.0 / 32.0, TOL_RATIO,
-                     "REFERENCES.md 10, NIST example: 3-way total coverage 15/32");
+                     "tests/REFERENCES.md 10, NIST example: 3-way total coverage 15/32");
         gsl_test_rel(c->marginal_share, 1.0, TOL_RATIO, "NIST example: every value appears");
         size_t w = c->worst[0];
         gsl_test(!(c->pairs[w].a == 1 && c->pairs[w].b == 2),
@@ -186,7 +186,7 @@ static void test_nist_example(void)
 
 static void test_hand_example(void)
 {
-    /* REFERENCES.md section 10, hand-worked: a, b in {0,1}, c in {0,1,2}; tests (0,0,0),
+    /* tests/REFERENCES.md section 10, hand-worked: a, b in {0,1}, c in {0,1,2}; tests (0,0,0),
      * (0,1,1), (1,0,2), (1,1,0): 2-way total 12/16 = 0.75, ac 4/6, 3-way 4/12, 1-way 1. */
     static const double t[4][3] = {{0, 0, 0}, {0, 1, 1}, {1, 0, 2}, {1, 1, 0}};
     fixture f;
@@ -250,16 +250,16 @@ static void test_threeway_sampling(void)
 
 static void test_discrepancy(void)
 {
-    /* Exact rationals of REFERENCES.md section 8 (Hickernell 1998 formula, Python fractions). */
+    /* Exact rationals of tests/REFERENCES.md section 8 (Hickernell 1998 formula, Python fractions). */
     static const double s1[] = {0.5}, s2[] = {0.25, 0.75};
     static const double s3[] = {1. / 8, 3. / 8, 3. / 8, 7. / 8, 5. / 8, 1. / 8, 7. / 8, 5. / 8};
     static const double s5[] = {.1, .5, .9, .3, .9, .3, .5, .1, .7, .7, .7, .1, .9, .3, .5};
-    gsl_test_abs(cov_cd2(s1, 1, 1), 1.0 / 12, TOL_CD, "REFERENCES.md 8, S1: CD^2 = 1/12");
-    gsl_test_abs(cov_cd2(s2, 2, 1), 1.0 / 48, TOL_CD, "REFERENCES.md 8, S2: CD^2 = 1/48");
+    gsl_test_abs(cov_cd2(s1, 1, 1), 1.0 / 12, TOL_CD, "tests/REFERENCES.md 8, S1: CD^2 = 1/12");
+    gsl_test_abs(cov_cd2(s2, 2, 1), 1.0 / 48, TOL_CD, "tests/REFERENCES.md 8, S2: CD^2 = 1/48");
     gsl_test_abs(cov_cd2(s3, 4, 2), 1199.0 / 73728, TOL_CD,
-                 "REFERENCES.md 8, S3: CD^2 = 1199/73728");
+                 "tests/REFERENCES.md 8, S3: CD^2 = 1199/73728");
     gsl_test_abs(cov_cd2(s5, 5, 3), 4071281.0 / 135000000, TOL_CD,
-                 "REFERENCES.md 8, S5: CD^2 = 4071281/135000000");
+                 "tests/REFERENCES.md 8, S5: CD^2 = 4071281/135000000");
 
     /* S4 (the scipy docstring example) through the whole measure: inputs declared on
      * [0.5, 6.5]^2 so the scaling to the unit cube is exercised; CD^2 = 1013/124416. */
@@ -276,7 +276,7 @@ static void test_discrepancy(void)
     gsl_test_int(rc, COV_OK, "S4: measured");
     if (rc == COV_OK) {
         gsl_test_abs(c->cd2, 1013.0 / 124416, TOL_CD,
-                     "REFERENCES.md 8, S4 via scaled domain: CD^2 = 1013/124416");
+                     "tests/REFERENCES.md 8, S4 via scaled domain: CD^2 = 1013/124416");
         gsl_test_int(c->cd_subsampled, 0, "S4: 6 runs are not subsampled");
         gsl_test_rel(c->cd2_random, (pow(1.25, 2) - pow(13. / 12, 2)) / 6, TOL_RATIO,
                      "S4: random expectation for n = 6, d = 2");
@@ -371,7 +371,7 @@ static void test_dependence(void)
 {
     /* Hand values: a diagonal table has V = 1; a table with proportional rows has chi2 = 0. The
      * 2x2 table [[10, 20], [30, 40]]: chi2 = 100 (10*40 - 20*30)^2 / (30*70*40*60) = 0.79365...,
-     * V = sqrt(chi2 / 100) = 0.0890870806 (phi coefficient; Cramer 1946, sec. 21.9). */
+     * V = sqrt(chi2 / 100) = 0.0890870806 (phi coefficient; Cramer 1946, sec. 21.9; tests/REFERENCES.md 11). */
     size_t diag[9] = {5, 0, 0, 0, 7, 0, 0, 0, 9}, prop[4] = {2, 4, 3, 6}, t[4] = {10, 20, 30, 40};
     gsl_test_rel(cov_cramer_v(diag, 3, 3), 1.0, 1e-15, "Cramer's V of a diagonal table is 1");
     gsl_test_abs(cov_cramer_v(prop, 2, 2), 0.0, 1e-15, "Cramer's V of proportional rows is 0");
@@ -639,7 +639,8 @@ static void test_logit(void)
 
 static void test_kish(void)
 {
-    /* Kish (1965): (sum w)^2 / sum w^2. Hand: w = (0.2, 0.5, 0.5, 0.8): 2^2 / 1.18 = 3.3898305085. */
+    /* Kish (1965): (sum w)^2 / sum w^2. Hand: w = (0.2, 0.5, 0.5, 0.8): 2^2 / 1.18 = 3.3898305085
+     * (tests/REFERENCES.md 11). */
     double w[4] = {0.2, 0.5, 0.5, 0.8}, z[2] = {0, 0};
     gsl_test_rel(cov_kish_ess(w, 4), 4.0 / 1.18, 1e-15, "Kish ESS hand example 4/1.18");
     gsl_test(!isnan(cov_kish_ess(z, 2)), "Kish ESS of zero weights is NAN");

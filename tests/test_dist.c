@@ -13,23 +13,23 @@
 /* P + Q = 1: both tails are sums of the same weights with rounding of a few ulps each; GSL's
  * incomplete beta at shapes near 1e6 holds ~1e-14, so 1e-14 is the bar (the issue's figure). */
 #define SUM_TOL 1e-14
-/* Against the 40-digit mpmath references of REFERENCES.md 3a/3b: the series sum a few hundred
+/* Against the 40-digit mpmath references of tests/REFERENCES.md 3a/3b: the series sum a few hundred
  * terms, each good to ~1e-16; 1e-13 absolute leaves room and is 4 orders inside the 1e-9 target. */
 #define REF_TOL 1e-13
-/* Powers tabled to 10 digits (REFERENCES.md 1a, 2a, 2b): half a unit in the 10th digit. */
+/* Powers tabled to 10 digits (tests/REFERENCES.md 1a, 2a, 2b): half a unit in the 10th digit. */
 #define POWER10_TOL 1e-9
 /* Central special cases: the same incomplete beta/gamma reached by two routes; GSL's own CDFs are
  * good to ~1e-15 relative, the series adds a few ulps. */
 #define CENTRAL_REL_TOL 1e-13
 /* Two routes to one number (nct vs ncf, Owen's Q vs nct, band vs Q difference): each ~1e-14. */
 #define ROUTE_TOL 1e-12
-/* TOST table values trusted to 9 digits (REFERENCES.md 5), the 7-digit sample-size steps to 7. */
+/* TOST table values trusted to 9 digits (tests/REFERENCES.md 5), the 7-digit sample-size steps to 7. */
 #define TOST9_TOL 1e-9
 #define TOST7_TOL 1e-7
 
 static double t_power2(double df, double ncp, double alpha)
 {
-    /* Two-sided t power, both rejection tails (as R pwr and statsmodels: REFERENCES.md 1). */
+    /* Two-sided t power, both rejection tails (as R pwr and statsmodels: tests/REFERENCES.md 1). */
     double tc = gsl_cdf_tdist_Qinv(alpha / 2.0, df), up = NAN, lo = NAN;
     int s = pw_nct_cdf(tc, df, ncp, NULL, &up);
     s |= pw_nct_cdf(-tc, df, ncp, &lo, NULL);
@@ -65,7 +65,7 @@ static void identities(void)
     gsl_test(!(worst[2] <= SUM_TOL), "ncx2 P + Q = 1 to %g over the grid (worst %.2g)", SUM_TOL,
              worst[2]);
 
-    /* F(0; nu, d) = Phi(-d) exactly (Guenther's series at t = 0; REFERENCES.md 3). The tiny
+    /* F(0; nu, d) = Phi(-d) exactly (Guenther's series at t = 0; tests/REFERENCES.md 3). The tiny
      * t = +-1e-150 runs the full series and the reflection with x ~ 1e-300. */
     static const double d0[] = {-5, -1, 0, 0.5, 3, 12, 40};
     for (size_t j = 0; j < sizeof d0 / sizeof d0[0]; j++) {
@@ -88,7 +88,8 @@ static void identities(void)
         for (size_t k = 0; k < sizeof cx / sizeof cx[0]; k++) {
             double df = cdf_[i], x = cx[k], lo, up, tol = CENTRAL_REL_TOL + 1e-16 * df;
             /* GSL 2.7.1's gsl_cdf_tdist_Q(40, 200) = 1.1243695256e-97 is off by 2.7e-7 relative;
-             * mpmath (40 digits, regularized incomplete beta) gives the value used here. */
+             * mpmath (40 digits, regularized incomplete beta) gives the value used here
+             * (tests/REFERENCES.md 11). */
             int gsl_off = x == 40.0 && df == 200;
             double tq = gsl_off ? 1.1243698267601253e-97 : gsl_cdf_tdist_Q(x, df);
             pw_nct_cdf(-x, df, 0.0, &lo, &up);
@@ -109,7 +110,7 @@ static void identities(void)
                          "x=%g df=%g", x * df, df);
         }
 
-    /* Two-sided t power = F(1, df) power with lambda = ncp^2 (REFERENCES.md 2b): the t series
+    /* Two-sided t power = F(1, df) power with lambda = ncp^2 (tests/REFERENCES.md 2b): the t series
      * and the beta mixture are independent code. */
     static const double tdf[] = {2, 9, 96, 1e4};
     static const double tnc[] = {0.3, 1.5, 3.0, 7.0, 25.0};
@@ -154,7 +155,7 @@ static void identities(void)
 
 static void reference_tables(void)
 {
-    /* REFERENCES.md 3a: mpmath 40-digit values (two methods agreeing), P(T <= x). */
+    /* tests/REFERENCES.md 3a: mpmath 40-digit values (two methods agreeing), P(T <= x). */
     static const double nt[][4] = {
         {1.0, 10, 1.0, 0.49024005139545066},      {2.0, 5, 1.0, 0.77807466261621487},
         {-1.0, 3, 2.0, 0.0030052475953985060},    {0.0, 1, 5.0, 2.8665157187919391e-7},
@@ -167,15 +168,15 @@ static void reference_tables(void)
         double lo = NAN;
         int s = pw_nct_cdf(nt[i][0], nt[i][1], nt[i][2], &lo, NULL);
         gsl_test_int(s, PW_OK, "nct status at x=%g df=%g ncp=%g", nt[i][0], nt[i][1], nt[i][2]);
-        gsl_test_abs(lo, nt[i][3], REF_TOL, "nct P(T <= %g; %g, %g) vs mpmath (REFERENCES.md 3a)",
+        gsl_test_abs(lo, nt[i][3], REF_TOL, "nct P(T <= %g; %g, %g) vs mpmath (tests/REFERENCES.md 3a)",
                      nt[i][0], nt[i][1], nt[i][2]);
     }
     double up = NAN;
     pw_nct_cdf(5.0, 30, 1.0, NULL, &up);
     gsl_test_rel(up, 3.8089357252780786e-4, 1e-12, "nct upper P(T > 5; 30, 1) vs mpmath "
-                 "(REFERENCES.md 3a), relative");
+                 "(tests/REFERENCES.md 3a), relative");
 
-    /* REFERENCES.md 3b: mpmath 40-digit values, P(F' <= x). */
+    /* tests/REFERENCES.md 3b: mpmath 40-digit values, P(F' <= x). */
     static const double ft[][5] = {
         {2.0, 3, 20, 5.0, 0.40313008503458855},     {1.0, 1, 10, 2.0, 0.32423930043787208},
         {2.3157, 5, 89, 10.5555555555556, 0.32608947775755128},
@@ -187,10 +188,10 @@ static void reference_tables(void)
         double lo = NAN;
         pw_ncf_cdf(ft[i][0], ft[i][1], ft[i][2], ft[i][3], &lo, NULL);
         gsl_test_abs(lo, ft[i][4], REF_TOL, "ncf P(F' <= %g; %g, %g, %g) vs mpmath "
-                     "(REFERENCES.md 3b)", ft[i][0], ft[i][1], ft[i][2], ft[i][3]);
+                     "(tests/REFERENCES.md 3b)", ft[i][0], ft[i][1], ft[i][2], ft[i][3]);
     }
 
-    /* REFERENCES.md 1a: two-sample t power at integer n per group (scipy nct = R pt, 10 digits);
+    /* tests/REFERENCES.md 1a: two-sample t power at integer n per group (scipy nct = R pt, 10 digits);
      * Cohen (1988) tables via pwr. df = 2n - 2, ncp = d sqrt(n / 2). */
     static const double pt[][4] = {{0.2, 393, 0.05, 0.7995942412}, {0.5, 64, 0.05, 0.8014595579},
                                    {0.8, 26, 0.05, 0.8074866158}, {0.5, 95, 0.01, 0.7994688513},
@@ -198,7 +199,7 @@ static void reference_tables(void)
     for (size_t i = 0; i < sizeof pt / sizeof pt[0]; i++) {
         double n = pt[i][1];
         gsl_test_abs(t_power2(2 * n - 2, pt[i][0] * sqrt(n / 2), pt[i][2]), pt[i][3],
-                     POWER10_TOL, "two-sample t power d=%g n=%g/group alpha=%g (REFERENCES.md 1a)",
+                     POWER10_TOL, "two-sample t power d=%g n=%g/group alpha=%g (tests/REFERENCES.md 1a)",
                      pt[i][0], n, pt[i][2]);
     }
     /* One-sided: d = 0.5, n = 50 per group -> 0.7989361642. */
@@ -206,32 +207,32 @@ static void reference_tables(void)
         double tc = gsl_cdf_tdist_Qinv(0.05, 98), up1 = NAN;
         pw_nct_cdf(tc, 98, 0.5 * 5.0, NULL, &up1);
         gsl_test_abs(up1, 0.7989361642, POWER10_TOL, "one-sided t power d=.5 n=50/group "
-                     "(REFERENCES.md 1a)");
+                     "(tests/REFERENCES.md 1a)");
     }
-    /* REFERENCES.md 2b: coefficient t test, ncp 3, df 96 -> 0.8437274953; ncp 1.4907, df 17. */
+    /* tests/REFERENCES.md 2b: coefficient t test, ncp 3, df 96 -> 0.8437274953; ncp 1.4907, df 17. */
     gsl_test_abs(t_power2(96, 3.0, 0.05), 0.8437274953, POWER10_TOL,
-                 "coefficient t power ncp=3 df=96 (REFERENCES.md 2b)");
+                 "coefficient t power ncp=3 df=96 (tests/REFERENCES.md 2b)");
     gsl_test_abs(t_power2(17, 1.4907119850, 0.05), 0.2905362545, POWER10_TOL,
-                 "coefficient t power ncp=1.4907 df=17 (REFERENCES.md 2b)");
+                 "coefficient t power ncp=1.4907 df=17 (tests/REFERENCES.md 2b)");
     gsl_test_abs(t_power2(194, 2.8284271247, 0.01), 0.5903347237, POWER10_TOL,
-                 "coefficient t power ncp=2.828 df=194 alpha .01 (REFERENCES.md 2b)");
-    /* REFERENCES.md 2a: Cohen (1988) Ex. 9.1 via pwr.f2.test: u=5, v=89, f2=1/9, lambda=f2*95. */
+                 "coefficient t power ncp=2.828 df=194 alpha .01 (tests/REFERENCES.md 2b)");
+    /* tests/REFERENCES.md 2a: Cohen (1988) Ex. 9.1 via pwr.f2.test: u=5, v=89, f2=1/9, lambda=f2*95. */
     {
         double fc = gsl_cdf_fdist_Qinv(0.05, 5, 89), up2 = NAN;
         pw_ncf_cdf(fc, 5, 89, 95.0 / 9.0, NULL, &up2);
         gsl_test_abs(up2, 0.6735857708, POWER10_TOL, "F power u=5 v=89 f2=1/9 (Cohen 1988 "
-                     "Ex. 9.1; REFERENCES.md 2a)");
+                     "Ex. 9.1; tests/REFERENCES.md 2a)");
         pw_ncf_cdf(gsl_cdf_fdist_Qinv(0.01, 2, 37), 2, 37, 0.3 / 0.7 * 40, NULL, &up2);
         gsl_test_abs(up2, 0.8406123894, POWER10_TOL, "F power u=2 v=37 f2=.3/.7 alpha .01 (pwr "
-                     "vignette; REFERENCES.md 2a)");
+                     "vignette; tests/REFERENCES.md 2a)");
     }
-    /* REFERENCES.md 3c: F_{.95}(5, 89) = 2.3168575165 from the quantile with lambda 0. */
+    /* tests/REFERENCES.md 3c: F_{.95}(5, 89) = 2.3168575165 from the quantile with lambda 0. */
     {
         double q = NAN;
         int s = pw_ncf_quantile(0.05, 1, 5, 89, 0.0, &q);
         gsl_test_int(s, PW_OK, "ncf quantile status");
         gsl_test_abs(q, 2.3168575165, 1e-9, "ncf upper 5%% quantile (5, 89, 0) = 2.3168575165 "
-                     "(REFERENCES.md 3c)");
+                     "(tests/REFERENCES.md 3c)");
         gsl_test_rel(q, gsl_cdf_fdist_Qinv(0.05, 5, 89), 1e-13, "ncf quantile (lambda 0) = GSL "
                      "fdist_Qinv");
     }
@@ -243,11 +244,11 @@ static void large_noncentrality(void)
     double lo = NAN, up = NAN;
     int s = pw_ncchisq_cdf(1e8, 3, 1e8, &lo, &up);
     gsl_test_int(s, PW_OK, "ncx2 at lambda 1e8: status");
-    /* scipy 1.10.1 ncx2.cdf(1e8, 3, 1e8) (Boost); 1e-9 is the accuracy target */
+    /* scipy 1.10.1 ncx2.cdf(1e8, 3, 1e8) (Boost; tests/REFERENCES.md 11); 1e-9 is the accuracy target */
     gsl_test_abs(lo, 0.49996010577192784, 1e-9, "ncx2 P(X <= 1e8; 3, 1e8) vs scipy");
     s = pw_ncf_cdf(7e5, 3, 1e6, 2e6, &lo, &up);
     gsl_test_int(s, PW_OK, "ncf at lambda 2e6: status");
-    /* scipy 1.10.1 ncf.sf(7e5, 3, 1e6, 2e6); relative, the value being 5.6e-132 */
+    /* scipy 1.10.1 ncf.sf(7e5, 3, 1e6, 2e6) (tests/REFERENCES.md 11); relative, the value being 5.6e-132 */
     gsl_test_rel(up, 5.6316016049133254e-132, 1e-8, "ncf far upper tail at lambda 2e6 vs scipy");
     s = pw_ncf_cdf(1.0, 3, 1e6, 2e6, &lo, &up);
     gsl_test(s != PW_OK || lo != 0.0 || fabs(up - 1.0) > 1e-12, "ncf lower tail at lambda 2e6, "
@@ -255,10 +256,10 @@ static void large_noncentrality(void)
     s = pw_nct_cdf(2e4, 10, 2e4, &lo, &up);
     gsl_test_int(s, PW_OK, "nct at ncp 2e4: status");
     /* mpmath 40-digit quadrature over the chi density (tests/ref_dist.py's mp_nct), computed for
-     * this check; scipy 1.10.1 gives 0.4404932651, 2.2e-8 off */
+     * this check (tests/REFERENCES.md 11); scipy 1.10.1 gives 0.4404932651, 2.2e-8 off */
     gsl_test_abs(lo, 0.4404932872585544, 1e-9, "nct P(T <= 2e4; 10, 2e4) vs mpmath");
     /* Owen's Q with nu < 1 (QAGS through the singular density): mpmath 30-digit quadrature,
-     * computed for this check. */
+     * computed for this check (tests/REFERENCES.md 11). */
     double q = NAN;
     pw_owen_q(0.5, 2.0, 1.0, 3.0, &q);
     gsl_test_abs(q, 0.5196281676755334, 1e-10, "Owen's Q_0.5(2, 1; 0, 3) vs mpmath");
@@ -292,40 +293,40 @@ static void quantiles(void)
 
 static void tost(void)
 {
-    /* REFERENCES.md 5 (Phillips 1990 through Owen's Q; mpmath and scipy quad agree, Monte Carlo
+    /* tests/REFERENCES.md 5 (Phillips 1990 through Owen's Q; mpmath and scipy quad agree, Monte Carlo
      * confirms). 2x2 crossover: s_e = sqrt(ln(1 + CV^2)) sqrt(2 / n), margins ln .8, ln 1.25. */
     double lo = log(0.8), hi = log(1.25), th = log(0.95), pw = NAN;
     double se20 = sqrt(log(1.04)) * sqrt(2.0 / 20), se30 = sqrt(log(1.09)) * sqrt(2.0 / 40);
     int s = pw_tost_power(th, lo, hi, se20, 18, 0.05, &pw);
     gsl_test_int(s, PW_OK, "TOST status");
-    gsl_test_abs(pw, 0.834680191, TOST9_TOL, "TOST 2x2 CV .20 n 20 (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.834680191, TOST9_TOL, "TOST 2x2 CV .20 n 20 (tests/REFERENCES.md 5)");
     pw_tost_power(th, lo, hi, se30, 38, 0.05, &pw);
     /* the table's last digit: a 30-digit mpmath quadrature gives 0.8158452802731 */
-    gsl_test_abs(pw, 0.815845281, TOST9_TOL, "TOST 2x2 CV .30 n 40 (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.815845281, TOST9_TOL, "TOST 2x2 CV .30 n 40 (tests/REFERENCES.md 5)");
     pw_tost_power(0.0, -0.5, 0.5, 1.0 / sqrt(30.0), 29, 0.05, &pw);
-    gsl_test_abs(pw, 0.696508614, TOST9_TOL, "TOST paired n 30 Delta .5 (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.696508614, TOST9_TOL, "TOST paired n 30 Delta .5 (tests/REFERENCES.md 5)");
     pw_tost_power(0.1, -0.5, 0.5, 0.2, 98, 0.05, &pw);
-    gsl_test_abs(pw, 0.542517944, TOST9_TOL, "TOST two-sample 50/grp theta .1 (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.542517944, TOST9_TOL, "TOST two-sample 50/grp theta .1 (tests/REFERENCES.md 5)");
     pw_tost_power(0.0, -0.5, 0.5, sqrt(0.2), 18, 0.05, &pw);
     gsl_test_abs(pw, 0.000972503558, 1e-12, "TOST two-sample 10/grp: 0.000972503558 where the "
-                 "approximations go negative (REFERENCES.md 5)");
+                 "approximations go negative (tests/REFERENCES.md 5)");
     gsl_test(!(pw > 0.0), "TOST small-n power is positive");
     pw_tost_power(0.0, -1.0, 1.0, sqrt(0.1), 38, 0.05, &pw);
-    gsl_test_abs(pw, 0.855804947, TOST9_TOL, "TOST two-sample 20/grp Delta 1 (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.855804947, TOST9_TOL, "TOST two-sample 20/grp Delta 1 (tests/REFERENCES.md 5)");
     pw_tost_power(0.5, -0.5, 0.5, 0.2, 98, 0.05, &pw);
-    gsl_test_abs(pw, 0.0495503446, 1e-10, "TOST size at the margin, 50/grp (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.0495503446, 1e-10, "TOST size at the margin, 50/grp (tests/REFERENCES.md 5)");
     /* Sample-size steps (7 digits): CV .20 n 16, 18; two-sample theta 0 Delta .5 n 69, 70. */
     pw_tost_power(th, lo, hi, sqrt(log(1.04)) * sqrt(2.0 / 16), 14, 0.05, &pw);
-    gsl_test_abs(pw, 0.7354133, TOST7_TOL, "TOST 2x2 CV .20 n 16 (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.7354133, TOST7_TOL, "TOST 2x2 CV .20 n 16 (tests/REFERENCES.md 5)");
     pw_tost_power(th, lo, hi, sqrt(log(1.04)) * sqrt(2.0 / 18), 16, 0.05, &pw);
-    gsl_test_abs(pw, 0.7912399, TOST7_TOL, "TOST 2x2 CV .20 n 18 (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.7912399, TOST7_TOL, "TOST 2x2 CV .20 n 18 (tests/REFERENCES.md 5)");
     pw_tost_power(0.0, -0.5, 0.5, sqrt(2.0 / 69), 136, 0.05, &pw);
-    gsl_test_abs(pw, 0.7985118, TOST7_TOL, "TOST two-sample 69/grp (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.7985118, TOST7_TOL, "TOST two-sample 69/grp (tests/REFERENCES.md 5)");
     pw_tost_power(0.0, -0.5, 0.5, sqrt(2.0 / 70), 138, 0.05, &pw);
-    gsl_test_abs(pw, 0.8059312, TOST7_TOL, "TOST two-sample 70/grp (REFERENCES.md 5)");
+    gsl_test_abs(pw, 0.8059312, TOST7_TOL, "TOST two-sample 70/grp (tests/REFERENCES.md 5)");
 
     /* The band integral equals the difference of two Owen's Q values (Phillips 1990, eq. as in
-     * REFERENCES.md 5), and the power is symmetric in theta for symmetric margins. */
+     * tests/REFERENCES.md 5), and the power is symmetric in theta for symmetric margins. */
     double tc = gsl_cdf_tdist_Qinv(0.05, 38), se = 0.25, d1 = (0.2 + 1.0) / se;
     double d2 = (0.2 - 1.0) / se, R = sqrt(38.0) * (d1 - d2) / (2 * tc), q1 = NAN, q2 = NAN;
     pw_owen_q(38, -tc, d2, R, &q1);
@@ -336,7 +337,7 @@ static void tost(void)
     pw_tost_power(-0.2, -1.0, 1.0, se, 38, 0.05, &pw2);
     gsl_test_abs(pw, pw2, ROUTE_TOL, "TOST power symmetric in theta");
     /* Large df: the chi density is a spike at sqrt(1e6); known-variance limit (normal formula,
-     * REFERENCES.md 5) Phi(D/se - z) + Phi(D/se - z) - 1 is approached to O(1/df). */
+     * tests/REFERENCES.md 5) Phi(D/se - z) + Phi(D/se - z) - 1 is approached to O(1/df). */
     pw_tost_power(0.0, -0.3, 0.3, 0.1, 1e6, 0.05, &pw);
     double z = gsl_cdf_ugaussian_Qinv(0.05), nrm = 2 * gsl_cdf_ugaussian_P(3.0 - z) - 1;
     gsl_test_abs(pw, nrm, 1e-5, "TOST at df 1e6 -> normal-theory power (O(1/df))");

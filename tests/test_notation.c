@@ -46,7 +46,7 @@ int main(void)
         cov_claim_label(g, &cl->items[i], buf, sizeof buf);
         gsl_test(strcmp(buf, label[i]) != 0, "notation: claim %zu reads '%s' (got '%s')", i + 1,
                  label[i], buf);
-        /* Nothing of the form other programs print: no '_||_', no '|', no braces. */
+        /* Nothing of another program's look: no bar, no braces. */
         gsl_test(strpbrk(buf, "|{}") != NULL, "notation: claim %zu has no '|' or braces", i + 1);
         cov_claim_sentence(g, &cl->items[i], buf, sizeof buf);
         gsl_test(strcmp(buf, words[i]) != 0, "notation: claim %zu in words '%s' (got '%s')", i + 1,

@@ -107,7 +107,7 @@ static void test_sherman_morrison(gsl_rng *r)
     gsl_matrix_free(a);
 }
 
-/* Power at a given q against REFERENCES.md 2b (scipy 1.10.1 stats.nct): beta 0.3, sd(x|Z) 1,
+/* Power at a given q against tests/REFERENCES.md 2b (scipy 1.10.1 stats.nct): beta 0.3, sd(x|Z) 1,
  * sigma 1, n 100, 3 other columns: power 0.8437274953, trusted to 9 digits; 1e-7 allows for the
  * noncentral t routine's own 1e-9 target. */
 static void test_design_q(void)
@@ -367,22 +367,25 @@ static void test_calibration(gsl_rng *r, int slow)
     for (size_t i = 0; i < n_new; i++)
         memcpy(vals + (n0 + i) * g->n_vars, p->rows + (i / 2) * g->n_vars,
                g->n_vars * sizeof *vals);
+    size_t n_checked = 0;
     for (size_t j = 0; j < p->n; j++) {
         const cov_plan_claim *it = &p->items[j];
         const cov_claim *cl = &c->items[it->claim];
         pw_design pd;
         if (it->mode != COV_PLAN_STEERED) continue;
         if (cov_assess_design(g, c, a, it->claim, &pd) != COV_OK) continue;
+        n_checked++;
         double sigma = a->items[it->claim].sigma;
         double *X = malloc(n_all * 8 * sizeof *X), *yy = malloc(n_all * sizeof *yy);
         size_t pcols = 0;
         for (size_t i = 0; i < n_all; i++) pcols = claim_columns(g, cl, vals + i * g->n_vars, X + i * pcols);
         double beta = cl->kind == COV_CLAIM_EFFECT ? pd.effect : 0.0;
-        size_t hits = 0;
+        size_t hits = 0, fitted = 0;
         for (size_t rep = 0; rep < reps; rep++) {
             for (size_t i = 0; i < n_all; i++) yy[i] = beta * X[i * pcols + 1] + gsl_ran_gaussian(r, sigma);
             pw_ols *fit = NULL;
             if (pw_ols_fit(X, yy, n_all, pcols, &fit) != PW_OK) continue;
+            fitted++;
             double est = fit->coef[1], se = fit->se[1];
             if (cl->kind == COV_CLAIM_EFFECT) {
                 double tc = gsl_cdf_tdist_Qinv(pd.alpha / pd.sides, fit->df);
@@ -394,6 +397,10 @@ static void test_calibration(gsl_rng *r, int slow)
             }
             pw_ols_free(fit);
         }
+        /* A campaign whose fit failed would count as a miss: every one must fit. */
+        gsl_test_int((int)fitted, (int)reps, "calibration %s %s %s: every simulated campaign fits",
+                     g->vars[cl->treatment].name, cov_claim_arrow(cl->kind),
+                     g->vars[cl->outcome].name);
         double rate = (double)hits / (double)reps, pw = it->power_after;
         double mcse = sqrt(pw * (1 - pw) / (double)reps);
         gsl_test(!(fabs(rate - pw) <= 3 * mcse + 1e-12),
@@ -405,6 +412,8 @@ static void test_calibration(gsl_rng *r, int slow)
         free(X);
         free(yy);
     }
+    /* Guard: the loop above checks nothing when no claim is steered or has a design. */
+    gsl_test(n_checked == 0, "calibration: %zu steered claims checked (at least one)", n_checked);
     free(vals);
 done:
     cov_plan_free(p);
@@ -436,7 +445,7 @@ static const char *levels_adjusted_graph =
 /* Level-set and numeric treatments: the power predicted from the Sherman-Morrison-updated design
  * equals the power the assessment itself computes on the archive with the planned runs added
  * (least favourable level pattern, power/levels.c), with sigma held at the archive's value so that
- * only the design differs. The skewed level shares leave level d out of some thin archives; the
+ * only the design differs. The skewed level shares leave level d out of some sparse archives; the
  * plan must then count it from scratch. Tolerance 1e-6: both sides are the same noncentral F or t
  * power of designs that agree to rounding (the plan's ridge is 1e-6 of one run). graph is the
  * model; drop_d draws the archive's s from levels a-c only. */
@@ -479,10 +488,12 @@ static void test_levels_prediction(gsl_rng *r, const char *graph, int drop_d)
         }
         gsl_test_int(rc, COV_OK, "levels trial %d: assess, plan 30 runs, assess again (%s)", trial,
                      err.msg);
+        size_t n_checked = 0;
         for (size_t j = 0; rc == COV_OK && j < p->n; j++) {
             pw_design d0, d1;
             double pw = NAN;
             if (cov_assess_design(g, c, a2, p->items[j].claim, &d1) != COV_OK) continue;
+            n_checked++;
             if (cov_assess_design(g, c, a, p->items[j].claim, &d0) == COV_OK) {
                 d1.sigma = d0.sigma;
                 d1.effect = d0.effect;
@@ -495,6 +506,9 @@ static void test_levels_prediction(gsl_rng *r, const char *graph, int drop_d)
                          missing_d ? " (level d absent from the archive)" : "",
                          g->vars[c->items[p->items[j].claim].treatment].name);
         }
+        /* Guard: a trial where no claim has a design would check nothing. */
+        gsl_test(rc == COV_OK && n_checked == 0, "levels trial %d: %zu claims checked (at least one)",
+                 trial, n_checked);
         cov_plan_free(p);
         cov_assessments_free(a);
         cov_assessments_free(a2);

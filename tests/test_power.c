@@ -9,14 +9,14 @@
 
 #include "power/power.h"
 
-/* Closed-form noncentral CDFs reproduce the tabled powers to ~1e-12 (REFERENCES.md section 1:
+/* Closed-form noncentral CDFs reproduce the tabled powers to ~1e-12 (tests/REFERENCES.md section 1:
  * "trust 10 digits"); 1e-9 leaves room for the series' truncation. */
 #define POWER_TOL 1e-9
-/* Real-valued n from a root search on power(n) to 1e-10 in n; REFERENCES.md gives 7 digits. */
+/* Real-valued n from a root search on power(n) to 1e-10 in n; tests/REFERENCES.md gives 7 digits. */
 #define N_TOL 1e-6
-/* MDE multipliers are tabled to 6 decimals (REFERENCES.md section 4). */
+/* MDE multipliers are tabled to 6 decimals (tests/REFERENCES.md section 4). */
 #define M_TOL 1e-6
-/* TOST exact powers are trusted to 9 digits (REFERENCES.md section 5). */
+/* TOST exact powers are trusted to 9 digits (tests/REFERENCES.md section 5). */
 #define TOST_TOL 1e-8
 
 /* The two-sample t test as a coefficient t test: bool treatment with share n2/(n1+n2). */
@@ -52,8 +52,8 @@ static double n_exact(double d, double alpha, int sides, double target)
 }
 
 /* Cohen (1988), Statistical Power Analysis for the Behavioral Sciences, 2nd ed., Table 2.4.1 (n
- * per group, two-sample t) as reproduced in REFERENCES.md section 1a [secondary]; exact real n
- * from R pwr 1.3-0 / statsmodels 0.13.5 / scipy (REFERENCES.md, recomputed). Cohen rounds to the
+ * per group, two-sample t) as reproduced in tests/REFERENCES.md section 1a [secondary]; exact real n
+ * from R pwr 1.3-0 / statsmodels 0.13.5 / scipy (tests/REFERENCES.md, recomputed). Cohen rounds to the
  * nearest integer, so the rule is ceil(n_exact) - cohen in {0, 1} and |n_exact - cohen| < 0.5. */
 static void test_cohen_tables(void)
 {
@@ -68,14 +68,14 @@ static void test_cohen_tables(void)
         double n = n_exact(t[i].d, t[i].alpha, t[i].sides, t[i].power);
         gsl_test_rel(n, t[i].exact, N_TOL,
                      "exact n per group, d %g alpha %g %d-sided power %g (pwr/statsmodels, "
-                     "REFERENCES.md 1a)", t[i].d, t[i].alpha, t[i].sides, t[i].power);
+                     "tests/REFERENCES.md 1a)", t[i].d, t[i].alpha, t[i].sides, t[i].power);
         int up = (int)ceil(n) - t[i].cohen;
         gsl_test(!((up == 0 || up == 1) && fabs(n - t[i].cohen) < 0.5),
                  "Cohen (1988) Table 2.4.1: d %g alpha %g %d-sided power %g needs %d per group "
                  "(ours %.4f; ceil differs by 0 or 1)", t[i].d, t[i].alpha, t[i].sides,
                  t[i].power, t[i].cohen, n);
     }
-    /* Power at integer n per group (REFERENCES.md section 1a, scipy nct = R pt, 10 digits). */
+    /* Power at integer n per group (tests/REFERENCES.md section 1a, scipy nct = R pt, 10 digits). */
     static const struct { double d, alpha; int sides, n; double power; } s[] = {
         {0.2, 0.05, 2, 393, 0.7995942412}, {0.2, 0.05, 2, 394, 0.8005931284},
         {0.5, 0.05, 2, 64, 0.8014595579},  {0.5, 0.01, 2, 95, 0.7994688513},
@@ -87,7 +87,7 @@ static void test_cohen_tables(void)
         pw_design g = two_sample(s[i].d, s[i].n, s[i].n, s[i].alpha, s[i].sides, 0.8);
         int rc = pw_power(&g, &p);
         gsl_test_abs(rc == PW_OK ? p : NAN, s[i].power, POWER_TOL,
-                     "two-sample power d %g n %d/group alpha %g %d-sided (REFERENCES.md 1a)",
+                     "two-sample power d %g n %d/group alpha %g %d-sided (tests/REFERENCES.md 1a)",
                      s[i].d, s[i].n, s[i].alpha, s[i].sides);
     }
     /* Cohen (1988) Ex. 2.1 p. 40 as cited in pwr's help: d = 2/2.8, 30 per group. */
@@ -97,7 +97,7 @@ static void test_cohen_tables(void)
     gsl_test_abs(p, 0.776488877, 1e-8, "Cohen (1988) Ex. 2.1: d 2/2.8, 30/group, power");
 }
 
-/* Two proportions: Cohen's h tables (REFERENCES.md section 6, closed form; Cohen 1992 Table 2
+/* Two proportions: Cohen's h tables (tests/REFERENCES.md section 6, closed form; Cohen 1992 Table 2
  * [recalled]). n per group for power .80, two-sided alpha .05. */
 static void test_proportions(void)
 {
@@ -114,11 +114,11 @@ static void test_proportions(void)
             else lo = mid;
         }
         gsl_test_rel(0.5 * (lo + hi), t[i].exact, N_TOL,
-                     "Cohen's h %g alpha %g %d-sided: n per group for power .80 (REFERENCES.md 6)",
+                     "Cohen's h %g alpha %g %d-sided: n per group for power .80 (tests/REFERENCES.md 6)",
                      t[i].h, t[i].alpha, t[i].sides);
     }
     /* pw_power's two-proportion test reaches the same figure from p1, p2 and unequal groups:
-     * p .65 vs .45, n1 60, n2 120 (REFERENCES.md 6: 0.7259485189, pwr = statsmodels). */
+     * p .65 vs .45, n1 60, n2 120 (tests/REFERENCES.md 6: 0.7259485189, pwr = statsmodels). */
     pw_design g;
     memset(&g, 0, sizeof g);
     g.test = PW_TEST_TWO_PROP;
@@ -132,7 +132,7 @@ static void test_proportions(void)
     double p = NAN;
     int rc = pw_power(&g, &p);
     gsl_test_abs(rc == PW_OK ? p : NAN, 0.7259485189, POWER_TOL,
-                 "two proportions .45 vs .65, n 60/120 (pwr.2p2n.test, REFERENCES.md 6)");
+                 "two proportions .45 vs .65, n 60/120 (pwr.2p2n.test, tests/REFERENCES.md 6)");
     double mde = NAN;
     rc = pw_mde(&g, &mde);
     pw_design e = g;
@@ -142,7 +142,7 @@ static void test_proportions(void)
                  "target (identity)");
 }
 
-/* Bloom (1995) MDE multipliers: exact noncentral-t M = MDE / SE (REFERENCES.md section 4). */
+/* Bloom (1995) MDE multipliers: exact noncentral-t M = MDE / SE (tests/REFERENCES.md section 4). */
 static void test_mde(void)
 {
     static const struct { double df, exact, additive; } t[] = {
@@ -165,10 +165,10 @@ static void test_mde(void)
         int rc = pw_mde(&g, &mde);
         gsl_test_abs(rc == PW_OK ? mde / se : NAN, t[i].exact, M_TOL,
                      "Bloom (1995) exact multiplier at df %g, alpha .05 two-sided, power .80 "
-                     "(REFERENCES.md 4)", t[i].df);
+                     "(tests/REFERENCES.md 4)", t[i].df);
         /* Bloom's additive (t_{1-a/2} + t_{power}) SE is within 0.03 of the exact MDE. */
         double add = (gsl_cdf_tdist_Qinv(0.025, t[i].df) + gsl_cdf_tdist_Pinv(0.8, t[i].df));
-        gsl_test_abs(add, t[i].additive, M_TOL, "additive multiplier at df %g (REFERENCES.md 4)",
+        gsl_test_abs(add, t[i].additive, M_TOL, "additive multiplier at df %g (tests/REFERENCES.md 4)",
                      t[i].df);
         gsl_test(!(fabs(mde / se - add) < 0.03), "MDE within 0.03 SE of Bloom's additive "
                  "approximation at df %g", t[i].df);
@@ -177,14 +177,14 @@ static void test_mde(void)
         pw_power(&g, &p);
         gsl_test_abs(p, 0.8, 1e-8, "power at the MDE equals the target at df %g", t[i].df);
     }
-    /* Worked MDE: 64 vs 64, sigma 1 -> 0.499069 (REFERENCES.md 4). */
+    /* Worked MDE: 64 vs 64, sigma 1 -> 0.499069 (tests/REFERENCES.md 4). */
     pw_design g = two_sample(1, 64, 64, 0.05, 2, 0.8);
     double mde = NAN;
     pw_mde(&g, &mde);
-    gsl_test_abs(mde, 0.499069, 1e-6, "MDE of 64 vs 64 at sigma 1 (REFERENCES.md 4)");
+    gsl_test_abs(mde, 0.499069, 1e-6, "MDE of 64 vs 64 at sigma 1 (tests/REFERENCES.md 4)");
 }
 
-/* TOST exact power (REFERENCES.md section 5: Owen's Q by scipy quad and 30-digit mpmath, each
+/* TOST exact power (tests/REFERENCES.md section 5: Owen's Q by scipy quad and 30-digit mpmath, each
  * checked by a 200,000-replicate Monte Carlo). A two-sample design of n per group: se =
  * sigma sqrt(2/n), df 2n - 2. */
 static void test_tost(void)
@@ -200,17 +200,17 @@ static void test_tost(void)
         int rc = pw_power(&g, &p);
         double tol = t[i].power < 0.01 ? 1e-11 : (t[i].n_group >= 69 ? 1e-7 : TOST_TOL);
         gsl_test_abs(rc == PW_OK ? p : NAN, t[i].power, tol,
-                     "TOST power, %g per group, margin %g sigma, theta 0 (REFERENCES.md 5)",
+                     "TOST power, %g per group, margin %g sigma, theta 0 (tests/REFERENCES.md 5)",
                      t[i].n_group, t[i].margin);
     }
-    /* Runs needed: 70 per group is the smallest balanced design (REFERENCES.md 5), so the total
+    /* Runs needed: 70 per group is the smallest balanced design (tests/REFERENCES.md 5), so the total
      * lies in (138, 140] when the spread stays that of balanced groups. */
     pw_design g = two_sample(0.5, 50, 50, 0.05, 2, 0.8);
     g.test = PW_TEST_TOST;
     double runs = NAN;
     int rc = pw_runs_needed(&g, &runs);
     gsl_test(!(rc == PW_OK && runs > 138 && runs <= 140), "TOST runs needed for margin .5 sigma: "
-             "%g in (138, 140] (REFERENCES.md 5: 70 per group)", runs);
+             "%g in (138, 140] (tests/REFERENCES.md 5: 70 per group)", runs);
     double mde = NAN;
     rc = pw_mde(&g, &mde);
     pw_design e = g;
@@ -266,7 +266,7 @@ static void test_identities(void)
     pw_power(&t, &pt);
     pw_power(&f, &pf);
     gsl_test_abs(pf, pt, 1e-10, "level-set F with two levels equals the two-sided t (F = t^2)");
-    /* Cohen (1988) Ex. 9.1: u 5, v 89, f2 = .1/.9, alpha .05 -> 0.6735857708 (REFERENCES.md 2a). */
+    /* Cohen (1988) Ex. 9.1: u 5, v 89, f2 = .1/.9, alpha .05 -> 0.6735857708 (tests/REFERENCES.md 2a). */
     double p = NAN;
     pw_f2_power(0.1 / 0.9, 5, 89, 0.05, &p);
     gsl_test_abs(p, 0.6735857708, POWER_TOL, "Cohen (1988) Ex. 9.1 through pwr.f2.test's lambda");
@@ -283,7 +283,7 @@ static void test_identities(void)
 
 /* Central quantiles at large df, where GSL 2.7's inverses fail silently. Reference values from
  * scipy 1.10.1 (Debian python3-scipy: stats.chi2.isf / ppf, stats.f.isf), computed on this
- * machine; tolerance 1e-8 relative, the accuracy the root search is asked for. */
+ * machine (tests/REFERENCES.md 11); tolerance 1e-8 relative, the accuracy the root search is asked for. */
 static void test_quantiles(void)
 {
     static const struct { double p; int upper; double df, ref; } c[] = {

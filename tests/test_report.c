@@ -38,6 +38,9 @@ static char *read_text(const char *dir, const char *name)
     return buf;
 }
 
+/* The test seam of cov_options: fail at the report's halfway point. */
+static int fail_at_report(const char *stage) { return strcmp(stage, "report") == 0; }
+
 static size_t count_of(const char *hay, const char *needle)
 {
     size_t n = 0;
@@ -125,10 +128,17 @@ int main(void)
     rc = cov_history_load(side, 0, &snaps, &n_snapshots, &err);
     gsl_test_int(rc, COV_EIO, "a missing file is an error when it must exist");
     memset(&err, 0, sizeof err);
-    rc = cov_history_record(side, &f, &r1, &err);
+    /* Without create_file (shoal's own archive) a missing file is not created. */
+    char missing[4400];
+    snprintf(missing, sizeof missing, "%s.absent", side);
+    rc = cov_report_history_record(missing, 0, &f, &r1, &err);
+    gsl_test(rc != COV_EIO || access(missing, F_OK) == 0,
+             "history into a missing archive fails with COV_EIO and creates nothing");
+    memset(&err, 0, sizeof err);
+    rc = cov_report_history_record(side, 1, &f, &r1, &err);
     gsl_test_int(rc, COV_OK, "snapshot 1 recorded (%s)", err.msg);
     memset(&err, 0, sizeof err);
-    rc = cov_history_record(side, &f, &r2, &err);
+    rc = cov_report_history_record(side, 1, &f, &r2, &err);
     gsl_test_int(rc, COV_OK, "snapshot 2 recorded (%s)", err.msg);
     rc = cov_history_load(side, 1, &snaps, &n_snapshots, &err);
     gsl_test(rc != COV_OK || n_snapshots != 2, "two snapshots come back (got %zu)", n_snapshots);
@@ -188,11 +198,11 @@ int main(void)
     free(md);
     free(csv);
 
-    /* The test hook fails the writer halfway (the command then discards the directory). */
-    setenv("SHOAL_TEST_FAULT", "report", 1);
+    /* The test seam fails the writer halfway (the command then discards the directory). */
+    o.fault_at = fail_at_report;
     rc = cov_report_write(&f, &info, dir, &err);
-    gsl_test_int(rc, COV_EIO, "SHOAL_TEST_FAULT=report makes the writer fail");
-    unsetenv("SHOAL_TEST_FAULT");
+    gsl_test_int(rc, COV_EIO, "cov_options.fault_at(\"report\") makes the writer fail");
+    o.fault_at = NULL;
 
     free(snaps);
     remove_dir(dir);

@@ -117,4 +117,43 @@ int cov_claim_design_build(const cov_graph *g, const cov_claim *c, const cov_dat
                            cov_claim_design **out, cov_error *err);
 void cov_claim_design_free(cov_claim_design *cd);
 
+/* ---- the history of surveys (coverage/archive/history.c) -------------------------------------- */
+
+/* The figures of one survey: one snapshot in the history. */
+typedef struct {
+    char at[32];              /* UTC, ISO 8601: "2026-12-02T01:30:00Z" */
+    long long n_runs;
+    long long n_batches;
+    long long n_ample, n_underpowered, n_blind;
+    double marginal_share, pairwise_share, threeway_share;   /* NAN when not computed */
+} cov_snapshot;
+
+/* One claim's line in a snapshot (all strings borrowed). */
+typedef struct {
+    const char *kind, *treatment, *outcome, *verdict;   /* words as the outputs print them */
+    int assessed;             /* 0: runs, power, mde and runs_needed are stored as NULL */
+    long long runs;
+    double power, mde, runs_needed;   /* NAN and infinities are stored as NULL */
+} cov_snapshot_claim;
+
+/* Where a snapshot came from (borrowed; either may be NULL, stored as NULL). */
+typedef struct {
+    const char *graph_path;
+    const char *archive_path;
+} cov_history_source;
+
+/* Read the snapshots kept in the SQLite file db_path, oldest first. A file without history
+ * tables, or (missing_ok 1) no file at all, gives *n = 0. The file is opened read-only. Free *out
+ * with free(). Returns COV_OK, COV_EIO, COV_EINPUT (not SQLite), COV_ENOMEM. */
+int cov_history_load(const char *db_path, int missing_ok, cov_snapshot **out, size_t *n,
+                     cov_error *err);
+/* Append snapshot r and its n_claims claim lines to the history tables (shoal_snapshots,
+ * shoal_snapshot_claims) of db_path, created when missing, in one transaction; with create_file 1
+ * the file itself is created when missing (a side file), else it must exist (shoal's archive).
+ * The caller guarantees db_path is shoal's own archive or a side file: never the user's archive.
+ * Returns COV_OK or COV_EIO (err filled; nothing written). */
+int cov_history_record(const char *db_path, int create_file, const cov_history_source *src,
+                       const cov_snapshot *r, const cov_snapshot_claim *claims, size_t n_claims,
+                       cov_error *err);
+
 #endif

@@ -1,5 +1,6 @@
 /* Per-claim assessment: the adjusted regression, noise checks, power, MDE and runs needed.
  * See LICENSE. */
+#include <assert.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdint.h>
@@ -293,9 +294,13 @@ static double planned_spread(const cov_var *v)
 }
 
 /* The figures shared by every branch once a pw_design is known: power, MDE, runs and their
- * intervals from sigma's interval. */
-static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, double sigma_hi)
+ * intervals from sigma's interval. Returns the status of the point figures; a failure of the
+ * power interval alone leaves power_lo and power_hi NAN and is returned in *interval_rc (PW_OK
+ * otherwise), so that the caller can say so. */
+static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, double sigma_hi,
+                      int *interval_rc)
 {
+    *interval_rc = PW_OK;
     pw_design e = *d;
     int rc = pw_power(&e, &a->power);
     if (rc == PW_EFEW) {
@@ -316,11 +321,21 @@ static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, do
      * and TOST powers depend on effect and sigma only through effect / sigma, so the MDE scales
      * with sigma exactly. */
     double p;
+    int prc;
     /* Power falls as sigma grows: a power of exactly 1 (or 0) at sigma bounds the other side. */
     e.sigma = sigma_hi;
-    if (a->power > 0 && pw_power(&e, &p) == PW_OK) a->power_lo = p;
+    if (a->power > 0) {
+        if ((prc = pw_power(&e, &p)) == PW_ENOMEM) return prc;
+        if (prc == PW_OK) a->power_lo = p;
+        else *interval_rc = prc;
+    }
     e.sigma = sigma_lo;
-    if (a->power < 1 && pw_power(&e, &p) == PW_OK) a->power_hi = p;
+    if (a->power < 1) {
+        if ((prc = pw_power(&e, &p)) == PW_ENOMEM) return prc;
+        if (prc == PW_OK) a->power_hi = p;
+        else *interval_rc = prc;
+    }
+    if (*interval_rc != PW_OK) a->power_lo = a->power_hi = NAN;
     a->mde_lo = a->mde * sigma_lo / d->sigma;
     a->mde_hi = a->mde * sigma_hi / d->sigma;
     return PW_OK;
@@ -373,12 +388,13 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     memset(d, 0, sizeof *d);
     d->alpha = alpha;
     d->target = opt->target;
-    d->sides = opt->one_sided && c->sign != 0 && c->kind == COV_CLAIM_EFFECT ? 1 : 2;
+    d->sides = cov_claim_sides(opt, c);
     d->effect = a->effect_raw;
     d->sigma = a->sigma;
     d->n = (double)a->n;
     d->n_params = 1.0 + (double)(lay->k - lay->t);
     d->ncp_per_run = NAN;
+    d->test = cov_claim_test(g, c, 0, 0);
     if (x->type == COV_LEVELS && x->ordered && c->shape != COV_SHAPE_TURNING) {
         /* Balanced groups: the trend contrast's equivalent spread is the SD of the positions
          * (shape.c: S_xx / sqrt(n c' M^-1 c) with M = (n / L) I). */
@@ -388,20 +404,18 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
             var += pow(x->positions[l] - mean, 2) / (double)x->n_levels;
         d->n_levels = (double)x->n_levels;
         d->sd_x_resid = sqrt(var);
-        d->test = c->kind == COV_CLAIM_ABSENCE ? PW_TEST_TOST : PW_TEST_TREND_T;
         a->trend = 1;
     } else if (x->type == COV_LEVELS) {
         d->n_levels = (double)x->n_levels;
         /* Balanced groups: a pairwise contrast has variance 2 L sigma^2 / n. */
         d->sd_x_resid = 1.0 / sqrt(2.0 * d->n_levels);
-        d->test = c->kind == COV_CLAIM_ABSENCE ? PW_TEST_TOST : PW_TEST_LEVELS_F;
     } else {
         d->sd_x_resid = spread;
-        d->test = c->kind == COV_CLAIM_ABSENCE ? PW_TEST_TOST : PW_TEST_COEF_T;
     }
     a->sd_treatment_resid = d->sd_x_resid;
     a->has_design = 1;
-    int rc = size_claim(a, d, NAN, NAN);
+    int irc;
+    int rc = size_claim(a, d, NAN, NAN, &irc);
     if (rc == PW_ENOMEM) return COV_ENOMEM;
     if (rc != PW_OK) {
         a->verdict = COV_UNDERPOWERED;
@@ -497,7 +511,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     memset(dz, 0, sizeof *dz);
     dz->alpha = alpha;
     dz->target = opt->target;
-    dz->sides = opt->one_sided && c->sign != 0 && c->kind == COV_CLAIM_EFFECT ? 1 : 2;
+    dz->sides = cov_claim_sides(opt, c);
     dz->sigma = a->sigma;
     dz->n = n;
     dz->n_params = 1.0 + (double)(fit->rank - fit->t_rank);
@@ -508,7 +522,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         for (size_t a0 = k - t; a0 < k; a0++)
             if (fit->kept[a0]) col = a0;
         double info = fit->treat_info[0];
-        a->sd_treatment_resid = sqrt(info / n);
+        a->sd_treatment_resid = pw_xfit_sd_treatment(fit);
         a->vif = pw_moments_at(m, idx[col], idx[col]) / info;
         a->estimate = fit->coef[col];
         a->se = fit->se[col];
@@ -530,14 +544,10 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         a->se = a->sigma * sqrt(v_max);
     }
     int bool_outcome = yv->type == COV_BOOL || (yv->type == COV_LEVELS && yv->n_levels == 2);
-    if (c->kind == COV_CLAIM_ABSENCE) {
-        dz->test = PW_TEST_TOST;
-    } else if (bool_outcome && xv->type == COV_BOOL) {
-        dz->test = PW_TEST_TWO_PROP;
+    dz->test = cov_claim_test(g, c, 1, tr);
+    if (dz->test == PW_TEST_TWO_PROP) {
         dz->p_base = m->mean[idx[k]];
         dz->share_treated = m->mean[idx[k - 1]];
-    } else {
-        dz->test = tr >= 2 ? PW_TEST_LEVELS_F : PW_TEST_COEF_T;
     }
     if (tr >= 2 && dz->test != PW_TEST_LEVELS_F) dz->n_levels = (double)(tr + 1);
     if (tr < 2) dz->n_levels = 0;
@@ -740,7 +750,8 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     pw_chisq_quantile(tail, 0, nu, &q_lo);
     double sigma_lo = sqrt(nu * s2 / q_up), sigma_hi = sqrt(nu * s2 / q_lo);
     a->has_design = 1;
-    int src = size_claim(a, dz, sigma_lo, sigma_hi);
+    int irc;
+    int src = size_claim(a, dz, sigma_lo, sigma_hi, &irc);
     if (src == PW_ENOMEM) {
         rc = COV_ENOMEM;
         goto fail;
@@ -764,6 +775,15 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     } else {
         a->omnibus_power = NAN;
     }
+    if (irc != PW_OK) {
+        a->noise_flag = 1;
+        note_add(&a->noise_note, "the power interval could not be computed (%s)",
+                 pw_strerror(irc));
+    }
+    /* Invariants of size_claim: a probability, inside its interval (power falls as sigma grows;
+     * 1e-9 allows for the root searches' rounding). */
+    assert(!(a->power < 0) && !(a->power > 1));
+    assert(isnan(a->power_lo) || (a->power_lo <= a->power + 1e-9 && a->power <= a->power_hi + 1e-9));
     decide(a, c, opt->target);
     rc = COV_OK;
 fail:
@@ -877,10 +897,7 @@ int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
     }
     for (size_t i = 0; i < c->n; i++)
         if (c->items[i].status == COV_TESTABLE) as->n_testable++;
-    /* Bonferroni (Dunn 1961): each of the m testable claims at alpha / m keeps the chance of any
-     * false verdict in the family at or below alpha. */
-    double alpha = opt->bonferroni && as->n_testable > 1 ? opt->alpha / (double)as->n_testable
-                                                         : opt->alpha;
+    double alpha = cov_family_alpha(opt, as->n_testable);
     for (size_t i = 0; i < c->n; i++) {
         cov_assessment *a = &as->items[i];
         const cov_claim *cl = &c->items[i];
@@ -898,8 +915,9 @@ int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
         a->alpha = alpha;
         rc = assess_claim(&x, cl, opt, alpha, a);
         if (rc == COV_ENUMERIC) {
-            cov_fail(err, rc, "", "a power computation did not converge for the claim %s -> %s",
-                     g->vars[cl->treatment].name, g->vars[cl->outcome].name);
+            cov_fail(err, rc, "", "a power computation did not converge for the claim %s %s %s",
+                     g->vars[cl->treatment].name, cov_claim_arrow(cl->kind),
+                     g->vars[cl->outcome].name);
             goto fail;
         }
         if (rc != COV_OK) goto fail;
@@ -935,126 +953,4 @@ int cov_assess_design(const cov_graph *g, const cov_claims *c, const cov_assessm
     if (c->items[claim].status != COV_TESTABLE || !a->items[claim].has_design) return COV_EINPUT;
     *out = a->items[claim].design;
     return COV_OK;
-}
-
-void cov_claim_json_fields(FILE *out, const cov_graph *g, const cov_claim *c)
-{
-    fprintf(out, "\"kind\": \"%s\", \"treatment\": ",
-            cov_claim_kind_word(c->kind));
-    cov_emit_json_string(out, g->vars[c->treatment].name);
-    fputs(", \"outcome\": ", out);
-    cov_emit_json_string(out, g->vars[c->outcome].name);
-    fputs(", \"adjustment_set\": [", out);
-    for (size_t k = 0; k < c->n_cond; k++) {
-        if (k) fputs(", ", out);
-        cov_emit_json_string(out, g->vars[c->cond[k]].name);
-    }
-    fputs("], \"effect_of_interest\": ", out);
-    cov_emit_json_number(out, c->effect.value);
-    fprintf(out, ", \"effect_unit\": \"%s\", \"sign\": %d, \"status\": \"%s\", \"reason\": ",
-            c->effect.unit == COV_UNIT_SD ? "sd" : "raw", c->sign,
-            c->status == COV_TESTABLE ? "testable" : "untestable");
-    if (c->reason) cov_emit_json_string(out, c->reason);
-    else fputs("null", out);
-    fprintf(out, ", \"steerable\": %s, \"minimal_adjustment_set\": [",
-            c->steerable ? "true" : "false");
-    for (size_t k = 0; k < c->n_min_cond; k++) {
-        if (k) fputs(", ", out);
-        cov_emit_json_string(out, g->vars[c->min_cond[k]].name);
-    }
-    fputc(']', out);
-    cov_claim_json_forms(out, g, c);
-}
-
-/* What the graph says about the claim beyond its sets (README.md, "What the graph claims"): the
- * amount as written and what it is counted over, the variables' units, the expected shape, and
- * whether the claim rests on the declaration that two outputs' run noise is independent. */
-void cov_claim_json_forms(FILE *out, const cov_graph *g, const cov_claim *c)
-{
-    char text[96];
-    static const char *const per_word[] = {"unit", "step", "range"};
-    fputs(", \"effect_written\": ", out);
-    cov_emit_json_string(out, cov_amount_text(&c->effect, text, sizeof text));
-    fprintf(out, ", \"effect_per\": \"%s\", \"effect_step\": ", per_word[c->effect.per]);
-    cov_emit_json_number(out, c->effect.per == COV_PER_STEP ? c->effect.step : NAN);
-    fputs(", \"effect_per_unit_factor\": ", out);
-    cov_emit_json_number(out, cov_amount_per_unit_factor(&c->effect, &g->vars[c->treatment]));
-    fputs(", \"treatment_unit\": ", out);
-    cov_emit_json_string(out, cov_var_unit(&g->vars[c->treatment]));
-    fputs(", \"outcome_unit\": ", out);
-    cov_emit_json_string(out, cov_var_unit(&g->vars[c->outcome]));
-    fprintf(out, ", \"shape\": \"%s\", \"rests_on_noise_independence\": %s",
-            c->shape == COV_SHAPE_TURNING ? "turning" : "monotone",
-            c->rests_on_noise ? "true" : "false");
-}
-
-void cov_claim_csv_forms(FILE *out, const cov_graph *g, const cov_claim *c)
-{
-    char text[96];
-    static const char *const per_word[] = {"unit", "step", "range"};
-    fputc(',', out);
-    cov_emit_csv_field(out, cov_amount_text(&c->effect, text, sizeof text));
-    fprintf(out, ",%s,", per_word[c->effect.per]);
-    cov_emit_csv_number(out, cov_amount_per_unit_factor(&c->effect, &g->vars[c->treatment]));
-    fputc(',', out);
-    cov_emit_csv_field(out, cov_var_unit(&g->vars[c->treatment]));
-    fputc(',', out);
-    cov_emit_csv_field(out, cov_var_unit(&g->vars[c->outcome]));
-    fprintf(out, ",%s,%d", c->shape == COV_SHAPE_TURNING ? "turning" : "monotone",
-            c->rests_on_noise);
-}
-
-char *cov_claim_csv_set(const cov_graph *g, const cov_claim *c)
-{
-    /* Names joined by ';', a name holding ';' or '"' quoted with its quotes doubled (RFC 4180's
-     * rule with ';' as the separator). */
-    size_t len = 1;
-    for (size_t i = 0; i < c->n_cond; i++) len += 2 * strlen(g->vars[c->cond[i]].name) + 3;
-    char *s = malloc(len), *q = s;
-    if (s == NULL) return NULL;
-    for (size_t i = 0; i < c->n_cond; i++) {
-        const char *name = g->vars[c->cond[i]].name;
-        if (i) *q++ = ';';
-        int quote = strpbrk(name, ";\"") != NULL;
-        if (quote) *q++ = '"';
-        for (const char *r = name; *r; r++) {
-            if (*r == '"') *q++ = '"';
-            *q++ = *r;
-        }
-        if (quote) *q++ = '"';
-    }
-    *q = '\0';
-    return s;
-}
-
-void cov_claim_csv_min_field(FILE *out, const cov_graph *g, const cov_claim *c)
-{
-    /* The same cell as the adjustment set's, written from a view of the claim whose set is the
-     * minimal one. */
-    cov_claim view = *c;
-    view.cond = c->min_cond;
-    view.n_cond = c->n_min_cond;
-    char *set = cov_claim_csv_set(g, &view);
-    if (set != NULL) {
-        cov_emit_csv_field(out, set);
-        free(set);
-    }
-}
-
-void cov_claim_csv_fields(FILE *out, const cov_graph *g, const cov_claim *c)
-{
-    fprintf(out, "%s,", cov_claim_kind_word(c->kind));
-    cov_emit_csv_field(out, g->vars[c->treatment].name);
-    fputc(',', out);
-    cov_emit_csv_field(out, g->vars[c->outcome].name);
-    fputc(',', out);
-    char *set = cov_claim_csv_set(g, c);
-    if (set != NULL) {
-        cov_emit_csv_field(out, set);
-        free(set);
-    }
-    fputc(',', out);
-    cov_emit_csv_number(out, c->effect.value);
-    fprintf(out, ",%s,%d,%s,%d", c->effect.unit == COV_UNIT_SD ? "sd" : "raw", c->sign,
-            c->status == COV_TESTABLE ? "testable" : "untestable", c->steerable);
 }

@@ -160,7 +160,7 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
         /* A level basis: one mean per value. The residuals of the straight line are orthogonal
          * to the intercept and the slope, so the sum of squares of their value means is what
          * the means gain over the line (the lack-of-fit sum of squares; Draper & Smith 1998,
-         * sec. 2.1), exactly so when the separating set is empty. */
+         * sec. 2.1), exactly so when the adjustment set is empty. */
         double *sum = calloc(distinct, sizeof *sum), *cnt = calloc(distinct, sizeof *cnt);
         if (sum == NULL || cnt == NULL) {
             free(sum);
@@ -238,66 +238,6 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
 done:
     free(sx);
     return rc;
-}
-
-static void json_num(FILE *out, const char *name, double x)
-{
-    fprintf(out, ", \"%s\": ", name);
-    cov_emit_json_number(out, x);
-}
-
-void cov_assessment_json_shape(FILE *out, const cov_graph *g, const cov_claim *c,
-                               const cov_assessment *a)
-{
-    (void)g;
-    (void)c;
-    json_num(out, "effect_written_raw", a->effect_written_raw);
-    fprintf(out, ", \"test\": \"%s\"", !a->has_design                         ? "none"
-                                       : a->design.test == PW_TEST_TREND_T    ? "trend t"
-                                       : a->design.test == PW_TEST_LEVELS_F   ? "levels F"
-                                       : a->design.test == PW_TEST_TWO_PROP   ? "two proportions"
-                                       : a->design.test == PW_TEST_TOST       ? "equivalence"
-                                                                              : "coefficient t");
-    fputs(", \"omnibus\": ", out);
-    if (a->trend && isfinite(a->omnibus_df1)) {
-        fputs("{\"df1\": ", out);
-        cov_emit_json_number(out, a->omnibus_df1);
-        json_num(out, "f", a->omnibus_f);
-        json_num(out, "p", a->omnibus_p);
-        json_num(out, "power", a->omnibus_power);
-        fputc('}', out);
-    } else {
-        fputs("null", out);
-    }
-    fprintf(out, ", \"distinct_values\": %zu, \"shape_checkable\": %s", a->distinct,
-            a->distinct >= 3 ? "true" : "false");
-    fputs(", \"shape_lack_of_fit\": ", out);
-    if (isfinite(a->shape_f)) {
-        fputs("{\"f\": ", out);
-        cov_emit_json_number(out, a->shape_f);
-        json_num(out, "df1", a->shape_df1);
-        json_num(out, "df2", a->shape_df2);
-        json_num(out, "p", a->shape_p);
-        fprintf(out, ", \"pure_error\": %s}", a->shape_pure ? "true" : "false");
-    } else {
-        fputs("null", out);
-    }
-    fputs(", \"caution\": ", out);
-    if (a->caution) cov_emit_json_string(out, a->caution);
-    else fputs("null", out);
-}
-
-void cov_assessment_csv_shape(FILE *out, const cov_assessment *a)
-{
-    const double v[] = {a->effect_written_raw, a->omnibus_f, a->omnibus_p, a->omnibus_power,
-                        (double)a->distinct, a->shape_f, a->shape_p};
-    fprintf(out, ",%d", a->trend);
-    for (size_t k = 0; k < sizeof v / sizeof v[0]; k++) {
-        fputc(',', out);
-        cov_emit_csv_number(out, v[k]);
-    }
-    fputc(',', out);
-    cov_emit_csv_field(out, a->caution ? a->caution : "");
 }
 
 void cov_assessment_table_shape(FILE *out, const char *label, const cov_assessment *a)

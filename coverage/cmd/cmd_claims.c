@@ -80,44 +80,22 @@ fail:
     return rc;
 }
 
-static int print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
+static void print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
 {
-    fputs("kind,treatment,outcome,adjustment_set,effect_of_interest,effect_unit,sign,status,reason,"
-          "steerable,minimal_adjustment_set" COV_CLAIM_CSV_FORMS_HEADER "\n", out);
-    for (size_t i = 0; i < cl->n; i++) {
-        const cov_claim *c = &cl->items[i];
-        char *set = cov_claim_csv_set(g, c);
-        if (set == NULL) return COV_ENOMEM;
-        fprintf(out, "%s,", cov_claim_kind_word(c->kind));
-        cov_emit_csv_field(out, g->vars[c->treatment].name);
-        fputc(',', out);
-        cov_emit_csv_field(out, g->vars[c->outcome].name);
-        fputc(',', out);
-        cov_emit_csv_field(out, set);
-        fputc(',', out);
-        cov_emit_csv_number(out, c->effect.value);
-        fprintf(out, ",%s,%d,%s,", c->effect.unit == COV_UNIT_SD ? "sd" : "raw", c->sign,
-                c->status == COV_TESTABLE ? "testable" : "untestable");
-        cov_emit_csv_field(out, c->reason ? c->reason : "");
-        fprintf(out, ",%d,", c->steerable);
-        cov_claim_csv_min_field(out, g, c);
-        cov_claim_csv_forms(out, g, c);
-        fputc('\n', out);
-        free(set);
-    }
-    return COV_OK;
+    cov_record_src src = {g, cl, NULL, NULL};
+    cov_record_csv_header(out, COV_RECORD_CLAIM);
+    for (size_t i = 0; i < cl->n; i++) cov_record_csv_row(out, &src, i, COV_RECORD_CLAIM);
 }
 
 static void print_json(const cov_graph *g, const cov_claims *cl, const char *path, FILE *out)
 {
-    fputs("{\"schema_version\": 2, \"graph\": ", out);
+    fputs("{\"schema_version\": 3, \"graph\": ", out);
     cov_emit_json_string(out, path);
     fputs(", \"claims\": [", out);
+    cov_record_src src = {g, cl, NULL, NULL};
     for (size_t i = 0; i < cl->n; i++) {
-        const cov_claim *c = &cl->items[i];
-        fputs(i ? ",\n  {" : "\n  {", out);
-        cov_claim_json_fields(out, g, c);
-        fputc('}', out);
+        fputs(i ? ",\n  " : "\n  ", out);
+        cov_record_json(out, &src, i, COV_RECORD_CLAIM);
     }
     fputs(cl->n ? "\n]}\n" : "]}\n", out);
 }
@@ -134,7 +112,7 @@ int cov_cmd_claims(const cov_options *o, FILE *out, FILE *note, int *adequate, c
     if (o->quiet) goto fail;
     switch (o->format) {
     case COV_FMT_JSON: print_json(g, cl, o->graph_path, out); break;
-    case COV_FMT_CSV: rc = print_csv(g, cl, out); break;
+    case COV_FMT_CSV: print_csv(g, cl, out); break;
     case COV_FMT_TABLE: rc = print_table(g, cl, out); break;
     }
     if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory printing the claims");

@@ -296,9 +296,9 @@ static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_data *
         csv_row(out, "claim", lab, "overlap", s->overlap);
         csv_row(out, "claim", lab, "kish_ess", s->kish_ess);
         csv_row(out, "claim", lab, "runs_per_config", s->runs_per_config);
-        csv_row(out, "claim", lab, "pure_error", s->pure_error);
-        csv_row(out, "claim", lab, "ok", s->ok);
-        if (s->reason) csv_text_row(out, "claim", lab, "reason", s->reason);
+        csv_row(out, "claim", lab, "replicated", s->pure_error);
+        csv_row(out, "claim", lab, "support_ok", s->ok);
+        if (s->reason) csv_text_row(out, "claim", lab, "support_reason", s->reason);
     }
 }
 
@@ -314,7 +314,7 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_data 
                        const cov_coverage *c, const cov_supports *sp, FILE *out)
 {
     const size_t bins = c->opt.bins;
-    fprintf(out, "{\"schema_version\": 1, \"runs\": %zu, \"min_runs\": %zu, \"bins\": %zu,\n",
+    fprintf(out, "{\"schema_version\": 2, \"runs\": %zu, \"min_runs\": %zu, \"bins\": %zu,\n",
             d->n_runs, c->opt.min_runs, bins);
     fputs(" \"marginal\": {", out);
     jnum(out, "share", c->marginal_share);
@@ -433,25 +433,10 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_data 
         fputs("}", out);
     }
     fputs("]},\n \"support\": [", out);
+    cov_record_src src = {g, cl, NULL, sp};
     for (size_t k = 0; k < cl->n; k++) {
-        const cov_support *s = &sp->items[k];
-        fputs(k ? ",\n   {" : "\n   {", out);
-        cov_claim_json_fields(out, g, &cl->items[k]);
-        fprintf(out, ", \"runs\": %zu, \"distinct\": %zu, ", s->n, s->distinct);
-        jnum(out, "spread", s->spread);
-        fputs(", ", out);
-        jnum(out, "spread_resid", s->spread_resid);
-        fputs(", ", out);
-        jnum(out, "overlap", s->overlap);
-        fputs(", ", out);
-        jnum(out, "kish_ess", s->kish_ess);
-        fputs(", ", out);
-        jnum(out, "runs_per_config", s->runs_per_config);
-        fprintf(out, ", \"pure_error\": %s, \"ok\": %s, \"support_reason\": ",
-                s->pure_error ? "true" : "false", s->ok ? "true" : "false");
-        if (s->reason) cov_emit_json_string(out, s->reason);
-        else fputs("null", out);
-        fputs("}", out);
+        fputs(k ? ",\n   " : "\n   ", out);
+        cov_record_json(out, &src, k, COV_RECORD_SUPPORT);
     }
     fputs(cl->n ? "\n ]}\n" : "]}\n", out);
 }
@@ -482,10 +467,8 @@ int cov_cmd_coverage(const cov_options *o, FILE *out, FILE *note, int *adequate,
 
     /* Only the user's thresholds gate this command; support problems are reported (the survey
      * combines them with power). */
-    *adequate = 1;
-    if (!isnan(o->need_marginal) && !(c->marginal_share >= o->need_marginal)) *adequate = 0;
-    if (!isnan(o->need_pairwise) && !(c->pairwise_share >= o->need_pairwise)) *adequate = 0;
-    if (!isnan(o->need_threeway) && !(c->threeway_share >= o->need_threeway)) *adequate = 0;
+    char gate[256];
+    *adequate = !cov_coverage_gate_missed(o, c, gate, sizeof gate);
     if (o->quiet) goto done;
     switch (o->format) {
     case COV_FMT_JSON: print_json(g, cl, d, c, sp, out); break;

@@ -21,7 +21,7 @@ static void family_line(const cov_assessments *as, FILE *out)
     if (p->bonferroni && as->n_testable > 1)
         fprintf(out, "family: Bonferroni over %zu testable claims: alpha %g / %zu = %.4g per "
                 "claim; target power %g; %s tests\n", as->n_testable, p->alpha, as->n_testable,
-                p->alpha / (double)as->n_testable, p->target,
+                cov_family_alpha(p, as->n_testable), p->target,
                 p->one_sided ? "one-sided (where a sign is given)" : "two-sided");
     else
         fprintf(out, "family: %s: alpha %g per claim; target power %g; %s tests\n",
@@ -95,60 +95,19 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
             n_blind);
 }
 
-static void csv_text(FILE *out, const char *s)
-{
-    cov_emit_csv_field(out, s ? s : "");
-}
-
 static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
                       FILE *out)
 {
-    fputs("kind,treatment,outcome,adjustment_set,effect_of_interest,effect_unit,sign,status,"
-          "steerable,n,df,sigma,sd_treatment_resid,alpha,power,power_lo,power_hi,mde,mde_lo,"
-          "mde_hi,runs_needed,effect_raw,estimate,se,verdict,noise_flag,noise_note,reason,"
-          "minimal_adjustment_set" COV_CLAIM_CSV_FORMS_HEADER COV_SHAPE_CSV_HEADER "\n", out);
-    for (size_t i = 0; i < cl->n; i++) {
-        const cov_claim *c = &cl->items[i];
-        const cov_assessment *a = &as->items[i];
-        cov_claim_csv_fields(out, g, c);
-        fprintf(out, ",%zu", a->n);
-        const double v[] = {a->df, a->sigma, a->sd_treatment_resid, a->alpha, a->power,
-                            a->power_lo, a->power_hi, a->mde, a->mde_lo, a->mde_hi,
-                            a->runs_needed, a->effect_raw, a->estimate, a->se};
-        for (size_t k = 0; k < sizeof v / sizeof v[0]; k++) {
-            fputc(',', out);
-            cov_emit_csv_number(out, v[k]);
-        }
-        fprintf(out, ",%s,%d,", cov_verdict_word(a->verdict), a->noise_flag);
-        csv_text(out, a->noise_note);
-        fputc(',', out);
-        csv_text(out, a->reason);
-        fputc(',', out);
-        cov_claim_csv_min_field(out, g, c);
-        cov_claim_csv_forms(out, g, c);
-        cov_assessment_csv_shape(out, a);
-        fputc('\n', out);
-    }
-}
-
-static void json_member(FILE *out, const char *name, double x)
-{
-    fprintf(out, ", \"%s\": ", name);
-    cov_emit_json_number(out, x);
-}
-
-static void json_text(FILE *out, const char *name, const char *s)
-{
-    fprintf(out, ", \"%s\": ", name);
-    if (s) cov_emit_json_string(out, s);
-    else fputs("null", out);
+    cov_record_src src = {g, cl, as, NULL};
+    cov_record_csv_header(out, COV_RECORD_ASSESS);
+    for (size_t i = 0; i < cl->n; i++) cov_record_csv_row(out, &src, i, COV_RECORD_ASSESS);
 }
 
 static void print_json(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
                        const cov_data *d, FILE *out)
 {
     const cov_power_options *p = &as->opt;
-    fputs("{\"schema_version\": 2, \"run_identity\": ", out);
+    fputs("{\"schema_version\": 3, \"run_identity\": ", out);
     cov_runs_json(out, d);
     fputs(", \"alpha\": ", out);
     cov_emit_json_number(out, p->alpha);
@@ -157,49 +116,10 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_asses
             p->one_sided ? "one-sided where signed" : "two-sided");
     cov_emit_json_number(out, p->target);
     fputs(", \"claims\": [", out);
+    cov_record_src src = {g, cl, as, NULL};
     for (size_t i = 0; i < cl->n; i++) {
-        const cov_assessment *a = &as->items[i];
-        fputs(i ? ",\n  {" : "\n  {", out);
-        cov_claim_json_fields(out, g, &cl->items[i]);
-        fprintf(out, ", \"n\": %zu", a->n);
-        json_member(out, "df", a->df);
-        json_member(out, "sigma", a->sigma);
-        json_member(out, "sd_treatment_resid", a->sd_treatment_resid);
-        json_member(out, "alpha", a->alpha);
-        json_member(out, "power", a->power);
-        fputs(", \"power_interval\": [", out);
-        cov_emit_json_number(out, a->power_lo);
-        fputs(", ", out);
-        cov_emit_json_number(out, a->power_hi);
-        fputs("]", out);
-        json_member(out, "mde", a->mde);
-        fputs(", \"mde_interval\": [", out);
-        cov_emit_json_number(out, a->mde_lo);
-        fputs(", ", out);
-        cov_emit_json_number(out, a->mde_hi);
-        fputs("]", out);
-        json_member(out, "runs_needed", a->runs_needed);
-        json_member(out, "effect_raw", a->effect_raw);
-        json_member(out, "estimate", a->estimate);
-        json_member(out, "se", a->se);
-        fprintf(out, ", \"verdict\": \"%s\", \"noise_flag\": %s", cov_verdict_word(a->verdict),
-                a->noise_flag ? "true" : "false");
-        json_text(out, "noise_note", a->noise_note);
-        json_text(out, "verdict_reason", a->reason);
-        fputs(", \"lack_of_fit\": ", out);
-        if (a->has_pure_error && isfinite(a->lof_f)) {
-            fputs("{\"f\": ", out);
-            cov_emit_json_number(out, a->lof_f);
-            fputs(", \"p\": ", out);
-            cov_emit_json_number(out, a->lof_p);
-            fputs(", \"sigma_pure\": ", out);
-            cov_emit_json_number(out, a->sigma_pure);
-            fputs("}", out);
-        } else {
-            fputs("null", out);
-        }
-        cov_assessment_json_shape(out, g, &cl->items[i], a);
-        fputs("}", out);
+        fputs(i ? ",\n  " : "\n  ", out);
+        cov_record_json(out, &src, i, COV_RECORD_ASSESS);
     }
     fputs(cl->n ? "\n]}\n" : "]}\n", out);
 }
@@ -223,13 +143,10 @@ int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     if (!rc) rc = cov_assess(g, cl, d, &o->power, &as, err);
     if (rc) goto done;
     /* A graph that implies no claim gives the runs nothing to be adequate for. */
-    *adequate = cl->n > 0;
+    *adequate = cov_claims_ample(cl, as);
     if (cl->n == 0 && !o->quiet && note != NULL)
         fprintf(note, "shoal: %s implies no claims, so no runs can be adequate for it\n",
                 o->graph_path);
-    for (size_t i = 0; i < as->n; i++)
-        if (cl->items[i].status == COV_TESTABLE && as->items[i].verdict != COV_AMPLE)
-            *adequate = 0;
     if (o->quiet) goto done;
     switch (o->format) {
     case COV_FMT_JSON: print_json(g, cl, as, d, out); break;

@@ -272,32 +272,6 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
 
 /* ---- the command ----------------------------------------------------------------------------- */
 
-/* The first --need-* gate the campaign misses, written into buf; 0 when every gate is met. */
-static int gate_missed(const cov_options *o, const cov_coverage *cv, char *buf, size_t size)
-{
-    const struct { const char *name; double need, got; } gate[] = {
-        {"marginal", o->need_marginal, cv->marginal_share},
-        {"2-way", o->need_pairwise, cv->pairwise_share},
-        {"3-way", o->need_threeway, cv->threeway_share},
-    };
-    for (size_t k = 0; k < sizeof gate / sizeof gate[0]; k++) {
-        if (isnan(gate[k].need)) continue;
-        if (!isfinite(gate[k].got)) {
-            /* No cells to count (too few inputs or runs): the gate is missed, but nothing was
-             * measured, so the message must not claim 0% was reached. */
-            snprintf(buf, size, "The %s coverage gate is missed: %s coverage was not measured, "
-                                "%.1f%% needed.", gate[k].name, gate[k].name, 100 * gate[k].need);
-            return 1;
-        }
-        if (gate[k].got < gate[k].need) {
-            snprintf(buf, size, "The %s coverage gate is missed: %.1f%% of cells reached, %.1f%% "
-                                "needed.", gate[k].name, 100 * gate[k].got, 100 * gate[k].need);
-            return 1;
-        }
-    }
-    return 0;
-}
-
 int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate, cov_error *err)
 {
     cov_options o = *o_in;
@@ -378,13 +352,8 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     if ((rc = cov_support_measure(g, claims, d, &o.coverage, &sp, err)) != COV_OK) goto fail;
 
     cov_findings f = {&o, g, claims, d, as, cv, sp, planned, n_planned};
-    int all_ample = 1;
-    /* The same gate as shoal power: a claim the graph makes testable but the runs cannot test
-     * (too few runs, a treatment that never varies) is not adequately covered either. */
-    for (size_t i = 0; i < as->n; i++)
-        if (claims->items[i].status == COV_TESTABLE && as->items[i].verdict != COV_AMPLE)
-            all_ample = 0;
-    int missed = gate_missed(&o, cv, gate, sizeof gate);
+    int all_ample = cov_claims_ample(claims, as);
+    int missed = cov_coverage_gate_missed(&o, cv, gate, sizeof gate);
     if (claims->n == 0) {
         missed = 1;
         snprintf(gate, sizeof gate, "The graph implies no claims, so there is nothing the runs "
@@ -439,7 +408,8 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     step_note(&o, note, "writing the report");
     if ((rc = cov_report_write(&f, &info, tmp, err)) != COV_OK) goto fail;
     if (store != COV_HISTORY_NONE &&
-        (rc = cov_history_record(history_path, &f, now_snap, err)) != COV_OK)
+        (rc = cov_report_history_record(history_path, store == COV_HISTORY_SIDE, &f, now_snap,
+                                        err)) != COV_OK)
         goto fail;
     if ((rc = move_into_place(tmp, dir, err)) != COV_OK) goto fail;
     tmp[0] = '\0';

@@ -44,4 +44,9 @@ int cov_dependence_fill(const cov_graph *g, const cov_data *d, cov_coverage *c);
 /* Kish's effective sample size (Kish 1965) of weights w: (sum w)^2 / sum w^2; NAN when all are 0. */
 double cov_kish_ess(const double *w, size_t n);
 
+/* The coverage gates (coverage/measure/gates.c): 0 when every --need-* share o asks for is met by
+ * cv; else 1, with the first missed gate described in buf (size bytes). A share that was not
+ * measured (too few inputs or runs) misses its gate, and the message says it was not measured. */
+int cov_coverage_gate_missed(const cov_options *o, const cov_coverage *cv, char *buf, size_t size);
+
 #endif

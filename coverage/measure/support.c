@@ -141,28 +141,30 @@ static char *dup_printf(const char *fmt, const char *a, const char *b)
     return s;
 }
 
-/* Residual SD (divisor n) of x after least squares on the n x q matrix Z (SVD, so aliased dummies
- * of S are harmless: gsl_multifit_linear drops singular values at rounding level). */
+/* sd(X | S), divisor n: the residual SD of x after an intercept and the columns 1 .. q-1 of the
+ * n x q matrix Z (column 0 is the intercept), computed the one way shoal computes it, from the
+ * centred cross-products by pw_resid_sd (the fit the assessment makes). COV_OK, COV_ENOMEM or
+ * COV_ENUMERIC. */
 static int resid_sd(const double *Z, const double *x, size_t n, size_t q, double *out)
 {
+    size_t k = q;              /* the q - 1 columns of S, then x */
+    pw_moments *m = NULL;
+    double *row = malloc(k * sizeof *row);
+    size_t *idx = malloc(k * sizeof *idx);
     int rc = COV_ENOMEM;
-    gsl_matrix *A = gsl_matrix_alloc(n, q), *cov = gsl_matrix_alloc(q, q);
-    gsl_vector *b = gsl_vector_alloc(n), *c = gsl_vector_alloc(q);
-    gsl_multifit_linear_workspace *w = gsl_multifit_linear_alloc(n, q);
-    if (A == NULL || cov == NULL || b == NULL || c == NULL || w == NULL) goto done;
+    if (row == NULL || idx == NULL || pw_moments_alloc(k, &m) != PW_OK) goto done;
     for (size_t i = 0; i < n; i++) {
-        for (size_t j = 0; j < q; j++) gsl_matrix_set(A, i, j, Z[i * q + j]);
-        gsl_vector_set(b, i, x[i]);
+        for (size_t j = 1; j < q; j++) row[j - 1] = Z[i * q + j];
+        row[k - 1] = x[i];
+        pw_moments_add(m, row);
     }
-    double chisq;
-    rc = gsl_multifit_linear(A, b, c, cov, &chisq, w) == GSL_SUCCESS ? COV_OK : COV_ENUMERIC;
-    *out = rc == COV_OK ? sqrt(chisq / (double)n) : NAN;
+    for (size_t j = 0; j < k; j++) idx[j] = j;
+    int prc = pw_resid_sd(m, idx, k - 1, out);
+    rc = prc == PW_OK ? COV_OK : prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
 done:
-    gsl_matrix_free(A);
-    gsl_matrix_free(cov);
-    gsl_vector_free(b);
-    gsl_vector_free(c);
-    gsl_multifit_linear_free(w);
+    free(row);
+    free(idx);
+    pw_moments_free(m);
     return rc;
 }
 

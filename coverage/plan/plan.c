@@ -1,5 +1,6 @@
 /* The next runs: claim design groups, greedy augmentation over the claims' designs, predicted power.
  * See LICENSE. */
+#include <assert.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -202,17 +203,14 @@ static int design_from_noise(const cov_graph *g, const cov_claim *cl, const cov_
     pd->sigma = y->noise_sd;
     pd->effect = cl->effect.value * (cl->effect.unit == COV_UNIT_SD ? y->noise_sd : 1.0);
     pd->target = opt->target;
-    pd->alpha = opt->bonferroni && n_testable > 1 ? opt->alpha / (double)n_testable : opt->alpha;
-    pd->sides = opt->one_sided && cl->sign != 0 ? 1 : 2;
+    pd->alpha = cov_family_alpha(opt, n_testable);
+    pd->sides = cov_claim_sides(opt, cl);
     double params = 1;
     for (size_t m = 0; m < cl->n_cond; m++) params += L->count[cl->cond[m]] ? L->count[cl->cond[m]] : 1;
     pd->n_params = params;
     pd->ncp_per_run = NAN;
-    if (cl->kind == COV_CLAIM_ABSENCE) pd->test = PW_TEST_TOST;
-    else if (x->type == COV_LEVELS) {
-        pd->test = PW_TEST_LEVELS_F;
-        pd->n_levels = (double)x->n_levels;
-    } else pd->test = PW_TEST_COEF_T;
+    pd->test = cov_claim_test(g, cl, 0, 0);
+    if (pd->test == PW_TEST_LEVELS_F) pd->n_levels = (double)x->n_levels;
     return 0;
 }
 
@@ -329,7 +327,9 @@ static int level_present(const struct plan_state *st, const plan_group *gr, size
  * from three on the F test, as coverage/assess/assess.c chooses) for the treatment. *t is w->pd0 so
  * adjusted; *info its coded information in that design (PW_TEST_LEVELS_F: the least favourable
  * pattern, power/levels.c), from the Sherman-Morrison inverse when every column is in and else
- * from the kept cross-products of the columns that are. */
+ * from the kept cross-products of the columns that are. A level-set treatment with fewer than two
+ * levels among the rows has no contrast to test yet: *info is then NAN and the status COV_OK (a
+ * state of the claim, not a failure). Returns COV_OK, COV_ENOMEM or COV_ENUMERIC. */
 static int exact_test(const struct plan_state *st, const cov_claim *cl, const claim_work *w,
                       pw_design *t, double *info)
 {
@@ -366,11 +366,11 @@ static int exact_test(const struct plan_state *st, const cov_claim *cl, const cl
         if (n_treat < 2) {
             /* One level or none: no contrast to test yet. */
             free(on);
-            return COV_ENUMERIC;
+            *info = NAN;
+            return COV_OK;
         }
         size_t tr = n_treat - 1;
-        if (t->test == PW_TEST_LEVELS_F || t->test == PW_TEST_COEF_T)
-            t->test = tr >= 2 ? PW_TEST_LEVELS_F : PW_TEST_COEF_T;
+        t->test = cov_claim_test(g, cl, 1, tr);
         t->n_levels = tr >= 2 ? (double)(tr + 1) : 0.0;
         pattern = t->test == PW_TEST_LEVELS_F;
     }
@@ -380,34 +380,44 @@ static int exact_test(const struct plan_state *st, const cov_claim *cl, const cl
     return COV_OK;
 }
 
-/* The test of a steered claim at n runs after the planned runs so far. */
+/* The test of a steered claim at n > 0 runs after the planned runs so far: *predictable is 0
+ * when the claim has no contrast to test yet (exact_test), else 1 with *out set. Returns COV_OK,
+ * COV_ENOMEM or COV_ENUMERIC. */
 static int exact_design(const struct plan_state *st, const cov_claim *cl, const claim_work *w,
-                        double n, pw_design *out)
+                        double n, pw_design *out, int *predictable)
 {
     pw_design t;
     double info = 0.0;
+    *predictable = 0;
     int rc = exact_test(st, cl, w, &t, &info);
     if (rc != COV_OK) return rc;
-    if (!(n > 0) || !(info >= 0.0) || pw_design_with_q(&t, n, sqrt(info * w->q_mul0), out) != PW_OK)
+    if (isnan(info) || !(n > 0)) return COV_OK;   /* no contrast yet, or no runs at all */
+    if (!(info >= 0.0) || pw_design_with_q(&t, n, sqrt(info * w->q_mul0), out) != PW_OK)
         return COV_ENUMERIC;
+    *predictable = 1;
     return COV_OK;
 }
 
-/* Predicted power of plan item it after `planned` configurations of the plan's replicates. */
-static double predict(const struct plan_state *st, const cov_plan_claim *it, double added)
+/* Predicted power of plan item it after `added` runs: *power is NAN when the claim cannot be sized
+ * or has no contrast to test yet (states the plan reports, not failures). Returns COV_OK,
+ * COV_ENOMEM or COV_ENUMERIC (a power computation failed). */
+static int predict(const struct plan_state *st, const cov_plan_claim *it, double added,
+                   double *power)
 {
+    assert(it->claim < st->c->n);
     const claim_work *w = &st->w[it->claim];
     pw_design t;
-    double pw = NAN;
-    if (it->mode == COV_PLAN_UNSIZED) return NAN;
+    *power = NAN;
+    if (it->mode == COV_PLAN_UNSIZED) return COV_OK;
     if (it->mode == COV_PLAN_ASSUMED) {
         t = w->pd;
         t.n = w->n_base + added;
-    } else if (exact_design(st, &st->c->items[it->claim], w, w->n_base + added, &t) != COV_OK) {
-        return NAN;
+    } else {
+        int ok = 0;
+        int rc = exact_design(st, &st->c->items[it->claim], w, w->n_base + added, &t, &ok);
+        if (rc != COV_OK || !ok) return rc;
     }
-    if (pw_power(&t, &pw) != PW_OK) return NAN;
-    return pw;
+    return pw_power(&t, power) == PW_OK ? COV_OK : COV_ENUMERIC;
 }
 
 /* Set up each testable claim: its mode, its test now and, when steered, its design group. */
@@ -500,16 +510,19 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         pw_design t0;
         double info0e = 0.0;
         w->q_mul0 = half * half;
-        if (exact_test(st, cl, w, &t0, &info0e) == COV_OK && !it->from_noise) {
+        int erc = exact_test(st, cl, w, &t0, &info0e);
+        if (erc != COV_OK) return erc;
+        if (!it->from_noise) {
             double q0 = pw_design_q(&w->pd0);
             if (q0 > 0 && isfinite(q0) && info0e > 0 && isfinite(info0e))
                 w->q_mul0 = q0 * q0 / info0e;
         }
         if (it->from_noise && n_rows > 0) {
             pw_design t;
-            if (exact_design(st, cl, w, (double)n_rows, &t) != COV_OK ||
-                pw_power(&t, &it->power_now) != PW_OK)
-                it->power_now = NAN;
+            int ok = 0;
+            it->power_now = NAN;
+            if ((erc = exact_design(st, cl, w, (double)n_rows, &t, &ok)) != COV_OK) return erc;
+            if (ok && pw_power(&t, &it->power_now) != PW_OK) return COV_ENUMERIC;
         }
         it->mode = COV_PLAN_STEERED;
         w->steered = 1;
@@ -670,7 +683,8 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
                 cov_plan_claim *it = &p->items[j];
                 if (it->mode != COV_PLAN_STEERED || it->unreachable) continue;
                 const claim_work *w = &st.w[it->claim];
-                double pw = predict(&st, it, (double)planned * k_rep);
+                double pw = NAN;
+                if ((rc = predict(&st, it, (double)planned * k_rep, &pw)) != COV_OK) goto fail;
                 if (pw >= opt->target) continue;
                 short_any = 1;
                 if (++bumps > PLAN_MAX_BUMPS) it->unreachable = 1;
@@ -756,11 +770,14 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         const claim_work *w = &st.w[it->claim];
         it->n_now = w->n_base;
         it->n_after = w->n_base + added;
-        it->power_after = predict(&st, it, added);
+        if ((rc = predict(&st, it, added, &it->power_after)) != COV_OK) goto fail;
         it->reaches = it->power_after >= opt->target;
     }
     p->seeds = malloc((p->n_configs * (size_t)replicates + 1) * sizeof *p->seeds);
-    if (p->seeds == NULL) goto fail;
+    if (p->seeds == NULL) {
+        rc = COV_ENOMEM;   /* rc holds COV_OK here: say what failed */
+        goto fail;
+    }
     make_seeds(p, seed);
     *out = p;
     p = NULL;

@@ -37,21 +37,15 @@ static const cov_support *support(const cov_findings *f, size_t i)
 
 cov_verdict cov_report_verdict(const cov_findings *f, size_t i)
 {
-    const cov_assessment *a = cov_report_assessment(f, i);
-    if (a != NULL) return a->verdict;
-    return f->claims->items[i].status == COV_TESTABLE ? COV_UNDERPOWERED : COV_BLIND;
+    return cov_claim_verdict(&f->claims->items[i], cov_report_assessment(f, i));
 }
 
-/* The one-line reason for a claim's verdict, or NULL when there is nothing to say. */
 const char *cov_report_reason(const cov_findings *f, size_t i)
 {
-    const cov_claim *c = &f->claims->items[i];
-    const cov_assessment *a = cov_report_assessment(f, i);
+    const char *why = cov_claim_verdict_reason(&f->claims->items[i], cov_report_assessment(f, i));
     const cov_support *s = support(f, i);
-    if (c->status == COV_UNTESTABLE) return c->reason;
-    if (a != NULL && a->reason != NULL) return a->reason;
-    if (s != NULL && !s->ok && s->reason != NULL) return s->reason;
-    return NULL;
+    if (why == NULL && s != NULL && !s->ok) why = s->reason;
+    return why;
 }
 
 static double power_of(const cov_findings *f, size_t i)
@@ -150,62 +144,9 @@ static void json_round(FILE *out, const cov_snapshot *r)
     fputc('}', out);
 }
 
-static void json_claim(FILE *out, const cov_findings *f, size_t i)
+static cov_record_src record_src(const cov_findings *f)
 {
-    const cov_claim *c = &f->claims->items[i];
-    const cov_assessment *a = cov_report_assessment(f, i);
-    const cov_support *s = support(f, i);
-    fprintf(out, "    {\"index\": %zu, ", i + 1);
-    cov_claim_json_fields(out, f->graph, c);
-    fprintf(out, ",\n     \"verdict\": \"%s\", \"why\": ",
-            cov_verdict_word(cov_report_verdict(f, i)));
-    const char *why = cov_report_reason(f, i);
-    if (why) cov_emit_json_string(out, why);
-    else fputs("null", out);
-    if (a != NULL && c->status == COV_TESTABLE) {
-        const struct { const char *key; double x; } fig[] = {
-            {"n", (double)a->n}, {"df", a->df}, {"estimate", a->estimate}, {"se", a->se},
-            {"sigma", a->sigma}, {"sd_treatment_resid", a->sd_treatment_resid}, {"vif", a->vif},
-            {"effect_raw", a->effect_raw}, {"alpha", a->alpha}, {"power", a->power},
-            {"power_lo", a->power_lo}, {"power_hi", a->power_hi}, {"mde", a->mde},
-            {"mde_lo", a->mde_lo}, {"mde_hi", a->mde_hi}, {"runs_needed", a->runs_needed},
-        };
-        for (size_t k = 0; k < sizeof fig / sizeof fig[0]; k++) {
-            fprintf(out, "%s\"%s\": ", k % 6 == 0 ? ",\n     " : ", ", fig[k].key);
-            cov_emit_json_number(out, fig[k].x);
-        }
-        fprintf(out, ", \"runs_unreachable\": %s", isinf(a->runs_needed) ? "true" : "false");
-        fprintf(out, ",\n     \"noise_flag\": %s, \"noise_note\": ", a->noise_flag ? "true" : "false");
-        if (a->noise_note) cov_emit_json_string(out, a->noise_note);
-        else fputs("null", out);
-        fprintf(out, ", \"pure_error\": %s", a->has_pure_error ? "true" : "false");
-        if (a->has_pure_error) {
-            fputs(", \"sigma_pure\": ", out);
-            cov_emit_json_number(out, a->sigma_pure);
-            fputs(", \"lack_of_fit_f\": ", out);
-            cov_emit_json_number(out, a->lof_f);
-            fputs(", \"lack_of_fit_p\": ", out);
-            cov_emit_json_number(out, a->lof_p);
-        }
-    }
-    if (s != NULL) {
-        fprintf(out, ",\n     \"support\": {\"ok\": %s, \"n\": %zu, \"distinct\": %zu, \"spread\": ",
-                s->ok ? "true" : "false", s->n, s->distinct);
-        cov_emit_json_number(out, s->spread);
-        fputs(", \"spread_resid\": ", out);
-        cov_emit_json_number(out, s->spread_resid);
-        fputs(", \"overlap\": ", out);
-        cov_emit_json_number(out, s->overlap);
-        fputs(", \"kish_ess\": ", out);
-        cov_emit_json_number(out, s->kish_ess);
-        fputs(", \"runs_per_config\": ", out);
-        cov_emit_json_number(out, s->runs_per_config);
-        fputs(", \"reason\": ", out);
-        if (s->reason) cov_emit_json_string(out, s->reason);
-        else fputs("null", out);
-        fputc('}', out);
-    }
-    fputc('}', out);
+    return (cov_record_src){f->graph, f->claims, f->assess, f->support};
 }
 
 static void json_coverage(FILE *out, const cov_findings *f)
@@ -280,7 +221,7 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
     const cov_options *o = f->opt;
     long long count[3];
     cov_report_count_verdicts(f, count);
-    fputs("{\n  \"schema_version\": 2,\n  \"graph\": ", out);
+    fputs("{\n  \"schema_version\": 3,\n  \"graph\": ", out);
     cov_emit_json_string(out, f->graph->path);
     fputs(",\n  \"archive\": ", out);
     cov_emit_json_string(out, o && o->archive_path ? o->archive_path : "");
@@ -340,39 +281,33 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
         fputs(k ? ",\n    " : "\n    ", out);
         cov_emit_json_string(out, cov_report_cautions[k]);
     }
+    cov_record_src src = record_src(f);
     fputs("],\n  \"claims\": [\n", out);
     for (size_t i = 0; i < f->claims->n; i++) {
-        json_claim(out, f, i);
+        fputs("    ", out);
+        cov_record_json(out, &src, i, COV_RECORD_ASSESS);
         fputs(i + 1 < f->claims->n ? ",\n" : "\n", out);
     }
-    fputs("  ]\n}\n", out);
+    fputs("  ]", out);
+    if (f->support != NULL) {
+        fputs(",\n  \"support\": [\n", out);
+        for (size_t i = 0; i < f->claims->n; i++) {
+            fputs("    ", out);
+            cov_record_json(out, &src, i, COV_RECORD_SUPPORT);
+            fputs(i + 1 < f->claims->n ? ",\n" : "\n", out);
+        }
+        fputs("  ]", out);
+    }
+    fputs("\n}\n", out);
 }
 
 /* ---- claims.csv ------------------------------------------------------------------------------ */
 
 void cov_report_claims_csv(const cov_findings *f, FILE *out)
 {
-    fputs("index,kind,treatment,outcome,adjustment_set,effect_of_interest,effect_unit,sign,status,"
-          "steerable,verdict,n,power,power_lo,power_hi,mde,effect_raw,runs_needed,why,"
-          "minimal_adjustment_set\n", out);
-    for (size_t i = 0; i < f->claims->n; i++) {
-        const cov_claim *c = &f->claims->items[i];
-        const cov_assessment *a = c->status == COV_TESTABLE ? cov_report_assessment(f, i) : NULL;
-        fprintf(out, "%zu,", i + 1);
-        cov_claim_csv_fields(out, f->graph, c);
-        fprintf(out, ",%s,", cov_verdict_word(cov_report_verdict(f, i)));
-        const double fig[] = {a ? (double)a->n : NAN, a ? a->power : NAN, a ? a->power_lo : NAN,
-                              a ? a->power_hi : NAN, a ? a->mde : NAN, a ? a->effect_raw : NAN,
-                              a ? a->runs_needed : NAN};
-        for (size_t k = 0; k < sizeof fig / sizeof fig[0]; k++) {
-            cov_emit_csv_number(out, fig[k]);
-            fputc(',', out);
-        }
-        cov_emit_csv_field(out, cov_report_reason(f, i) ? cov_report_reason(f, i) : "");
-        fputc(',', out);
-        cov_claim_csv_min_field(out, f->graph, c);
-        fputc('\n', out);
-    }
+    cov_record_src src = record_src(f);
+    cov_record_csv_header(out, COV_RECORD_ASSESS);
+    for (size_t i = 0; i < f->claims->n; i++) cov_record_csv_row(out, &src, i, COV_RECORD_ASSESS);
 }
 
 /* ---- the report directory -------------------------------------------------------------------- */
@@ -411,11 +346,10 @@ int cov_report_write(const cov_findings *f, const cov_report_info *info, const c
     cov_report_claims_csv(f, out);
     if ((rc = close_checked(out, dir, "claims.csv", err)) != COV_OK) return rc;
 
-    /* A test hook: fail halfway through, to check that no half-written report is left behind. */
-    const char *fault = getenv("SHOAL_TEST_FAULT");
-    if (fault != NULL && strcmp(fault, "report") == 0)
-        return cov_fail(err, COV_EIO, "", "injected failure while writing the report "
-                                          "(SHOAL_TEST_FAULT=report)");
+    /* The test seam (cov_options.fault_at): fail halfway through, so that tests can check that no
+     * half-written report is left behind. */
+    if (f->opt != NULL && f->opt->fault_at != NULL && f->opt->fault_at("report"))
+        return cov_fail(err, COV_EIO, "", "injected failure while writing the report");
 
     if ((out = open_in(dir, "report.md", err, &rc)) == NULL) return rc;
     rc = cov_report_markdown(f, info, out);

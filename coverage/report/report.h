@@ -24,30 +24,44 @@ typedef struct {
     size_t n_planned;
 } cov_findings;
 
-/* The figures of one survey, one snapshot in the history of surveys (coverage/history.c). */
-typedef struct {
-    char at[32];              /* UTC, ISO 8601: "2026-12-02T01:30:00Z" */
-    long long n_runs;
-    long long n_batches;
-    long long n_ample, n_underpowered, n_blind;
-    double marginal_share, pairwise_share, threeway_share;   /* NAN when not computed */
-} cov_snapshot;
-
 /* Where a survey keeps its history: in the owned archive, in a --history side file, or nowhere. */
 typedef enum { COV_HISTORY_NONE, COV_HISTORY_ARCHIVE, COV_HISTORY_SIDE } cov_history_store;
 
 /* Fill r with the counts and shares of f (the time is the caller's). */
 void cov_snapshot_from_findings(const cov_findings *f, cov_snapshot *r);
-/* Read the snapshots kept in the SQLite file db_path, oldest first. A file without history tables,
- * or (side files only, missing_ok 1) no file at all, gives *n = 0. The file is opened read-only.
- * Free *out with free(). Returns COV_OK, COV_EIO, COV_EINPUT (not SQLite), COV_ENOMEM. */
-int cov_history_load(const char *db_path, int missing_ok, cov_snapshot **out, size_t *n,
-                     cov_error *err);
-/* Append snapshot r and each claim's power to the history tables (shoal_snapshots, shoal_snapshot_claims)
- * of db_path, created when missing (the side file itself too), in one transaction. The caller
- * guarantees db_path is shoal's own archive or a side file: never the user's archive. */
-int cov_history_record(const char *db_path, const cov_findings *f, const cov_snapshot *r,
-                       cov_error *err);
+/* Record snapshot r of f in the history kept in db_path (cov_history_record), with one line per
+ * claim of f; create_file as there. Returns COV_OK, COV_EIO or COV_ENOMEM (err filled). */
+int cov_report_history_record(const char *db_path, int create_file, const cov_findings *f,
+                              const cov_snapshot *r, cov_error *err);
+/* ---- the claim record (coverage/report/record.c) ---------------------------------------------
+ * One record per claim, the same fields under the same names in every output: `shoal claims`
+ * (COV_RECORD_CLAIM), `shoal power` and the survey's summary.json and claims.csv
+ * (COV_RECORD_ASSESS: the claim fields, then its assessment), `shoal coverage` and the survey's
+ * support list (COV_RECORD_SUPPORT: the claim fields, then its support). The fields are one table
+ * in record.c: a new field is one line there and appears in JSON and CSV alike (README, "The claim
+ * record"). Figures that do not apply (an untestable claim, a part not computed) are null in JSON
+ * and empty in CSV. */
+enum { COV_RECORD_CLAIM = 1u, COV_RECORD_ASSESS = 2u, COV_RECORD_SUPPORT = 4u };
+
+/* What the records are made from, all borrowed. claims and g are required; assess and support may
+ * be NULL (their fields are then null), or hold one item per claim in claim order. */
+typedef struct {
+    const cov_graph *g;
+    const cov_claims *claims;
+    const cov_assessments *assess;
+    const cov_supports *support;
+} cov_record_src;
+
+/* Claim i (< src->claims->n) as one JSON object (no newline) holding the fields of parts. */
+void cov_record_json(FILE *out, const cov_record_src *src, size_t i, unsigned parts);
+/* The CSV header line of parts, newline included. */
+void cov_record_csv_header(FILE *out, unsigned parts);
+/* Claim i as one CSV row under cov_record_csv_header(parts), newline included (RFC 4180 quoting;
+ * a set of names is one cell joined by ';'). */
+void cov_record_csv_row(FILE *out, const cov_record_src *src, size_t i, unsigned parts);
+/* The field names of parts in output order: writes up to cap of them into names and returns how
+ * many there are (for tests and documentation checks). */
+size_t cov_record_field_names(unsigned parts, const char **names, size_t cap);
 
 /* What the report says besides the findings. */
 typedef struct {
@@ -64,8 +78,8 @@ typedef struct {
 /* Write index.html, report.md, summary.json and claims.csv into the existing directory dir. The
  * plots of cov_plot_list already in dir (NAME.svg) are inlined in index.html as <svg> elements (a
  * file that gnuplot's plain svg terminal could not have written becomes an <img> data URI), unless
- * info->plot_note says they were skipped. Every user string is escaped for its format. Test hook:
- * with the environment variable SHOAL_TEST_FAULT=report it fails halfway (COV_EIO).
+ * info->plot_note says they were skipped. Every user string is escaped for its format. When
+ * f->opt->fault_at("report") returns nonzero it fails halfway (COV_EIO): a test seam.
  * Returns COV_OK, COV_EIO, COV_ENOMEM. */
 int cov_report_write(const cov_findings *f, const cov_report_info *info, const char *dir,
                      cov_error *err);
@@ -87,9 +101,10 @@ extern const size_t cov_report_n_cautions;
 const char *cov_report_var(const cov_findings *f, size_t v);
 /* The assessment of claim i, or NULL when f->assess is NULL or does not reach i. */
 const cov_assessment *cov_report_assessment(const cov_findings *f, size_t i);
-/* Claim i's verdict: its assessment's, else underpowered for a testable claim and untestable otherwise. */
+/* Claim i's verdict (cov_claim_verdict of its assessment, if any). */
 cov_verdict cov_report_verdict(const cov_findings *f, size_t i);
-/* The one-line reason for claim i's verdict (borrowed from f), or NULL when there is none. */
+/* The one-line reason the report shows beside claim i's verdict (borrowed from f), or NULL: the
+ * verdict's reason (cov_claim_verdict_reason), else the support's reason when support is short. */
 const char *cov_report_reason(const cov_findings *f, size_t i);
 /* Count the claims of f by verdict into count[COV_AMPLE], count[COV_UNDERPOWERED], count[COV_BLIND]. */
 void cov_report_count_verdicts(const cov_findings *f, long long count[3]);

@@ -1,4 +1,4 @@
-/* History of surveys, one snapshot each: kept in shoal's own archive or in a --history side file.
+/* The history of surveys, one snapshot each, in SQLite: shoal's own archive or a side file.
  * See LICENSE. */
 #include <errno.h>
 #include <math.h>
@@ -9,7 +9,7 @@
 
 #include <sqlite3.h>
 
-#include "coverage/report/report.h"
+#include "coverage/archive/archive.h"
 
 /* A writer waits this long for another connection's lock before it gives up (milliseconds). */
 #define HISTORY_BUSY_MS 5000
@@ -24,23 +24,6 @@ static const char history_schema[] =
     " snapshot INTEGER NOT NULL REFERENCES shoal_snapshots(id), claim INTEGER NOT NULL,"
     " kind TEXT NOT NULL, treatment TEXT NOT NULL, outcome TEXT NOT NULL, verdict TEXT NOT NULL,"
     " runs INTEGER, power REAL, mde REAL, runs_needed REAL, PRIMARY KEY (snapshot, claim));";
-
-void cov_snapshot_from_findings(const cov_findings *f, cov_snapshot *r)
-{
-    r->n_runs = f->data ? (long long)f->data->n_runs : 0;
-    r->n_batches = f->data ? (long long)f->data->n_batches : 0;
-    r->n_ample = r->n_underpowered = r->n_blind = 0;
-    for (size_t i = 0; i < f->claims->n; i++) {
-        cov_verdict v = f->assess && i < f->assess->n ? f->assess->items[i].verdict
-                        : f->claims->items[i].status == COV_TESTABLE ? COV_UNDERPOWERED : COV_BLIND;
-        if (v == COV_AMPLE) r->n_ample++;
-        else if (v == COV_UNDERPOWERED) r->n_underpowered++;
-        else r->n_blind++;
-    }
-    r->marginal_share = f->coverage ? f->coverage->marginal_share : NAN;
-    r->pairwise_share = f->coverage ? f->coverage->pairwise_share : NAN;
-    r->threeway_share = f->coverage ? f->coverage->threeway_share : NAN;
-}
 
 /* Copy SQLite's message at once (it belongs to the connection) into err. */
 static int sql_fail(cov_error *err, int status, sqlite3 *db, const char *path, const char *what)
@@ -138,15 +121,15 @@ static void bind_real(sqlite3_stmt *st, int k, double x)
     else sqlite3_bind_null(st, k);
 }
 
-int cov_history_record(const char *db_path, const cov_findings *f, const cov_snapshot *r,
+int cov_history_record(const char *db_path, int create_file, const cov_history_source *src,
+                       const cov_snapshot *r, const cov_snapshot_claim *claims, size_t n_claims,
                        cov_error *err)
 {
     sqlite3 *db = NULL;
     sqlite3_stmt *st = NULL;
     int rc = COV_OK, in_tx = 0;
     /* A side file may be created; shoal's archive must already exist. */
-    int create = f->opt == NULL || f->opt->history_path == NULL ||
-                 strcmp(f->opt->history_path, db_path) != 0 ? 0 : SQLITE_OPEN_CREATE;
+    int create = create_file ? SQLITE_OPEN_CREATE : 0;
     if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READWRITE | create, NULL) != SQLITE_OK) {
         rc = sql_fail(err, COV_EIO, db, db_path, "cannot open for history");
         goto fail;
@@ -166,9 +149,8 @@ int cov_history_record(const char *db_path, const cov_findings *f, const cov_sna
         goto fail;
     }
     sqlite3_bind_text(st, 1, r->at, -1, SQLITE_TRANSIENT);
-    sqlite3_bind_text(st, 2, f->graph->path, -1, SQLITE_TRANSIENT);
-    if (f->opt && f->opt->archive_path)
-        sqlite3_bind_text(st, 3, f->opt->archive_path, -1, SQLITE_TRANSIENT);
+    if (src->graph_path) sqlite3_bind_text(st, 2, src->graph_path, -1, SQLITE_TRANSIENT);
+    if (src->archive_path) sqlite3_bind_text(st, 3, src->archive_path, -1, SQLITE_TRANSIENT);
     sqlite3_bind_int64(st, 4, r->n_runs);
     sqlite3_bind_int64(st, 5, r->n_batches);
     sqlite3_bind_int64(st, 6, r->n_ample);
@@ -190,24 +172,21 @@ int cov_history_record(const char *db_path, const cov_findings *f, const cov_sna
         rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
         goto fail;
     }
-    for (size_t i = 0; i < f->claims->n; i++) {
-        const cov_claim *c = &f->claims->items[i];
-        const cov_assessment *a = f->assess && i < f->assess->n ? &f->assess->items[i] : NULL;
-        cov_verdict v = a ? a->verdict : c->status == COV_TESTABLE ? COV_UNDERPOWERED : COV_BLIND;
+    for (size_t i = 0; i < n_claims; i++) {
+        const cov_snapshot_claim *c = &claims[i];
         sqlite3_reset(st);
         sqlite3_clear_bindings(st);
         sqlite3_bind_int64(st, 1, snapshot_id);
         sqlite3_bind_int64(st, 2, (sqlite3_int64)i + 1);
-        sqlite3_bind_text(st, 3, cov_claim_kind_word(c->kind), -1,
-                          SQLITE_STATIC);
-        sqlite3_bind_text(st, 4, f->graph->vars[c->treatment].name, -1, SQLITE_TRANSIENT);
-        sqlite3_bind_text(st, 5, f->graph->vars[c->outcome].name, -1, SQLITE_TRANSIENT);
-        sqlite3_bind_text(st, 6, cov_verdict_word(v), -1, SQLITE_STATIC);
-        if (a != NULL && c->status == COV_TESTABLE) {
-            sqlite3_bind_int64(st, 7, (sqlite3_int64)a->n);
-            bind_real(st, 8, a->power);
-            bind_real(st, 9, a->mde);
-            bind_real(st, 10, a->runs_needed);
+        sqlite3_bind_text(st, 3, c->kind, -1, SQLITE_STATIC);
+        sqlite3_bind_text(st, 4, c->treatment, -1, SQLITE_TRANSIENT);
+        sqlite3_bind_text(st, 5, c->outcome, -1, SQLITE_TRANSIENT);
+        sqlite3_bind_text(st, 6, c->verdict, -1, SQLITE_STATIC);
+        if (c->assessed) {
+            sqlite3_bind_int64(st, 7, (sqlite3_int64)c->runs);
+            bind_real(st, 8, c->power);
+            bind_real(st, 9, c->mde);
+            bind_real(st, 10, c->runs_needed);
         }
         if (sqlite3_step(st) != SQLITE_DONE) {
             rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");

@@ -1,0 +1,392 @@
+/* The claim record: one table of fields, written as JSON or CSV by every command and the report.
+ * See LICENSE. */
+#include <assert.h>
+#include <math.h>
+#include <stddef.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "coverage/report/report.h"
+
+/* ---- values --------------------------------------------------------------------------------- */
+
+typedef enum {
+    RV_NULL,    /* JSON null, an empty CSV cell */
+    RV_NUM,     /* a double: null / empty when NAN; JSON null and CSV "inf" when infinite */
+    RV_COUNT,   /* a whole number */
+    RV_BOOL,    /* JSON true/false, CSV 1/0 */
+    RV_WORD,    /* a fixed word of ours (no escaping needed, still escaped) */
+    RV_TEXT,    /* user or message text; NULL text is null / empty */
+    RV_NAMES    /* a set of variables: a JSON array of names, one CSV cell joined by ';' */
+} rv_kind;
+
+typedef struct {
+    rv_kind kind;
+    double num;
+    long long count;
+    const char *text;
+    const size_t *vars;
+    size_t n_vars;
+} rec_value;
+
+/* What one row of the record is made from (all borrowed). */
+typedef struct {
+    const cov_graph *g;
+    const cov_claim *c;
+    size_t index;               /* 0-based claim index */
+    const cov_assessment *a;    /* the assessment when the claim is testable and assessed */
+    const cov_assessment *any;  /* the assessment whatever the status, or NULL */
+    const cov_support *s;       /* the support, or NULL */
+    char text[96];              /* scratch for a formatted field */
+} rec_row;
+
+static rec_value v_null(void) { return (rec_value){RV_NULL, NAN, 0, NULL, NULL, 0}; }
+static rec_value v_num(double x) { return (rec_value){RV_NUM, x, 0, NULL, NULL, 0}; }
+static rec_value v_count(long long n) { return (rec_value){RV_COUNT, NAN, n, NULL, NULL, 0}; }
+static rec_value v_bool(int b) { return (rec_value){RV_BOOL, NAN, b != 0, NULL, NULL, 0}; }
+static rec_value v_word(const char *w) { return (rec_value){RV_WORD, NAN, 0, w, NULL, 0}; }
+static rec_value v_text(const char *t) { return (rec_value){RV_TEXT, NAN, 0, t, NULL, 0}; }
+static rec_value v_names(const size_t *v, size_t n)
+{
+    return (rec_value){RV_NAMES, NAN, 0, NULL, v, n};
+}
+
+/* ---- the getters of fields that are not a plain number of the assessment or support ---------- */
+
+static rec_value get_index(rec_row *r) { return v_count((long long)r->index + 1); }
+static rec_value get_kind(rec_row *r) { return v_word(cov_claim_kind_word(r->c->kind)); }
+static rec_value get_treatment(rec_row *r) { return v_text(r->g->vars[r->c->treatment].name); }
+static rec_value get_outcome(rec_row *r) { return v_text(r->g->vars[r->c->outcome].name); }
+static rec_value get_set(rec_row *r) { return v_names(r->c->cond, r->c->n_cond); }
+static rec_value get_effect(rec_row *r) { return v_num(r->c->effect.value); }
+static rec_value get_unit(rec_row *r)
+{
+    return v_word(r->c->effect.unit == COV_UNIT_SD ? "sd" : "raw");
+}
+static rec_value get_sign(rec_row *r) { return v_count(r->c->sign); }
+static rec_value get_status(rec_row *r)
+{
+    return v_word(r->c->status == COV_TESTABLE ? "testable" : "untestable");
+}
+static rec_value get_claim_reason(rec_row *r) { return v_text(r->c->reason); }
+static rec_value get_steerable(rec_row *r) { return v_bool(r->c->steerable); }
+static rec_value get_min_set(rec_row *r) { return v_names(r->c->min_cond, r->c->n_min_cond); }
+
+/* What the graph says about the claim beyond its sets (README, "What the graph claims"): the
+ * amount as written and what it is counted over, the variables' units, the expected shape, and
+ * whether the claim rests on the declaration that two outputs' run noise is independent. The
+ * written amount is formatted into the row's own buffer. */
+static rec_value get_written(rec_row *r)
+{
+    return v_text(cov_amount_text(&r->c->effect, r->text, sizeof r->text));
+}
+static rec_value get_per(rec_row *r)
+{
+    static const char *const per_word[] = {"unit", "step", "range"};
+    return v_word(per_word[r->c->effect.per]);
+}
+static rec_value get_step(rec_row *r)
+{
+    return v_num(r->c->effect.per == COV_PER_STEP ? r->c->effect.step : NAN);
+}
+static rec_value get_per_unit(rec_row *r)
+{
+    return v_num(cov_amount_per_unit_factor(&r->c->effect, &r->g->vars[r->c->treatment]));
+}
+static rec_value get_t_unit(rec_row *r) { return v_text(cov_var_unit(&r->g->vars[r->c->treatment])); }
+static rec_value get_y_unit(rec_row *r) { return v_text(cov_var_unit(&r->g->vars[r->c->outcome])); }
+static rec_value get_shape(rec_row *r)
+{
+    return v_word(r->c->shape == COV_SHAPE_TURNING ? "turning" : "monotone");
+}
+static rec_value get_rests(rec_row *r) { return v_bool(r->c->rests_on_noise); }
+
+static rec_value get_verdict(rec_row *r)
+{
+    return v_word(cov_verdict_word(cov_claim_verdict(r->c, r->any)));
+}
+static rec_value get_verdict_reason(rec_row *r)
+{
+    return v_text(cov_claim_verdict_reason(r->c, r->any));
+}
+static rec_value get_n(rec_row *r) { return r->a ? v_count((long long)r->a->n) : v_null(); }
+static rec_value get_unreachable(rec_row *r)
+{
+    return r->a ? v_bool(isinf(r->a->runs_needed)) : v_null();
+}
+static rec_value get_noise_flag(rec_row *r) { return r->a ? v_bool(r->a->noise_flag) : v_null(); }
+static rec_value get_noise_note(rec_row *r) { return r->a ? v_text(r->a->noise_note) : v_null(); }
+static rec_value get_pure(rec_row *r) { return r->a ? v_bool(r->a->has_pure_error) : v_null(); }
+
+static rec_value get_test(rec_row *r)
+{
+    if (r->a == NULL) return v_null();
+    const pw_design *d = &r->a->design;
+    return v_word(!r->a->has_design              ? "none"
+                  : d->test == PW_TEST_TREND_T   ? "trend t"
+                  : d->test == PW_TEST_LEVELS_F  ? "levels F"
+                  : d->test == PW_TEST_TWO_PROP  ? "two proportions"
+                  : d->test == PW_TEST_TOST      ? "equivalence"
+                                                 : "coefficient t");
+}
+static rec_value get_trend(rec_row *r) { return r->a ? v_bool(r->a->trend) : v_null(); }
+static rec_value get_distinct_values(rec_row *r)
+{
+    return r->a ? v_count((long long)r->a->distinct) : v_null();
+}
+static rec_value get_checkable(rec_row *r) { return r->a ? v_bool(r->a->distinct >= 3) : v_null(); }
+static rec_value get_shape_pure(rec_row *r)
+{
+    return r->a && isfinite(r->a->shape_f) ? v_bool(r->a->shape_pure) : v_null();
+}
+static rec_value get_caution(rec_row *r) { return r->a ? v_text(r->a->caution) : v_null(); }
+
+static rec_value get_runs(rec_row *r) { return r->s ? v_count((long long)r->s->n) : v_null(); }
+static rec_value get_distinct(rec_row *r)
+{
+    return r->s ? v_count((long long)r->s->distinct) : v_null();
+}
+static rec_value get_s_pure(rec_row *r) { return r->s ? v_bool(r->s->pure_error) : v_null(); }
+static rec_value get_s_ok(rec_row *r) { return r->s ? v_bool(r->s->ok) : v_null(); }
+static rec_value get_s_reason(rec_row *r) { return r->s ? v_text(r->s->reason) : v_null(); }
+
+/* ---- the table: the one place a field is added ----------------------------------------------
+ * A field is its name (JSON key and CSV column), the record it belongs to and how its value is
+ * found: a getter, or, for a plain double of the assessment or the support, its offset (null when
+ * the claim is untestable or the part was not computed). Order here is the order of the output. */
+
+typedef enum { SRC_GET, SRC_ASSESS, SRC_SUPPORT } rec_source;
+
+typedef struct {
+    const char *name;
+    unsigned parts;                       /* COV_RECORD_* bits */
+    rec_source src;
+    rec_value (*get)(rec_row *);    /* SRC_GET */
+    size_t offset;                        /* SRC_ASSESS, SRC_SUPPORT: offset of a double */
+} rec_field;
+
+#define CLAIM_F (COV_RECORD_CLAIM | COV_RECORD_ASSESS | COV_RECORD_SUPPORT)
+#define GET(name, parts, fn) {name, parts, SRC_GET, fn, 0}
+#define A_NUM(name, member) {name, COV_RECORD_ASSESS, SRC_ASSESS, NULL, offsetof(cov_assessment, member)}
+#define S_NUM(name, member) {name, COV_RECORD_SUPPORT, SRC_SUPPORT, NULL, offsetof(cov_support, member)}
+
+static const rec_field fields[] = {
+    /* the claim, as `shoal claims` prints it */
+    GET("index", CLAIM_F, get_index),
+    GET("kind", CLAIM_F, get_kind),
+    GET("treatment", CLAIM_F, get_treatment),
+    GET("outcome", CLAIM_F, get_outcome),
+    GET("adjustment_set", CLAIM_F, get_set),
+    GET("effect_of_interest", CLAIM_F, get_effect),
+    GET("effect_unit", CLAIM_F, get_unit),
+    GET("sign", CLAIM_F, get_sign),
+    GET("status", CLAIM_F, get_status),
+    GET("reason", CLAIM_F, get_claim_reason),
+    GET("steerable", CLAIM_F, get_steerable),
+    GET("minimal_adjustment_set", CLAIM_F, get_min_set),
+    GET("effect_written", CLAIM_F, get_written),
+    GET("effect_per", CLAIM_F, get_per),
+    GET("effect_step", CLAIM_F, get_step),
+    GET("effect_per_unit_factor", CLAIM_F, get_per_unit),
+    GET("treatment_unit", CLAIM_F, get_t_unit),
+    GET("outcome_unit", CLAIM_F, get_y_unit),
+    GET("shape", CLAIM_F, get_shape),
+    GET("rests_on_noise_independence", CLAIM_F, get_rests),
+    /* its assessment, as `shoal power` and the survey print it */
+    GET("verdict", COV_RECORD_ASSESS, get_verdict),
+    GET("verdict_reason", COV_RECORD_ASSESS, get_verdict_reason),
+    GET("n", COV_RECORD_ASSESS, get_n),
+    A_NUM("df", df),
+    A_NUM("estimate", estimate),
+    A_NUM("se", se),
+    A_NUM("sigma", sigma),
+    A_NUM("sd_treatment_resid", sd_treatment_resid),
+    A_NUM("vif", vif),
+    A_NUM("effect_raw", effect_raw),
+    A_NUM("alpha", alpha),
+    A_NUM("power", power),
+    A_NUM("power_lo", power_lo),
+    A_NUM("power_hi", power_hi),
+    A_NUM("mde", mde),
+    A_NUM("mde_lo", mde_lo),
+    A_NUM("mde_hi", mde_hi),
+    A_NUM("runs_needed", runs_needed),
+    GET("runs_unreachable", COV_RECORD_ASSESS, get_unreachable),
+    GET("noise_flag", COV_RECORD_ASSESS, get_noise_flag),
+    GET("noise_note", COV_RECORD_ASSESS, get_noise_note),
+    GET("pure_error", COV_RECORD_ASSESS, get_pure),
+    A_NUM("sigma_pure", sigma_pure),
+    A_NUM("lack_of_fit_f", lof_f),
+    A_NUM("lack_of_fit_p", lof_p),
+    A_NUM("effect_written_raw", effect_written_raw),
+    GET("test", COV_RECORD_ASSESS, get_test),
+    GET("trend", COV_RECORD_ASSESS, get_trend),
+    A_NUM("omnibus_df1", omnibus_df1),
+    A_NUM("omnibus_f", omnibus_f),
+    A_NUM("omnibus_p", omnibus_p),
+    A_NUM("omnibus_power", omnibus_power),
+    GET("distinct_values", COV_RECORD_ASSESS, get_distinct_values),
+    GET("shape_checkable", COV_RECORD_ASSESS, get_checkable),
+    A_NUM("shape_f", shape_f),
+    A_NUM("shape_df1", shape_df1),
+    A_NUM("shape_df2", shape_df2),
+    A_NUM("shape_p", shape_p),
+    GET("shape_pure_error", COV_RECORD_ASSESS, get_shape_pure),
+    GET("caution", COV_RECORD_ASSESS, get_caution),
+    /* its support in the runs, as `shoal coverage` and the survey print it */
+    GET("runs", COV_RECORD_SUPPORT, get_runs),
+    GET("distinct", COV_RECORD_SUPPORT, get_distinct),
+    S_NUM("spread", spread),
+    S_NUM("spread_resid", spread_resid),
+    S_NUM("overlap", overlap),
+    S_NUM("kish_ess", kish_ess),
+    S_NUM("runs_per_config", runs_per_config),
+    GET("replicated", COV_RECORD_SUPPORT, get_s_pure),
+    GET("support_ok", COV_RECORD_SUPPORT, get_s_ok),
+    GET("support_reason", COV_RECORD_SUPPORT, get_s_reason),
+};
+static const size_t n_fields = sizeof fields / sizeof fields[0];
+
+static rec_value value_of(const rec_field *fd, rec_row *r)
+{
+    switch (fd->src) {
+    case SRC_GET: return fd->get(r);
+    case SRC_ASSESS:
+        return r->a ? v_num(*(const double *)((const char *)r->a + fd->offset)) : v_null();
+    case SRC_SUPPORT:
+        return r->s ? v_num(*(const double *)((const char *)r->s + fd->offset)) : v_null();
+    }
+    return v_null();
+}
+
+static rec_row row_of(const cov_record_src *src, size_t i)
+{
+    assert(src != NULL && src->g != NULL && src->claims != NULL && i < src->claims->n);
+    assert(src->assess == NULL || src->assess->n == src->claims->n);
+    assert(src->support == NULL || src->support->n == src->claims->n);
+        rec_row r = {src->g, &src->claims->items[i], i, NULL, NULL, NULL, ""};
+    if (src->assess != NULL && i < src->assess->n) r.any = &src->assess->items[i];
+    if (r.any != NULL && r.c->status == COV_TESTABLE) r.a = r.any;
+    if (src->support != NULL && i < src->support->n) r.s = &src->support->items[i];
+    return r;
+}
+
+/* ---- JSON ------------------------------------------------------------------------------------- */
+
+static void json_value(FILE *out, const cov_graph *g, const rec_value *v)
+{
+    switch (v->kind) {
+    case RV_NULL: fputs("null", out); break;
+    case RV_NUM: cov_emit_json_number(out, v->num); break;
+    case RV_COUNT: fprintf(out, "%lld", v->count); break;
+    case RV_BOOL: fputs(v->count ? "true" : "false", out); break;
+    case RV_WORD:
+    case RV_TEXT:
+        if (v->text) cov_emit_json_string(out, v->text);
+        else fputs("null", out);
+        break;
+    case RV_NAMES:
+        fputc('[', out);
+        for (size_t k = 0; k < v->n_vars; k++) {
+            if (k) fputs(", ", out);
+            cov_emit_json_string(out, g->vars[v->vars[k]].name);
+        }
+        fputc(']', out);
+        break;
+    }
+}
+
+void cov_record_json(FILE *out, const cov_record_src *src, size_t i, unsigned parts)
+{
+    rec_row r = row_of(src, i);
+    int first = 1;
+    fputc('{', out);
+    for (size_t k = 0; k < n_fields; k++) {
+        if (!(fields[k].parts & parts)) continue;
+        rec_value v = value_of(&fields[k], &r);
+        fprintf(out, "%s\"%s\": ", first ? "" : ", ", fields[k].name);
+        json_value(out, src->g, &v);
+        first = 0;
+    }
+    fputc('}', out);
+}
+
+/* ---- CSV -------------------------------------------------------------------------------------- */
+
+/* A set of names as one CSV cell: names joined by ';', a name holding ';' or '"' quoted with its
+ * quotes doubled (RFC 4180's rule with ';' as the separator); then the whole cell quoted for the
+ * row when it holds a comma, quote, CR or LF. Written in two passes, without allocating. */
+static int name_needs_inner(const char *s) { return strpbrk(s, ";\"") != NULL; }
+
+static void csv_names(FILE *out, const cov_graph *g, const size_t *vars, size_t n)
+{
+    int outer = 0;
+    for (size_t k = 0; k < n; k++) {
+        const char *s = g->vars[vars[k]].name;
+        if (name_needs_inner(s) || strpbrk(s, ",\r\n") != NULL) outer = 1;
+    }
+    if (outer) fputc('"', out);
+    for (size_t k = 0; k < n; k++) {
+        const char *s = g->vars[vars[k]].name;
+        int inner = name_needs_inner(s);
+        if (k) fputc(';', out);
+        if (inner) fputs(outer ? "\"\"" : "\"", out);
+        for (const char *p = s; *p; p++) {
+            if (*p == '"') fputs(outer ? "\"\"\"\"" : "\"\"", out);
+            else fputc(*p, out);
+        }
+        if (inner) fputs(outer ? "\"\"" : "\"", out);
+    }
+    if (outer) fputc('"', out);
+}
+
+static void csv_value(FILE *out, const cov_graph *g, const rec_value *v)
+{
+    switch (v->kind) {
+    case RV_NULL: break;
+    case RV_NUM: cov_emit_csv_number(out, v->num); break;
+    case RV_COUNT: fprintf(out, "%lld", v->count); break;
+    case RV_BOOL: fputc(v->count ? '1' : '0', out); break;
+    case RV_WORD:
+    case RV_TEXT:
+        if (v->text) cov_emit_csv_field(out, v->text);
+        break;
+    case RV_NAMES: csv_names(out, g, v->vars, v->n_vars); break;
+    }
+}
+
+void cov_record_csv_header(FILE *out, unsigned parts)
+{
+    int first = 1;
+    for (size_t k = 0; k < n_fields; k++) {
+        if (!(fields[k].parts & parts)) continue;
+        fprintf(out, "%s%s", first ? "" : ",", fields[k].name);
+        first = 0;
+    }
+    fputc('\n', out);
+}
+
+void cov_record_csv_row(FILE *out, const cov_record_src *src, size_t i, unsigned parts)
+{
+    rec_row r = row_of(src, i);
+    int first = 1;
+    for (size_t k = 0; k < n_fields; k++) {
+        if (!(fields[k].parts & parts)) continue;
+        if (!first) fputc(',', out);
+        rec_value v = value_of(&fields[k], &r);
+        csv_value(out, src->g, &v);
+        first = 0;
+    }
+    fputc('\n', out);
+}
+
+size_t cov_record_field_names(unsigned parts, const char **names, size_t cap)
+{
+    size_t n = 0;
+    for (size_t k = 0; k < n_fields; k++) {
+        if (!(fields[k].parts & parts)) continue;
+        if (n < cap) names[n] = fields[k].name;
+        n++;
+    }
+    return n;
+}
