@@ -72,13 +72,11 @@ static void usage(FILE *f)
             "\nexit status: 0 adequate, 1 not adequate, 2 bad input or usage\n");
 }
 
-/* Parse a number the whole of which must be used; strtod with end-pointer and errno checks. */
+/* Parse a number the whole of which must be used, with the reader every input file uses. */
 static int parse_double(const char *opt, const char *text, double lo, double hi, double *out)
 {
-    char *end = NULL;
-    errno = 0;
-    double v = strtod(text, &end);
-    if (errno != 0 || end == text || *end != '\0' || !isfinite(v) || v < lo || v > hi) {
+    double v;
+    if (cov_parse_double(text, &v) != 0 || v < lo || v > hi) {
         fprintf(stderr, "shoal: %s expects a number from %g to %g, got '%s'\n", opt, lo, hi, text);
         return -1;
     }

@@ -118,6 +118,15 @@ typedef struct {
     int default_effect_line, default_effect_col, margin_line, margin_col;   /* where they are */
 } cov_graph;
 
+/* Limits the graph file is held to, each refused with its name at file:line:column before any
+ * work grows with it: all variables, recorded ones (inputs and outputs, which claims grow with),
+ * levels of one variable, and the magnitude and width of a declared range. */
+#define COV_MAX_VARIABLES 10000
+#define COV_MAX_RECORDED 1000
+#define COV_MAX_LEVELS 1000
+#define COV_MAX_MAGNITUDE 1e150
+#define COV_MIN_RANGE_WIDTH 1e-150
+
 /* Parse a graph file. On a syntax or consistency error returns COV_EINPUT with err->where set to
  * "file:line:column". Returns COV_EIO when the file cannot be read. */
 int cov_graph_parse_file(const char *path, cov_graph **out, cov_error *err);
@@ -473,6 +482,11 @@ typedef struct {
      * there with COV_EIO, so tests can check that a failure leaves nothing half-written. */
     int (*fault_at)(const char *stage);
 } cov_options;
+
+/* The whole NUL-terminated s as a finite plain decimal number, the one syntax shoal reads in every
+ * file and option (no blanks, hexadecimal, inf or nan; a subnormal is a number): 0 and *out, or
+ * -1 (coverage/base/number.c). */
+int cov_parse_double(const char *s, double *out);
 
 /* Fill o with the defaults written in README.md. */
 void cov_options_default(cov_options *o);

@@ -102,4 +102,54 @@ printf 'a,b\n"2\000zzz",1\n' >"$tmp/nul.csv"
 run 2 "import of a NUL inside quotes" import "$tmp/nul.csv" --archive "$tmp/nul.db"
 said "nul.csv:2:3" "the NUL is located at line 2, column 3"
 
+# ---- one number reader everywhere ------------------------------------------------------------------
+printf 'input x real [0, 100]\noutput y real\ndefault effect 1\nx -> y\n' >"$tmp/xy.graph"
+printf 'x,y\n0x1A,1\n5,2\n' >"$tmp/hex.csv"
+run 0 "import of a hexadecimal cell (kept as text)" import "$tmp/hex.csv" --archive "$tmp/hex.db" -q
+[ "$(sqlite3 "$tmp/hex.db" "SELECT typeof(x) FROM runs LIMIT 1")" = text ] && ok "import keeps 0x1A as text" || bad "import stored 0x1A as a number"
+run 2 "check reads 0x1A as no number, as import did" check "$tmp/xy.graph" "$tmp/hex.db"
+said "0x1A" "check names the hexadecimal cell"
+run 2 "power refuses the hexadecimal cell too" power "$tmp/xy.graph" "$tmp/hex.db" -q
+run 2 "--alpha 0x1p-5" power "$tmp/xy.graph" "$tmp/runs.db" --alpha 0x1p-5
+run 2 "--alpha inf" power "$tmp/xy.graph" "$tmp/runs.db" --alpha inf
+printf 'input x real [0, 100]\noutput y real noise 4.9e-324\ndefault effect 1\nx -> y\n' >"$tmp/sub.graph"
+run 0 "a graph with the subnormal 4.9e-324" claims "$tmp/sub.graph"
+printf 'x,y\n4.9e-324,1\n5,2\n' >"$tmp/sub.csv"
+run 0 "import of 4.9e-324" import "$tmp/sub.csv" --archive "$tmp/sub.db" -q
+[ "$(sqlite3 "$tmp/sub.db" "SELECT typeof(x) FROM runs LIMIT 1")" = real ] && ok "4.9e-324 is stored as a number" || bad "4.9e-324 not stored as a number"
+run 0 "check of the subnormal cell" check "$tmp/xy.graph" "$tmp/sub.db" -q
+
+# ---- limits are checked up front and named --------------------------------------------------------
+"$PYTHON" -c "print(','.join('c%d' % i for i in range(100000))); print(','.join('1' for i in range(100000)))" >"$tmp/wide.csv"
+run 2 "import of a 100,000-column header" import "$tmp/wide.csv" --archive "$tmp/wide.db"
+said "the limit on columns" "the column limit is named"
+"$PYTHON" -c "print('input a levels {' + ', '.join('l%d' % i for i in range(10000)) + '}')" >"$tmp/lv.graph"
+run 2 "a graph with 10,000 levels" claims "$tmp/lv.graph"; said "the limit on levels" "the level limit is named"
+"$PYTHON" -c "
+for i in range(1500): print('output v%d real' % i)" >"$tmp/many.graph"
+run 2 "a graph with 1,500 outputs" claims "$tmp/many.graph"; said "the limit on recorded variables" "the variable limit is named"
+printf 'input x real [-1e308, 1e308]\noutput y real\ndefault effect 1\nx -> y\n' >"$tmp/huge.graph"
+run 2 "a range of [-1e308, 1e308]" coverage "$tmp/huge.graph" "$tmp/runs.db"; said "the limits on ranges" "the range limit is named"
+run 2 "--budget 100000000" plan "$G" --budget 100000000 -o "$tmp/b.csv"; said "the limit on configurations" "the budget limit is named"
+run 2 "--budget 5000 --replicates 100000" plan "$G" --budget 5000 --replicates 100000 -o "$tmp/b.csv"; said "the limit on replicates" "the replicate limit is named"
+run 2 "--budget 5000 --replicates 1000" plan "$G" --budget 5000 --replicates 1000 -o "$tmp/b.csv"; said "the limit on runs" "the run limit is named"
+[ -e "$tmp/b.csv" ] && bad "a refused plan left a file" || ok "a refused plan leaves no file"
+
+# ---- smaller items ------------------------------------------------------------------------------
+# Lone-CR line endings: errors point at the right line.
+printf 'a,b\r1,2\r3,x,4\r' >"$tmp/cr.csv"
+run 2 "import of a bad row in a lone-CR file" import "$tmp/cr.csv" --archive "$tmp/cr.db"
+said "cr.csv:3:5" "the bad row of a lone-CR file is on line 3"
+# A level name of 300 bytes matches.
+long=$("$PYTHON" -c "print('w' * 300)")
+printf 'input site levels {"%s", short}\noutput y real\ndefault effect 1\nsite -> y\n' "$long" >"$tmp/long.graph"
+printf 'site,y\n%s,1\nshort,2\n' "$long" >"$tmp/long.csv"
+run 0 "import of a 300-byte level" import "$tmp/long.csv" --archive "$tmp/long.db" -q
+run 0 "check of a 300-byte level name" check "$tmp/long.graph" "$tmp/long.db" -q
+# A graph variable named like shoal's batch column does not silently read the batch ids.
+printf 'input shoal_batch integer [1, 9]\noutput y real\ndefault effect 1\nshoal_batch -> y\n' >"$tmp/sb.graph"
+printf 'y\n1\n2\n' >"$tmp/sb.csv"
+run 0 "import for the batch-column case" import "$tmp/sb.csv" --archive "$tmp/sb.db" -q
+run 2 "check with a variable named shoal_batch" check "$tmp/sb.graph" "$tmp/sb.db"; said "batch column" "the batch column clash is named"
+
 [ "$fails" -eq 0 ]

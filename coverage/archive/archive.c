@@ -1,8 +1,6 @@
 /* The SQLite run archive: read-only opening for analysis, and `shoal import`, which appends a CSV
  * file in one transaction stamped as a batch. See LICENSE. */
 #include <errno.h>
-#include <float.h>
-#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -259,89 +257,20 @@ fail:
 
 /* ---- import --------------------------------------------------------------------------------- */
 
-/* Powers of ten that are exact in a double (10^22 is the largest, since 5^22 < 2^53). */
-static const double exact_pow10[] = {
-    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
-    1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22
-};
-#define EXACT_POW10_MAX 22
-#define MANTISSA_EXACT_MAX 9007199254740992ULL   /* 2^53 */
-
 enum { CELL_TEXT, CELL_INT, CELL_REAL };
 
-/* Classify a CSV field as a decimal integer, a decimal real or text. Only plain decimal syntax
- * counts as a number ([+-]digits[.digits][e[+-]digits]); "nan", "inf", hex and numbers with
- * leading zeros ("007", often an identifier) stay text. Reals take Clinger's fast path when the
- * significand is below 2^53 and the power of ten is exact, which rounds correctly with one IEEE
- * operation (W. D. Clinger, "How to read floating point numbers accurately", PLDI 1990); the
- * rest go through strtod. */
+/* Classify a CSV field as a decimal integer, a decimal real or text, with the one number reader
+ * (cov_number_scan) that the archive reader and every other input use too. Only plain decimal
+ * syntax counts as a number; "nan", "inf", hex, numbers too large for a double and integers with
+ * leading zeros ("007", often an identifier) stay text. */
 static int classify(const char *s, size_t len, long long *iv, double *dv)
 {
-    const char *p = s, *end = s + len;
-    int neg = 0;
-    if (p < end && (*p == '+' || *p == '-')) neg = *p++ == '-';
-    const char *digits = p;
-    uint64_t m = 0;
-    int sig = 0, frac = 0, overflow = 0;
-    while (p < end && *p >= '0' && *p <= '9') {
-        if (sig < 19) m = m * 10 + (uint64_t)(*p - '0');
-        else overflow = 1;
-        if (m != 0) sig++;
-        p++;
+    int leading_zero = 0;
+    switch (cov_number_scan(s, len, iv, dv, &leading_zero)) {
+    case COV_NUM_INT: return leading_zero ? CELL_TEXT : CELL_INT;
+    case COV_NUM_REAL: return leading_zero ? CELL_TEXT : CELL_REAL;
+    default: return CELL_TEXT;
     }
-    size_t int_digits = (size_t)(p - digits);
-    if (int_digits > 1 && digits[0] == '0') return CELL_TEXT;
-    int is_real = 0;
-    size_t frac_digits = 0;
-    if (p < end && *p == '.') {
-        is_real = 1;
-        p++;
-        while (p < end && *p >= '0' && *p <= '9') {
-            if (sig < 19) {
-                m = m * 10 + (uint64_t)(*p - '0');
-                frac++;
-                if (m != 0) sig++;
-            } else {
-                overflow = 1;
-            }
-            p++;
-            frac_digits++;
-        }
-    }
-    if (int_digits + frac_digits == 0) return CELL_TEXT;
-    long e10 = 0;
-    if (p < end && (*p == 'e' || *p == 'E')) {
-        is_real = 1;
-        p++;
-        int eneg = 0;
-        if (p < end && (*p == '+' || *p == '-')) eneg = *p++ == '-';
-        if (p == end || *p < '0' || *p > '9') return CELL_TEXT;
-        while (p < end && *p >= '0' && *p <= '9') {
-            if (e10 < 100000) e10 = e10 * 10 + (*p - '0');
-            p++;
-        }
-        if (eneg) e10 = -e10;
-    }
-    if (p != end) return CELL_TEXT;
-    if (!is_real && !overflow && sig <= 18) {
-        *iv = neg ? -(long long)m : (long long)m;
-        return CELL_INT;
-    }
-    long scale = e10 - frac;
-    if (!overflow && m < MANTISSA_EXACT_MAX && FLT_EVAL_METHOD == 0 &&
-        scale >= -EXACT_POW10_MAX && scale <= EXACT_POW10_MAX) {
-        double v = (double)m;
-        v = scale < 0 ? v / exact_pow10[-scale] : v * exact_pow10[scale];
-        *dv = neg ? -v : v;
-        return CELL_REAL;
-    }
-    /* strtod needs a terminated string; the CSV reader's fields are. */
-    char *stop = NULL;
-    errno = 0;
-    double v = strtod(s, &stop);
-    if (stop != end) return CELL_TEXT;
-    *dv = v;    /* overflow gives +-HUGE_VAL, underflow a denormal or zero: both are the value */
-    return CELL_REAL;
 }
 
 static int exec_sql(sqlite3 *db, const char *sql)

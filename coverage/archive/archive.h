@@ -15,6 +15,9 @@
  * (duplicates ignore ASCII case, as SQLite column names do). Errors are COV_EINPUT with
  * err->where "file:line:column" (columns count UTF-8 characters). */
 typedef struct cov_csv cov_csv;
+/* Columns a CSV header may have: SQLite's default column limit (SQLITE_MAX_COLUMN), which an
+ * import could not exceed anyway. */
+#define COV_CSV_MAX_COLUMNS 2000
 int cov_csv_open(const char *path, cov_csv **out, cov_error *err);
 void cov_csv_close(cov_csv *c);
 char cov_csv_delimiter(const cov_csv *c);

@@ -21,6 +21,7 @@ struct cov_csv {
     char delim;
     unsigned char special[256];  /* 1 for bytes ending an unquoted run: delim, quote, CR, LF, NUL */
     long line, col;              /* position of the next byte: 1-based line, 1-based character */
+    int after_cr;                /* the last byte was a CR: an LF now ends no further line */
     char *rec;                   /* the current record's fields, each NUL-terminated */
     size_t rec_len, rec_cap;
     size_t *off;                 /* start of each field in rec */
@@ -56,16 +57,27 @@ static int peek(cov_csv *c)
     return c->buf[c->pos];
 }
 
-/* Consume one byte, keeping line and column (columns count UTF-8 characters, not bytes). */
-static void advance(cov_csv *c, int b)
+/* Count one byte into line and column (columns count UTF-8 characters, not bytes). A line ends
+ * with LF, CRLF or a lone CR, so files with old Mac line endings get their line numbers. */
+static void count_byte(cov_csv *c, int b)
 {
-    c->pos++;
     if (b == '\n') {
+        if (!c->after_cr) c->line++;
+        c->col = 1;
+    } else if (b == '\r') {
         c->line++;
         c->col = 1;
     } else if ((b & 0xC0) != 0x80) {
         c->col++;
     }
+    c->after_cr = b == '\r';
+}
+
+/* Consume one byte, keeping line and column. */
+static void advance(cov_csv *c, int b)
+{
+    c->pos++;
+    count_byte(c, b);
 }
 
 static int rec_reserve(cov_csv *c, size_t more)
@@ -159,12 +171,7 @@ static int read_quoted(cov_csv *c, cov_error *err)
             if (*s == '\0')
                 return fail_at(c, c->line, c->col, err, COV_EINPUT,
                                "found a NUL byte inside a quoted field, expected text");
-            if (*s == '\n') {
-                c->line++;
-                c->col = 1;
-            } else if ((*s & 0xC0) != 0x80) {
-                c->col++;
-            }
+            count_byte(c, *s);
         }
         c->pos += n;
         if (q == NULL) continue;
@@ -236,6 +243,7 @@ static int read_record(cov_csv *c, int *got, cov_error *err)
                 c->rec_len += n;
                 c->pos += n;
                 c->col = col;
+                if (n > 0) c->after_cr = 0;
                 if (s < end) break;
             }
             b = peek(c);
@@ -338,6 +346,14 @@ int cov_csv_open(const char *path, cov_csv **out, cov_error *err)
         goto fail;
     }
     c->n_fields = c->n_off;
+    /* Checked before the duplicate-name check, whose cost grows with the square of the count. */
+    if (c->n_fields > COV_CSV_MAX_COLUMNS) {
+        char msg[160];
+        snprintf(msg, sizeof msg, "found %zu columns in the header, expected at most %d (the "
+                 "limit on columns, SQLite's own)", c->n_fields, COV_CSV_MAX_COLUMNS);
+        rc = fail_at(c, line0, col0, err, COV_EINPUT, msg);
+        goto fail;
+    }
     c->header = calloc(c->n_fields, sizeof *c->header);
     if (c->header == NULL) goto nomem;
     for (size_t i = 0; i < c->n_fields; i++) {

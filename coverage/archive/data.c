@@ -63,15 +63,24 @@ static long find_column(const cov_archive *a, const char *name)
  * blanks allowed. Returns 0 and *x on success. */
 static int parse_number(const char *s, double *x)
 {
-    char *end = NULL;
-    errno = 0;
-    double v = strtod(s, &end);
-    if (end == s) return -1;
-    while (*end == ' ' || *end == '\t') end++;
-    if (*end != '\0') return -1;
-    if (errno == ERANGE && fabs(v) > 1) return -1;   /* overflow; underflow keeps the tiny value */
-    *x = v;
-    return 0;
+    /* The same reader as import (cov_number_scan): text that import kept as text because it is
+     * not a decimal number ("0x1A", "inf") is not read as one here either. */
+    while (*s == ' ' || *s == '\t') s++;
+    size_t len = strlen(s);
+    while (len > 0 && (s[len - 1] == ' ' || s[len - 1] == '\t')) len--;
+    char small[128];
+    char *copy = NULL;
+    const char *t = s;
+    if (s[len] != '\0') {
+        copy = len < sizeof small ? small : malloc(len + 1);
+        if (copy == NULL) return -1;
+        memcpy(copy, s, len);
+        copy[len] = '\0';
+        t = copy;
+    }
+    int kind = cov_number_scan(t, len, NULL, x, NULL);
+    if (copy != small) free(copy);
+    return kind == COV_NUM_INT || kind == COV_NUM_REAL ? 0 : -1;
 }
 
 /* What a cell error message needs: the archive, the graph and the row being read. */
@@ -122,9 +131,14 @@ static int read_cell(reader *r, sqlite3_stmt *st, int c, size_t v, double *x)
         return COV_OK;
     }
     if (var->type == COV_LEVELS) {
-        cell_text(st, c, buf, sizeof buf);
+        /* Text is compared as stored: a fixed buffer would cut long level names short. */
+        const char *t = type == SQLITE_TEXT ? (const char *)sqlite3_column_text(st, c) : NULL;
+        if (t == NULL) {
+            cell_text(st, c, buf, sizeof buf);
+            t = buf;
+        }
         for (size_t k = 0; k < var->n_levels; k++) {
-            if (strcmp(buf, var->levels[k]) == 0) {
+            if (strcmp(t, var->levels[k]) == 0) {
                 *x = (double)k;
                 return COV_OK;
             }
@@ -137,7 +151,7 @@ static int read_cell(reader *r, sqlite3_stmt *st, int c, size_t v, double *x)
             at += (size_t)snprintf(list + at, sizeof list - at, "%s%s", k ? ", " : "",
                                    var->levels[k]);
         return cell_error(r, v, "found the level '%.200s', expected one of the declared levels: %s",
-                          buf, list);
+                          t, list);
     }
     double val;
     if (type == SQLITE_INTEGER || type == SQLITE_FLOAT) {
@@ -369,6 +383,13 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     size_t at = 0;
     for (size_t v = 0; v < g->n_vars; v++) {
         if (g->vars[v].role == COV_HIDDEN) continue;
+        /* shoal's own batch column is not a variable's recording, whatever the graph says. */
+        if (cov_archive_owned(a) && cov_ascii_casecmp(g->vars[v].name, "shoal_batch") == 0) {
+            rc = cov_fail(err, COV_EINPUT, cov_archive_path(a), "the graph's variable '%s' has "
+                          "the name of shoal's batch column, which holds import batches, not "
+                          "runs' values; expected another name", g->vars[v].name);
+            goto fail;
+        }
         long c = find_column(a, g->vars[v].name);
         if (c < 0) {
             if (at < sizeof absent)

@@ -43,6 +43,18 @@ size_t cov_text_width(const char *s);
 /* The length of the longest prefix of s[0..n) that is well-formed UTF-8 (n when all of it is). */
 size_t cov_utf8_valid_prefix(const char *s, size_t n);
 
+/* ---- numbers (coverage/base/number.c) --------------------------------------------------------- */
+
+/* What cov_number_scan found. */
+enum { COV_NUM_NONE, COV_NUM_INT, COV_NUM_REAL, COV_NUM_RANGE };
+/* Read s[0..len) (with s[len] == '\0') as a plain decimal number, the only syntax shoal reads
+ * anywhere: [+-]digits[.digits][(e|E)[+-]digits] or [+-].digits[...]; no blanks, hexadecimal,
+ * "inf" or "nan". Returns COV_NUM_INT (no point or exponent, at most 18 significant digits: *iv
+ * and *dv set), COV_NUM_REAL (*dv set, correctly rounded; a subnormal or zero on underflow),
+ * COV_NUM_RANGE (too large for a double) or COV_NUM_NONE. iv, dv and leading_zero may be NULL;
+ * *leading_zero is 1 for an integer part such as "007". */
+int cov_number_scan(const char *s, size_t len, long long *iv, double *dv, int *leading_zero);
+
 /* ---- safe files (coverage/base/files.c) ------------------------------------------------------- */
 
 /* "a directory", "a FIFO (named pipe)", "a character device", ... for a stat mode. */

@@ -151,8 +151,9 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
         return cov_fail(err, COV_EINPUT, "", "plan needs a graph file: shoal plan GRAPH [ARCHIVE]");
     const char *path = o->out_path != NULL ? o->out_path : DEFAULT_PLAN_PATH;
     const char *inputs[] = {o->graph_path, o->archive_path};
-    int rc = cov_output_check(path, 0, inputs, 2, "-o", err);
+    int rc = cov_plan_check_limits(o->budget, o->replicates, err);
     if (rc != COV_OK) goto done;
+    if ((rc = cov_output_check(path, 0, inputs, 2, "-o", err)) != COV_OK) goto done;
     if ((rc = cov_graph_parse_file(o->graph_path, &g, err)) != COV_OK) goto done;
     size_t n_inputs = 0;
     for (size_t v = 0; v < g->n_vars; v++) n_inputs += g->vars[v].role == COV_INPUT;

@@ -28,6 +28,7 @@ typedef struct {
     index_list *children;   /* per variable, parallel to g->vars */
     size_t *slot;           /* name hash table: variable index + 1, 0 for empty */
     size_t n_slots;         /* a power of two, kept at least twice the variable count */
+    size_t n_recorded;      /* inputs and outputs declared so far */
     int seen_default_effect, seen_margin, seen_design, seen_noise;
     cov_error *err;
 } parser;
@@ -291,6 +292,13 @@ static int take_range(parser *p, cov_type type, double *lo, double *hi)
     if (!(a->num < b->num))
         return perr(p, open->col, "found the %s range [%s, %s], expected LO < HI",
                     a->num == b->num ? "empty" : "inverted", a->text, b->text);
+    /* Coverage, discrepancy and the plan work with HI - LO and squares of distances: bounded
+     * magnitudes keep every one of them finite and nonzero. */
+    if (fabs(a->num) > COV_MAX_MAGNITUDE || fabs(b->num) > COV_MAX_MAGNITUDE ||
+        b->num - a->num < COV_MIN_RANGE_WIDTH)
+        return perr(p, open->col, "found the range [%s, %s], expected ends within +-%g and a "
+                    "width of at least %g (the limits on ranges)", a->text, b->text,
+                    COV_MAX_MAGNITUDE, COV_MIN_RANGE_WIDTH);
     *lo = a->num;
     *hi = b->num;
     return COV_OK;
@@ -307,6 +315,9 @@ static int take_levels(parser *p, cov_var *v)
         cov_token *t = NULL;
         rc = take_name(p, "a level name", &t);
         if (rc) return rc;
+        if (v->n_levels == COV_MAX_LEVELS)
+            return perr(p, t->col, "found more than %d levels, expected at most %d (the limit on "
+                        "levels of one variable)", COV_MAX_LEVELS, COV_MAX_LEVELS);
         for (size_t i = 0; i < v->n_levels; i++)
             if (strcmp(v->levels[i], t->text) == 0)
                 return perr(p, t->col, "found the level '%s' twice, expected distinct levels",
@@ -362,6 +373,13 @@ static int parse_declaration(parser *p, cov_role role)
         return expect_fail(p, type, "a type: real, integer, bool or levels");
     }
     next(p);
+    /* Claims grow with about the cube of the recorded variables: refuse before any of it. */
+    if (p->g->n_vars == COV_MAX_VARIABLES)
+        return perr(p, name->col, "found more than %d variables, expected at most %d (the limit "
+                    "on variables)", COV_MAX_VARIABLES, COV_MAX_VARIABLES);
+    if (role != COV_HIDDEN && ++p->n_recorded > COV_MAX_RECORDED)
+        return perr(p, name->col, "found more than %d inputs and outputs, expected at most %d "
+                    "(the limit on recorded variables)", COV_MAX_RECORDED, COV_MAX_RECORDED);
     cov_var *v = NULL;
     rc = add_var(p, name->text, &v);
     if (rc) return rc;

@@ -138,12 +138,9 @@ int cov_graph_lex_line(cov_tokens *toks, const char *name, int line, const char 
             if (text == NULL) return cov_fail(err, COV_ENOMEM, "", "out of memory");
             memcpy(text, q, len);
             text[len] = '\0';
-            char *end = NULL;
-            errno = 0;
-            double v = strtod(text, &end);
-            /* strtod also reads hexadecimal, inf and nan: the format has decimal numbers only. */
-            if (errno != 0 || end != text + len || !isfinite(v) ||
-                strpbrk(text, "xXnNiI") != NULL) {
+            double v;
+            /* The one decimal reader (no hexadecimal, inf or nan; a subnormal is a number). */
+            if (cov_parse_double(text, &v) != 0) {
                 int rc = cov_graph_fail(err, name, line, start_col,
                                         "found '%s', expected a decimal number", text);
                 free(text);

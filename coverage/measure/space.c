@@ -75,6 +75,8 @@ long cov_bin_of(const cov_var *v, size_t bins, double x)
      * scale bins / (hi - lo) is computed first so the counting pass can hoist it (a multiply per
      * value instead of a divide) and still give the same bin at every edge. */
     double b = floor((x - v->lo) * ((double)bins / (v->hi - v->lo)));
+    /* The graph's range limits keep this finite; converting a NaN to an integer is undefined. */
+    if (isnan(b)) return -1;
     if (b >= (double)bins) b = (double)bins - 1;
     if (b < 0) b = 0;
     return (long)b;
@@ -118,8 +120,10 @@ static inline uint16_t bin_code(const binner *b, double x)
     /* The same expression as cov_bin_of, so both give the same bin at every edge. */
     /* x >= lo here, so the product is non-negative and truncation equals floor (without a libm
      * call on processors lacking a rounding instruction). */
-    size_t k = (size_t)((x - b->lo) * b->scale);
-    return (uint16_t)(k >= b->nb ? b->nb - 1 : k);
+    double f = (x - b->lo) * b->scale;
+    /* The graph's range limits keep f finite; a NaN must not reach the integer conversion. */
+    if (!(f < (double)b->nb)) return (uint16_t)(f >= (double)b->nb ? b->nb - 1 : b->nb);
+    return (uint16_t)(size_t)f;
 }
 
 static int cmp_worst(const void *pa, const void *pb, const cov_pair *pairs)

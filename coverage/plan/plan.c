@@ -602,14 +602,32 @@ static void make_seeds(cov_plan *p, unsigned long seed)
         p->seeds[i] = (SEED_MUL * ((base + i) % SEED_MOD) + 12345UL) % SEED_MOD;
 }
 
+int cov_plan_check_limits(long budget, int replicates, cov_error *err)
+{
+    if (budget < -1 || budget > COV_PLAN_AUTO_CAP)
+        return cov_fail(err, COV_EINPUT, "", "found --budget %ld, expected a whole number from 0 "
+                        "to %d (the limit on configurations in a plan) or 'auto'", budget,
+                        COV_PLAN_AUTO_CAP);
+    if (replicates < 1 || replicates > COV_PLAN_MAX_REPLICATES)
+        return cov_fail(err, COV_EINPUT, "", "found --replicates %d, expected a whole number from "
+                        "1 to %d (the limit on replicates)", replicates, COV_PLAN_MAX_REPLICATES);
+    long configs = budget < 0 ? COV_PLAN_AUTO_CAP : budget;
+    if ((double)configs * replicates > COV_PLAN_MAX_RUNS)
+        return cov_fail(err, COV_EINPUT, "", "found up to %ld configurations x %d replicates = "
+                        "%.0f runs, expected at most %d (the limit on runs in a plan)%s", configs,
+                        replicates, (double)configs * replicates, COV_PLAN_MAX_RUNS,
+                        budget < 0 ? "; --budget auto may plan up to its cap" : "");
+    return COV_OK;
+}
+
 int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
                   const cov_assessments *a, const cov_power_options *opt,
                   const cov_coverage_options *copt, long budget, int replicates,
                   cov_plan **out, cov_error *err)
 {
     *out = NULL;
-    if (budget < -1) return cov_fail(err, COV_EINPUT, "", "--budget expects a whole number >= 0 or 'auto'");
-    if (replicates < 1) return cov_fail(err, COV_EINPUT, "", "--replicates expects a whole number >= 1");
+    int rc = cov_plan_check_limits(budget, replicates, err);
+    if (rc != COV_OK) return rc;
     unsigned long seed = copt != NULL ? copt->seed : 20261202UL;
     struct plan_state st;
     memset(&st, 0, sizeof st);
@@ -619,7 +637,7 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     st.opt = opt;
     struct delta_cache dc = {NULL, 0, 0};
     st.dc = &dc;
-    int rc = COV_ENOMEM;
+    rc = COV_ENOMEM;
     double *bound = NULL, *part = NULL;
     unsigned char *fresh = NULL;
     cov_plan *p = calloc(1, sizeof *p);

@@ -30,8 +30,17 @@ typedef struct {
     int from_noise;       /* sigma taken from the graph's declared noise SD */
 } cov_plan_claim;
 
-/* Configurations --budget auto may plan at most. */
+/* Configurations --budget auto may plan at most; also the largest --budget. */
 #define COV_PLAN_AUTO_CAP 5000
+/* Seeds per configuration at most, and runs (configurations x seeds) in one plan at most: a
+ * plan file of a million lines is already more than one campaign runs, and every seed costs
+ * memory before the file is written. */
+#define COV_PLAN_MAX_REPLICATES 1000
+#define COV_PLAN_MAX_RUNS 1000000
+
+/* Refuse a budget or replicate count beyond the limits above, before any work: COV_EINPUT naming
+ * the limit, else COV_OK. */
+int cov_plan_check_limits(long budget, int replicates, cov_error *err);
 
 typedef struct {
     size_t n_configs;     /* planned configurations */

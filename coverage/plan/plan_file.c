@@ -120,10 +120,8 @@ static int parse_cell(const cov_var *v, const char *text, double *out)
         else return -1;
         return 0;
     }
-    char *end = NULL;
-    errno = 0;
-    double x = strtod(text, &end);
-    if (errno != 0 || end == text || *end != '\0' || !isfinite(x)) return -1;
+    double x;
+    if (cov_parse_double(text, &x) != 0) return -1;
     if (x < v->lo || x > v->hi) return -1;
     if (v->type == COV_INTEGER && x != floor(x)) return -1;
     *out = x;
