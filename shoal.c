@@ -268,16 +268,31 @@ int main(int argc, char **argv)
 
     cov_error err = {{0}, {0}};
     int adequate = 1;
-    int rc = cmd->run(&o, stdout, stderr, &adequate, &err);
-    if (fflush(stdout) != 0 && rc == COV_OK) {
+    /* Names from the graph and the archive reach the tables: their control characters are shown
+     * as escapes (JSON escapes its own; CSV only when it goes to a terminal). */
+    FILE *out = stdout, *filtered = NULL;
+    if (o.format == COV_FMT_TABLE || (o.format == COV_FMT_CSV && isatty(STDOUT_FILENO))) {
+        filtered = cov_term_filter_open(stdout);
+        if (filtered == NULL) {
+            fprintf(stderr, "shoal: out of memory\n");
+            return EXIT_BAD_INPUT;
+        }
+        out = filtered;
+    }
+    int rc = cmd->run(&o, out, stderr, &adequate, &err);
+    int bad_out = filtered != NULL && fclose(filtered) != 0;
+    if ((fflush(stdout) != 0 || bad_out) && rc == COV_OK) {
         fprintf(stderr, "shoal: could not write the output: %s\n", strerror(errno));
         return EXIT_BAD_INPUT;
     }
     if (rc != COV_OK) {
-        if (err.where[0] != '\0')
-            fprintf(stderr, "shoal: %s: %s\n", err.where, err.msg);
-        else
-            fprintf(stderr, "shoal: %s\n", err.msg[0] ? err.msg : "failed");
+        fputs("shoal: ", stderr);
+        if (err.where[0] != '\0') {
+            cov_term_text(stderr, err.where);
+            fputs(": ", stderr);
+        }
+        cov_term_text(stderr, err.msg[0] ? err.msg : "failed");
+        fputc('\n', stderr);
         return EXIT_BAD_INPUT;
     }
     return adequate ? EXIT_ADEQUATE : EXIT_NOT_ADEQUATE;

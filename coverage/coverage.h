@@ -488,6 +488,13 @@ typedef struct {
  * -1 (coverage/base/number.c). */
 int cov_parse_double(const char *s, double *out);
 
+/* A write-only stream over under that shows control characters as visible escapes ("\x1B",
+ * "\r", "\u009B"), letting through only shoal's own colour codes; closing it flushes under but
+ * does not close it. NULL when out of memory (coverage/base/term.c). */
+FILE *cov_term_filter_open(FILE *under);
+/* Write s to out with the same escapes. */
+void cov_term_text(FILE *out, const char *s);
+
 /* Fill o with the defaults written in README.md. */
 void cov_options_default(cov_options *o);
 

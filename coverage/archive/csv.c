@@ -4,11 +4,14 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "coverage/archive/archive.h"
 
 /* One large read buffer: the importer is bound by parsing and SQLite, not by read(2) calls. */
 #define CSV_BUFFER_BYTES (1u << 20)
+/* A small file gets a buffer of its own size (at least this much), not the whole megabyte. */
+#define CSV_BUFFER_MIN 4096
 /* A field or record buffer starts this large and doubles as needed. */
 #define CSV_RECORD_START 4096
 
@@ -16,6 +19,7 @@ struct cov_csv {
     FILE *f;
     char *path;
     unsigned char *buf;
+    size_t buf_size;
     size_t len, pos;
     int eof;
     char delim;
@@ -38,7 +42,7 @@ struct cov_csv {
 static int refill(cov_csv *c)
 {
     if (c->eof) return 0;
-    c->len = fread(c->buf, 1, CSV_BUFFER_BYTES, c->f);
+    c->len = fread(c->buf, 1, c->buf_size, c->f);
     c->pos = 0;
     if (c->len == 0) {
         c->eof = 1;
@@ -309,14 +313,20 @@ int cov_csv_open(const char *path, cov_csv **out, cov_error *err)
     cov_csv *c = calloc(1, sizeof *c);
     if (c == NULL) return fail_nomem(err);
     c->path = strdup(path);
-    c->buf = malloc(CSV_BUFFER_BYTES);
-    if (c->path == NULL || c->buf == NULL) goto nomem;
+    if (c->path == NULL) goto nomem;
     char why[160];
     if (cov_open_regular(path, &c->f, why, sizeof why) != 0) {
         rc = cov_fail(err, errno == 0 || errno == ENOENT ? COV_EINPUT : COV_EIO, path,
                       "cannot open: %s", why);
         goto fail;
     }
+    struct stat sb;
+    c->buf_size = CSV_BUFFER_BYTES;
+    if (fstat(fileno(c->f), &sb) == 0 && sb.st_size >= 0 &&
+        (unsigned long long)sb.st_size < CSV_BUFFER_BYTES)
+        c->buf_size = (size_t)sb.st_size < CSV_BUFFER_MIN ? CSV_BUFFER_MIN : (size_t)sb.st_size;
+    c->buf = malloc(c->buf_size);
+    if (c->buf == NULL) goto nomem;
     c->line = 1;
     c->col = 1;
     if (refill(c) < 0) {

@@ -14,8 +14,13 @@
 void cov_emit_json_string(FILE *f, const char *s);
 /* Write a JSON number; NAN and infinities become null, since JSON has no such numbers. */
 void cov_emit_json_number(FILE *f, double x);
-/* Write s as one RFC 4180 CSV field: quoted when it holds a comma, quote, CR or LF. */
+/* Write s as one RFC 4180 CSV field: quoted when it holds a comma, quote, CR or LF; a text that a
+ * spreadsheet would run as a formula (starting with =, +, -, @, tab or CR) gets a leading
+ * apostrophe. Numbers go through cov_emit_csv_number and are never prefixed. */
 void cov_emit_csv_field(FILE *f, const char *s);
+/* s without the apostrophe cov_emit_csv_field put before a formula-like text (for readers of
+ * shoal's own CSV files); s itself otherwise. */
+const char *cov_csv_unneutralise(const char *s);
 /* Write a number for CSV: %.10g, empty for NAN. */
 void cov_emit_csv_number(FILE *f, double x);
 /* A progress callback for cov_data_read: ctx is the FILE * of notes (a terminal); it rewrites one

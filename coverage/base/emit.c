@@ -1,6 +1,7 @@
 /* Escaping for the JSON and CSV writers of every command. See LICENSE. */
 #include <math.h>
 #include <stdio.h>
+#include <string.h>
 
 #include "coverage/base/base.h"
 
@@ -31,17 +32,32 @@ void cov_emit_json_number(FILE *f, double x)
     else fprintf(f, "%.10g", x);
 }
 
+/* Cells a spreadsheet would run as a formula start with one of these (OWASP, "CSV Injection":
+ * =, +, -, @, tab and carriage return); such a cell gets a leading apostrophe, the usual practice,
+ * which spreadsheets show as text. */
+static int formula_start(const char *s)
+{
+    return s[0] != '\0' && strchr("=+-@\t\r", s[0]) != NULL;
+}
+
+const char *cov_csv_unneutralise(const char *s)
+{
+    return s != NULL && s[0] == '\'' && formula_start(s + 1) ? s + 1 : s;
+}
+
 void cov_emit_csv_field(FILE *f, const char *s)
 {
     const char *p = s ? s : "";
-    int quote = 0;
+    int quote = 0, neutralise = formula_start(p);
     for (const char *q = p; *q; q++)
         if (*q == ',' || *q == '"' || *q == '\r' || *q == '\n') quote = 1;
     if (!quote) {
+        if (neutralise) fputc('\'', f);
         fputs(p, f);
         return;
     }
     fputc('"', f);
+    if (neutralise) fputc('\'', f);
     for (; *p; p++) {
         if (*p == '"') fputc('"', f);
         fputc(*p, f);

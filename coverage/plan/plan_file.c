@@ -106,6 +106,7 @@ int cov_plan_write_csv(const cov_graph *g, const cov_plan *p, const char *path, 
 
 static int parse_cell(const cov_var *v, const char *text, double *out)
 {
+    text = cov_csv_unneutralise(text);
     if (v->type == COV_LEVELS) {
         for (size_t k = 0; k < v->n_levels; k++)
             if (strcmp(v->levels[k], text) == 0) {
@@ -154,7 +155,7 @@ int cov_plan_read_csv(const cov_graph *g, const char *path, double **rows, size_
     seed_name(g, sname, sizeof sname);
     if (var_of == NULL) goto nomem;
     for (size_t i = 0; i < nf; i++) {
-        const char *h = cov_csv_header(csv, i);
+        const char *h = cov_csv_unneutralise(cov_csv_header(csv, i));
         long v = cov_graph_find(g, h);
         var_of[i] = -1;
         if (v >= 0 && g->vars[v].role == COV_INPUT) var_of[i] = v;

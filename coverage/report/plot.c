@@ -560,6 +560,7 @@ int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *
             struct stat st;
             if (stat(path, &st) != 0 || st.st_size == 0)
                 return cov_fail(err, COV_ENOPLOT, "", "gnuplot did not write %s", path);
+            if (e == 0 && (rc = cov_svg_make_wellformed(path, err)) != COV_OK) return rc;
         }
     }
     return COV_OK;

@@ -150,6 +150,10 @@ void cov_plots_free(cov_plots *p);
  * plain message when gnuplot is not on PATH, fails, or leaves a file unwritten (the caller carries
  * on without plots); COV_ENOMEM. gnuplot's warnings, if any, go to note (may be NULL). */
 int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *err);
+/* Rewrite the SVG file at path so that "]]>" outside CDATA sections reads "]]&gt;" (gnuplot leaves
+ * '>' in names unescaped; XML 1.0 section 2.4 forbids "]]>" in character data). COV_OK, COV_EIO
+ * or COV_ENOMEM (coverage/report/svg_safe.c). */
+int cov_svg_make_wellformed(const char *path, cov_error *err);
 
 /* Shared by the two plot files: coverage/plot.c (the list, the script pieces, the coverage plots)
  * and coverage/plot_claims.c (the claim plots). The usual plot height in pixels; the bytes of a

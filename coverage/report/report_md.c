@@ -12,7 +12,7 @@
 static void md_text(FILE *out, const char *s)
 {
     for (const char *p = s ? s : ""; *p; p++) {
-        if (*p == '\n' || *p == '\r') fputc(' ', out);
+        if ((unsigned char)*p < 0x20 || *p == 0x7f) fputc(' ', out);
         else {
             if (strchr("\\`*_{}[]<>()#!|&~", *p) != NULL) fputc('\\', out);
             fputc(*p, out);
@@ -33,7 +33,8 @@ static void md_name(FILE *out, const char *s)
     if (longest) fputc(' ', out);
     for (const char *p = s; *p; p++) {
         if (*p == '|') fputc('\\', out);
-        fputc(*p == '\n' ? ' ' : *p, out);
+        /* A CR or LF would end the table row; other control characters show as nothing. */
+        fputc((unsigned char)*p < 0x20 || *p == 0x7f ? ' ' : *p, out);
     }
     if (longest) fputc(' ', out);
     for (size_t k = 0; k <= longest; k++) fputc('`', out);
