@@ -48,7 +48,7 @@ FUZZ_SECONDS ?= 60
 FUZZ_CC   ?= clang
 
 .PHONY: all deps deps-check demo check check-arch check-slow check-asan check-valgrind bench install \
-        clean fuzz
+        clean fuzz check-faults
 
 all: $(SHOAL) $(FIXTURE_BIN)
 
@@ -127,6 +127,23 @@ bench: deps deps-check
 	@$(MAKE) --no-print-directory all $(BENCH_BIN)
 	@SHOAL=$(SHOAL) BUILD=$(BUILD) PYTHON=$(PYTHON) sh tests/bench/run.sh
 
+# Allocation faults: the library built with malloc, calloc, realloc and strdup renamed to the
+# counting allocator of tests/fault/fault_alloc.c (this build only), under ASan and LeakSanitizer;
+# every entry point is run with each of its allocations failing in turn.
+FAULT_DEFS = -Dmalloc=cov_fault_malloc -Dcalloc=cov_fault_calloc -Drealloc=cov_fault_realloc \
+             -Dstrdup=cov_fault_strdup
+$(BUILD)/fault/fault_run: $(BUILD)/tests/fault/fault_run.o $(BUILD)/tests/fault/fault_alloc.o \
+                          $(BUILD)/libshoal.a
+	@mkdir -p $(dir $@)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+check-faults: deps
+	@$(MAKE) --no-print-directory BUILD=build-fault CPPFLAGS="$(FAULT_DEFS)" \
+	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all" \
+	  LDFLAGS="-fsanitize=address,undefined" build-fault/fault/fault_run
+	@rm -rf build-fault/work && mkdir -p build-fault/work
+	@PATH=/nonexistent ASAN_OPTIONS=detect_leaks=1 build-fault/fault/fault_run build-fault/work
+	@sh tests/fault/io_fault.sh
+
 # Each libFuzzer harness for FUZZ_SECONDS, seeded from fixtures/, with ASan and UBSan; a crash
 # leaves its input in build-fuzz/artifacts/ (copy it to tests/fuzz/regress/NAME/).
 fuzz: deps
@@ -143,6 +160,6 @@ install: $(SHOAL)
 	install -m 644 coverage/shoal.graph.5 $(DESTDIR)$(PREFIX)/share/man/man5/shoal.graph.5
 
 clean:
-	rm -rf build build-asan build-fuzz shoal-report
+	rm -rf build build-asan build-fuzz build-fault shoal-report
 
 -include $(LIB_OBJ:.o=.d) $(BUILD)/shoal.d $(wildcard $(BUILD)/tests/fuzz/*.d) $(TEST_BIN:%=%.d) $(PROBE_BIN:%=%.d) $(BENCH_SRC:%.c=$(BUILD)/%.d)

@@ -157,7 +157,8 @@ int cov_archive_open(const char *path, const char *table, cov_archive **out, cov
         goto fail;
     }
     if (sqlite3_exec(a->db, "SELECT count(*) FROM sqlite_master", NULL, NULL, NULL) != SQLITE_OK) {
-        rc = sql_fail(err, a->db, path, "cannot read the archive");
+        rc = cov_archive_explain_journal(a->db, path, err);
+        if (rc == COV_OK) rc = sql_fail(err, a->db, path, "cannot read the archive");
         goto fail;
     }
     if (table_columns(a->db, table, &a->cols, &a->n_cols) != 0) {

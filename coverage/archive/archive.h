@@ -59,6 +59,11 @@ void cov_batches_free(cov_batch *b, size_t n);
 int cov_import_into(const char *csv_path, const char *db_path, const char *table, int again,
                     long long *batch_id, size_t *rows, cov_import_overlap *ov, cov_error *err);
 
+/* After a failed first read of the archive at path on the read-only connection db: when a rollback
+ * journal left by an interrupted write (a "hot journal") is the cause, fill err with what
+ * happened and how to recover, and return COV_EINPUT; else COV_OK (coverage/archive/archive_create.c). */
+int cov_archive_explain_journal(struct sqlite3 *db, const char *path, cov_error *err);
+
 /* path as a file name SQLite will not read as a URI ("file:x" becomes "./file:x"); malloc'd,
  * NULL when out of memory (coverage/archive/archive_create.c). */
 char *cov_sqlite_filename(const char *path);

@@ -8,6 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <sqlite3.h>
 #include <unistd.h>
 
 #include "coverage/archive/archive.h"
@@ -26,6 +27,28 @@ char *cov_sqlite_filename(const char *path)
     if (out == NULL) return NULL;
     snprintf(out, len + 3, "%s%s", uri ? "./" : "", path);
     return out;
+}
+
+int cov_archive_explain_journal(sqlite3 *db, const char *path, cov_error *err)
+{
+    int code = sqlite3_errcode(db);
+    if (code != SQLITE_READONLY && code != SQLITE_CANTOPEN && code != SQLITE_BUSY) return COV_OK;
+    size_t len = strlen(path) + 16;
+    char *journal = malloc(len);
+    if (journal == NULL) return COV_OK;
+    snprintf(journal, len, "%s-journal", path);
+    struct stat sb;
+    int hot = stat(journal, &sb) == 0 && sb.st_size > 0;
+    free(journal);
+    if (!hot) return COV_OK;
+    /* SQLite rolls a hot journal back only on a connection that may write; analysis opens the
+     * archive read-only and leaves the file alone, so it explains instead. */
+    return cov_fail(err, COV_EINPUT, path, "found an unfinished write: the rollback journal "
+                    "'%s-journal' was left by an import (or another program) stopped while "
+                    "writing. The archive's committed data are intact. Any program that opens it "
+                    "for writing rolls the unfinished part back, e.g. `sqlite3 '%s' 'PRAGMA "
+                    "quick_check'` or the next `shoal import` into it; analysis opens archives "
+                    "read-only and does not", path, path);
 }
 
 /* The directory part of path ("." when it has none) and a temporary name beside it. */

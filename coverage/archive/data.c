@@ -79,6 +79,11 @@ static int parse_number(const char *s, double *x)
         t = copy;
     }
     int kind = cov_number_scan(t, len, NULL, x, NULL);
+    /* "nan" is how many simulators write a missing output: a missing cell, not a number. */
+    if (kind == COV_NUM_NONE && cov_ascii_casecmp(t, "nan") == 0) {
+        *x = NAN;
+        kind = COV_NUM_REAL;
+    }
     if (copy != small) free(copy);
     return kind == COV_NUM_INT || kind == COV_NUM_REAL ? 0 : -1;
 }

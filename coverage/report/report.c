@@ -321,15 +321,24 @@ static FILE *open_in(const char *dir, const char *name, cov_error *err, int *rc)
         return NULL;
     }
     FILE *f = fopen(path, "w");
-    if (f == NULL) *rc = cov_fail(err, COV_EIO, "", "cannot write %s: %s", path, strerror(errno));
+    /* dir is the temporary directory beside the report: the message names the file and why. */
+    if (f == NULL) *rc = cov_fail(err, COV_EIO, "", "cannot write the report's %s: %s%s", name,
+                                  strerror(errno), errno == ENOSPC ? " (the disk is full)" : "");
     return f;
 }
 
 static int close_checked(FILE *f, const char *dir, const char *name, cov_error *err)
 {
+    (void)dir;
     int bad = ferror(f);
-    if (fclose(f) != 0 || bad)
-        return cov_fail(err, COV_EIO, "", "could not finish writing %s/%s", dir, name);
+    errno = 0;
+    int closed = fflush(f) == 0;
+    int e = errno;
+    if (fclose(f) != 0 && e == 0) e = errno;
+    if (!closed || bad)
+        return cov_fail(err, COV_EIO, "", "could not finish writing the report's %s: %s%s", name,
+                        e ? strerror(e) : "write error", e == ENOSPC || bad ? " (is the disk "
+                        "full?)" : "");
     return COV_OK;
 }
 
