@@ -233,7 +233,12 @@ static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
     return COV_OK;
 }
 
-/* Append printf-style text to a heap string, separated by "; ". Out of memory keeps the old text. */
+/* Set when a note could not be stored: cov_assess then fails with COV_ENOMEM rather than hand
+ * out an assessment that lacks a caution. (shoal assesses from one thread.) */
+static int note_lost;
+
+/* Append printf-style text to a heap string, separated by "; ". Out of memory keeps the old text
+ * and sets note_lost. */
 static void note_add(char **s, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 static void note_add(char **s, const char *fmt, ...)
 {
@@ -244,7 +249,10 @@ static void note_add(char **s, const char *fmt, ...)
     va_end(ap);
     size_t old = *s ? strlen(*s) : 0;
     char *n = realloc(*s, old + strlen(buf) + 3);
-    if (n == NULL) return;
+    if (n == NULL) {
+        note_lost = 1;
+        return;
+    }
     if (old) strcpy(n + old, "; ");
     strcpy(n + old + (old ? 2 : 0), buf);
     *s = n;
@@ -913,7 +921,9 @@ int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
             continue;
         }
         a->alpha = alpha;
+        note_lost = 0;
         rc = assess_claim(&x, cl, opt, alpha, a);
+        if (rc == COV_OK && note_lost) rc = COV_ENOMEM;
         if (rc == COV_ENUMERIC) {
             cov_fail(err, rc, "", "a power computation did not converge for the claim %s %s %s",
                      g->vars[cl->treatment].name, cov_claim_arrow(cl->kind),

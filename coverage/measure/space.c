@@ -511,6 +511,8 @@ static int space_filling(const cov_graph *g, const cov_data *d, unsigned long se
     if ((sub = sample_rows(rows, n, limit, seed ^ 0xcd2UL, &m)) == NULL) goto done;
     if ((pts = unit_points(g, d, c->numeric, nn, sub, m)) == NULL) goto done;
     c->cd2 = cov_cd2(pts, m, nn);
+    /* With m and nn above 0, NAN means cov_cd2 ran out of memory: not a figure to report. */
+    if (isnan(c->cd2)) goto done;
     c->cd2_random = cov_cd2_random(m, nn);
     c->cd_subsampled = m < n;
     c->cd_n = m;

@@ -519,6 +519,7 @@ int cov_support_measure(const cov_graph *g, const cov_claims *c, const cov_data 
         int rc = support_one(g, &c->items[k], d, opt, it, err);
         if (rc != COV_OK) {
             cov_supports_free(s);
+            if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory measuring support");
             return rc;
         }
     }

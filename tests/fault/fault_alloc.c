@@ -8,9 +8,11 @@
 #undef realloc
 #undef strdup
 #include <stdint.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include <sanitizer/common_interface_defs.h>
 #include <sqlite3.h>
 
 #include "tests/fault/fault.h"
@@ -26,6 +28,11 @@ static int should_fail(void *site)
     count++;
     if (fail_at == 0 || count != fail_at) return 0;
     failed = 1;
+    /* FAULT_TRACE=1: show where each failure is injected (to find a site fault_run reports). */
+    if (getenv("FAULT_TRACE") != NULL) {
+        fprintf(stderr, "fault: allocation %lu fails here:\n", count);
+        __sanitizer_print_stack_trace();
+    }
     size_t i = 0;
     while (i < n_sites && sites[i] != site) i++;
     if (i == n_sites && n_sites < MAX_SITES) sites[n_sites++] = site;

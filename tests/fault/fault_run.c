@@ -21,7 +21,7 @@
 #include "tests/fault/fault.h"
 
 static char work[4096];
-static char graph[4200], csv[4200], archive[4200], snapshot[4200], target[4200], outdir[4200];
+static char graph[4200], csv[4200], csv2[4200], archive[4200], snapshot[4200], target[4200], outdir[4200];
 
 typedef int (*entry_fn)(void);
 static cov_error err;
@@ -51,7 +51,7 @@ static int run_import_existing(void)
 {
     long long batch;
     size_t rows;
-    return cov_import_csv(csv, archive, NULL, &batch, &rows, &err);
+    return cov_import_csv(csv2, archive, NULL, &batch, &rows, &err);
 }
 static int run_cmd(int (*fn)(const cov_options *, FILE *, FILE *, int *, cov_error *))
 {
@@ -160,7 +160,8 @@ static int check_entry(const char *name, entry_fn fn, enum effect eff, size_t *t
         return 1;
     }
     size_t bad = 0, failed_clean = 0, survived = 0;
-    for (unsigned long k = 1; k <= n; k++) {
+    const char *from = getenv("FAULT_K");
+    for (unsigned long k = from ? strtoul(from, NULL, 10) : 1; k <= n; k++) {
         reset_outputs(eff);
         memset(&err, 0, sizeof err);
         fault_arm(k);
@@ -212,6 +213,7 @@ int main(int argc, char **argv)
     snprintf(work, sizeof work, "%s", argv[1]);
     snprintf(graph, sizeof graph, "%s/g.graph", work);
     snprintf(csv, sizeof csv, "%s/runs.csv", work);
+    snprintf(csv2, sizeof csv2, "%s/more.csv", work);
     snprintf(archive, sizeof archive, "%s/runs.db", work);
     snprintf(snapshot, sizeof snapshot, "%s/snapshot.db", work);
     snprintf(target, sizeof target, "%s/target.out", work);
@@ -228,6 +230,13 @@ int main(int argc, char **argv)
         fprintf(c, "%d,%.2f,%d,%d,%s,%.3f\n", i, (i * 37 % 100) / 10.0, 1 + i % 5, i % 2,
                 i % 3 ? "north" : "south", (i * 37 % 100) / 10.0 + (i % 7) * 0.3);
     fclose(g);
+    fclose(c);
+    /* More runs for the import into the existing archive (new rows, so not refused as copies). */
+    if ((c = fopen(csv2, "w")) == NULL) return 1;
+    fputs("run,load,crew,fast,site,wait\n", c);
+    for (int i = 40; i < 60; i++)
+        fprintf(c, "%d,%.2f,%d,%d,%s,%.3f\n", i, (i * 37 % 100) / 10.0, 1 + i % 5, i % 2,
+                i % 3 ? "north" : "south", (i * 37 % 100) / 10.0 + (i % 7) * 0.3);
     fclose(c);
     long long batch;
     size_t rows;
