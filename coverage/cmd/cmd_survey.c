@@ -168,8 +168,10 @@ static void print_share(FILE *out, const char *label, double x)
     else fprintf(out, "%s not computed", label);
 }
 
+/* order: room for one index per claim, allocated before the report was written (so that running
+ * out of memory here cannot follow a report already in place). */
 static void print_verdict(const cov_findings *f, const cov_report_info *info, const char *dir,
-                          FILE *out)
+                          size_t *order, FILE *out)
 {
     const cov_options *o = f->opt;
     const cov_graph *g = f->graph;
@@ -215,8 +217,7 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
         fputs(".\n", out);
     if (info->gate_note) fprintf(out, "%s\n", info->gate_note);
 
-    size_t *order = malloc((f->claims->n ? f->claims->n : 1) * sizeof *order);
-    if (order != NULL) {
+    {
         cov_report_order(f, order);
         size_t shown = 0, left = 0;
         for (size_t k = 0; k < f->claims->n; k++) {
@@ -251,7 +252,6 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
             fputc('\n', out);
         }
         if (left > 0) fprintf(out, "  ... and %zu more in the report\n", left);
-        free(order);
     }
     if (info->plot_note) {
         fputs("\nplots skipped: ", out);
@@ -286,7 +286,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     cov_snapshot *snaps = NULL;
     size_t n_snapshots = 0;
     double *planned = NULL;
-    size_t n_planned = 0;
+    size_t n_planned = 0, *order = NULL;
     char tmp[4096] = "", gate[256], plot_msg[sizeof err->msg + 64], at[32];
     int rc;
     *adequate = 0;
@@ -406,6 +406,10 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     cov_report_info info = {at, all_ample && !missed, missed ? gate : NULL, plot_note, store,
                             history_path, snaps, n_snapshots};
     step_note(&o, note, "writing the report");
+    if ((order = malloc((claims->n ? claims->n : 1) * sizeof *order)) == NULL) {
+        rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
+        goto fail;
+    }
     if ((rc = cov_report_write(&f, &info, tmp, err)) != COV_OK) goto fail;
     if (store != COV_HISTORY_NONE &&
         (rc = cov_report_history_record(history_path, store == COV_HISTORY_SIDE, &f, now_snap,
@@ -417,12 +421,13 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     if (!o.quiet) {
         if (o.format == COV_FMT_JSON) cov_report_summary_json(&f, &info, out);
         else if (o.format == COV_FMT_CSV) cov_report_claims_csv(&f, out);
-        else print_verdict(&f, &info, dir, out);
+        else print_verdict(&f, &info, dir, order, out);
     }
     *adequate = info.adequate;
     rc = COV_OK;
 fail:
     if (tmp[0] != '\0') remove_flat_dir(tmp);
+    free(order);
     free(snaps);
     free(planned);
     cov_supports_free(sp);

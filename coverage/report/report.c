@@ -362,6 +362,7 @@ int cov_report_write(const cov_findings *f, const cov_report_info *info, const c
 
     if ((out = open_in(dir, "report.md", err, &rc)) == NULL) return rc;
     rc = cov_report_markdown(f, info, out);
+    if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory writing report.md");
     int rc2 = close_checked(out, dir, "report.md", err);
     if (rc != COV_OK || rc2 != COV_OK) return rc != COV_OK ? rc : rc2;
 

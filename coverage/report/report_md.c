@@ -47,7 +47,7 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
     long long count[3];
     cov_report_count_verdicts(f, count);
     size_t *order = malloc((f->claims->n ? f->claims->n : 1) * sizeof *order);
-    if (order == NULL) return COV_ENOMEM;
+    if (order == NULL) return COV_ENOMEM;   /* the caller gives the message */
     cov_report_order(f, order);
     char buf[160];
     fputs("# Survey of the campaign\n\nGraph ", out);

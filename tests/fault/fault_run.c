@@ -161,7 +161,9 @@ static int check_entry(const char *name, entry_fn fn, enum effect eff, size_t *t
     }
     size_t bad = 0, failed_clean = 0, survived = 0;
     const char *from = getenv("FAULT_K");
-    for (unsigned long k = from ? strtoul(from, NULL, 10) : 1; k <= n; k++) {
+    const char *last = getenv("FAULT_K_LAST");
+    unsigned long stop = last ? strtoul(last, NULL, 10) : n;
+    for (unsigned long k = from ? strtoul(from, NULL, 10) : 1; k <= n && k <= stop; k++) {
         reset_outputs(eff);
         memset(&err, 0, sizeof err);
         fault_arm(k);
