@@ -91,7 +91,7 @@ int main(int argc, char **argv)
             n++;
         }
         closedir(d);
-        qsort(names, n, sizeof *names, cmp);
+        if (n > 1) qsort(names, n, sizeof *names, cmp);
         for (size_t k = 0; k < n; k++) {
             bad |= replay_file(names[k]);
             free(names[k]);
