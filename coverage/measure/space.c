@@ -338,7 +338,8 @@ static int count_pass(const cov_data *d, const size_t *inputs, pass_state *s)
     const size_t blk = gr.n_groups > 0 ? COV_GROUP_BLOCK : COV_BLOCK;
     uint16_t *codes = malloc((K ? K : 1) * blk * sizeof *codes);
     if (rc != COV_OK || codes == NULL) {
-            grouping_free(&gr);
+        free(codes);
+        grouping_free(&gr);
         return COV_ENOMEM;
     }
     for (size_t i0 = 0; i0 < n; i0 += blk) {
