@@ -326,6 +326,11 @@ static void csv_names(FILE *out, const cov_graph *g, const size_t *vars, size_t 
         if (name_needs_inner(s) || strpbrk(s, ",\r\n") != NULL) outer = 1;
     }
     if (outer) fputc('"', out);
+    /* A cell a spreadsheet would run as a formula gets a leading apostrophe, as
+     * cov_emit_csv_field gives one. */
+    if (n > 0 && !name_needs_inner(g->vars[vars[0]].name) && g->vars[vars[0]].name[0] != '\0' &&
+        strchr("=+-@\t\r", g->vars[vars[0]].name[0]) != NULL)
+        fputc('\'', out);
     for (size_t k = 0; k < n; k++) {
         const char *s = g->vars[vars[k]].name;
         int inner = name_needs_inner(s);
