@@ -142,7 +142,8 @@ check-faults: deps
 	  LDFLAGS="-fsanitize=address,undefined" build-fault/fault/fault_run
 	@rm -rf build-fault/work && mkdir -p build-fault/work
 	@PATH=/nonexistent ASAN_OPTIONS=detect_leaks=1 build-fault/fault/fault_run build-fault/work
-	@sh tests/fault/io_fault.sh
+	@$(MAKE) --no-print-directory $(SHOAL)
+	@SHOAL=$(SHOAL) sh tests/cli_io_faults.sh
 
 # Each libFuzzer harness for FUZZ_SECONDS, seeded from fixtures/, with ASan and UBSan; a crash
 # leaves its input in build-fuzz/artifacts/ (copy it to tests/fuzz/regress/NAME/).
