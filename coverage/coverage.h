@@ -316,7 +316,13 @@ typedef struct {
     int shape_pure;       /* 1: against pure error from replicated configurations */
     char *caution;        /* shape and never-run-level cautions, "; "-joined, or NULL (they are
                              also in reason, so every output that shows the reason shows them) */
+    size_t fixed_var;     /* untestable on these runs: the outcome or treatment that takes one
+                             value in every run the claim uses; SIZE_MAX when none */
+    double fixed_value;   /* that value (level index for a level set), or NAN */
 } cov_assessment;
+
+/* The value a variable never leaves, as text: the level name, true/false, or the number. */
+void cov_value_text(const cov_var *v, double x, char *buf, size_t size);
 
 typedef struct {
     cov_power_options opt;

@@ -490,11 +490,28 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     if (pw_xfit_solve(m, idx, k, t, &fit) != PW_OK) goto fail;
     double n = m->n;
 
+    /* An outcome or treatment with one value in every run the claim uses: no number of runs
+     * like these can test it, so it is untestable on these runs, never ample and never thin. */
+    int x_constant = 1;
+    for (size_t a0 = k - t; a0 < k; a0++)
+        if (pw_moments_at(m, idx[a0], idx[a0]) > 0) x_constant = 0;
+    int y_constant = !(pw_moments_at(m, idx[k], idx[k]) > 0);
+    if ((y_constant || x_constant) && n_rows > 0) {
+        size_t v = y_constant ? c->outcome : c->treatment;
+        char val[160];
+        a->fixed_var = v;
+        a->fixed_value = d->col[v][rows[0]];
+        cov_value_text(&g->vars[v], a->fixed_value, val, sizeof val);
+        a->verdict = COV_BLIND;
+        note_add(&a->reason, "untestable on these runs: %s '%s' is %s in all %zu runs the claim "
+                 "uses%s", y_constant ? "outcome" : "treatment", g->vars[v].name, val, a->n,
+                 y_constant && x_constant ? ", and so is the treatment" : "");
+        rc = COV_OK;
+        goto fail;
+    }
     /* The treatment must vary apart from the adjustment set. */
     if (fit->t_rank == 0) {
-        int constant = 1;
-        for (size_t a0 = k - t; a0 < k; a0++)
-            if (pw_moments_at(m, idx[a0], idx[a0]) > 0) constant = 0;
+        int constant = x_constant;
         a->verdict = COV_BLIND;
         if (constant)
             note_add(&a->reason, "treatment '%s' never varies in the %zu complete runs", xv->name,
@@ -811,6 +828,17 @@ static void assessment_init(cov_assessment *a, size_t claim)
     a->sd_outcome = a->excess_kurtosis = NAN;
     a->effect_written_raw = a->omnibus_f = a->omnibus_p = a->omnibus_df1 = NAN;
     a->omnibus_power = a->shape_f = a->shape_p = a->shape_df1 = a->shape_df2 = NAN;
+    a->fixed_var = SIZE_MAX;
+    a->fixed_value = NAN;
+}
+
+void cov_value_text(const cov_var *v, double x, char *buf, size_t size)
+{
+    if (isnan(x)) snprintf(buf, size, "missing");
+    else if (v->type == COV_LEVELS && x >= 0 && (size_t)x < v->n_levels)
+        snprintf(buf, size, "%s", v->levels[(size_t)x]);
+    else if (v->type == COV_BOOL) snprintf(buf, size, "%s", x != 0 ? "true" : "false");
+    else snprintf(buf, size, "%.10g", x);
 }
 
 /* One claim: pick the fast path or accumulate its own complete cases, then fit and size it. */

@@ -89,5 +89,8 @@ int cov_runs_caution(const cov_data *d, const cov_graph *g, char *buf, size_t n)
 /* The run figures as one JSON object: rows, runs, repeated_rows, conflicting_runs,
  * configurations, configurations_repeated, seeds, seeds_shared (null without a seed column). */
 void cov_runs_json(FILE *f, const cov_data *d);
+/* `, "never_varies": null` or `, "never_varies": {"variable", "as" (outcome|treatment), "value"}`
+ * for a claim untestable on these runs because a variable takes one value in all of them. */
+void cov_fixed_json(FILE *f, const cov_graph *g, const cov_claim *c, const cov_assessment *a);
 
 #endif

@@ -1,5 +1,6 @@
 /* How the commands and reports say what counts as one run: repeated rows, conflicting replicates,
  * configurations and seeds (the figures of coverage/archive/runs.c). See LICENSE. */
+#include <stdint.h>
 #include <stdio.h>
 
 #include "coverage/base/base.h"
@@ -40,4 +41,20 @@ void cov_runs_json(FILE *f, const cov_data *d)
         fprintf(f, "\"seeds\": %zu, \"seeds_shared\": %zu}", d->n_seeds, d->n_shared_seeds);
     else
         fprintf(f, "\"seeds\": null, \"seeds_shared\": null}");
+}
+
+void cov_fixed_json(FILE *f, const cov_graph *g, const cov_claim *c, const cov_assessment *a)
+{
+    fputs(", \"never_varies\": ", f);
+    if (a == NULL || a->fixed_var == SIZE_MAX) {
+        fputs("null", f);
+        return;
+    }
+    char val[160];
+    cov_value_text(&g->vars[a->fixed_var], a->fixed_value, val, sizeof val);
+    fputs("{\"variable\": ", f);
+    cov_emit_json_string(f, g->vars[a->fixed_var].name);
+    fprintf(f, ", \"as\": \"%s\", \"value\": ", a->fixed_var == c->outcome ? "outcome" : "treatment");
+    cov_emit_json_string(f, val);
+    fputc('}', f);
 }

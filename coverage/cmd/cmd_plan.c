@@ -27,7 +27,8 @@ static void print_prob(FILE *out, double x)
 }
 
 static void print_report(FILE *out, const cov_options *o, const cov_graph *g, const cov_claims *c,
-                         const cov_plan *p, size_t n_testable, const char *path)
+                         const cov_assessments *as, const cov_plan *p, size_t n_testable,
+                         const char *path)
 {
     size_t runs = p->n_configs * (size_t)p->replicates;
     fprintf(out, "planned %zu configuration%s x %d seed%s = %zu run%s, written to %s\n",
@@ -43,23 +44,26 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
         if (strlen(label) > width) width = strlen(label);
     }
     if (width > 60) width = 60;
-    fprintf(out, "%-*s  %-8s %9s %10s %9s %10s  %s\n", (int)width, "claim", "how", "runs now",
+    fprintf(out, "%-*s  %-10s %9s %10s %9s %10s  %s\n", (int)width, "claim", "how", "runs now",
             "power now", "runs after", "predicted", "outlook");
-    size_t n_assumed = 0, n_unsized = 0, n_unreach = 0, n_noise = 0;
+    size_t n_assumed = 0, n_unsized = 0, n_unreach = 0, n_noise = 0, n_fixed = 0;
     for (size_t j = 0; j < p->n; j++) {
         const cov_plan_claim *it = &p->items[j];
         claim_label(g, &c->items[it->claim], label, sizeof label);
         const char *how = mode_word(it);
-        fprintf(out, "%-*.*s  %-8s %9.0f", (int)width, (int)width, label, how, it->n_now);
+        fprintf(out, "%-*.*s  %-10s %9.0f", (int)width, (int)width, label, how, it->n_now);
         print_prob(out, it->power_now);
-        fprintf(out, " %9.0f", it->n_after);
+        if (isnan(it->n_after)) fprintf(out, " %9s", "-");
+        else fprintf(out, " %9.0f", it->n_after);
         print_prob(out, it->power_after);
         fprintf(out, "  %s\n", it->mode == COV_PLAN_UNSIZED ? "cannot be sized"
+                               : it->mode == COV_PLAN_FIXED ? "untestable on these runs"
                                : it->unreachable       ? "unreachable"
                                : it->reaches           ? "reaches target"
                                                        : "short");
         n_assumed += it->mode == COV_PLAN_ASSUMED;
         n_unsized += it->mode == COV_PLAN_UNSIZED;
+        n_fixed += it->mode == COV_PLAN_FIXED;
         n_unreach += it->unreachable != 0;
         n_noise += it->from_noise != 0;
     }
@@ -83,10 +87,26 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
                 n_unsized, n_unsized == 1 ? "" : "s");
         for (size_t j = 0; j < p->n; j++)
             if (p->items[j].mode == COV_PLAN_UNSIZED) {
-                claim_label(g, &c->items[p->items[j].claim], label, sizeof label);
-                fprintf(out, " %s;", label);
+                size_t k = p->items[j].claim;
+                claim_label(g, &c->items[k], label, sizeof label);
+                fprintf(out, " %s", label);
+                /* A constant input treatment: name it, so the plan's reason matches power's. */
+                if (as != NULL && as->items[k].fixed_var != SIZE_MAX && as->items[k].reason)
+                    fprintf(out, " (%s)", as->items[k].reason);
+                fputc(';', out);
             }
         fputc('\n', out);
+    }
+    if (n_fixed > 0 && as != NULL) {
+        fprintf(out, "\nuntestable on these runs: %zu claim%s whose outcome (or output treatment) "
+                     "never varies; no runs are planned for %s:\n", n_fixed,
+                n_fixed == 1 ? "" : "s", n_fixed == 1 ? "it" : "them");
+        for (size_t j = 0; j < p->n; j++)
+            if (p->items[j].mode == COV_PLAN_FIXED) {
+                claim_label(g, &c->items[p->items[j].claim], label, sizeof label);
+                const char *why = as->items[p->items[j].claim].reason;
+                fprintf(out, "  %s: %s\n", label, why ? why : "untestable on these runs");
+            }
     }
     if (n_unreach > 0)
         fprintf(out, "\nunreachable: %zu claim%s cannot reach the target within %d configurations "
@@ -97,12 +117,14 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
 
 static const char *mode_word(const cov_plan_claim *it)
 {
-    return it->mode == COV_PLAN_STEERED ? "steered" : it->mode == COV_PLAN_ASSUMED ? "assumed"
-                                                                                   : "unsized";
+    return it->mode == COV_PLAN_STEERED   ? "steered"
+           : it->mode == COV_PLAN_ASSUMED ? "assumed"
+           : it->mode == COV_PLAN_FIXED   ? "untestable"
+                                          : "unsized";
 }
 
 static void print_json(FILE *out, const cov_options *o, const cov_graph *g, const cov_claims *c,
-                       const cov_plan *p, const char *path)
+                       const cov_assessments *as, const cov_plan *p, const char *path)
 {
     fprintf(out, "{\"schema_version\": 1, \"graph\": ");
     cov_emit_json_string(out, o->graph_path);
@@ -131,8 +153,14 @@ static void print_json(FILE *out, const cov_options *o, const cov_graph *g, cons
         cov_emit_json_number(out, it->n_after);
         fputs(", \"power_after\": ", out);
         cov_emit_json_number(out, it->power_after);
-        fprintf(out, ", \"reaches\": %s, \"unreachable\": %s}", it->reaches ? "true" : "false",
+        fprintf(out, ", \"reaches\": %s, \"unreachable\": %s", it->reaches ? "true" : "false",
                 it->unreachable ? "true" : "false");
+        fputs(", \"verdict_reason\": ", out);
+        if (it->mode == COV_PLAN_FIXED && as != NULL && as->items[it->claim].reason != NULL)
+            cov_emit_json_string(out, as->items[it->claim].reason);
+        else
+            fputs("null", out);
+        fputc('}', out);
     }
     fputs("\n]}\n", out);
 }
@@ -176,8 +204,8 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
     if ((rc = cov_plan_write_csv(g, p, path, err)) != COV_OK) goto done;
     size_t n_testable = 0;
     for (size_t i = 0; i < c->n; i++) n_testable += c->items[i].status == COV_TESTABLE;
-    if (!o->quiet && o->format == COV_FMT_JSON) print_json(out, o, g, c, p, path);
-    else if (!o->quiet) print_report(out, o, g, c, p, n_testable, path);
+    if (!o->quiet && o->format == COV_FMT_JSON) print_json(out, o, g, c, as, p, path);
+    else if (!o->quiet) print_report(out, o, g, c, as, p, n_testable, path);
     int all = 1;
     for (size_t j = 0; j < p->n; j++) all &= p->items[j].reaches;
     *adequate = all;

@@ -408,7 +408,7 @@ static int predict(const struct plan_state *st, const cov_plan_claim *it, double
     const claim_work *w = &st->w[it->claim];
     pw_design t;
     *power = NAN;
-    if (it->mode == COV_PLAN_UNSIZED) return COV_OK;
+    if (it->mode == COV_PLAN_UNSIZED || it->mode == COV_PLAN_FIXED) return COV_OK;
     if (it->mode == COV_PLAN_ASSUMED) {
         t = w->pd;
         t.n = w->n_base + added;
@@ -437,6 +437,14 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         claim_work *w = &st->w[i];
         it->claim = i;
         it->power_now = NAN;
+        /* An outcome (or output treatment) that never varies: the plan cannot promise variation
+         * and sizes nothing for it. A constant input treatment is steered as usual: new runs can
+         * set it to other values. */
+        if (have_runs && a->items[i].fixed_var != SIZE_MAX &&
+            g->vars[a->items[i].fixed_var].role != COV_INPUT) {
+            it->mode = COV_PLAN_FIXED;
+            continue;
+        }
         int steer = g->vars[cl->treatment].role == COV_INPUT;
         for (size_t m = 0; m < cl->n_cond; m++) steer &= g->vars[cl->cond[m]].role == COV_INPUT;
         double pw = NAN;
@@ -788,6 +796,11 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         const claim_work *w = &st.w[it->claim];
         it->n_now = w->n_base;
         it->n_after = w->n_base + added;
+        if (it->mode == COV_PLAN_FIXED) {
+            /* Its runs now are the assessment's; more of them would not make it testable. */
+            it->n_now = (double)a->items[it->claim].n;
+            it->n_after = NAN;
+        }
         if ((rc = predict(&st, it, added, &it->power_after)) != COV_OK) goto fail;
         it->reaches = it->power_after >= opt->target;
     }

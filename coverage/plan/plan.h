@@ -16,7 +16,10 @@ typedef enum {
                              coefficient variance, by Sherman-Morrison updates */
     COV_PLAN_ASSUMED,     /* an output in the treatment or adjustment set: new runs assumed to add
                              information as the current ones do (n scaled) */
-    COV_PLAN_UNSIZED      /* no runs and no declared noise SD for the outcome: cannot be sized */
+    COV_PLAN_UNSIZED,     /* no runs and no declared noise SD for the outcome: cannot be sized */
+    COV_PLAN_FIXED        /* untestable on these runs: the outcome (or an output treatment) takes
+                             one value in every run, which no setting of the inputs is known to
+                             change; no runs are planned for it */
 } cov_plan_mode;
 
 typedef struct {

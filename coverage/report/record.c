@@ -2,6 +2,7 @@
  * See LICENSE. */
 #include <assert.h>
 #include <math.h>
+#include <stdint.h>
 #include <stddef.h>
 #include <stdio.h>
 #include <string.h>
@@ -117,6 +118,18 @@ static rec_value get_unreachable(rec_row *r)
 static rec_value get_noise_flag(rec_row *r) { return r->a ? v_bool(r->a->noise_flag) : v_null(); }
 static rec_value get_noise_note(rec_row *r) { return r->a ? v_text(r->a->noise_note) : v_null(); }
 static rec_value get_pure(rec_row *r) { return r->a ? v_bool(r->a->has_pure_error) : v_null(); }
+/* Untestable on these runs: the variable that takes one value in every run the claim uses. */
+static rec_value get_fixed_var(rec_row *r)
+{
+    if (r->any == NULL || r->any->fixed_var == SIZE_MAX) return v_null();
+    return v_text(r->g->vars[r->any->fixed_var].name);
+}
+static rec_value get_fixed_value(rec_row *r)
+{
+    if (r->any == NULL || r->any->fixed_var == SIZE_MAX) return v_null();
+    cov_value_text(&r->g->vars[r->any->fixed_var], r->any->fixed_value, r->text, sizeof r->text);
+    return v_text(r->text);
+}
 
 static rec_value get_test(rec_row *r)
 {
@@ -244,6 +257,9 @@ static const rec_field fields[] = {
     GET("replicated", COV_RECORD_SUPPORT, get_s_pure),
     GET("support_ok", COV_RECORD_SUPPORT, get_s_ok),
     GET("support_reason", COV_RECORD_SUPPORT, get_s_reason),
+    /* untestable on these runs (last, so earlier CSV columns keep their place) */
+    GET("never_varies", COV_RECORD_ASSESS, get_fixed_var),
+    GET("never_varies_value", COV_RECORD_ASSESS, get_fixed_value),
 };
 static const size_t n_fields = sizeof fields / sizeof fields[0];
 
