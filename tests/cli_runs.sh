@@ -160,7 +160,7 @@ has "$tmp/r3/report.md" "Caution: 2 runs share every input" "the report carries 
 awk -F, 'BEGIN{OFS=","} NR>1{$9="0"} {print}' "$CSV" >"$tmp/const.csv"
 run 0 "import of a campaign whose left_early is always 0" import "$tmp/const.csv" \
   --archive "$tmp/const.db" -q
-why="untestable on these runs: outcome 'left_early' is 0 in all 600 runs the claim uses"
+why="untestable on these runs: outcome 'left_early' never varies: it is 0 in all 600 runs the claim uses"
 run 1 "power with a constant outcome" power "$G" "$tmp/const.db"
 has "$tmp/out" "wait -> left_early [staff, fast_track, occupancy]: untestable: $why" \
   "power's table gives the reason"
@@ -170,9 +170,9 @@ run 1 "power --json with a constant outcome" power "$G" "$tmp/const.db" --json
 cp "$tmp/out" "$tmp/power.json"
 run 1 "survey with a constant outcome" survey "$G" "$tmp/const.db" -o "$tmp/rc"
 has "$tmp/out" "$why" "the survey verdict gives the reason"
-has "$tmp/rc/index.html" "untestable on these runs: outcome &#39;left_early&#39; is 0" \
+has "$tmp/rc/index.html" "untestable on these runs: outcome &#39;left_early&#39; never varies: it is 0" \
   "the HTML report gives the reason"
-has "$tmp/rc/report.md" "untestable on these runs: outcome 'left\_early' is 0" \
+has "$tmp/rc/report.md" "untestable on these runs: outcome 'left\_early' never varies: it is 0" \
   "the Markdown report gives the reason"
 run 1 "plan with a constant outcome" plan "$G" "$tmp/const.db" --budget 20 -o "$tmp/p.csv"
 has "$tmp/out" "wait -> left_early: $why" "the plan gives the reason"
@@ -220,10 +220,10 @@ awk -F, 'BEGIN{OFS=","} NR>1{$5="1"} {print}' "$CSV" >"$tmp/lane.csv"
 run 0 "import of a campaign whose fast-track lane is always on" import "$tmp/lane.csv" \
   --archive "$tmp/lane.db" -q
 run 1 "power with a constant treatment" power "$G" "$tmp/lane.db"
-has "$tmp/out" "fast_track -> wait [staff, occupancy]: untestable: untestable on these runs: treatment 'fast_track' is true in all 600 runs the claim uses" \
+has "$tmp/out" "fast_track -> wait [staff, occupancy]: untestable: untestable on these runs: treatment 'fast_track' never varies: it is true in all 600 runs the claim uses" \
   "a constant treatment is named with its value"
 run 1 "plan with a constant input treatment" plan "$G" "$tmp/lane.db" --budget 20 -o "$tmp/p3.csv"
-has "$tmp/out" "fast_track -0-> occupancy (untestable on these runs: treatment 'fast_track' is true in all 600 runs the claim uses)" \
+has "$tmp/out" "fast_track -0-> occupancy (untestable on these runs: treatment 'fast_track' never varies: it is true in all 600 runs the claim uses)" \
   "the plan names the constant treatment and its value"
 
 echo "cli_runs: $fails failed"

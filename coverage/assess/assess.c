@@ -503,8 +503,9 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         a->fixed_value = d->col[v][rows[0]];
         cov_value_text(&g->vars[v], a->fixed_value, val, sizeof val);
         a->verdict = COV_BLIND;
-        note_add(&a->reason, "untestable on these runs: %s '%s' is %s in all %zu runs the claim "
-                 "uses%s", y_constant ? "outcome" : "treatment", g->vars[v].name, val, a->n,
+        note_add(&a->reason, "untestable on these runs: %s '%s' never varies: it is %s in all "
+                 "%zu runs the claim uses%s", y_constant ? "outcome" : "treatment",
+                 g->vars[v].name, val, a->n,
                  y_constant && x_constant ? ", and so is the treatment" : "");
         rc = COV_OK;
         goto fail;
