@@ -155,14 +155,14 @@ has "$tmp/out" "caution: 2 runs share every input" "the survey verdict carries t
 has "$tmp/r3/report.md" "Caution: 2 runs share every input" "the report carries the caution"
 
 # ---- an outcome or treatment that never varies: untestable on these runs, everywhere -------------
-# The demo campaign with left_early set to 0 in every run (column 9), and one with the fast-track
+# The demo campaign with occupancy set to 0 in every run (column 7), and one with the fast-track
 # lane always on (column 5).
-awk -F, 'BEGIN{OFS=","} NR>1{$9="0"} {print}' "$CSV" >"$tmp/const.csv"
-run 0 "import of a campaign whose left_early is always 0" import "$tmp/const.csv" \
+awk -F, 'BEGIN{OFS=","} NR>1{$7="0"} {print}' "$CSV" >"$tmp/const.csv"
+run 0 "import of a campaign whose occupancy is always 0" import "$tmp/const.csv" \
   --archive "$tmp/const.db" -q
-why="untestable on these runs: outcome 'left_early' never varies: it is 0 in all 600 runs the claim uses"
+why="untestable on these runs: outcome 'occupancy' never varies: it is 0 in all 600 runs the claim uses"
 run 1 "power with a constant outcome" power "$G" "$tmp/const.db"
-has "$tmp/out" "wait -> left_early [staff, fast_track, occupancy]: untestable: $why" \
+has "$tmp/out" "arrivals -> occupancy [staff, site]: untestable: $why" \
   "power's table gives the reason"
 run 1 "power --csv with a constant outcome" power "$G" "$tmp/const.db" --csv
 cp "$tmp/out" "$tmp/power.csv"
@@ -170,12 +170,12 @@ run 1 "power --json with a constant outcome" power "$G" "$tmp/const.db" --json
 cp "$tmp/out" "$tmp/power.json"
 run 1 "survey with a constant outcome" survey "$G" "$tmp/const.db" -o "$tmp/rc"
 has "$tmp/out" "$why" "the survey verdict gives the reason"
-has "$tmp/rc/index.html" "untestable on these runs: outcome &#39;left_early&#39; never varies: it is 0" \
+has "$tmp/rc/index.html" "untestable on these runs: outcome &#39;occupancy&#39; never varies: it is 0" \
   "the HTML report gives the reason"
-has "$tmp/rc/report.md" "untestable on these runs: outcome 'left\_early' never varies: it is 0" \
+has "$tmp/rc/report.md" "untestable on these runs: outcome 'occupancy' never varies: it is 0" \
   "the Markdown report gives the reason"
 run 1 "plan with a constant outcome" plan "$G" "$tmp/const.db" --budget 20 -o "$tmp/p.csv"
-has "$tmp/out" "wait -> left_early: $why" "the plan gives the reason"
+has "$tmp/out" "arrivals -> occupancy: $why" "the plan gives the reason"
 has "$tmp/out" "no runs are planned for them" "the plan sizes nothing for them"
 run 1 "plan --json with a constant outcome" plan "$G" "$tmp/const.db" --budget 20 \
   -o "$tmp/p2.csv" --json
@@ -185,20 +185,20 @@ import csv, json, sys
 t, why = sys.argv[1], sys.argv[2]
 fails = []
 def claims_on(rows, key_t, key_o):
-    return [r for r in rows if r[key_o] == "left_early" and r["status"] == "testable"]
+    return [r for r in rows if r[key_o] == "occupancy" and r["status"] == "testable"]
 pj = json.load(open(t + "/power.json"))["claims"]
-hit = [c for c in pj if c["outcome"] == "left_early" and c["status"] == "testable"]
+hit = [c for c in pj if c["outcome"] == "occupancy" and c["status"] == "testable"]
 for c in hit:
     if c["verdict"] != "untestable" or c["verdict_reason"] != why or c["power"] is not None \
-       or c["never_varies"] != {"variable": "left_early", "as": "outcome", "value": "0"}:
+       or c["never_varies"] != {"variable": "occupancy", "as": "outcome", "value": "0"}:
         fails.append("power.json %s" % c)
 pc = list(csv.DictReader(open(t + "/power.csv")))
-hitc = [r for r in pc if r["outcome"] == "left_early" and r["status"] == "testable"]
+hitc = [r for r in pc if r["outcome"] == "occupancy" and r["status"] == "testable"]
 for r in hitc:
     if r["verdict"] != "untestable" or r["reason"] != why:
         fails.append("power.csv %s" % r)
 sj = json.load(open(t + "/rc/summary.json"))["claims"]
-hits = [c for c in sj if c["outcome"] == "left_early" and c["never_varies"] is not None]
+hits = [c for c in sj if c["outcome"] == "occupancy" and c["never_varies"] is not None]
 for c in hits:
     if c["verdict"] != "untestable" or c["why"] != why:
         fails.append("summary.json %s" % c)
@@ -206,21 +206,21 @@ sc = [r for r in csv.DictReader(open(t + "/rc/claims.csv")) if r["why"] == why]
 for r in sc:
     if r["verdict"] != "untestable":
         fails.append("claims.csv %s" % r)
-pl = [c for c in json.load(open(t + "/plan.json"))["claims"] if c["outcome"] == "left_early"]
+pl = [c for c in json.load(open(t + "/plan.json"))["claims"] if c["outcome"] == "occupancy"]
 for c in pl:
     if c["how"] != "untestable" or c["verdict_reason"] != why or c["runs_after"] is not None:
         fails.append("plan.json %s" % c)
 counts = (len(hit), len(hitc), len(hits), len(sc), len(pl))
-ok = not fails and counts == (2, 2, 2, 2, 2)
+ok = not fails and counts == (3, 3, 3, 3, 3)
 print(("PASS" if ok else "FAIL") + ": power JSON and CSV, summary.json, claims.csv and the plan's "
-      "JSON agree: untestable on these runs, the reason naming left_early and 0, never ample or "
+      "JSON agree: untestable on these runs, the reason naming occupancy and 0, never ample or "
       "underpowered (claims per record %s) %s" % (counts, fails[:2]))
 EOF2
 awk -F, 'BEGIN{OFS=","} NR>1{$5="1"} {print}' "$CSV" >"$tmp/lane.csv"
 run 0 "import of a campaign whose fast-track lane is always on" import "$tmp/lane.csv" \
   --archive "$tmp/lane.db" -q
 run 1 "power with a constant treatment" power "$G" "$tmp/lane.db"
-has "$tmp/out" "fast_track -> wait [staff, occupancy]: untestable: untestable on these runs: treatment 'fast_track' never varies: it is true in all 600 runs the claim uses" \
+has "$tmp/out" "fast_track -> wait [arrivals, staff, site]: untestable: untestable on these runs: treatment 'fast_track' never varies: it is true in all 600 runs the claim uses" \
   "a constant treatment is named with its value"
 run 1 "plan with a constant input treatment" plan "$G" "$tmp/lane.db" --budget 20 -o "$tmp/p3.csv"
 has "$tmp/out" "fast_track -0-> occupancy (untestable on these runs: treatment 'fast_track' never varies: it is true in all 600 runs the claim uses)" \
