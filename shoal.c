@@ -187,6 +187,7 @@ static int apply_option(int c, const char *arg, cov_options *o)
     case OPT_SEED:
         if (parse_long("--seed", arg, 0, 2147483647L, &k)) return -1;
         o->coverage.seed = (unsigned long)k;
+        o->seed_given = 1;
         return 0;
     case 'o': o->out_path = arg; return 0;
     case OPT_HISTORY: o->history_path = arg; return 0;

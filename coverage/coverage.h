@@ -487,6 +487,7 @@ typedef struct {
      * long write ("report": the survey's report, halfway); a nonzero return makes the write fail
      * there with COV_EIO, so tests can check that a failure leaves nothing half-written. */
     int (*fault_at)(const char *stage);
+    int seed_given;               /* --seed was given (plan: else the seed comes from the archive) */
 } cov_options;
 
 /* The whole NUL-terminated s as a finite plain decimal number, the one syntax shoal reads in every

@@ -226,5 +226,45 @@ run 1 "plan with a constant input treatment" plan "$G" "$tmp/lane.db" --budget 2
 has "$tmp/out" "fast_track -0-> occupancy (untestable on these runs: treatment 'fast_track' never varies: it is true in all 600 runs the claim uses)" \
   "the plan names the constant treatment and its value"
 
+# ---- fresh seeds: plan, simulate with the demo simulator, import, plan again ---------------------
+TRIAGE=${BUILD:-build}/fixtures/triage
+cp "$tmp/one.db" "$tmp/round.db"
+run 1 "plan round 2 (seeded graph)" plan "$tmp/seeded.graph" "$tmp/round.db" --budget 40 \
+  -o "$tmp/plan2.csv"
+has "$tmp/out" "drawn from the archive's runs" "the plan prints its seed and where it came from"
+seed2=$(sed -n 's/^planner seed \([0-9]*\) .*/\1/p' "$tmp/out")
+run 1 "the same plan again" plan "$tmp/seeded.graph" "$tmp/round.db" --budget 40 \
+  -o "$tmp/plan2b.csv"
+if cmp -s "$tmp/plan2.csv" "$tmp/plan2b.csv"; then ok "the same archive gives the same plan"
+else bad "two plans of the same archive differ"; fi
+"$TRIAGE" run "$tmp/plan2.csv" >"$tmp/round2.csv" 2>"$tmp/err" || bad "triage run failed: $(cat "$tmp/err")"
+run 0 "import round 2" import "$tmp/round2.csv" --archive "$tmp/round.db" -q
+run 1 "plan round 3" plan "$tmp/seeded.graph" "$tmp/round.db" --budget 40 -o "$tmp/plan3.csv"
+seed3=$(sed -n 's/^planner seed \([0-9]*\) .*/\1/p' "$tmp/out")
+if [ -n "$seed2" ] && [ "$seed2" != "$seed3" ]; then ok "round 3's planner seed ($seed3) differs from round 2's ($seed2)"
+else bad "the planner seed did not move with the archive ($seed2, $seed3)"; fi
+"$PYTHON" - "$tmp/round.db" "$tmp/plan3.csv" "$tmp/plan2.csv" <<'EOF2'
+import csv, sqlite3, sys
+con = sqlite3.connect(sys.argv[1])
+arch = con.execute("SELECT arrivals, staff, fast_track, site, seed FROM runs").fetchall()
+seeds = {int(r[4]) for r in arch}
+pairs = {(round(float(r[0]), 3), int(r[1]), int(r[2]), str(r[3]), int(r[4])) for r in arch}
+plan = list(csv.DictReader(open(sys.argv[2])))
+new = [int(r["seed"]) for r in plan]
+shared = [s for s in new if s in seeds]
+print(("PASS" if plan and not shared else "FAIL") + ": the second plan's %d seeds share none with "
+      "the archive's %d (shared: %s)" % (len(new), len(seeds), shared[:5]))
+again = [r for r in plan if (round(float(r["arrivals"]), 3), int(r["staff"]), int(r["fast_track"]),
+                             r["site"], int(r["seed"])) in pairs]
+print(("PASS" if not again else "FAIL") + ": no planned (configuration, seed) is already in the "
+      "archive (%d repeated)" % len(again))
+for path in sys.argv[2:]:
+    rows = list(csv.DictReader(open(path)))
+    cfg = [(r["arrivals"], r["staff"], r["fast_track"], r["site"]) for r in rows]
+    print(("PASS" if len(set(cfg)) == len(cfg) else "FAIL") + ": %s plans %d distinct "
+          "configurations in %d runs (no replicates asked)" % (path.rsplit("/", 1)[1],
+                                                                len(set(cfg)), len(cfg)))
+EOF2
+
 echo "cli_runs: $fails failed"
 [ "$fails" -eq 0 ]

@@ -103,6 +103,9 @@ void cov_overlap_free(cov_overlap *o);
  * n_shared_seeds are filled. kept (NULL, or room for d->n_runs flags on entry) receives 1 for each
  * row kept and 0 for each repeat. Returns COV_OK or COV_ENOMEM. */
 int cov_runs_identify(cov_data *d, const cov_graph *g, unsigned char *kept, cov_error *err);
+/* A number from 1 to 2^31 - 1 that depends on every run's recorded values and seed: the same
+ * archive gives the same number, an archive with other runs (almost surely) another. */
+unsigned long cov_runs_fingerprint(const cov_data *d);
 
 /* ---- one claim's regression data (coverage/design.c) ------------------------------------------ */
 

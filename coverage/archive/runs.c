@@ -237,3 +237,16 @@ fail:
     free(config_runs);
     return rc;
 }
+
+unsigned long cov_runs_fingerprint(const cov_data *d)
+{
+    uint64_t h = mix(UINT64_C(0xcbf29ce484222325), (uint64_t)d->n_runs);
+    for (size_t v = 0; v < d->n_vars; v++) {
+        if (d->col[v] == NULL) continue;
+        for (size_t i = 0; i < d->n_runs; i++) h = mix(h, cell_bits(d->col[v][i]));
+    }
+    if (d->seed != NULL)
+        for (size_t i = 0; i < d->n_runs; i++) h = mix(h, (uint64_t)d->seed[i]);
+    /* Within --seed's range, 1 .. 2^31 - 1. */
+    return (unsigned long)(h % UINT64_C(2147483647)) + 1UL;
+}

@@ -28,12 +28,16 @@ static void print_prob(FILE *out, double x)
 
 static void print_report(FILE *out, const cov_options *o, const cov_graph *g, const cov_claims *c,
                          const cov_assessments *as, const cov_plan *p, size_t n_testable,
-                         const char *path)
+                         const char *path, unsigned long seed, int from_archive)
 {
     size_t runs = p->n_configs * (size_t)p->replicates;
     fprintf(out, "planned %zu configuration%s x %d seed%s = %zu run%s, written to %s\n",
             p->n_configs, p->n_configs == 1 ? "" : "s", p->replicates,
             p->replicates == 1 ? "" : "s", runs, runs == 1 ? "" : "s", path);
+    fprintf(out, "planner seed %lu (%s); the planned runs' seeds are new to the archive\n", seed,
+            from_archive ? "drawn from the archive's runs: the same archive gives the same plan; "
+                           "--seed S overrides"
+                         : o->seed_given ? "from --seed" : "the default: no runs yet");
     fprintf(out, "target power %.2f at family alpha %g (%s over %zu testable claims)\n\n",
             o->power.target, o->power.alpha, o->power.bonferroni ? "Bonferroni" : "no correction",
             n_testable);
@@ -108,6 +112,10 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
                 fprintf(out, "  %s: %s\n", label, why ? why : "untestable on these runs");
             }
     }
+    if (p->n_reused > 0)
+        fprintf(out, "\nrepeated: %zu planned configuration%s repeat%s an earlier one of this plan "
+                     "(with a new seed), since all %zu candidates were used once\n", p->n_reused,
+                p->n_reused == 1 ? "" : "s", p->n_reused == 1 ? "s" : "", p->n_candidates);
     if (n_unreach > 0)
         fprintf(out, "\nunreachable: %zu claim%s cannot reach the target within %d configurations "
                      "(a held or output treatment, or a need far beyond the cap)%s\n",
@@ -124,7 +132,8 @@ static const char *mode_word(const cov_plan_claim *it)
 }
 
 static void print_json(FILE *out, const cov_options *o, const cov_graph *g, const cov_claims *c,
-                       const cov_assessments *as, const cov_plan *p, const char *path)
+                       const cov_assessments *as, const cov_plan *p, const char *path,
+                       unsigned long seed, int from_archive)
 {
     fprintf(out, "{\"schema_version\": 1, \"graph\": ");
     cov_emit_json_string(out, o->graph_path);
@@ -135,6 +144,8 @@ static void print_json(FILE *out, const cov_options *o, const cov_graph *g, cons
             p->n_configs, p->replicates, p->n_configs * (size_t)p->replicates, p->n_candidates,
             p->capped ? "true" : "false");
     cov_emit_json_number(out, o->power.target);
+    fprintf(out, ", \"planner_seed\": %lu, \"planner_seed_from\": \"%s\"", seed,
+            from_archive ? "archive" : o->seed_given ? "option" : "default");
     fputs(", \"claims\": [", out);
     for (size_t j = 0; j < p->n; j++) {
         const cov_plan_claim *it = &p->items[j];
@@ -198,14 +209,19 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
         if (rc != COV_OK) goto done;
         if (d->n_runs > 0 && (rc = cov_assess(g, c, d, &o->power, &as, err)) != COV_OK) goto done;
     }
-    if ((rc = cov_plan_make(g, c, d, as, &o->power, &o->coverage, o->budget, o->replicates, &p,
+    /* The planner's seed: --seed, or one drawn from the archive's runs, so that each round plans
+     * from another stream yet the same archive always gives the same plan. */
+    cov_coverage_options copt = o->coverage;
+    int from_archive = !o->seed_given && d != NULL && d->n_runs > 0;
+    if (from_archive) copt.seed = cov_runs_fingerprint(d);
+    if ((rc = cov_plan_make(g, c, d, as, &o->power, &copt, o->budget, o->replicates, &p,
                             err)) != COV_OK)
         goto done;
     if ((rc = cov_plan_write_csv(g, p, path, err)) != COV_OK) goto done;
     size_t n_testable = 0;
     for (size_t i = 0; i < c->n; i++) n_testable += c->items[i].status == COV_TESTABLE;
-    if (!o->quiet && o->format == COV_FMT_JSON) print_json(out, o, g, c, as, p, path);
-    else if (!o->quiet) print_report(out, o, g, c, as, p, n_testable, path);
+    if (!o->quiet && o->format == COV_FMT_JSON) print_json(out, o, g, c, as, p, path, copt.seed, from_archive);
+    else if (!o->quiet) print_report(out, o, g, c, as, p, n_testable, path, copt.seed, from_archive);
     int all = 1;
     for (size_t j = 0; j < p->n; j++) all &= p->items[j].reaches;
     *adequate = all;

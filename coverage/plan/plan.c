@@ -602,12 +602,35 @@ static int push_row(cov_plan *p, size_t *cap, const double *vals)
 #define SEED_MUL 1103515245UL
 #define SEED_MOD 2147483648UL
 
-static void make_seeds(cov_plan *p, unsigned long seed)
+static int cmp_seed(const void *a, const void *b)
 {
-    size_t n = p->n_configs * (size_t)p->replicates;
+    long long x = *(const long long *)a, y = *(const long long *)b;
+    return (x > y) - (x < y);
+}
+
+/* Seeds never used in the archive (d->seed, when the graph declares a seed column): the affine
+ * sequence skips every seed a stored run used, so a new round never shares a random stream with
+ * an earlier one by accident, and no (configuration, seed) of the archive comes back. */
+static int make_seeds(cov_plan *p, const cov_data *d, unsigned long seed)
+{
+    size_t n = p->n_configs * (size_t)p->replicates, n_used = 0;
+    long long *used = NULL;
+    if (d != NULL && d->seed != NULL && d->n_runs > 0) {
+        used = malloc(d->n_runs * sizeof *used);
+        if (used == NULL) return -1;
+        for (size_t i = 0; i < d->n_runs; i++)
+            if (d->seed[i] != COV_SEED_NONE) used[n_used++] = d->seed[i];
+        qsort(used, n_used, sizeof *used, cmp_seed);
+    }
     unsigned long base = (seed * 2654435761UL + 12345UL) % SEED_MOD;
-    for (size_t i = 0; i < n; i++)
-        p->seeds[i] = (SEED_MUL * ((base + i) % SEED_MOD) + 12345UL) % SEED_MOD;
+    /* A bijection of [0, 2^31): at most n_used values are skipped before n fresh ones appear. */
+    for (size_t i = 0, j = 0; i < n; j++) {
+        long long s = (long long)((SEED_MUL * ((base + j) % SEED_MOD) + 12345UL) % SEED_MOD);
+        if (n_used > 0 && bsearch(&s, used, n_used, sizeof *used, cmp_seed) != NULL) continue;
+        p->seeds[i++] = (unsigned long)s;
+    }
+    free(used);
+    return 0;
 }
 
 int cov_plan_check_limits(long budget, int replicates, cov_error *err)
@@ -647,7 +670,8 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     st.dc = &dc;
     rc = COV_ENOMEM;
     double *bound = NULL, *part = NULL;
-    unsigned char *fresh = NULL;
+    unsigned char *fresh = NULL, *used = NULL;
+    size_t n_used = 0;
     cov_plan *p = calloc(1, sizeof *p);
     st.L.first = calloc(g->n_vars + 1, sizeof(size_t));
     st.L.count = calloc(g->n_vars + 1, sizeof(size_t));
@@ -678,6 +702,8 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     bound = malloc((st.n_cand + 1) * sizeof *bound);
     part = malloc((st.n_cand + 1) * sizeof *part);
     fresh = malloc(st.n_cand + 1);
+    used = calloc(st.n_cand + 1, 1);
+    if (used == NULL) goto fail;
     if (st.cand_rows == NULL || bound == NULL || part == NULL || fresh == NULL) goto fail;
     for (size_t k = 0; k < st.n_cand; k++)
         code_row(g, &st.L, st.cand_vals + k * g->n_vars, st.cand_rows + k * st.L.n_cols);
@@ -728,11 +754,16 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         }
         /* Lazy greedy (Minoux 1978): the scores only fall as runs are added, so a stale score is an
          * upper bound and only the leader needs rescoring. */
-        size_t best = 0;
+        /* Each candidate is planned once while unplanned ones remain, so the planned runs are
+         * distinct configurations; replicates come only from --replicates (or, past the candidate
+         * set, from reuse, which the plan reports). */
+        size_t best = 0, n_fresh_left = st.n_cand - n_used;
         for (;;) {
-            best = 0;
-            for (size_t k = 1; k < st.n_cand; k++)
-                if (bound[k] > bound[best]) best = k;
+            best = SIZE_MAX;
+            for (size_t k = 0; k < st.n_cand; k++) {
+                if (n_fresh_left > 0 && used[k]) continue;
+                if (best == SIZE_MAX || bound[k] > bound[best]) best = k;
+            }
             if (fresh[best]) break;
             if ((rc = score_candidate(&st, best, k_rep, &part[best], &bound[best])) != COV_OK)
                 goto fail;
@@ -757,6 +788,23 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
             goto fail;
         }
         cov_plan_cover_commit(st.cover, best, replicates);
+        if (used[best]) {
+            p->n_reused++;
+        } else {
+            /* Candidates with the same values (a point rounded onto a corner twice) are one
+             * configuration: all of them are used now. */
+            const double *bv = st.cand_vals + best * g->n_vars;
+            for (size_t k = 0; k < st.n_cand; k++) {
+                if (used[k]) continue;
+                const double *kv = st.cand_vals + k * g->n_vars;
+                size_t v = 0;
+                while (v < g->n_vars && (kv[v] == bv[v] || (isnan(kv[v]) && isnan(bv[v])))) v++;
+                if (v == g->n_vars) {
+                    used[k] = 1;
+                    n_used++;
+                }
+            }
+        }
         if ((rc = push_row(p, &row_cap, st.cand_vals + best * g->n_vars)) != COV_OK) goto fail;
         for (size_t v = 0; v < g->n_vars; v++) {
             double lv = st.cand_vals[best * g->n_vars + v];
@@ -809,7 +857,10 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         rc = COV_ENOMEM;   /* rc holds COV_OK here: say what failed */
         goto fail;
     }
-    make_seeds(p, seed);
+    if (make_seeds(p, st.d, seed)) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
     *out = p;
     p = NULL;
     rc = COV_OK;
@@ -820,6 +871,7 @@ fail:
     free(bound);
     free(part);
     free(fresh);
+    free(used);
     state_free(&st);
     cov_plan_free(p);
     return rc;

@@ -15,6 +15,11 @@
  * ASCII case, as SQLite column names do). */
 static void seed_name(const cov_graph *g, char *buf, size_t size)
 {
+    /* A declared seed column (`runseed`) is the name the runs will be imported under. */
+    if (cov_graph_seed_column(g) != NULL) {
+        snprintf(buf, size, "%s", cov_graph_seed_column(g));
+        return;
+    }
     snprintf(buf, size, "seed");
     for (;;) {
         int clash = 0;
@@ -68,7 +73,7 @@ int cov_plan_write_csv(const cov_graph *g, const cov_plan *p, const char *path, 
         free(tmp);
         return cov_fail(err, COV_EIO, path, "cannot write: %s", strerror(errno));
     }
-    char sname[64];
+    char sname[512];
     seed_name(g, sname, sizeof sname);
     int first = 1;
     for (size_t v = 0; v < g->n_vars; v++) {
@@ -151,7 +156,7 @@ int cov_plan_read_csv(const cov_graph *g, const char *path, double **rows, size_
     size_t nf = cov_csv_n_fields(csv), cap = 0, n = 0;
     long *var_of = malloc((nf + 1) * sizeof *var_of);
     double *out = NULL;
-    char where[600], sname[64];
+    char where[600], sname[512];
     seed_name(g, sname, sizeof sname);
     if (var_of == NULL) goto nomem;
     for (size_t i = 0; i < nf; i++) {
