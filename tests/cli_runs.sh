@@ -54,15 +54,14 @@ printf 'input ledger real [0, 1]\noutput y real\ndefault effect 0.2 sd\nledger -
 run 0 "an edge from a variable called ledger" claims "$tmp/edge.graph"
 
 # The demo graph with its seed and bookkeeping columns declared.
+# (fixtures/demo/triage.graph declares `runseed seed` and `ledger run_id`.)
 cp "$G" "$tmp/seeded.graph"
-printf 'runseed seed\nledger run_id\n' >>"$tmp/seeded.graph"
 run 0 "import of the demo campaign" import "$CSV" --archive "$tmp/one.db" -q
 run 0 "check of the demo with its seed declared" check "$tmp/seeded.graph" "$tmp/one.db"
 has "$tmp/out" "seed      column seed" "check names the seed column"
 has "$tmp/out" "600 seeds, 0 shared by several configurations" "check counts the demo's seeds"
-cp "$G" "$tmp/noseedcol.graph"
-printf '\nrunseed rng_seed\n' >>"$tmp/noseedcol.graph"
-line=$(wc -l <"$tmp/noseedcol.graph" | tr -d ' ')
+sed 's/^runseed seed/runseed rng_seed/' "$G" >"$tmp/noseedcol.graph"
+line=$(grep -n '^runseed rng_seed' "$tmp/noseedcol.graph" | cut -d: -f1)
 run 2 "a seed column missing from the archive" check "$tmp/noseedcol.graph" "$tmp/one.db"
 has "$tmp/err" "noseedcol.graph:$line:9: found no column 'rng_seed'" \
   "the missing seed column is named at its declaration"
@@ -260,10 +259,12 @@ print(("PASS" if not again else "FAIL") + ": no planned (configuration, seed) is
       "archive (%d repeated)" % len(again))
 for path in sys.argv[2:]:
     rows = list(csv.DictReader(open(path)))
-    cfg = [(r["arrivals"], r["staff"], r["fast_track"], r["site"]) for r in rows]
-    print(("PASS" if len(set(cfg)) == len(cfg) else "FAIL") + ": %s plans %d distinct "
-          "configurations in %d runs (no replicates asked)" % (path.rsplit("/", 1)[1],
-                                                                len(set(cfg)), len(cfg)))
+    runs = [(r["arrivals"], r["staff"], r["fast_track"], r["site"], r["seed"]) for r in rows]
+    seeds = [r["seed"] for r in rows]
+    ok = len(set(runs)) == len(runs) and len(set(seeds)) == len(seeds)
+    print(("PASS" if ok else "FAIL") + ": %s plans %d distinct runs with %d distinct seeds (%d "
+          "distinct configurations)" % (path.rsplit("/", 1)[1], len(set(runs)), len(set(seeds)),
+                                        len({r[:4] for r in runs})))
 EOF2
 
 echo "cli_runs: $fails failed"

@@ -112,10 +112,6 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
                 fprintf(out, "  %s: %s\n", label, why ? why : "untestable on these runs");
             }
     }
-    if (p->n_reused > 0)
-        fprintf(out, "\nrepeated: %zu planned configuration%s repeat%s an earlier one of this plan "
-                     "(with a new seed), since all %zu candidates were used once\n", p->n_reused,
-                p->n_reused == 1 ? "" : "s", p->n_reused == 1 ? "s" : "", p->n_candidates);
     if (n_unreach > 0)
         fprintf(out, "\nunreachable: %zu claim%s cannot reach the target within %d configurations "
                      "(a held or output treatment, or a need far beyond the cap)%s\n",

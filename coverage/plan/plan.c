@@ -670,8 +670,7 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     st.dc = &dc;
     rc = COV_ENOMEM;
     double *bound = NULL, *part = NULL;
-    unsigned char *fresh = NULL, *used = NULL;
-    size_t n_used = 0;
+    unsigned char *fresh = NULL;
     cov_plan *p = calloc(1, sizeof *p);
     st.L.first = calloc(g->n_vars + 1, sizeof(size_t));
     st.L.count = calloc(g->n_vars + 1, sizeof(size_t));
@@ -702,8 +701,6 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
     bound = malloc((st.n_cand + 1) * sizeof *bound);
     part = malloc((st.n_cand + 1) * sizeof *part);
     fresh = malloc(st.n_cand + 1);
-    used = calloc(st.n_cand + 1, 1);
-    if (used == NULL) goto fail;
     if (st.cand_rows == NULL || bound == NULL || part == NULL || fresh == NULL) goto fail;
     for (size_t k = 0; k < st.n_cand; k++)
         code_row(g, &st.L, st.cand_vals + k * g->n_vars, st.cand_rows + k * st.L.n_cols);
@@ -754,16 +751,11 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         }
         /* Lazy greedy (Minoux 1978): the scores only fall as runs are added, so a stale score is an
          * upper bound and only the leader needs rescoring. */
-        /* Each candidate is planned once while unplanned ones remain, so the planned runs are
-         * distinct configurations; replicates come only from --replicates (or, past the candidate
-         * set, from reuse, which the plan reports). */
-        size_t best = 0, n_fresh_left = st.n_cand - n_used;
+        size_t best = 0;
         for (;;) {
-            best = SIZE_MAX;
-            for (size_t k = 0; k < st.n_cand; k++) {
-                if (n_fresh_left > 0 && used[k]) continue;
-                if (best == SIZE_MAX || bound[k] > bound[best]) best = k;
-            }
+            best = 0;
+            for (size_t k = 1; k < st.n_cand; k++)
+                if (bound[k] > bound[best]) best = k;
             if (fresh[best]) break;
             if ((rc = score_candidate(&st, best, k_rep, &part[best], &bound[best])) != COV_OK)
                 goto fail;
@@ -788,23 +780,6 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
             goto fail;
         }
         cov_plan_cover_commit(st.cover, best, replicates);
-        if (used[best]) {
-            p->n_reused++;
-        } else {
-            /* Candidates with the same values (a point rounded onto a corner twice) are one
-             * configuration: all of them are used now. */
-            const double *bv = st.cand_vals + best * g->n_vars;
-            for (size_t k = 0; k < st.n_cand; k++) {
-                if (used[k]) continue;
-                const double *kv = st.cand_vals + k * g->n_vars;
-                size_t v = 0;
-                while (v < g->n_vars && (kv[v] == bv[v] || (isnan(kv[v]) && isnan(bv[v])))) v++;
-                if (v == g->n_vars) {
-                    used[k] = 1;
-                    n_used++;
-                }
-            }
-        }
         if ((rc = push_row(p, &row_cap, st.cand_vals + best * g->n_vars)) != COV_OK) goto fail;
         for (size_t v = 0; v < g->n_vars; v++) {
             double lv = st.cand_vals[best * g->n_vars + v];
@@ -871,7 +846,6 @@ fail:
     free(bound);
     free(part);
     free(fresh);
-    free(used);
     state_free(&st);
     cov_plan_free(p);
     return rc;

@@ -56,7 +56,6 @@ typedef struct {
     size_t n_vars;
     int capped;           /* --budget auto stopped at the cap */
     size_t n_candidates;  /* size of the candidate set */
-    size_t n_reused;      /* configurations planned again after every candidate was used once */
 } cov_plan;
 
 /* Plan budget configurations (budget -1: the fewest that bring every reachable testable claim to
