@@ -189,19 +189,19 @@ pj = json.load(open(t + "/power.json"))["claims"]
 hit = [c for c in pj if c["outcome"] == "occupancy" and c["status"] == "testable"]
 for c in hit:
     if c["verdict"] != "untestable" or c["verdict_reason"] != why or c["power"] is not None \
-       or c["never_varies"] != {"variable": "occupancy", "as": "outcome", "value": "0"}:
+       or c["never_varies"] != "occupancy" or c["never_varies_value"] != "0":
         fails.append("power.json %s" % c)
 pc = list(csv.DictReader(open(t + "/power.csv")))
 hitc = [r for r in pc if r["outcome"] == "occupancy" and r["status"] == "testable"]
 for r in hitc:
-    if r["verdict"] != "untestable" or r["reason"] != why:
+    if r["verdict"] != "untestable" or r["verdict_reason"] != why or r["never_varies"] != "occupancy":
         fails.append("power.csv %s" % r)
 sj = json.load(open(t + "/rc/summary.json"))["claims"]
 hits = [c for c in sj if c["outcome"] == "occupancy" and c["never_varies"] is not None]
 for c in hits:
-    if c["verdict"] != "untestable" or c["why"] != why:
+    if c["verdict"] != "untestable" or c["verdict_reason"] != why:
         fails.append("summary.json %s" % c)
-sc = [r for r in csv.DictReader(open(t + "/rc/claims.csv")) if r["why"] == why]
+sc = [r for r in csv.DictReader(open(t + "/rc/claims.csv")) if r["verdict_reason"] == why]
 for r in sc:
     if r["verdict"] != "untestable":
         fails.append("claims.csv %s" % r)
