@@ -246,6 +246,9 @@ static const rec_field fields[] = {
     A_NUM("shape_p", shape_p),
     GET("shape_pure_error", COV_RECORD_ASSESS, get_shape_pure),
     GET("caution", COV_RECORD_ASSESS, get_caution),
+    /* untestable on these runs: the variable that never varies, and its value */
+    GET("never_varies", COV_RECORD_ASSESS, get_fixed_var),
+    GET("never_varies_value", COV_RECORD_ASSESS, get_fixed_value),
     /* its support in the runs, as `shoal coverage` and the survey print it */
     GET("runs", COV_RECORD_SUPPORT, get_runs),
     GET("distinct", COV_RECORD_SUPPORT, get_distinct),
@@ -257,9 +260,6 @@ static const rec_field fields[] = {
     GET("replicated", COV_RECORD_SUPPORT, get_s_pure),
     GET("support_ok", COV_RECORD_SUPPORT, get_s_ok),
     GET("support_reason", COV_RECORD_SUPPORT, get_s_reason),
-    /* untestable on these runs (last, so earlier CSV columns keep their place) */
-    GET("never_varies", COV_RECORD_ASSESS, get_fixed_var),
-    GET("never_varies_value", COV_RECORD_ASSESS, get_fixed_value),
 };
 static const size_t n_fields = sizeof fields / sizeof fields[0];
 
