@@ -33,7 +33,7 @@ int main(void)
     gsl_test_int(scan("1e309", &v), COV_NUM_RANGE, "1e309 is out of range");
     gsl_test_int(scan("-1e400", &v), COV_NUM_RANGE, "-1e400 is out of range");
     gsl_test_int(scan("4.9e-324", &v), COV_NUM_REAL, "4.9e-324 is a number");
-    gsl_test(v != 4.9406564584124654e-324, "4.9e-324 reads as the smallest subnormal");
+    gsl_test(v != DBL_TRUE_MIN, "4.9e-324 reads as the smallest subnormal (DBL_TRUE_MIN)");
     gsl_test_int(scan("1e-400", &v), COV_NUM_REAL, "1e-400 is a number (it rounds to 0)");
     gsl_test(v != 0.0, "1e-400 reads as 0");
     long long iv = 0;
