@@ -112,6 +112,11 @@ with tempfile.TemporaryDirectory() as tmp:
           rel(a["effect_raw"], 1.84 / 4600) <= 1e-12,
           "flow: 'effect 1.84 over range' equals the per-unit form scaled by the range 4600 "
           "(power %s vs %s, rel 1e-12)" % (a and a["power"], b and b["power"]))
+    p_step = power(base + "share -> y effect 5 per 1000\nflow -> y effect 4 per 10000\n")
+    r = subprocess.run([shoal, "power", os.path.join(tmp, "g.graph"), db], capture_output=True,
+                       text=True)
+    check("share -> y [flow]: effect of interest as written: 5 per 1000 = 5 raw per step = 0.005 "
+          "per unit" in r.stdout, "the power table shows the effect as written and per unit")
     a = p_step.get(("share", "y"))
     check(a is not None and a["effect_written"] == "5 per 1000" and
           rel(a["effect_written_raw"], 5) <= 1e-12 and rel(a["effect_raw"], 0.005) <= 1e-12,

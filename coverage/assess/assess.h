@@ -52,7 +52,8 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
                       double sigma_pure, double df_pe, cov_shape_fit *out);
 
 /* The table's note lines on an assessment's shape and units for one claim (`shoal power`). */
-void cov_assessment_table_shape(FILE *out, const char *label, const cov_assessment *a);
+void cov_assessment_table_shape(FILE *out, const char *label, const cov_claim *c,
+                                const cov_assessment *a);
 /* The verdict of claim c given its assessment a (NULL when not assessed): a's verdict, else
  * underpowered for a testable claim (it cannot be shown ample) and untestable otherwise. The one
  * place this fallback is decided. */

@@ -240,8 +240,19 @@ done:
     return rc;
 }
 
-void cov_assessment_table_shape(FILE *out, const char *label, const cov_assessment *a)
+void cov_assessment_table_shape(FILE *out, const char *label, const cov_claim *c,
+                                const cov_assessment *a)
 {
+    if ((c->effect.per != COV_PER_UNIT || c->effect.unit == COV_UNIT_SD) &&
+        isfinite(a->effect_raw)) {
+        char text[96];
+        fprintf(out, "%s: %s as written: %s = %.4g raw per %s = %.4g per unit\n", label,
+                c->kind == COV_CLAIM_ABSENCE ? "margin" : "effect of interest",
+                cov_amount_text(&c->effect, text, sizeof text), a->effect_written_raw,
+                c->effect.per == COV_PER_STEP ? "step" : c->effect.per == COV_PER_RANGE ? "range"
+                                                                                         : "unit",
+                a->effect_raw);
+    }
     if (a->trend && isfinite(a->omnibus_df1))
         fprintf(out, "%s: ordered levels: trend t test (1 df) power %.2f; omnibus F (%.0f df) "
                 "power %.2f at the same straight line; observed F = %.3g, p = %.2g\n", label,

@@ -73,7 +73,9 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
     int any = 0;
     for (size_t i = 0; i < cl->n; i++) {
         const cov_assessment *a = &as->items[i];
-        if (a->reason == NULL && a->noise_note == NULL && !a->trend && !isfinite(a->shape_f))
+        const cov_claim *cw = &cl->items[i];
+        if (a->reason == NULL && a->noise_note == NULL && !a->trend && !isfinite(a->shape_f) &&
+            cw->effect.per == COV_PER_UNIT && cw->effect.unit != COV_UNIT_SD)
             continue;
         if (!any) fputs("\n", out);
         any = 1;
@@ -83,7 +85,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         if (a->noise_note)
             fprintf(out, "%s: noise%s: %s\n", label, a->noise_flag ? " (cannot be trusted)" : "",
                     a->noise_note);
-        cov_assessment_table_shape(out, label, a);
+        cov_assessment_table_shape(out, label, &cl->items[i], a);
     }
     size_t n_ample = 0, n_underpowered = 0, n_blind = 0;
     for (size_t i = 0; i < as->n; i++) {
