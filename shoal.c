@@ -62,6 +62,9 @@ static void usage(FILE *f)
             "  --budget N|auto       plan: runs to plan, or the fewest that reach the target\n"
             "  --replicates K        plan: seeds per planned configuration (default 1)\n"
             "  --again               import: append a file whose rows the archive already holds\n"
+            "  --cost-column NAME    plan: the cost column (default: the graph's `ledger NAME cost`)\n"
+            "  --cost-budget C       plan: plan runs until their fitted cost would pass C\n"
+            "  --rounds K            plan: write the first of K batches; plan again after it\n"
             "  --seed S              seed for subsampling, probes and planned seeds\n"
             "  -o, --output PATH     survey: report directory; plan: CSV file\n"
             "  --history FILE        survey: history side file for a read-only archive\n"
@@ -101,7 +104,8 @@ static int parse_long(const char *opt, const char *text, long lo, long hi, long 
 enum long_only {
     OPT_TABLE = 256, OPT_ARCHIVE, OPT_ALPHA, OPT_POWER, OPT_FAMILY, OPT_ONE_SIDED, OPT_MIN_RUNS,
     OPT_BINS, OPT_WAY, OPT_NEED_MARGINAL, OPT_NEED_PAIRWISE, OPT_NEED_THREEWAY, OPT_BUDGET,
-    OPT_REPLICATES, OPT_AGAIN, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION
+    OPT_REPLICATES, OPT_AGAIN, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION,
+    OPT_COST_COLUMN, OPT_COST_BUDGET, OPT_ROUNDS
 };
 
 static const struct option long_options[] = {
@@ -119,6 +123,9 @@ static const struct option long_options[] = {
     {"need-threeway", required_argument, NULL, OPT_NEED_THREEWAY},
     {"budget", required_argument, NULL, OPT_BUDGET},
     {"replicates", required_argument, NULL, OPT_REPLICATES},
+    {"cost-column", required_argument, NULL, OPT_COST_COLUMN},
+    {"cost-budget", required_argument, NULL, OPT_COST_BUDGET},
+    {"rounds", required_argument, NULL, OPT_ROUNDS},
     {"seed", required_argument, NULL, OPT_SEED},
     {"again", no_argument, NULL, OPT_AGAIN},
     {"output", required_argument, NULL, 'o'},
@@ -188,6 +195,12 @@ static int apply_option(int c, const char *arg, cov_options *o)
         if (parse_long("--seed", arg, 0, 2147483647L, &k)) return -1;
         o->coverage.seed = (unsigned long)k;
         o->seed_given = 1;
+        return 0;
+    case OPT_COST_COLUMN: o->cost_column = arg; return 0;
+    case OPT_COST_BUDGET: return parse_double("--cost-budget", arg, 1e-300, 1e300, &o->cost_budget);
+    case OPT_ROUNDS:
+        if (parse_long("--rounds", arg, 1, 1000, &k)) return -1;
+        o->rounds = (int)k;
         return 0;
     case 'o': o->out_path = arg; return 0;
     case OPT_HISTORY: o->history_path = arg; return 0;

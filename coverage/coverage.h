@@ -488,6 +488,9 @@ typedef struct {
      * there with COV_EIO, so tests can check that a failure leaves nothing half-written. */
     int (*fault_at)(const char *stage);
     int seed_given;               /* --seed was given (plan: else the seed comes from the archive) */
+    const char *cost_column;      /* plan: the archive column holding each run's cost, or NULL */
+    double cost_budget;           /* plan: stop before the fitted cost passes it; 0: no limit */
+    int rounds;                   /* plan: rounds the campaign is split into (1: one batch) */
 } cov_options;
 
 /* The whole NUL-terminated s as a finite plain decimal number, the one syntax shoal reads in every

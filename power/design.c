@@ -236,6 +236,8 @@ typedef struct {
     size_t group, first, k;
     int pattern;       /* 1: the F test's least favourable pattern; 0: the worst contrast */
     double info, need;
+    double scale;      /* the information counts info * scale against need (1 unless the caller
+                          sets a noise ratio with pw_aug_set_scale) */
 } aug_target;
 
 static double target_info(const aug_target *t, const aug_group *gr, const double *u, double xu,
@@ -330,7 +332,7 @@ nomem:
 
 static int target_active(const aug_target *t)
 {
-    return isfinite(t->need) && t->info < t->need;
+    return isfinite(t->need) && t->info * t->scale < t->need;
 }
 
 int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, int pattern, double need,
@@ -353,7 +355,7 @@ int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, int patte
         gr->cap_tg = cap;
     }
     gr->tg[gr->n_tg++] = a->n_targets;
-    aug_target t = {group, first, k, pattern != 0, 0.0, need};
+    aug_target t = {group, first, k, pattern != 0, 0.0, need, 1.0};
     t.info = target_info(&t, gr, NULL, 0.0, 0.0);
     a->targets[a->n_targets] = t;
     if (target_active(&t)) gr->n_active++;
@@ -391,7 +393,25 @@ void pw_aug_set_need(pw_aug *a, size_t target, double need)
     if (target_active(t)) gr->n_active++;
 }
 
+void pw_aug_set_scale(pw_aug *a, size_t target, double scale)
+{
+    aug_target *t = &a->targets[target];
+    aug_group *gr = &a->groups[t->group];
+    if (!(scale > 0.0) || !isfinite(scale)) scale = 1.0;
+    if (target_active(t)) gr->n_active--;
+    t->scale = scale;
+    if (target_active(t)) gr->n_active++;
+}
+
+double pw_aug_scale(const pw_aug *a, size_t target) { return a->targets[target].scale; }
+
 int pw_aug_score(pw_aug *a, const double *row, double w, double *score)
+{
+    return pw_aug_score_scaled(a, row, w, NULL, score);
+}
+
+int pw_aug_score_scaled(pw_aug *a, const double *row, double w, const double *scale_after,
+                        double *score)
 {
     *score = 0.0;
     if (!(w > 0.0)) return PW_EDOM;
@@ -406,9 +426,16 @@ int pw_aug_score(pw_aug *a, const double *row, double w, double *score)
         for (size_t m = 0; m < gr->n_tg; m++) {
             aug_target *t = &a->targets[gr->tg[m]];
             if (!target_active(t)) continue;
-            double after = target_info(t, gr, a->u, xu, w);
-            double gain = after - t->info, missing = t->need - t->info;
-            if (!(gain > 0.0)) continue;
+            double sa = scale_after != NULL ? scale_after[gr->tg[m]] : t->scale;
+            double now = t->info * t->scale;
+            double after = target_info(t, gr, a->u, xu, w) * sa;
+            double gain = after - now, missing = t->need - now;
+            if (!(gain > 0.0)) {
+                /* A run that adds more noise than information sets the claim back: count the
+                 * share of the missing need it loses (at most all of it), unweighted. */
+                if (gain < 0.0 && missing > 0.0) total -= fmin(-gain / missing, 1.0);
+                continue;
+            }
             double cover = gain < missing ? gain / missing : 1.0;
             total += cover * (1.0 + missing / t->need);
         }

@@ -346,6 +346,15 @@ size_t pw_aug_n_active(const pw_aug *a);
  * need the runs would cover (capped at 1), weighted by 1 + the share still missing so the targets
  * furthest below their need count most. 0 when nothing is active. */
 int pw_aug_score(pw_aug *a, const double *row, double w, double *score);
+/* Noise that changes over the inputs: a target's information counts as info * scale (scale > 0,
+ * e.g. the archive's residual variance over the predicted one; anything else resets it to 1).
+ * pw_aug_score_scaled scores as pw_aug_score with scale_after[t] (indexed by target; NULL: the
+ * current scales) the scale of target t after the runs, and subtracts the share of need a target
+ * loses when the runs add more noise than information. */
+void pw_aug_set_scale(pw_aug *a, size_t target, double scale);
+double pw_aug_scale(const pw_aug *a, size_t target);
+int pw_aug_score_scaled(pw_aug *a, const double *row, double w, const double *scale_after,
+                        double *score);
 /* About how many floating-point operations one pw_aug_score call costs now (groups with an active
  * target: p^2 for A^-1 x, a few per target), so callers can budget their rescoring. */
 double pw_aug_score_cost(const pw_aug *a);
@@ -360,6 +369,35 @@ int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, 
 #define PW_AUG_REFRESH 64
 int pw_aug_commit(pw_aug *a, const double *row, double w);   /* PW_OK, PW_EDOM (w <= 0), or the
                                                                 refresh's PW_ENOMEM or PW_ESING */
+
+/* ---------------------------------------------------------------------------------------------
+ * Noise, curvature and cost models for the plan (power/varmodel.c). Z and X are n-by-p, row-major,
+ * with an intercept in column 0. */
+
+/* Harvey's (1976) log-linear variance model: regress log e_i^2 (floored at floor_share times the
+ * mean square; 0 means 1e-8) on Z and add 1.2704 to the intercept, so that exp(z'gamma) estimates
+ * Var e at z. Writes p coefficients to gamma and to *pval the p value of n R^2 of that regression
+ * against chi-squared with p - 1 df (Koenker 1981; NAN when p is 1). PW_OK, PW_EFEW (n <= p),
+ * PW_EDOM (all e zero), PW_ESING, PW_ENOMEM. */
+int pw_harvey_fit(const double *Z, const double *e, size_t n, size_t p, double floor_share,
+                  double *gamma, double *pval);
+/* A log-linear model of a positive quantity (a run's cost): log y on Z by least squares, with
+ * Duan's (1983) smearing factor so that smear * exp(z'gamma) estimates the mean of y at z.
+ * PW_OK, PW_EFEW, PW_EDOM (a y not positive and finite), PW_ESING, PW_ENOMEM. */
+int pw_loglin_fit(const double *Z, const double *y, size_t n, size_t p, double *gamma,
+                  double *smear);
+/* exp(z'gamma). */
+double pw_loglin_eval(const double *gamma, const double *z, size_t p);
+/* The expected residual sum of squares of the least-squares fit of y on X when E y = m and
+ * Var y_i = v_i, independent: m'(I - H)m + sum v_i (1 - h_ii). coef (may be NULL) gets the p
+ * coefficients of the fit of m on X (the straight line the mean projects to). PW_OK, PW_EFEW,
+ * PW_ESING, PW_ENOMEM. */
+int pw_expected_rss(const double *X, const double *m, const double *v, size_t n, size_t p,
+                    double *rss, double *coef);
+/* The extra-sum-of-squares F test of a model with p_small columns inside one with p_big, on n
+ * rows: *f and its upper-tail *pval. PW_OK, PW_EFEW (no degrees of freedom), PW_EDOM. */
+int pw_nested_f(double rss_small, double p_small, double rss_big, double p_big, double n,
+                double *f, double *pval);
 
 /* ---------------------------------------------------------------------------------------------
  * Logistic regression (power/logit.c). */

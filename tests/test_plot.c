@@ -216,7 +216,7 @@ static cov_findings findings(size_t n_planned)
     data.n_vars = N_VARS;
     data.col = colp;
     cov_findings f = {&opt, &graph, &claims, &data, &assessments, &coverage, NULL,
-                      n_planned ? planned : NULL, n_planned};
+                      n_planned ? planned : NULL, n_planned, NULL, 0};
     return f;
 }
 
@@ -583,7 +583,7 @@ static void test_big(const char *tmp)
     bd.col = bcol;
     cov_options opt;
     cov_options_default(&opt);
-    cov_findings f = {&opt, &bg, &bcl, &bd, &ba, &bc, NULL, NULL, 0};
+    cov_findings f = {&opt, &bg, &bcl, &bd, &ba, &bc, NULL, NULL, 0, NULL, 0};
 
     char dir[1200];
     snprintf(dir, sizeof dir, "%s/big", tmp);

@@ -41,6 +41,51 @@ const char *cov_archive_table(const cov_archive *a);
 size_t cov_archive_n_columns(const cov_archive *a);
 const char *cov_archive_column(const cov_archive *a, size_t i);
 
+/* Columns that are not graph variables (coverage/archive/extra.c). Whether the table has column
+ * name (ASCII case folded); and its values as numbers in the order cov_data_read reads runs, NAN
+ * for NULL or text that is not a number. *out is malloc'd (n values). A missing column is
+ * COV_EINPUT; COV_EIO, COV_ENOMEM. */
+int cov_archive_has_column(const cov_archive *a, const char *name);
+int cov_archive_read_number(cov_archive *a, const char *name, double **out, size_t *n,
+                            cov_error *err);
+
+/* The plan's predictions (coverage/archive/predictions.c), kept in shoal's own archive or in a
+ * side file (tables shoal_plans, shoal_plan_claims, shoal_plan_seeds), and what the runs achieved
+ * once the planned runs arrived. */
+typedef struct {
+    char *kind, *treatment, *outcome;
+    double power_now, power_pred, runs_now, runs_after;
+    int reaches;              /* predicted to reach the target */
+    double achieved;          /* power measured once the runs arrived; NAN until then */
+} cov_pred_claim;
+
+typedef struct {
+    long long id;
+    char made_at[32];         /* UTC, ISO 8601 */
+    char digest[65];          /* SHA-256 of the plan file, hex */
+    char *plan_file;
+    long long runs_before;    /* runs in the archive when the plan was made */
+    double target;
+    double total_cost;        /* predicted, NAN without a cost column */
+    unsigned long *seeds;     /* the planned runs' seeds */
+    size_t n_seeds;
+    cov_pred_claim *claims;
+    size_t n_claims;
+    char achieved_at[32];     /* "" until a survey found every planned run */
+    size_t arrived;           /* not stored: planned runs the survey found in the archive */
+} cov_pred_record;
+
+/* Append r (its id and achieved figures ignored) to db_path, created when create is nonzero, in
+ * one transaction. The caller guarantees db_path is shoal's own archive or a side file. */
+int cov_pred_save(const char *db_path, int create, const cov_pred_record *r, cov_error *err);
+/* Every record in db_path, oldest first; none when the tables (or, with missing_ok, the file)
+ * are missing. Free with cov_pred_records_free. COV_OK, COV_EIO, COV_ENOMEM. */
+int cov_pred_load(const char *db_path, int missing_ok, cov_pred_record **out, size_t *n,
+                  cov_error *err);
+/* Store r->achieved_at and each claim's achieved power for record r->id. */
+int cov_pred_save_achieved(const char *db_path, const cov_pred_record *r, cov_error *err);
+void cov_pred_records_free(cov_pred_record *r, size_t n);
+
 /* One import batch, from the shoal_batches table. */
 typedef struct {
     long long id;

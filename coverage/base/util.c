@@ -47,4 +47,5 @@ void cov_options_default(cov_options *o)
     o->need_threeway = NAN;
     o->budget = 0;
     o->replicates = 1;
+    o->rounds = 1;
 }

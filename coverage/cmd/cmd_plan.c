@@ -4,6 +4,10 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
+#include <sys/stat.h>
+#include <time.h>
+#include <unistd.h>
 
 #include "coverage/plan/plan.h"
 #include "coverage/report/report.h"
@@ -24,6 +28,54 @@ static void print_prob(FILE *out, double x)
 {
     if (isnan(x)) fprintf(out, " %10s", "-");
     else fprintf(out, " %10.3f", x);
+}
+
+/* What the plan's run adds besides its table: the models behind it, its cost, rounds, record. */
+typedef struct {
+    const char *record_note;  /* where the predictions were recorded, or why not */
+    char digest[65];
+    size_t full_configs;      /* --rounds: configurations of the whole plan; 0 otherwise */
+    size_t full_reach;        /* --rounds: claims the whole plan brings to the target */
+    const char *cost_column;  /* the column the cost model was fitted on, or NULL */
+} plan_extra_info;
+
+static void print_models(FILE *out, const cov_options *o, const cov_plan *p,
+                         const plan_extra_info *xi)
+{
+    if (p->n_curved > 0)
+        fprintf(out, "\nbent response: %zu outcome%s showed lack of fit to a straight line (F test, "
+                     "1%%); their predictions use a quadratic mean in the numeric inputs, and the "
+                     "straight-line test's residual SD includes the bend.\n",
+                p->n_curved, p->n_curved == 1 ? "" : "s");
+    if (p->n_hetero > 0)
+        fprintf(out, "\nchanging noise: the residual spread of %zu outcome%s changes over the inputs "
+                     "(Harvey's log-linear model, Koenker's test at 1%%); runs in noisy regions are "
+                     "valued for the information they add net of the noise they bring.\n",
+                p->n_hetero, p->n_hetero == 1 ? "" : "s");
+    if (p->n_kept_inside > 0)
+        fprintf(out, "\nkept inside: %zu candidate%s beyond the runs' range (by more than 10%% of an "
+                     "input's span) were left out, since the models are fitted on the runs and say "
+                     "nothing reliable far outside; the predictions assume the response and noise "
+                     "there continue as at the edge of the runs.\n",
+                p->n_kept_inside, p->n_kept_inside == 1 ? "" : "s");
+    if (p->have_cost)
+        fprintf(out, "\npredicted total cost: %.6g (sum of the fitted cost of each planned run; "
+                     "cost column '%s', log-linear model with Duan's smearing)%s\n",
+                p->total_cost, xi->cost_column,
+                o->cost_budget > 0 ? "; within --cost-budget" : "");
+    else if (o->cost_budget > 0)
+        fprintf(out, "\npredicted total cost: %.6g runs (no cost column: each run costs 1)\n",
+                p->total_cost);
+    if (xi->full_configs > 0) {
+        size_t rest = xi->full_configs > p->n_configs ? xi->full_configs - p->n_configs : 0;
+        fprintf(out, "\nround 1 of %d: this batch holds %zu configuration%s (%zu of them where the "
+                     "noise, bend and cost models know least). Run it, import the runs and plan "
+                     "again: the models are refitted and the rest re-planned. The whole plan now "
+                     "counts %zu configurations (%zu claim%s to the target), so about %zu remain.\n",
+                o->rounds, p->n_configs, p->n_configs == 1 ? "" : "s", p->n_explore,
+                xi->full_configs, xi->full_reach, xi->full_reach == 1 ? "" : "s", rest);
+    }
+    if (xi->record_note != NULL) fprintf(out, "\npredictions: %s\n", xi->record_note);
 }
 
 static void print_report(FILE *out, const cov_options *o, const cov_graph *g, const cov_claims *c,
@@ -129,19 +181,29 @@ static const char *mode_word(const cov_plan_claim *it)
 
 static void print_json(FILE *out, const cov_options *o, const cov_graph *g, const cov_claims *c,
                        const cov_assessments *as, const cov_plan *p, const char *path,
-                       unsigned long seed, int from_archive)
+                       unsigned long seed, int from_archive, const plan_extra_info *xi)
 {
     fprintf(out, "{\"schema_version\": 1, \"graph\": ");
     cov_emit_json_string(out, o->graph_path);
     fprintf(out, ", \"plan_file\": ");
     cov_emit_json_string(out, path);
     fprintf(out, ", \"configurations\": %zu, \"replicates\": %d, \"runs\": %zu, "
-                 "\"candidates\": %zu, \"capped\": %s, \"target_power\": ",
+                 "\"candidates\": %zu, \"capped\": %s, \"total_cost\": ",
             p->n_configs, p->replicates, p->n_configs * (size_t)p->replicates, p->n_candidates,
             p->capped ? "true" : "false");
+    cov_emit_json_number(out, p->total_cost);
+    fprintf(out, ", \"cost_fitted\": %s, \"curved_outcomes\": %zu, \"noisy_outcomes\": %zu, "
+                 "\"kept_inside\": %zu, \"explore\": %zu, \"target_power\": ",
+            p->have_cost ? "true" : "false", p->n_curved, p->n_hetero, p->n_kept_inside,
+            p->n_explore);
     cov_emit_json_number(out, o->power.target);
     fprintf(out, ", \"planner_seed\": %lu, \"planner_seed_from\": \"%s\"", seed,
             from_archive ? "archive" : o->seed_given ? "option" : "default");
+    fprintf(out, ", \"plan_sha256\": \"%s\", \"recorded\": %s, \"rounds\": %d, "
+                 "\"whole_plan_configurations\": %zu",
+            xi->digest, xi->record_note != NULL && strncmp(xi->record_note, "recorded", 8) == 0
+                            ? "true" : "false",
+            o->rounds, xi->full_configs > 0 ? xi->full_configs : p->n_configs);
     fputs(", \"claims\": [", out);
     for (size_t j = 0; j < p->n; j++) {
         const cov_plan_claim *it = &p->items[j];
@@ -172,9 +234,76 @@ static void print_json(FILE *out, const cov_options *o, const cov_graph *g, cons
     fputs("\n]}\n", out);
 }
 
+/* Record the plan's predictions with its file's digest: in shoal's own archive, or in the
+ * --history side file; never in the user's archive. */
+static int record_predictions(const cov_options *o, const cov_graph *g, const cov_claims *c,
+                              const cov_plan *p, const cov_data *d, int owned, const char *path,
+                              plan_extra_info *xi, char *note_buf, size_t note_size,
+                              cov_error *err)
+{
+    const char *db = o->history_path != NULL ? o->history_path : owned ? o->archive_path : NULL;
+    if (db == NULL) {
+        snprintf(note_buf, note_size, "not recorded (%s; --history FILE keeps them for the "
+                                      "audit that shoal survey shows once the runs arrive)",
+                 o->archive_path ? "the archive is not shoal's own" : "no archive");
+        xi->record_note = note_buf;
+        return COV_OK;
+    }
+    if (o->history_path != NULL && o->archive_path != NULL) {
+        struct stat sa, sh;
+        if (stat(o->archive_path, &sa) == 0 && stat(o->history_path, &sh) == 0 &&
+            sa.st_dev == sh.st_dev && sa.st_ino == sh.st_ino)
+            return cov_fail(err, COV_EINPUT, "", "--history %s is the archive itself; the "
+                                                 "predictions need a file of their own",
+                            o->history_path);
+    }
+    cov_pred_record r;
+    memset(&r, 0, sizeof r);
+    time_t now = time(NULL);
+    struct tm tm_utc;
+    if (gmtime_r(&now, &tm_utc) == NULL ||
+        strftime(r.made_at, sizeof r.made_at, "%Y-%m-%dT%H:%M:%SZ", &tm_utc) == 0)
+        snprintf(r.made_at, sizeof r.made_at, "unknown");
+    memcpy(r.digest, xi->digest, sizeof r.digest);
+    r.plan_file = (char *)path;
+    r.runs_before = d != NULL ? (long long)d->n_runs : 0;
+    r.target = o->power.target;
+    r.total_cost = p->have_cost ? p->total_cost : NAN;
+    r.seeds = p->seeds;
+    r.n_seeds = p->n_configs * (size_t)p->replicates;
+    r.claims = calloc(p->n + 1, sizeof *r.claims);
+    if (r.claims == NULL) return cov_fail(err, COV_ENOMEM, "", "out of memory");
+    for (size_t j = 0; j < p->n; j++) {
+        const cov_plan_claim *it = &p->items[j];
+        const cov_claim *cl = &c->items[it->claim];
+        cov_pred_claim *pc = &r.claims[r.n_claims++];
+        pc->kind = cl->kind == COV_CLAIM_EFFECT ? "effect" : "absence";
+        pc->treatment = g->vars[cl->treatment].name;
+        pc->outcome = g->vars[cl->outcome].name;
+        pc->power_now = it->power_now;
+        pc->power_pred = it->power_after;
+        pc->runs_now = it->n_now;
+        pc->runs_after = it->n_after;
+        pc->reaches = it->reaches;
+    }
+    int rc = cov_pred_save(db, o->history_path != NULL, &r, err);
+    free(r.claims);
+    if (rc != COV_OK) return rc;
+    snprintf(note_buf, note_size, "recorded in %s with the plan file's SHA-256 %.16s...; shoal "
+                                  "survey compares them with what the runs achieve once they "
+                                  "arrive", db, xi->digest);
+    xi->record_note = note_buf;
+    return COV_OK;
+}
+
 int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err)
 {
     (void)note;
+    double *run_cost = NULL;
+    plan_extra_info xi;
+    memset(&xi, 0, sizeof xi);
+    char note_buf[1024];
+    int owned = 0;
     cov_graph *g = NULL;
     cov_claims *c = NULL;
     cov_archive *ar = NULL;
@@ -190,6 +319,15 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
     if (rc != COV_OK) goto done;
     if ((rc = cov_output_check(path, 0, inputs, 2, "-o", err)) != COV_OK) goto done;
     if ((rc = cov_graph_parse_file(o->graph_path, &g, err)) != COV_OK) goto done;
+    /* The cost column: --cost-column, else the graph's `ledger NAME cost`. */
+    const char *cost_column = o->cost_column;
+    if (cost_column == NULL && cov_graph_cost_column(g) != NULL)
+        cost_column = cov_graph_cost_column(g)->name;
+    if (o->cost_column != NULL && o->archive_path == NULL) {
+        rc = cov_fail(err, COV_EINPUT, "", "--cost-column needs an ARCHIVE whose runs record "
+                                           "their cost");
+        goto done;
+    }
     size_t n_inputs = 0;
     for (size_t v = 0; v < g->n_vars; v++) n_inputs += g->vars[v].role == COV_INPUT;
     if (n_inputs == 0) {
@@ -200,28 +338,60 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
     if ((rc = cov_claims_derive(g, &c, err)) != COV_OK) goto done;
     if (o->archive_path != NULL) {
         if ((rc = cov_archive_open(o->archive_path, o->table, &ar, err)) != COV_OK) goto done;
+        owned = cov_archive_owned(ar);
         rc = cov_data_read(ar, g, NULL, NULL, &d, err);
+        if (rc == COV_OK && cost_column != NULL) {
+            size_t n_cost = 0;
+            rc = cov_archive_read_number(ar, cost_column, &run_cost, &n_cost, err);
+            if (rc == COV_OK && n_cost != d->n_runs)
+                rc = cov_fail(err, COV_EIO, o->archive_path, "the cost column gave %zu rows for "
+                                                             "%zu runs", n_cost, d->n_runs);
+        }
         cov_archive_close(ar);
         if (rc != COV_OK) goto done;
         if (d->n_runs > 0 && (rc = cov_assess(g, c, d, &o->power, &as, err)) != COV_OK) goto done;
     }
-    /* The planner's seed: --seed, or one drawn from the archive's runs, so that each round plans
-     * from another stream yet the same archive always gives the same plan. */
     cov_coverage_options copt = o->coverage;
     int from_archive = !o->seed_given && d != NULL && d->n_runs > 0;
     if (from_archive) copt.seed = cov_runs_fingerprint(d);
-    if ((rc = cov_plan_make(g, c, d, as, &o->power, &copt, o->budget, o->replicates, &p,
-                            err)) != COV_OK)
+    xi.cost_column = cost_column;
+    cov_plan_extra x = {run_cost, o->cost_budget, 0};
+    /* A cost budget without a run count fills the cost. */
+    long budget = o->budget == 0 && o->cost_budget > 0 ? COV_PLAN_AUTO_CAP : o->budget;
+    if ((rc = cov_plan_make_ex(g, c, d, as, &o->power, &copt, budget, o->replicates, &x,
+                               &p, err)) != COV_OK)
         goto done;
+    if (o->rounds > 1 && p->n_configs > 1) {
+        /* Round 1 of K: a K-th of the whole plan, a quarter of it where the models know least. */
+        xi.full_configs = p->n_configs;
+        for (size_t j = 0; j < p->n; j++) xi.full_reach += p->items[j].reaches != 0;
+        size_t first = (p->n_configs + (size_t)o->rounds - 1) / (size_t)o->rounds;
+        x.explore = first / 4;
+        x.cost_budget = 0;
+        cov_plan_free(p);
+        p = NULL;
+        if ((rc = cov_plan_make_ex(g, c, d, as, &o->power, &copt,
+                                   (long)(first - x.explore), o->replicates, &x, &p, err)) != COV_OK)
+            goto done;
+    }
     if ((rc = cov_plan_write_csv(g, p, path, err)) != COV_OK) goto done;
+    if ((rc = cov_sha256_file(path, xi.digest, err)) != COV_OK) goto done;
+    if ((rc = record_predictions(o, g, c, p, d, owned, path, &xi, note_buf, sizeof note_buf,
+                                 err)) != COV_OK)
+        goto done;
     size_t n_testable = 0;
     for (size_t i = 0; i < c->n; i++) n_testable += c->items[i].status == COV_TESTABLE;
-    if (!o->quiet && o->format == COV_FMT_JSON) print_json(out, o, g, c, as, p, path, copt.seed, from_archive);
-    else if (!o->quiet) print_report(out, o, g, c, as, p, n_testable, path, copt.seed, from_archive);
+    if (!o->quiet && o->format == COV_FMT_JSON)
+        print_json(out, o, g, c, as, p, path, copt.seed, from_archive, &xi);
+    else if (!o->quiet) {
+        print_report(out, o, g, c, as, p, n_testable, path, copt.seed, from_archive);
+        print_models(out, o, p, &xi);
+    }
     int all = 1;
     for (size_t j = 0; j < p->n; j++) all &= p->items[j].reaches;
     *adequate = all;
 done:
+    free(run_cost);
     cov_plan_free(p);
     cov_assessments_free(as);
     cov_data_free(d);

@@ -258,6 +258,7 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
         term_text(out, info->plot_note);
         fputc('\n', out);
     }
+    cov_report_audit_text(f, out);
     fputs("\nreport: ", out);
     term_text(out, dir);
     fputs("/index.html (also report.md, summary.json, claims.csv)\n", out);
@@ -287,6 +288,11 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     size_t n_snapshots = 0;
     double *planned = NULL;
     size_t n_planned = 0, *order = NULL;
+    double *seed_col = NULL;
+    size_t n_seed_col = 0;
+    cov_pred_record *preds = NULL;
+    size_t n_preds = 0;
+    unsigned char *frozen = NULL;
     char tmp[4096] = "", gate[256], plot_msg[sizeof err->msg + 64], at[32];
     int rc;
     *adequate = 0;
@@ -321,6 +327,15 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     int owned = cov_archive_owned(ar);
     rc = cov_data_read(ar, g, o.progress && note && !o.quiet ? cov_progress_note : NULL, note, &d, err);
     if (rc != COV_OK) goto fail;
+    /* The seeds of the runs, which tell which planned runs have arrived (the plan file's column). */
+    const char *seed_name = cov_graph_seed_column(g) != NULL ? cov_graph_seed_column(g) : "seed";
+    if (cov_archive_has_column(ar, seed_name) &&
+        ((rc = cov_archive_read_number(ar, seed_name, &seed_col, &n_seed_col, err)) != COV_OK))
+        goto fail;
+    if (seed_col != NULL && n_seed_col != d->n_runs) {
+        free(seed_col);
+        seed_col = NULL;
+    }
     /* The read-only connection is closed before anything writes history into the archive. */
     cov_archive_close(ar);
     ar = NULL;
@@ -345,13 +360,30 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
                                err)) != COV_OK)
         goto fail;
 
+    if (store != COV_HISTORY_NONE &&
+        (rc = cov_pred_load(history_path, store == COV_HISTORY_SIDE, &preds, &n_preds, err)) !=
+            COV_OK)
+        goto fail;
+
     step_note(&o, note, "assessing the claims");
     if ((rc = cov_assess(g, claims, d, &o.power, &as, err)) != COV_OK) goto fail;
     step_note(&o, note, "measuring coverage and support");
     if ((rc = cov_coverage_measure(g, d, &o.coverage, &cv, err)) != COV_OK) goto fail;
     if ((rc = cov_support_measure(g, claims, d, &o.coverage, &sp, err)) != COV_OK) goto fail;
 
-    cov_findings f = {&o, g, claims, d, as, cv, sp, planned, n_planned};
+    time_t now = time(NULL);
+    struct tm tm_utc;
+    if (gmtime_r(&now, &tm_utc) == NULL || strftime(at, sizeof at, "%Y-%m-%dT%H:%M:%SZ",
+                                                   &tm_utc) == 0)
+        snprintf(at, sizeof at, "unknown");
+    frozen = calloc(n_preds + 1, 1);
+    if (frozen == NULL ||
+        cov_plan_audit_fill(g, claims, as, d->n_runs, seed_col, preds, n_preds, at, frozen) !=
+            COV_OK) {
+        rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
+        goto fail;
+    }
+    cov_findings f = {&o, g, claims, d, as, cv, sp, planned, n_planned, preds, n_preds};
     int all_ample = cov_claims_ample(claims, as);
     int missed = cov_coverage_gate_missed(&o, cv, gate, sizeof gate);
     if (claims->n == 0) {
@@ -388,11 +420,6 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         goto fail;
     }
 
-    time_t now = time(NULL);
-    struct tm tm_utc;
-    if (gmtime_r(&now, &tm_utc) == NULL || strftime(at, sizeof at, "%Y-%m-%dT%H:%M:%SZ",
-                                                   &tm_utc) == 0)
-        snprintf(at, sizeof at, "unknown");
     cov_snapshot *grown = realloc(snaps, (n_snapshots + 1) * sizeof *grown);
     if (grown == NULL) {
         rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
@@ -415,6 +442,9 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         (rc = cov_report_history_record(history_path, store == COV_HISTORY_SIDE, &f, now_snap,
                                         err)) != COV_OK)
         goto fail;
+    for (size_t k = 0; k < n_preds; k++)
+        if (frozen[k] && (rc = cov_pred_save_achieved(history_path, &preds[k], err)) != COV_OK)
+            goto fail;
     if ((rc = move_into_place(tmp, dir, err)) != COV_OK) goto fail;
     tmp[0] = '\0';
 
@@ -430,6 +460,9 @@ fail:
     free(order);
     free(snaps);
     free(planned);
+    free(seed_col);
+    free(frozen);
+    cov_pred_records_free(preds, n_preds);
     cov_supports_free(sp);
     cov_coverage_free(cv);
     cov_assessments_free(as);

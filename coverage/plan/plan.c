@@ -94,6 +94,11 @@ struct plan_state {
     cov_plan_cover *cover;    /* the coverage bonus of each candidate */
     struct delta_cache *dc;
     unsigned char *planned;   /* n_slots: the levels the planned runs so far set */
+    cov_plan_noise *nz;       /* the residual variance each claim will see, or NULL */
+    double *scale_after;      /* per pw_aug target: scratch for cov_plan_noise_scales_after */
+    double *cand_cost;        /* per candidate: fitted cost of one run (1 without a cost model) */
+    double cost_ref;          /* the mean candidate cost: scores are per this much cost */
+    unsigned char *excluded;  /* per candidate: beyond the runs' range while a model is uncertain */
 };
 
 int cov_plan_var_present(const cov_data *d, size_t v, size_t i)
@@ -295,6 +300,10 @@ static void state_free(struct plan_state *st)
     free(st->cand_vals);
     free(st->cand_rows);
     cov_plan_cover_free(st->cover);
+    cov_plan_noise_free(st->nz);
+    free(st->scale_after);
+    free(st->cand_cost);
+    free(st->excluded);
     free(st->L.first);
     free(st->L.count);
     if (st->dc != NULL) free(st->dc->e);
@@ -306,6 +315,7 @@ void cov_plan_free(cov_plan *p)
     free(p->rows);
     free(p->seeds);
     free(p->items);
+    free(p->cost);
     free(p);
 }
 
@@ -416,6 +426,10 @@ static int predict(const struct plan_state *st, const cov_plan_claim *it, double
         int ok = 0;
         int rc = exact_design(st, &st->c->items[it->claim], w, w->n_base + added, &t, &ok);
         if (rc != COV_OK || !ok) return rc;
+        if (cov_plan_noise_tracked(st->nz, w->target) && t.test != PW_TEST_TWO_PROP) {
+            /* The residual SD the test will see: the archive's, moved by the predicted ratio. */
+            t.sigma /= sqrt(cov_plan_noise_scale(st->nz, w->target));
+        }
     }
     return pw_power(&t, power) == PW_OK ? COV_OK : COV_ENUMERIC;
 }
@@ -575,10 +589,25 @@ static int score_candidate(struct plan_state *st, size_t c, double w, double *cl
                            double *total)
 {
     double s = 0.0;
-    if (pw_aug_score(st->aug, st->cand_rows + c * st->L.n_cols, w, &s) != PW_OK) return COV_ENUMERIC;
-    *claim_part = s;
+    if (st->excluded != NULL && st->excluded[c]) {
+        *claim_part = 0.0;
+        *total = -INFINITY;
+        return COV_OK;
+    }
+    const double *scale = NULL;
+    if (st->nz != NULL) {
+        cov_plan_noise_scales_after(st->nz, c, w, st->scale_after);
+        scale = st->scale_after;
+    }
+    if (pw_aug_score_scaled(st->aug, st->cand_rows + c * st->L.n_cols, w, scale, &s) != PW_OK)
+        return COV_ENUMERIC;
     double bonus = cov_plan_cover_bonus(st->cover, c);
-    *total = pw_aug_n_active(st->aug) > 0 ? s * (1.0 + PLAN_COVER_WEIGHT * bonus) : bonus;
+    /* Information per unit of cost: the score of a run over its fitted cost relative to the mean
+     * candidate's (1 without a cost column). */
+    double per_cost = st->cand_cost != NULL ? st->cost_ref / st->cand_cost[c] : 1.0;
+    *claim_part = s * per_cost;
+    *total = pw_aug_n_active(st->aug) > 0 ? s * (1.0 + PLAN_COVER_WEIGHT * bonus) * per_cost
+                                          : bonus * per_cost;
     return COV_OK;
 }
 
@@ -656,6 +685,153 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
                   const cov_coverage_options *copt, long budget, int replicates,
                   cov_plan **out, cov_error *err)
 {
+    return cov_plan_make_ex(g, c, d, a, opt, copt, budget, replicates, NULL, out, err);
+}
+
+/* Set every tracked target's scale from the noise tracker. */
+static void sync_scales(struct plan_state *st)
+{
+    if (st->nz == NULL) return;
+    for (size_t t = 0; t < pw_aug_n_targets(st->aug); t++)
+        if (cov_plan_noise_tracked(st->nz, t))
+            pw_aug_set_scale(st->aug, t, cov_plan_noise_scale(st->nz, t));
+}
+
+/* Commit replicates runs at candidate best: the designs, the coverage cells, the noise tracker, the
+ * plan's rows and costs, the levels planned. */
+static int commit_candidate(struct plan_state *st, cov_plan *p, size_t *row_cap, size_t best,
+                            double k_rep, cov_error *err)
+{
+    const cov_graph *g = st->g;
+    if (pw_aug_commit(st->aug, st->cand_rows + best * st->L.n_cols, k_rep) != PW_OK)
+        return cov_fail(err, COV_ENUMERIC, "", "the planned design became singular");
+    cov_plan_cover_commit(st->cover, best, (int)k_rep);
+    if (st->nz != NULL) {
+        if (cov_plan_noise_commit(st->nz, st->cand_rows + best * st->L.n_cols, k_rep) != COV_OK)
+            return COV_ENOMEM;
+        sync_scales(st);
+    }
+    size_t at = p->n_configs;
+    int rc = push_row(p, row_cap, st->cand_vals + best * g->n_vars);
+    if (rc != COV_OK) return rc;
+    double *nc = realloc(p->cost, (*row_cap + 1) * sizeof *nc);
+    if (nc == NULL) return COV_ENOMEM;
+    p->cost = nc;
+    p->cost[at] = st->cand_cost != NULL ? st->cand_cost[best] : 1.0;
+    p->total_cost += k_rep * p->cost[at];
+    for (size_t v = 0; v < g->n_vars; v++) {
+        double lv = st->cand_vals[best * g->n_vars + v];
+        if (g->vars[v].role == COV_INPUT && g->vars[v].type == COV_LEVELS && lv >= 0 &&
+            lv < (double)g->vars[v].n_levels)
+            st->planned[st->L.slot[v] + (size_t)lv] = 1;
+    }
+    return COV_OK;
+}
+
+/* The noise tracker and the cost of each candidate, from the archive's rows with every input
+ * present (coverage/plan/plan_noise.c, plan_models.c). Without runs, neither. */
+static int setup_models(struct plan_state *st, const cov_plan *p, const cov_plan_extra *x)
+{
+    const cov_graph *g = st->g;
+    const cov_data *d = st->d;
+    size_t nc = st->L.n_cols;
+    if (d == NULL) return COV_OK;
+    unsigned char *numeric = calloc(nc + 1, 1);
+    double *rows = malloc((d->n_runs * nc + 1) * sizeof *rows);
+    double *vals = malloc((g->n_vars + 1) * sizeof *vals), *y = malloc((d->n_runs + 1) * sizeof *y);
+    size_t *idx = malloc((d->n_runs + 1) * sizeof *idx);
+    int rc = COV_ENOMEM;
+    if (numeric == NULL || rows == NULL || vals == NULL || y == NULL || idx == NULL) goto done;
+    for (size_t v = 0; v < g->n_vars; v++)
+        if (st->L.count[v] > 0 && cov_plan_is_numeric(&g->vars[v])) numeric[st->L.first[v]] = 1;
+    size_t n = 0;
+    for (size_t i = 0; i < d->n_runs; i++) {
+        int ok = 1;
+        for (size_t v = 0; v < g->n_vars && ok; v++) {
+            if (st->L.count[v] == 0) {
+                vals[v] = NAN;
+                continue;
+            }
+            ok = cov_plan_var_present(d, v, i);
+            vals[v] = ok ? d->col[v][i] : 0.0;
+        }
+        if (!ok) continue;
+        code_row(g, &st->L, vals, rows + n * nc);
+        idx[n++] = i;
+    }
+    size_t n_t = pw_aug_n_targets(st->aug);
+    if ((rc = cov_plan_noise_alloc(nc, numeric, rows, n, n_t, &st->nz)) != COV_OK) goto done;
+    st->scale_after = malloc((n_t + 1) * sizeof *st->scale_after);
+    if (st->scale_after == NULL) {
+        rc = COV_ENOMEM;
+        goto done;
+    }
+    for (size_t j = 0; j < p->n; j++) {
+        const cov_plan_claim *it = &p->items[j];
+        if (it->mode != COV_PLAN_STEERED) continue;
+        const claim_work *w = &st->w[it->claim];
+        const cov_claim *cl = &st->c->items[it->claim];
+        for (size_t i = 0; i < n; i++) y[i] = d->col[cl->outcome] ? d->col[cl->outcome][idx[i]] : NAN;
+        const plan_group *gr = &st->groups[w->gi];
+        if ((rc = cov_plan_noise_add_claim(st->nz, w->target, cl->outcome, y, gr->cols, gr->p)) !=
+            COV_OK)
+            goto done;
+    }
+    if ((rc = cov_plan_noise_candidates(st->nz, st->cand_rows, st->n_cand)) != COV_OK) goto done;
+    sync_scales(st);
+    /* Cost: fitted where the archive records it; 1 a run otherwise. */
+    if (x != NULL && x->run_cost != NULL) {
+        size_t m = 0;
+        double *cr = malloc((n * nc + 1) * sizeof *cr);
+        if (cr == NULL) {
+            rc = COV_ENOMEM;
+            goto done;
+        }
+        for (size_t i = 0; i < n; i++) {
+            double cost = x->run_cost[idx[i]];
+            if (!(cost > 0) || !isfinite(cost)) continue;
+            memcpy(cr + m * nc, rows + i * nc, nc * sizeof *cr);
+            y[m++] = cost;
+        }
+        cov_plan_model *cm = NULL;
+        rc = cov_plan_model_fit(cr, y, m, nc, numeric, 1, &cm);
+        free(cr);
+        if (rc == COV_ENOMEM) goto done;
+        if (rc == COV_OK) {
+            st->cand_cost = malloc((st->n_cand + 1) * sizeof *st->cand_cost);
+            if (st->cand_cost == NULL) {
+                cov_plan_model_free(cm);
+                rc = COV_ENOMEM;
+                goto done;
+            }
+            st->cost_ref = 0.0;
+            for (size_t k = 0; k < st->n_cand; k++) {
+                st->cand_cost[k] = cov_plan_model_mean(cm, st->cand_rows + k * nc);
+                st->cost_ref += st->cand_cost[k] / (double)st->n_cand;
+            }
+            cov_plan_model_free(cm);
+        }
+        rc = COV_OK;
+    }
+    rc = COV_OK;
+done:
+    free(numeric);
+    free(rows);
+    free(vals);
+    free(y);
+    free(idx);
+    return rc;
+}
+
+/* The share of a numeric input's span beyond the runs' range that candidates may reach while a
+ * model bends or its noise varies: the models are fitted on the runs and say nothing far outside. */
+#define PLAN_HULL_SLACK 0.10
+
+int cov_plan_make_ex(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                     const cov_assessments *a, const cov_power_options *opt,
+                     const cov_coverage_options *copt, long budget, int replicates,
+                     const cov_plan_extra *x, cov_plan **out, cov_error *err)
+{
     *out = NULL;
     int rc = cov_plan_check_limits(budget, replicates, err);
     if (rc != COV_OK) return rc;
@@ -706,6 +882,20 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         code_row(g, &st.L, st.cand_vals + k * g->n_vars, st.cand_rows + k * st.L.n_cols);
     rc = cov_plan_cover_alloc(g, st.d, st.cand_vals, st.n_cand, copt, seed, &st.cover);
     if (rc != COV_OK) goto fail;
+    if ((rc = setup_models(&st, p, x)) != COV_OK) goto fail;
+    rc = COV_ENOMEM;
+    cov_plan_noise_counts(st.nz, &p->n_curved, &p->n_hetero);
+    p->have_cost = st.cand_cost != NULL;
+    if (p->n_curved + p->n_hetero > 0) {
+        st.excluded = calloc(st.n_cand + 1, 1);
+        if (st.excluded == NULL) goto fail;
+        for (size_t k = 0; k < st.n_cand; k++) {
+            st.excluded[k] = (unsigned char)cov_plan_noise_outside(
+                st.nz, st.cand_rows + k * st.L.n_cols, PLAN_HULL_SLACK);
+            p->n_kept_inside += st.excluded[k];
+        }
+    }
+    double cost_budget = x != NULL && x->cost_budget > 0 ? x->cost_budget : INFINITY;
 
     /* Assumed claims need configurations in proportion; beyond the cap they are unreachable. */
     double k_rep = (double)replicates;
@@ -726,6 +916,10 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
         if (budget >= 0 && planned >= (size_t)budget) break;
         if (budget < 0 && pw_aug_n_active(st.aug) == 0 && planned >= assumed_configs) {
             /* Needs are met: confirm with the exact power, and raise any need that fell short. */
+            if (st.nz != NULL) {
+                if ((rc = cov_plan_noise_refresh(st.nz)) != COV_OK) goto fail;
+                sync_scales(&st);
+            }
             refresh_needs(&st, p, (double)planned * k_rep, 0);
             int short_any = 0;
             for (size_t j = 0; j < p->n; j++) {
@@ -739,7 +933,8 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
                 if (++bumps > PLAN_MAX_BUMPS) it->unreachable = 1;
                 else pw_aug_set_need(st.aug, w->target,
                                      fmax(pw_aug_need(st.aug, w->target),
-                                          pw_aug_info(st.aug, w->target)) * PLAN_NEED_BUMP);
+                                          pw_aug_info(st.aug, w->target) *
+                                              pw_aug_scale(st.aug, w->target)) * PLAN_NEED_BUMP);
             }
             if (!short_any) break;
             for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY, fresh[k] = 0;
@@ -774,24 +969,20 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
             for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY, fresh[k] = 0;
             continue;
         }
+        if (bound[best] == -INFINITY) break;   /* every candidate left is excluded */
+        double run_cost = st.cand_cost != NULL ? st.cand_cost[best] : 1.0;
+        if (p->total_cost + k_rep * run_cost > cost_budget) break;
         int was_active = pw_aug_n_active(st.aug) > 0;
-        if (pw_aug_commit(st.aug, st.cand_rows + best * st.L.n_cols, k_rep) != PW_OK) {
-            rc = cov_fail(err, COV_ENUMERIC, "", "the planned design became singular");
-            goto fail;
-        }
-        cov_plan_cover_commit(st.cover, best, replicates);
-        if ((rc = push_row(p, &row_cap, st.cand_vals + best * g->n_vars)) != COV_OK) goto fail;
-        for (size_t v = 0; v < g->n_vars; v++) {
-            double lv = st.cand_vals[best * g->n_vars + v];
-            if (g->vars[v].role == COV_INPUT && g->vars[v].type == COV_LEVELS && lv >= 0 &&
-                lv < (double)g->vars[v].n_levels)
-                st.planned[st.L.slot[v] + (size_t)lv] = 1;
-        }
+        if ((rc = commit_candidate(&st, p, &row_cap, best, k_rep, err)) != COV_OK) goto fail;
         for (size_t k = 0; k < st.n_cand; k++) fresh[k] = 0;
         if (pw_aug_n_active(st.aug) == 0 && was_active)
             for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
         if ((double)p->n_configs >= PLAN_NEED_REFRESH * (double)(last_refresh + 4)) {
             last_refresh = p->n_configs;
+            if (st.nz != NULL) {
+                if ((rc = cov_plan_noise_refresh(st.nz)) != COV_OK) goto fail;
+                sync_scales(&st);
+            }
             refresh_needs(&st, p, (double)p->n_configs * k_rep, 1);
             for (size_t k = 0; k < st.n_cand; k++) bound[k] = INFINITY;
         }
@@ -813,6 +1004,22 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
                 pw_aug_active(st.aug, st.w[p->items[j].claim].target))
                 p->items[j].unreachable = 1;
 
+    /* A first round's learning share: the candidates farthest from every run and in the emptiest
+     * cells, where the noise, bend and cost models know least (outside the range included). */
+    for (size_t e = 0; x != NULL && e < x->explore && st.n_cand > 0; e++) {
+        size_t far = 0;
+        double fb = -1.0;
+        for (size_t k = 0; k < st.n_cand; k++) {
+            double b = cov_plan_cover_bonus(st.cover, k);
+            if (b > fb) fb = b, far = k;
+        }
+        if ((rc = commit_candidate(&st, p, &row_cap, far, k_rep, err)) != COV_OK) goto fail;
+        p->n_explore++;
+    }
+    if (st.nz != NULL) {
+        if ((rc = cov_plan_noise_refresh(st.nz)) != COV_OK) goto fail;
+        sync_scales(&st);
+    }
     double added = (double)p->n_configs * k_rep;
     for (size_t j = 0; j < p->n; j++) {
         cov_plan_claim *it = &p->items[j];

@@ -56,7 +56,24 @@ typedef struct {
     size_t n_vars;
     int capped;           /* --budget auto stopped at the cap */
     size_t n_candidates;  /* size of the candidate set */
+    /* Run cost (coverage/plan/plan_models.c): the fitted cost of one run at each configuration
+     * (1 without a cost column) and their sum over every planned run. */
+    double *cost;         /* n_configs */
+    double total_cost;
+    int have_cost;        /* a cost model was fitted */
+    size_t n_curved;      /* outcomes whose straight mean showed lack of fit (bent mean used) */
+    size_t n_hetero;      /* outcomes with a fitted noise model */
+    size_t n_kept_inside; /* candidates left out for lying beyond the runs' range */
+    size_t n_explore;     /* configurations chosen to learn the models (--rounds) */
 } cov_plan;
+
+/* What cov_plan_make_ex adds to cov_plan_make. */
+typedef struct {
+    const double *run_cost;   /* per archive run (d's order), NAN when missing; NULL: cost 1 */
+    double cost_budget;       /* > 0: stop before the planned cost passes it; else unused */
+    size_t explore;           /* configurations to add after the search where the models know
+                                 least (far from every run): the learning share of a first round */
+} cov_plan_extra;
 
 /* Plan budget configurations (budget -1: the fewest that bring every reachable testable claim to
  * the target, at most COV_PLAN_AUTO_CAP) of replicates runs each. d and a may be NULL (no runs
@@ -68,6 +85,70 @@ int cov_plan_make(const cov_graph *g, const cov_claims *c, const cov_data *d,
                   const cov_coverage_options *copt, long budget, int replicates,
                   cov_plan **out, cov_error *err);
 void cov_plan_free(cov_plan *p);
+/* cov_plan_make with run costs, a cost budget and exploration (x may be NULL: as cov_plan_make). */
+int cov_plan_make_ex(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                     const cov_assessments *a, const cov_power_options *opt,
+                     const cov_coverage_options *copt, long budget, int replicates,
+                     const cov_plan_extra *x, cov_plan **out, cov_error *err);
+
+/* The plan audit (coverage/plan/plan_audit.c): for each of the n recorded plans, count its runs
+ * among the archive's n_runs runs (those after its runs_before whose seed_col value is one of its
+ * seeds; without seed_col, the runs imported since), and, unless frozen already, set each claim's
+ * achieved power from a (matched by kind, treatment and outcome names). A plan whose runs have all
+ * arrived gets achieved_at = now and frozen[k] = 1, for the caller to store. COV_OK, COV_ENOMEM. */
+int cov_plan_audit_fill(const cov_graph *g, const cov_claims *c, const cov_assessments *a,
+                        size_t n_runs, const double *seed_col, cov_pred_record *recs, size_t n,
+                        const char *now, unsigned char *frozen);
+
+/* The SHA-256 digest (FIPS 180-4) of the file at path as 64 lower-case hex digits and a NUL
+ * (coverage/plan/plan_digest.c). COV_OK or COV_EIO. */
+int cov_sha256_file(const char *path, char hex[65], cov_error *err);
+
+/* A model fitted on coded rows (coverage/plan/plan_models.c): n rows of n_cols coded values
+ * (intercept first; numeric[j] marks numeric columns). An outcome model (is_cost 0): the mean is
+ * straight, or quadratic in the numeric columns when the extra-sum-of-squares F test finds lack of
+ * fit at 5%; the noise is Harvey's (1976) log-linear variance model of its residuals. A cost model
+ * (is_cost 1): log-linear in the columns with Duan's smearing. Every prediction holds the numeric
+ * columns at the runs' range (no extrapolation beyond it). COV_OK, COV_ENUMERIC (too few rows or a
+ * singular design), COV_EINPUT (a cost not positive), COV_ENOMEM. */
+typedef struct cov_plan_model cov_plan_model;
+int cov_plan_model_fit(const double *rows, const double *y, size_t n, size_t n_cols,
+                       const unsigned char *numeric, int is_cost, cov_plan_model **out);
+void cov_plan_model_free(cov_plan_model *m);
+double cov_plan_model_mean(const cov_plan_model *m, const double *row);
+double cov_plan_model_var(const cov_plan_model *m, const double *row);
+/* 1 when a coded column of row lies beyond the runs' range by more than slack times its span. */
+int cov_plan_model_outside(const cov_plan_model *m, const double *row, double slack);
+int cov_plan_model_curved(const cov_plan_model *m);
+int cov_plan_model_hetero(const cov_plan_model *m);
+double cov_plan_model_sigma2(const cov_plan_model *m);
+double cov_plan_model_lof_p(const cov_plan_model *m);
+
+/* The residual variance each steered claim's test will see (coverage/plan/plan_noise.c). Built on
+ * the archive's n_rows coded rows with every input present (copied), for n_targets pw_aug
+ * targets. A claim is tracked once cov_plan_noise_add_claim fits its outcome's model (y: the
+ * outcome per archive row, NAN when missing) and its straight-line design over cols; untracked
+ * claims keep scale 1. The scale of a claim is its residual variance over the archive's rows alone
+ * divided by the one predicted with the planned runs (below 1 when they add noise or bend). */
+typedef struct cov_plan_noise cov_plan_noise;
+int cov_plan_noise_alloc(size_t n_cols, const unsigned char *numeric, const double *rows,
+                         size_t n_rows, size_t n_targets, cov_plan_noise **out);
+void cov_plan_noise_free(cov_plan_noise *nz);
+int cov_plan_noise_add_claim(cov_plan_noise *nz, size_t target, size_t outcome, const double *y,
+                             const size_t *cols, size_t p);
+int cov_plan_noise_tracked(const cov_plan_noise *nz, size_t target);
+/* Predict each model at the n_cand coded candidates (borrowed until nz is freed). */
+int cov_plan_noise_candidates(cov_plan_noise *nz, const double *cand_rows, size_t n_cand);
+/* Every target's scale after k more runs at candidate cand (scale: n_targets values). */
+void cov_plan_noise_scales_after(const cov_plan_noise *nz, size_t cand, double k, double *scale);
+double cov_plan_noise_scale(const cov_plan_noise *nz, size_t target);
+/* Add k runs at the coded row (an increment), or recompute every claim exactly (refresh). */
+int cov_plan_noise_commit(cov_plan_noise *nz, const double *row, double k);
+int cov_plan_noise_refresh(cov_plan_noise *nz);
+/* Outcome models with a bent mean, with a noise model. */
+void cov_plan_noise_counts(const cov_plan_noise *nz, size_t *curved, size_t *hetero);
+/* 1 when row lies beyond some model's runs by more than slack times the span. */
+int cov_plan_noise_outside(const cov_plan_noise *nz, const double *row, double slack);
 
 /* Write the plan as CSV to path through a temporary file in the same directory and a rename: one
  * column per input in declaration order (level names, bools 0/1, integers whole), then `seed`

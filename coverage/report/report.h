@@ -22,6 +22,9 @@ typedef struct {
     const double *planned;    /* planned runs from `shoal plan`: n_planned rows of graph->n_vars
                                  values (NAN for non-inputs), or NULL */
     size_t n_planned;
+    const cov_pred_record *preds;   /* recorded plans, oldest first (their arrived counts and
+                                       achieved powers filled by the survey), or NULL */
+    size_t n_preds;
 } cov_findings;
 
 /* Where a survey keeps its history: in the owned archive, in a --history side file, or nowhere. */
@@ -120,6 +123,12 @@ void cov_report_share_text(double x, char *buf, size_t size);
  * dir unless info->plot_note is set. Returns COV_OK or COV_ENOMEM (err filled). */
 int cov_report_html(const cov_findings *f, const cov_report_info *info, const char *dir,
                     FILE *out, cov_error *err);
+/* The plan audit (coverage/report/report_audit.c): the latest recorded plan's predictions against
+ * what its runs achieved, and every plan's track record, for the terminal, report.md and
+ * index.html. Nothing is written when f->n_preds is 0. */
+void cov_report_audit_text(const cov_findings *f, FILE *out);
+void cov_report_audit_md(const cov_findings *f, FILE *out);
+void cov_report_audit_html(const cov_findings *f, FILE *out);
 /* Write report.md (coverage/report_md.c) of f to out. Returns COV_OK or COV_ENOMEM (no message). */
 int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE *out);
 

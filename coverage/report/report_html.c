@@ -700,6 +700,7 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
     if (rc == COV_OK) {
         if (f->coverage != NULL) html_coverage(out, f);
         html_history(out, f, info);
+        cov_report_audit_html(f, out);
         fputs("<section id=\"cautions\"><h2>Read with care</h2>\n<ul class=\"cautions\">\n", out);
         for (size_t k = 0; k < cov_report_n_cautions; k++) {
             fputs("<li>", out);

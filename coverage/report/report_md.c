@@ -137,6 +137,7 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
         fprintf(out, " | %lld | %lld | %lld | %lld |\n", info->snapshots[r].n_runs,
                 info->snapshots[r].n_ample, info->snapshots[r].n_underpowered, info->snapshots[r].n_blind);
     }
+    cov_report_audit_md(f, out);
     fputs("\n## Read with care\n\n", out);
     for (size_t k = 0; k < cov_report_n_cautions; k++)
         fprintf(out, "- %s\n", cov_report_cautions[k]);
