@@ -125,6 +125,10 @@ with tempfile.TemporaryDirectory() as d:
     r = run([SHOAL, "plan", GRAPH, plain, "--budget", "20", "-o", os.path.join(d, "p3.csv"),
              "--history", side])
     check(sha(plain) == before and os.path.exists(side), "with --history the record goes to the side file; the archive is unchanged")
+    r = run([SHOAL, "plan", GRAPH, plain, "--budget", "5", "-o", os.path.join(d, "p4.csv"),
+             "--history", plain])
+    check(r.returncode == 2 and sha(plain) == before,
+          "plan --history naming the archive itself exits 2 and leaves it alone (%s)" % r.stderr.strip())
     got3 = os.path.join(d, "got3.csv")
     with open(got3, "w") as fh:
         subprocess.run([TRIAGE, "run", os.path.join(d, "p3.csv")], stdout=fh, check=True)

@@ -318,6 +318,10 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
     int rc = cov_plan_check_limits(o->budget, o->replicates, err);
     if (rc != COV_OK) goto done;
     if ((rc = cov_output_check(path, 0, inputs, 2, "-o", err)) != COV_OK) goto done;
+    const char *side_inputs[] = {o->graph_path, o->archive_path, path};
+    if (o->history_path != NULL &&
+        (rc = cov_output_check(o->history_path, 0, side_inputs, 3, "--history", err)) != COV_OK)
+        goto done;
     if ((rc = cov_graph_parse_file(o->graph_path, &g, err)) != COV_OK) goto done;
     /* The cost column: --cost-column, else the graph's `ledger NAME cost`. */
     const char *cost_column = o->cost_column;
