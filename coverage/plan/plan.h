@@ -117,6 +117,8 @@ int cov_plan_model_fit(const double *rows, const double *y, size_t n, size_t n_c
 void cov_plan_model_free(cov_plan_model *m);
 double cov_plan_model_mean(const cov_plan_model *m, const double *row);
 double cov_plan_model_var(const cov_plan_model *m, const double *row);
+/* The bent part of the mean: the quadratic and product terms alone (0 for a straight mean). */
+double cov_plan_model_bend(const cov_plan_model *m, const double *row);
 /* 1 when a coded column of row lies beyond the runs' range by more than slack times its span. */
 int cov_plan_model_outside(const cov_plan_model *m, const double *row, double slack);
 int cov_plan_model_curved(const cov_plan_model *m);

@@ -265,6 +265,18 @@ double cov_plan_model_mean(const cov_plan_model *m, const double *row)
     return s;
 }
 
+double cov_plan_model_bend(const cov_plan_model *m, const double *row)
+{
+    if (m->is_cost || !m->curved) return 0.0;
+    double b[4096];
+    size_t p = basis_size(m, m->quad);
+    if (p > sizeof b / sizeof b[0]) return 0.0;
+    basis(m, row, m->quad, b);
+    double s = 0.0;
+    for (size_t j = m->n_cols; j < p; j++) s += m->coef[j] * b[j];
+    return s;
+}
+
 double cov_plan_model_var(const cov_plan_model *m, const double *row)
 {
     if (!m->hetero) return m->sigma2;

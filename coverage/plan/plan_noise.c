@@ -1,5 +1,8 @@
 /* The residual variance each claim's test will see after the planned runs: the outcome models'
- * noise and bend, projected on the claim's straight-line design. See LICENSE. */
+ * noise and bend, projected on the claim's straight-line design. Only the bent part of the mean
+ * enters: the straight part (other inputs' effects left in the residual) is taken to stay as in the
+ * archive, as the plan assumed before, so a straight response with constant noise is planned as
+ * without these models. See LICENSE. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -143,12 +146,12 @@ static int exact(cov_plan_noise *nz, tracked *t, int planned, double *rss, doubl
         if (!nz->has_y[t->outcome][i]) continue;
         const double *row = nz->rows + i * nz->n_cols;
         for (size_t j = 0; j < p; j++) X[n * p + j] = row[t->cols[j]];
-        mu[n] = cov_plan_model_mean(m, row);
+        mu[n] = cov_plan_model_bend(m, row);
         v[n++] = cov_plan_model_var(m, row);
     }
     for (size_t r = 0; planned && r < nz->n_planned; r++) {
         const double *row = nz->planned + r * nz->n_cols;
-        double mr = cov_plan_model_mean(m, row), vr = cov_plan_model_var(m, row);
+        double mr = cov_plan_model_bend(m, row), vr = cov_plan_model_var(m, row);
         for (long k = 0; k < lround(nz->planned_w[r]); k++) {
             for (size_t j = 0; j < p; j++) X[n * p + j] = row[t->cols[j]];
             mu[n] = mr;
@@ -204,7 +207,7 @@ int cov_plan_noise_candidates(cov_plan_noise *nz, const double *cand_rows, size_
     if (nz->cand_mean == NULL || nz->cand_var == NULL) return COV_ENOMEM;
     for (size_t k = 0; k < nz->n_models; k++)
         for (size_t c = 0; c < n_cand && nz->models[k] != NULL; c++) {
-            nz->cand_mean[k * n_cand + c] = cov_plan_model_mean(nz->models[k], cand_rows + c * nz->n_cols);
+            nz->cand_mean[k * n_cand + c] = cov_plan_model_bend(nz->models[k], cand_rows + c * nz->n_cols);
             nz->cand_var[k * n_cand + c] = cov_plan_model_var(nz->models[k], cand_rows + c * nz->n_cols);
         }
     return COV_OK;
@@ -267,7 +270,7 @@ int cov_plan_noise_commit(cov_plan_noise *nz, const double *row, double k)
         tracked *t = &nz->t[i];
         if (!t->on) continue;
         const cov_plan_model *m = nz->models[t->outcome];
-        t->rss += rss_step(t, row, cov_plan_model_mean(m, row), cov_plan_model_var(m, row), k);
+        t->rss += rss_step(t, row, cov_plan_model_bend(m, row), cov_plan_model_var(m, row), k);
         t->n += k;
     }
     return COV_OK;
