@@ -91,7 +91,8 @@ void cov_report_audit_text(const cov_findings *f, FILE *out)
 static void md_cell(FILE *out, const char *s)
 {
     fputc('`', out);
-    for (const char *p = s ? s : ""; *p; p++) fputc(*p == '`' || *p == '|' || *p == '\n' ? '?' : *p, out);
+    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++)
+        fputc(*p == '`' || *p == '|' || *p < 0x20 || *p == 0x7f ? '?' : *p, out);
     fputc('`', out);
 }
 
@@ -151,7 +152,7 @@ static void html_esc(FILE *out, const char *s)
         case '>': fputs("&gt;", out); break;
         case '"': fputs("&quot;", out); break;
         case '\'': fputs("&#39;", out); break;
-        default: fputc(*p, out);
+        default: fputc((unsigned char)*p < 0x20 || *p == 0x7f ? '?' : *p, out);
         }
     }
 }
