@@ -112,78 +112,98 @@ fail:
     return rc;
 }
 
-/* The marked nodes as an ascending index array; *steerable = 1 when all are inputs. */
-static int to_set(const cov_graph *g, const unsigned char *z, size_t n, size_t **set, size_t *k,
+/* The listed nodes (ascending) as a new array; *steerable = 1 when all are inputs. */
+static int to_set(const cov_graph *g, const size_t *list, size_t m, size_t **set, size_t *k,
                   int *steerable)
 {
-    size_t m = 0;
-    for (size_t v = 0; v < n; v++) m += z[v] != 0;
     *set = malloc((m ? m : 1) * sizeof **set);
     if (*set == NULL) return COV_ENOMEM;
-    *k = 0;
+    memcpy(*set, list, m * sizeof **set);
+    *k = m;
     *steerable = 1;
-    for (size_t v = 0; v < n; v++)
-        if (z[v]) {
-            (*set)[(*k)++] = v;
-            if (g->vars[v].role != COV_INPUT) *steerable = 0;
-        }
+    for (size_t i = 0; i < m; i++)
+        if (list[i] >= g->n_vars || g->vars[list[i]].role != COV_INPUT) *steerable = 0;
     return COV_OK;
 }
 
-/* Find the sets of one claim. prefer marks the preferred set (the outcome's other parents, or
- * the parents of both ends). When all of it is recorded the test adjusts for all of it: it always
- * separates then (the local Markov property: a node is d-separated from its non-descendants by its
- * parents; Lauritzen et al. 1990), and the extra parents of the outcome lower the residual
- * variance, so the test is more precise than on a smaller set. min_cond is then a minimal subset
- * of it; otherwise both are a minimal separator among all recorded variables. Each reported set
- * is checked by an independent method, the Bayes-ball walk. */
-static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y,
-                    const unsigned char *prefer, cov_claim *c)
+/* What the separator searches of one derivation share: a d-separation workspace and dense marks
+ * that are all zero between calls (each call clears what it set). */
+typedef struct {
+    cov_dsep_ws *ws;
+    unsigned char *allowed, *in_z, *recorded;
+    size_t *z, *pref;
+} sep_ctx;
+
+static int cmp_node(const void *a, const void *b)
 {
-    size_t n = d->n;
-    unsigned char *allowed = calloc(n ? n : 1, 1), *z = calloc(n ? n : 1, 1);
+    size_t x = *(const size_t *)a, y = *(const size_t *)b;
+    return (x > y) - (x < y);
+}
+
+/* Is the listed set a separator by Bayes-ball? */
+static int check_separates(sep_ctx *sc, const cov_dag *d, size_t x, size_t y, const size_t *z,
+                           size_t nz, int *sep)
+{
+    for (size_t i = 0; i < nz; i++) sc->in_z[z[i]] = 1;
+    int rc = cov_dsep_separated_ws(sc->ws, d, x, y, sc->in_z, z, nz, sep);
+    for (size_t i = 0; i < nz; i++) sc->in_z[z[i]] = 0;
+    return rc;
+}
+
+/* Find the sets of one claim. pref lists the preferred set (the outcome's other parents, or the
+ * parents of both ends; repeats allowed). When all of it is recorded the test adjusts for all of
+ * it: it always separates then (the local Markov property: a node is d-separated from its
+ * non-descendants by its parents; Lauritzen et al. 1990), and the extra parents of the outcome
+ * lower the residual variance, so the test is more precise than on a smaller set. min_cond is
+ * then a minimal subset of it; otherwise both are a minimal separator among all recorded
+ * variables. Each reported set is checked by an independent method, the Bayes-ball walk. */
+static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y, sep_ctx *sc,
+                    size_t n_pref, cov_claim *c)
+{
+    size_t nz = 0, np = 0;
     int rc = COV_ENOMEM, found = 0, all_recorded = 1, sep = 0, steer = 0;
-    if (allowed == NULL || z == NULL) goto fail;
-    for (size_t v = 0; v < n; v++)
-        if (prefer[v] && !recorded(g, v)) all_recorded = 0;
-    if (all_recorded) {
-        for (size_t v = 0; v < n; v++) allowed[v] = prefer[v] && v != x && v != y;
-        if (cov_dsep_minsep(d, x, y, allowed, z, &found)) goto fail;
+    /* The preferred set without x, y and repeats, ascending. */
+    for (size_t i = 0; i < n_pref; i++) {
+        size_t v = sc->pref[i];
+        if (!recorded(g, v)) all_recorded = 0;
+        if (v == x || v == y || sc->allowed[v]) continue;
+        sc->allowed[v] = 1;
+        sc->pref[np++] = v;
     }
+    qsort(sc->pref, np, sizeof *sc->pref, cmp_node);
+    if (all_recorded && cov_dsep_minsep_ws(sc->ws, d, x, y, sc->allowed, sc->z, &nz, &found))
+        goto fail;
+    for (size_t i = 0; i < np; i++) sc->allowed[sc->pref[i]] = 0;
     if (!found) {
         all_recorded = 0;
-        for (size_t v = 0; v < n; v++) allowed[v] = recorded(g, v);
-        if (cov_dsep_minsep(d, x, y, allowed, z, &found)) goto fail;
+        if (cov_dsep_minsep_ws(sc->ws, d, x, y, sc->recorded, sc->z, &nz, &found)) goto fail;
     }
     if (!found) {
         c->status = COV_UNTESTABLE;
         c->steerable = 0;
-        if (untestable_reason(g, d, x, y, z, &c->reason)) goto fail;
-        rc = COV_OK;
-        goto fail;
+        for (size_t i = 0; i < nz; i++) sc->in_z[sc->z[i]] = 1;
+        rc = untestable_reason(g, d, x, y, sc->in_z, &c->reason) ? COV_ENOMEM : COV_OK;
+        for (size_t i = 0; i < nz; i++) sc->in_z[sc->z[i]] = 0;
+        return rc;
     }
-    if (cov_dsep_separated(d, x, y, z, &sep)) goto fail;
-    if (!sep) {
-        rc = COV_ENUMERIC;
-        goto fail;
-    }
-    if (to_set(g, z, n, &c->min_cond, &c->n_min_cond, &steer)) goto fail;
+    if (check_separates(sc, d, x, y, sc->z, nz, &sep)) goto fail;
+    if (!sep) return COV_ENUMERIC;
+    if (to_set(g, sc->z, nz, &c->min_cond, &c->n_min_cond, &steer)) goto fail;
     if (all_recorded) {
-        /* allowed still marks the whole preferred set. */
-        if (cov_dsep_separated(d, x, y, allowed, &sep)) goto fail;
-        if (!sep) {
-            rc = COV_ENUMERIC;
-            goto fail;
+        /* The preferred set holds the checked minimal one and lies within An({x, y}), whose moral
+         * graph it shares: separation is monotone there (Lauritzen et al. 1990), so it separates
+         * too. Checked here: it holds every member of min_cond. */
+        for (size_t i = 0, j = 0; i < nz; i++) {
+            while (j < np && sc->pref[j] < sc->z[i]) j++;
+            if (j == np || sc->pref[j] != sc->z[i]) return COV_ENUMERIC;
         }
-        if (to_set(g, allowed, n, &c->cond, &c->n_cond, &c->steerable)) goto fail;
+        if (to_set(g, sc->pref, np, &c->cond, &c->n_cond, &c->steerable)) goto fail;
     } else {
-        if (to_set(g, z, n, &c->cond, &c->n_cond, &c->steerable)) goto fail;
+        if (to_set(g, sc->z, nz, &c->cond, &c->n_cond, &c->steerable)) goto fail;
     }
     c->status = COV_TESTABLE;
     rc = COV_OK;
 fail:
-    free(allowed);
-    free(z);
     return rc;
 }
 
@@ -253,6 +273,33 @@ static int check_default(const cov_graph *g, const cov_amount *a, size_t x, size
                     g->vars[y].name, g->vars[x].name);
 }
 
+static void sep_ctx_free(sep_ctx *sc)
+{
+    cov_dsep_ws_free(sc->ws);
+    free(sc->allowed);
+    free(sc->in_z);
+    free(sc->recorded);
+    free(sc->z);
+    free(sc->pref);
+}
+
+static int sep_ctx_init(const cov_graph *g, size_t n, sep_ctx *sc)
+{
+    memset(sc, 0, sizeof *sc);
+    sc->allowed = calloc(n, 1);
+    sc->in_z = calloc(n, 1);
+    sc->recorded = calloc(n, 1);
+    sc->z = malloc(n * sizeof *sc->z);
+    sc->pref = malloc(2 * n * sizeof *sc->pref);   /* Pa(x) and Pa(y) before repeats go */
+    if (!sc->allowed || !sc->in_z || !sc->recorded || !sc->z || !sc->pref
+        || cov_dsep_ws_alloc(n, &sc->ws)) {
+        sep_ctx_free(sc);
+        return COV_ENOMEM;
+    }
+    for (size_t v = 0; v < n; v++) sc->recorded[v] = (unsigned char)recorded(g, v);
+    return COV_OK;
+}
+
 int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
 {
     *out = NULL;
@@ -260,10 +307,12 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
     cov_claims *cl = calloc(1, sizeof *cl);
     cov_dag *full = NULL, *cut = NULL;
     size_t cap = 0, n = g->n_vars + 2;   /* the variables, the design and run-noise nodes */
-    unsigned char *prefer = calloc(n, 1);
     size_t *rank = calloc(n, sizeof *rank);
-    int rc = COV_ENOMEM;
-    if (cl == NULL || prefer == NULL || rank == NULL) goto fail;
+    sep_ctx sc;
+    int rc = COV_ENOMEM, have_sc = 0;
+    if (cl == NULL || rank == NULL) goto fail;
+    if (sep_ctx_init(g, n, &sc)) goto fail;
+    have_sc = 1;
     if (cov_dag_build(g, with_design, COV_NO_NODE, &full)) goto fail;
 
     /* Effect claims, in edge order: the edge is removed so that the set isolates the direct
@@ -272,8 +321,8 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
         size_t x = g->edges[e].from, y = g->edges[e].to;
         if (!recorded(g, x) || !recorded(g, y)) continue;
         if (cov_dag_build(g, with_design, e, &cut)) goto fail;
-        memset(prefer, 0, n);
-        for (size_t k = cut->par_start[y]; k < cut->par_start[y + 1]; k++) prefer[cut->par[k]] = 1;
+        size_t np = 0;
+        for (size_t k = cut->par_start[y]; k < cut->par_start[y + 1]; k++) sc.pref[np++] = cut->par[k];
         cov_claim *c;
         if (push_claim(cl, &cap, &c)) goto fail;
         c->kind = COV_CLAIM_EFFECT;
@@ -288,7 +337,7 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
             (rc = check_default(g, &g->default_effect, x, y, g->default_effect_line,
                                 g->default_effect_col, "default effect", err)))
             goto fail;
-        rc = separate(g, cut, x, y, prefer, c);
+        rc = separate(g, cut, x, y, &sc, np, c);
         if (rc) goto fail;
         rc = COV_ENOMEM;
         cov_dag_free(cut);
@@ -298,10 +347,12 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
     /* Absence claims: every non-adjacent recorded pair that is not two inputs, oriented so that
      * the outcome Y is an output and comes later in the topological order (Y is then no ancestor
      * of X). The preferred set is Pa(X) u Pa(Y), the basis set of Shipley (2000), Structural
-     * Equation Modeling 7:206-218. Order: by outcome, then treatment, declaration index. */
+     * Equation Modeling 7:206-218. Order: by outcome, then treatment, declaration index. The
+     * ancestors of each outcome are found once and shared by all its pairs. */
     if (topo_rank(g, rank)) goto fail;
     for (size_t y = 0; y < g->n_vars; y++) {
         if (g->vars[y].role != COV_OUTPUT) continue;
+        cov_dsep_ws_fix_outcome(sc.ws, full, y);
         for (size_t x = 0; x < g->n_vars; x++) {
             if (x == y || !recorded(g, x) || adjacent(full, x, y)) continue;
             if (g->vars[x].role == COV_OUTPUT && rank[x] > rank[y]) continue;
@@ -319,11 +370,11 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
                               g->vars[x].name, g->vars[y].name);
                 goto fail;
             }
-            memset(prefer, 0, n);
+            size_t np = 0;
             for (size_t k = full->par_start[x]; k < full->par_start[x + 1]; k++)
-                prefer[full->par[k]] = 1;
+                sc.pref[np++] = full->par[k];
             for (size_t k = full->par_start[y]; k < full->par_start[y + 1]; k++)
-                prefer[full->par[k]] = 1;
+                sc.pref[np++] = full->par[k];
             cov_claim *c;
             if (push_claim(cl, &cap, &c)) goto fail;
             c->kind = COV_CLAIM_ABSENCE;
@@ -335,13 +386,14 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
             if ((rc = check_default(g, &g->margin, x, y, g->margin_line, g->margin_col,
                                     "default margin", err)))
                 goto fail;
-            rc = separate(g, full, x, y, prefer, c);
+            rc = separate(g, full, x, y, &sc, np, c);
             if (rc) goto fail;
             rc = COV_ENOMEM;
         }
+        cov_dsep_ws_unfix(sc.ws);
     }
     cov_dag_free(full);
-    free(prefer);
+    sep_ctx_free(&sc);
     free(rank);
     *out = cl;
     return COV_OK;
@@ -352,7 +404,7 @@ fail:
     cov_dag_free(full);
     cov_dag_free(cut);
     cov_claims_free(cl);
-    free(prefer);
+    if (have_sc) sep_ctx_free(&sc);
     free(rank);
     return rc;
 }

@@ -1,5 +1,6 @@
 /* d-separation and minimal separators on the graph's DAG, with the campaign's design node.
  * See LICENSE. */
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -46,7 +47,8 @@ int cov_dag_build(const cov_graph *g, int with_design, size_t skip_edge, cov_dag
     d->ch_start = calloc(d->n + 1, sizeof *d->ch_start);
     d->par = malloc((m ? m : 1) * sizeof *d->par);
     d->ch = malloc((m ? m : 1) * sizeof *d->ch);
-    size_t *fill_p = calloc(d->n, sizeof *fill_p), *fill_c = calloc(d->n, sizeof *fill_c);
+    size_t *fill_p = calloc(d->n ? d->n : 1, sizeof *fill_p);
+    size_t *fill_c = calloc(d->n ? d->n : 1, sizeof *fill_c);
     if (!d->par_start || !d->ch_start || !d->par || !d->ch || !fill_p || !fill_c) goto fail;
     /* Two passes: count, then place (a compressed adjacency layout). */
     for (size_t i = 0; i < g->n_edges; i++) {
@@ -99,201 +101,213 @@ fail:
     return COV_ENOMEM;
 }
 
-/* Mark the ancestors of the marked nodes (the nodes themselves included), in place. */
-static int mark_ancestors(const cov_dag *d, unsigned char *mark)
+/* ---- the workspace ----------------------------------------------------------------------------
+ * Every search marks nodes with a generation stamp instead of clearing an array of the whole
+ * graph, so a query costs what it visits, not the size of the graph: deriving the claims of a
+ * large graph asks hundreds of thousands of them. */
+
+struct cov_dsep_ws {
+    size_t n;
+    unsigned *anc, anc_gen;      /* the ancestral set of the current query */
+    unsigned *out, out_gen;      /* An(y) of the fixed outcome */
+    unsigned *seen, seen_gen;    /* breadth-first search in the moral graph */
+    unsigned *wed;               /* children whose parents that search has already joined */
+    unsigned *zm, z_gen;         /* Z1 of FindMinSep */
+    unsigned *st, st_gen;        /* Bayes-ball states, 2 per node */
+    unsigned *za, za_gen;        /* ancestors of the conditioning set, for Bayes-ball */
+    size_t *prev;                /* Bayes-ball: the state each state was reached from */
+    size_t *queue, *stack, *list;
+    size_t *out_list, n_out;     /* the members of An(y), in the order they were found */
+    const cov_dag *fix_d;        /* the fixed outcome's DAG and node; NULL when none is fixed */
+    size_t fix_y;
+};
+
+void cov_dsep_ws_free(cov_dsep_ws *w)
 {
-    size_t *stack = malloc((d->n ? d->n : 1) * sizeof *stack);
-    if (stack == NULL) return COV_ENOMEM;
-    size_t top = 0;
-    for (size_t v = 0; v < d->n; v++)
-        if (mark[v]) stack[top++] = v;
+    if (w == NULL) return;
+    free(w->anc);
+    free(w->out);
+    free(w->seen);
+    free(w->wed);
+    free(w->zm);
+    free(w->st);
+    free(w->za);
+    free(w->prev);
+    free(w->queue);
+    free(w->stack);
+    free(w->list);
+    free(w->out_list);
+    free(w);
+}
+
+int cov_dsep_ws_alloc(size_t n, cov_dsep_ws **out)
+{
+    *out = NULL;
+    cov_dsep_ws *w = calloc(1, sizeof *w);
+    if (w == NULL) return COV_ENOMEM;
+    size_t m = n ? n : 1;
+    w->n = n;
+    w->anc = calloc(m, sizeof *w->anc);
+    w->out = calloc(m, sizeof *w->out);
+    w->seen = calloc(m, sizeof *w->seen);
+    w->wed = calloc(m, sizeof *w->wed);
+    w->zm = calloc(m, sizeof *w->zm);
+    w->za = calloc(m, sizeof *w->za);
+    w->st = calloc(2 * m, sizeof *w->st);
+    w->prev = malloc(2 * m * sizeof *w->prev);
+    w->queue = malloc(2 * m * sizeof *w->queue);
+    w->stack = malloc(m * sizeof *w->stack);
+    w->list = malloc(m * sizeof *w->list);
+    w->out_list = malloc(m * sizeof *w->out_list);
+    if (!w->anc || !w->out || !w->seen || !w->wed || !w->zm || !w->za || !w->st || !w->prev || !w->queue
+        || !w->stack || !w->list || !w->out_list) {
+        cov_dsep_ws_free(w);
+        return COV_ENOMEM;
+    }
+    *out = w;
+    return COV_OK;
+}
+
+/* A fresh generation of one stamp array; when the counter wraps, the array is cleared once. */
+static unsigned next_gen(unsigned *marks, unsigned *gen, size_t len)
+{
+    if (++*gen == 0) {
+        memset(marks, 0, len * sizeof *marks);
+        *gen = 1;
+    }
+    return *gen;
+}
+
+/* Stamp the ancestors of the nodes on the stack (themselves included) with gen in marks, skipping
+ * nodes already stamped or, when skip is not NULL, stamped with skip_gen in skip. Appends each
+ * newly stamped node to list (when not NULL) and returns how many. */
+static size_t stamp_ancestors(const cov_dag *d, size_t *stack, size_t top, unsigned *marks,
+                              unsigned gen, const unsigned *skip, unsigned skip_gen, size_t *list)
+{
+    size_t count = 0, kept = 0;
+    for (size_t i = 0; i < top; i++) {
+        size_t v = stack[i];
+        if (marks[v] == gen || (skip && skip[v] == skip_gen)) continue;
+        marks[v] = gen;
+        if (list) list[count] = v;
+        count++;
+        stack[kept++] = v;
+    }
+    top = kept;
     while (top > 0) {
         size_t v = stack[--top];
-        for (size_t k = d->par_start[v]; k < d->par_start[v + 1]; k++)
-            if (!mark[d->par[k]]) {
-                mark[d->par[k]] = 1;
-                stack[top++] = d->par[k];
-            }
-    }
-    free(stack);
-    return COV_OK;
-}
-
-/* The reachability walk of Bayes-ball (Shachter 1998, "Bayes-ball: the rational pastime", UAI;
- * in the form of Koller & Friedman 2009, Probabilistic Graphical Models, Algorithm 3.1). States
- * are (node, direction): 2v means v was entered from a child (travelling up), 2v+1 from a parent
- * (travelling down). A trail that moves up may continue to parents and children of an unobserved
- * node; one that moves down continues to children of an unobserved node, and turns back up at a
- * node that is observed or has an observed descendant (an opened collider). prev[s] records the
- * state each state was first reached from, so the open path can be read back. */
-static int reach(const cov_dag *d, size_t x, const unsigned char *in_z, size_t *prev)
-{
-    unsigned char *anc = calloc(d->n ? d->n : 1, 1);
-    size_t *queue = malloc((2 * d->n + 1) * sizeof *queue);
-    int rc = COV_ENOMEM;
-    if (anc == NULL || queue == NULL) goto fail;
-    for (size_t v = 0; v < d->n; v++) anc[v] = in_z[v] != 0;
-    if (mark_ancestors(d, anc)) goto fail;
-    for (size_t s = 0; s < 2 * d->n; s++) prev[s] = COV_NO_NODE;
-    size_t head = 0, tail = 0;
-    prev[2 * x] = 2 * x;
-    queue[tail++] = 2 * x;
-    while (head < tail) {
-        size_t s = queue[head++], v = s / 2;
-        int up = (s % 2) == 0;
-        int go_par = (up && !in_z[v]) || (!up && anc[v]);
-        int go_ch = !in_z[v];
-        if (go_par)
-            for (size_t k = d->par_start[v]; k < d->par_start[v + 1]; k++) {
-                size_t t = 2 * d->par[k];
-                if (prev[t] == COV_NO_NODE) {
-                    prev[t] = s;
-                    queue[tail++] = t;
-                }
-            }
-        if (go_ch)
-            for (size_t k = d->ch_start[v]; k < d->ch_start[v + 1]; k++) {
-                size_t t = 2 * d->ch[k] + 1;
-                if (prev[t] == COV_NO_NODE) {
-                    prev[t] = s;
-                    queue[tail++] = t;
-                }
-            }
-    }
-    rc = COV_OK;
-fail:
-    free(anc);
-    free(queue);
-    return rc;
-}
-
-int cov_dsep_separated(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
-                       int *separated)
-{
-    size_t *prev = malloc((2 * d->n + 1) * sizeof *prev);
-    if (prev == NULL) return COV_ENOMEM;
-    int rc = reach(d, x, in_z, prev);
-    if (rc == COV_OK)
-        *separated = prev[2 * y] == COV_NO_NODE && prev[2 * y + 1] == COV_NO_NODE;
-    free(prev);
-    return rc;
-}
-
-int cov_dsep_open_path(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
-                       size_t *path, int *dir, size_t *len)
-{
-    *len = 0;
-    size_t *prev = malloc((2 * d->n + 1) * sizeof *prev);
-    if (prev == NULL) return COV_ENOMEM;
-    int rc = reach(d, x, in_z, prev);
-    if (rc != COV_OK) goto done;
-    size_t s = prev[2 * y] != COV_NO_NODE ? 2 * y : 2 * y + 1;
-    if (prev[s] == COV_NO_NODE) goto done;
-    /* Read the states back to x, then reverse. A state entered from a parent (odd) was reached
-     * over the arrow parent -> node. */
-    size_t n = 0;
-    for (;;) {
-        path[n] = s / 2;
-        dir[n] = (s % 2) ? +1 : -1;
-        n++;
-        if (prev[s] == s) break;
-        s = prev[s];
-    }
-    for (size_t i = 0; i < n / 2; i++) {
-        size_t t = path[i];
-        path[i] = path[n - 1 - i];
-        path[n - 1 - i] = t;
-    }
-    /* dir was recorded on the arriving node; shift it onto the edge's first node. */
-    int *tmp = malloc(n * sizeof *tmp);
-    if (tmp == NULL) {
-        rc = COV_ENOMEM;
-        goto done;
-    }
-    for (size_t i = 0; i < n; i++) tmp[i] = dir[n - 1 - i];
-    for (size_t i = 0; i + 1 < n; i++) dir[i] = tmp[i + 1];
-    dir[n - 1] = 0;
-    free(tmp);
-    *len = n;
-done:
-    free(prev);
-    return rc;
-}
-
-/* The moral graph of the sub-DAG on the marked (ancestral) nodes: each node joined to its parents,
- * and the parents of each node joined to each other, directions dropped (Lauritzen, Dawid, Larsen
- * & Leimer 1990, Networks 20:491-505). Stored as offset arrays like the DAG. */
-typedef struct {
-    size_t *start, *adj;
-} moral_graph;
-
-static int moralize(const cov_dag *d, const unsigned char *keep, moral_graph *m)
-{
-    m->start = calloc(d->n + 1, sizeof *m->start);
-    m->adj = NULL;
-    size_t *fill = calloc(d->n ? d->n : 1, sizeof *fill);
-    if (m->start == NULL || fill == NULL) goto fail;
-    for (int pass = 0; pass < 2; pass++) {
-        for (size_t v = 0; v < d->n; v++) {
-            if (!keep[v]) continue;
-            size_t a = d->par_start[v], b = d->par_start[v + 1];
-            for (size_t i = a; i < b; i++) {
-                size_t p = d->par[i];
-                if (pass == 0) {
-                    m->start[v + 1]++;
-                    m->start[p + 1]++;
-                } else {
-                    m->adj[m->start[v] + fill[v]++] = p;
-                    m->adj[m->start[p] + fill[p]++] = v;
-                }
-                for (size_t j = i + 1; j < b; j++) {
-                    size_t q = d->par[j];
-                    if (pass == 0) {
-                        m->start[p + 1]++;
-                        m->start[q + 1]++;
-                    } else {
-                        m->adj[m->start[p] + fill[p]++] = q;
-                        m->adj[m->start[q] + fill[q]++] = p;
-                    }
-                }
-            }
-        }
-        if (pass == 0) {
-            for (size_t v = 0; v < d->n; v++) m->start[v + 1] += m->start[v];
-            m->adj = malloc((m->start[d->n] ? m->start[d->n] : 1) * sizeof *m->adj);
-            if (m->adj == NULL) goto fail;
+        for (size_t k = d->par_start[v]; k < d->par_start[v + 1]; k++) {
+            size_t p = d->par[k];
+            if (marks[p] == gen || (skip && skip[p] == skip_gen)) continue;
+            marks[p] = gen;
+            if (list) list[count] = p;
+            count++;
+            stack[top++] = p;
         }
     }
-    free(fill);
-    return COV_OK;
-fail:
-    free(fill);
-    free(m->start);
-    free(m->adj);
-    m->start = m->adj = NULL;
-    return COV_ENOMEM;
+    return count;
 }
 
-/* Breadth-first search in the moral graph from src. Nodes with block[v] set are reached but not
- * passed through; seen[v] is set for every node reached. */
-static void moral_reach(const moral_graph *m, size_t n, size_t src, const unsigned char *block,
-                        unsigned char *seen, size_t *queue)
+void cov_dsep_ws_fix_outcome(cov_dsep_ws *w, const cov_dag *d, size_t y)
 {
-    memset(seen, 0, n);
-    size_t head = 0, tail = 0;
-    seen[src] = 1;
-    queue[tail++] = src;
-    while (head < tail) {
-        size_t v = queue[head++];
-        if (v != src && block[v]) continue;
-        for (size_t k = m->start[v]; k < m->start[v + 1]; k++) {
-            size_t w = m->adj[k];
-            if (!seen[w]) {
-                seen[w] = 1;
-                queue[tail++] = w;
-            }
+    unsigned gen = next_gen(w->out, &w->out_gen, w->n);
+    w->stack[0] = y;
+    w->n_out = stamp_ancestors(d, w->stack, 1, w->out, gen, NULL, 0, w->out_list);
+    w->fix_d = d;
+    w->fix_y = y;
+}
+
+void cov_dsep_ws_unfix(cov_dsep_ws *w)
+{
+    w->fix_d = NULL;
+}
+
+/* The ancestral set A = An({x, y}) of a query: An(y) from the fixed outcome when it is y, and the
+ * ancestors of x not already in it stamped in w->anc. */
+static int fixed(const cov_dsep_ws *w, const cov_dag *d, size_t y)
+{
+    return w->fix_d == d && w->fix_y == y;
+}
+
+static void query_ancestors(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y)
+{
+    unsigned gen = next_gen(w->anc, &w->anc_gen, w->n);
+    if (fixed(w, d, y)) {
+        w->stack[0] = x;
+        stamp_ancestors(d, w->stack, 1, w->anc, gen, w->out, w->out_gen, NULL);
+    } else {
+        w->stack[0] = x;
+        w->stack[1] = y;
+        stamp_ancestors(d, w->stack, 2, w->anc, gen, NULL, 0, NULL);
+    }
+}
+
+static int in_query(const cov_dsep_ws *w, int fix, size_t v)
+{
+    return w->anc[v] == w->anc_gen || (fix && w->out[v] == w->out_gen);
+}
+
+/* Breadth-first search from src in the moral graph of the sub-DAG on the ancestral set A (each
+ * node joined to its parents, the parents of each node joined to each other, directions dropped:
+ * Lauritzen, Dawid, Larsen & Leimer 1990, Networks 20:491-505). The moral graph is never built:
+ * the neighbours of v are its parents, its children in A and their other parents (A is ancestral,
+ * so every parent of a member is a member). Nodes for which block(v) holds are reached, appended
+ * to w->list, and not passed through; src is always passed through. The search stops once
+ * `enough` blocking nodes are reached (SIZE_MAX: never). Returns the count appended; every node
+ * reached carries the new seen stamp. Each child's parents are joined once per search: after
+ * that they are all reached, so looking again finds nothing new. */
+typedef int (*block_fn)(const cov_dsep_ws *w, const unsigned char *allowed, int fix, size_t x,
+                        size_t y, size_t v);
+
+static int block_z0(const cov_dsep_ws *w, const unsigned char *allowed, int fix, size_t x,
+                    size_t y, size_t v)
+{
+    return v != x && v != y && allowed[v] && in_query(w, fix, v);
+}
+
+static int block_z1(const cov_dsep_ws *w, const unsigned char *allowed, int fix, size_t x,
+                    size_t y, size_t v)
+{
+    (void)allowed, (void)fix, (void)x, (void)y;
+    return w->zm[v] == w->z_gen;
+}
+
+static size_t moral_bfs(cov_dsep_ws *w, const cov_dag *d, size_t src, block_fn block,
+                        const unsigned char *allowed, int fix, size_t x, size_t y, size_t enough)
+{
+    unsigned gen = next_gen(w->seen, &w->seen_gen, w->n);
+    if (gen == 1) memset(w->wed, 0, w->n * sizeof *w->wed);
+    size_t head = 0, tail = 0, count = 0;
+    w->seen[src] = gen;
+    w->queue[tail++] = src;
+#define VISIT(u)                                                                                    \
+    do {                                                                                            \
+        size_t u_ = (u);                                                                            \
+        if (w->seen[u_] != gen) {                                                                   \
+            w->seen[u_] = gen;                                                                      \
+            if (block(w, allowed, fix, x, y, u_)) w->list[count++] = u_;                           \
+            else w->queue[tail++] = u_;                                                             \
+        }                                                                                           \
+    } while (0)
+    while (head < tail && count < enough) {
+        size_t v = w->queue[head++];
+        for (size_t k = d->par_start[v]; k < d->par_start[v + 1]; k++) VISIT(d->par[k]);
+        for (size_t k = d->ch_start[v]; k < d->ch_start[v + 1]; k++) {
+            size_t c = d->ch[k];
+            if (w->wed[c] == gen || !in_query(w, fix, c)) continue;
+            w->wed[c] = gen;
+            VISIT(c);
+            for (size_t j = d->par_start[c]; j < d->par_start[c + 1]; j++) VISIT(d->par[j]);
         }
     }
+#undef VISIT
+    return count;
+}
+
+static int cmp_size(const void *a, const void *b)
+{
+    size_t x = *(const size_t *)a, y = *(const size_t *)b;
+    return (x > y) - (x < y);
 }
 
 /* FindMinSep of van der Zander, Liskiewicz & Textor (2019), "Separators and adjustment sets in
@@ -305,32 +319,178 @@ static void moral_reach(const moral_graph *m, size_t n, size_t src, const unsign
  *   Z  = members of Z1 reachable from y in M by paths whose interior avoids Z1.
  * Every subset of A has the same moral graph An({x, y} u Z) = A, where separation is monotone, so
  * Z is minimal: no proper subset separates. */
+int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
+                       const unsigned char *allowed, size_t *z, size_t *nz, int *found)
+{
+    int fix = fixed(w, d, y);
+    *found = 0;
+    *nz = 0;
+    query_ancestors(w, d, x, y);
+    size_t n1 = moral_bfs(w, d, x, block_z0, allowed, fix, x, y, SIZE_MAX);
+    if (w->seen[y] == w->seen_gen) {
+        /* None: report Z0, the allowed members of A, which leaves some path open. */
+        for (size_t v = 0; v < d->n; v++)
+            if (block_z0(w, allowed, fix, x, y, v)) z[(*nz)++] = v;
+        return COV_OK;
+    }
+    unsigned zg = next_gen(w->zm, &w->z_gen, w->n);
+    for (size_t i = 0; i < n1; i++) w->zm[w->list[i]] = zg;
+    /* Z is within Z1: once all of Z1 is reached there is nothing more to find. */
+    size_t n2 = n1 ? moral_bfs(w, d, y, block_z1, allowed, fix, x, y, n1) : 0;
+    memcpy(z, w->list, n2 * sizeof *z);
+    qsort(z, n2, sizeof *z, cmp_size);
+    *nz = n2;
+    *found = 1;
+    return COV_OK;
+}
+
+/* The reachability walk of Bayes-ball (Shachter 1998, "Bayes-ball: the rational pastime", UAI;
+ * in the form of Koller & Friedman 2009, Probabilistic Graphical Models, Algorithm 3.1). States
+ * are (node, direction): 2v means v was entered from a child (travelling up), 2v+1 from a parent
+ * (travelling down). A trail that moves up may continue to parents and children of an unobserved
+ * node; one that moves down continues to children of an unobserved node, and turns back up at a
+ * node that is observed or has an observed descendant (an opened collider). w->prev[s] records the
+ * state each state was first reached from (valid where w->st[s] carries the current stamp), so the
+ * open path can be read back. z lists the nz members of in_z. */
+static void reach(cov_dsep_ws *w, const cov_dag *d, size_t x, const unsigned char *in_z,
+                  const size_t *z, size_t nz, int restrict_to, int fix)
+{
+    /* The ancestors of Z are needed only when a trail first moves down; many checks end sooner. */
+    int za_ready = 0;
+    unsigned ag = 0;
+    unsigned sg = next_gen(w->st, &w->st_gen, 2 * w->n);
+    size_t head = 0, tail = 0;
+    w->st[2 * x] = sg;
+    w->prev[2 * x] = 2 * x;
+    w->queue[tail++] = 2 * x;
+    while (head < tail) {
+        size_t s = w->queue[head++], v = s / 2;
+        int up = (s % 2) == 0, go_par;
+        if (up) {
+            go_par = !in_z[v];
+        } else {
+            if (!za_ready) {
+                ag = next_gen(w->za, &w->za_gen, w->n);
+                memcpy(w->stack, z, nz * sizeof *z);
+                stamp_ancestors(d, w->stack, nz, w->za, ag, NULL, 0, NULL);
+                za_ready = 1;
+            }
+            go_par = w->za[v] == ag;
+        }
+        int go_ch = !in_z[v];
+        if (go_par)
+            for (size_t k = d->par_start[v]; k < d->par_start[v + 1]; k++) {
+                size_t t = 2 * d->par[k];
+                if (w->st[t] != sg) {
+                    w->st[t] = sg;
+                    w->prev[t] = s;
+                    w->queue[tail++] = t;
+                }
+            }
+        if (go_ch)
+            for (size_t k = d->ch_start[v]; k < d->ch_start[v + 1]; k++) {
+                size_t t = 2 * d->ch[k] + 1;
+                if (w->st[t] != sg && (!restrict_to || in_query(w, fix, d->ch[k]))) {
+                    w->st[t] = sg;
+                    w->prev[t] = s;
+                    w->queue[tail++] = t;
+                }
+            }
+    }
+}
+
+/* When Z lies within A = An({x, y}), x and y are d-separated by Z in G exactly when they are in
+ * the sub-DAG G[A] (Lauritzen et al. 1990; Z's ancestors are in A), so the walk keeps to A; it
+ * starts from y, since d-separation is symmetric and the outcome's side is usually the smaller. */
+int cov_dsep_separated_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
+                          const unsigned char *in_z, const size_t *z, size_t nz, int *separated)
+{
+    int fix = fixed(w, d, y), inside = 1;
+    query_ancestors(w, d, x, y);
+    for (size_t i = 0; i < nz && inside; i++) inside = in_query(w, fix, z[i]);
+    reach(w, d, y, in_z, z, nz, inside, fix);
+    *separated = w->st[2 * x] != w->st_gen && w->st[2 * x + 1] != w->st_gen;
+    return COV_OK;
+}
+
+/* The members of a dense set as a list, for the entry points that take only the dense form. */
+static size_t dense_list(const cov_dag *d, const unsigned char *in_z, size_t *z)
+{
+    size_t nz = 0;
+    for (size_t v = 0; v < d->n; v++)
+        if (in_z[v]) z[nz++] = v;
+    return nz;
+}
+
+int cov_dsep_separated(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
+                       int *separated)
+{
+    cov_dsep_ws *w = NULL;
+    size_t *z = malloc((d->n ? d->n : 1) * sizeof *z);
+    int rc = z != NULL ? cov_dsep_ws_alloc(d->n, &w) : COV_ENOMEM;
+    if (rc == COV_OK)
+        rc = cov_dsep_separated_ws(w, d, x, y, in_z, z, dense_list(d, in_z, z), separated);
+    cov_dsep_ws_free(w);
+    free(z);
+    return rc;
+}
+
+int cov_dsep_open_path(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
+                       size_t *path, int *dir, size_t *len)
+{
+    *len = 0;
+    cov_dsep_ws *w = NULL;
+    size_t *z = malloc((d->n ? d->n : 1) * sizeof *z);
+    int *tmp = NULL;
+    int rc = z != NULL ? cov_dsep_ws_alloc(d->n, &w) : COV_ENOMEM;
+    if (rc != COV_OK) goto done;
+    reach(w, d, x, in_z, z, dense_list(d, in_z, z), 0, 0);
+    size_t s = w->st[2 * y] == w->st_gen ? 2 * y : 2 * y + 1;
+    if (w->st[s] != w->st_gen) goto done;
+    /* Read the states back to x, then reverse. A state entered from a parent (odd) was reached
+     * over the arrow parent -> node. */
+    size_t n = 0;
+    for (;;) {
+        path[n] = s / 2;
+        dir[n] = (s % 2) ? +1 : -1;
+        n++;
+        if (w->prev[s] == s) break;
+        s = w->prev[s];
+    }
+    for (size_t i = 0; i < n / 2; i++) {
+        size_t t = path[i];
+        path[i] = path[n - 1 - i];
+        path[n - 1 - i] = t;
+    }
+    /* dir was recorded on the arriving node; shift it onto the edge's first node. */
+    tmp = malloc(n * sizeof *tmp);
+    if (tmp == NULL) {
+        rc = COV_ENOMEM;
+        goto done;
+    }
+    for (size_t i = 0; i < n; i++) tmp[i] = dir[n - 1 - i];
+    for (size_t i = 0; i + 1 < n; i++) dir[i] = tmp[i + 1];
+    dir[n - 1] = 0;
+    *len = n;
+done:
+    free(tmp);
+    free(z);
+    cov_dsep_ws_free(w);
+    return rc;
+}
+
 int cov_dsep_minsep(const cov_dag *d, size_t x, size_t y, const unsigned char *allowed,
                     unsigned char *z, int *found)
 {
-    size_t n = d->n;
-    unsigned char *anc = calloc(n ? n : 1, 1), *seen = malloc(n ? n : 1);
-    size_t *queue = malloc((n ? n : 1) * sizeof *queue);
-    moral_graph m = {NULL, NULL};
-    int rc = COV_ENOMEM;
-    *found = 0;
-    if (anc == NULL || seen == NULL || queue == NULL) goto fail;
-    anc[x] = anc[y] = 1;
-    if (mark_ancestors(d, anc)) goto fail;
-    if (moralize(d, anc, &m)) goto fail;
-    for (size_t v = 0; v < n; v++) z[v] = anc[v] && allowed[v] && v != x && v != y;
-    moral_reach(&m, n, x, z, seen, queue);
-    rc = COV_OK;
-    if (seen[y]) goto fail;
-    for (size_t v = 0; v < n; v++) z[v] = z[v] && seen[v];
-    moral_reach(&m, n, y, z, seen, queue);
-    for (size_t v = 0; v < n; v++) z[v] = z[v] && seen[v];
-    *found = 1;
-fail:
-    free(anc);
-    free(seen);
-    free(queue);
-    free(m.start);
-    free(m.adj);
+    cov_dsep_ws *w = NULL;
+    size_t *list = malloc((d->n ? d->n : 1) * sizeof *list), nz = 0;
+    int rc = list != NULL ? cov_dsep_ws_alloc(d->n, &w) : COV_ENOMEM;
+    if (rc == COV_OK) rc = cov_dsep_minsep_ws(w, d, x, y, allowed, list, &nz, found);
+    if (rc == COV_OK) {
+        memset(z, 0, d->n);
+        for (size_t i = 0; i < nz; i++) z[list[i]] = 1;
+    }
+    cov_dsep_ws_free(w);
+    free(list);
     return rc;
 }

@@ -130,4 +130,22 @@ int cov_dsep_open_path(const cov_dag *d, size_t x, size_t y, const unsigned char
 int cov_dsep_minsep(const cov_dag *d, size_t x, size_t y, const unsigned char *allowed,
                     unsigned char *z, int *found);
 
+/* A workspace for many queries on DAGs of n nodes: each query then costs what it visits, not the
+ * size of the graph. One workspace serves one thread. */
+typedef struct cov_dsep_ws cov_dsep_ws;
+int cov_dsep_ws_alloc(size_t n, cov_dsep_ws **out);
+void cov_dsep_ws_free(cov_dsep_ws *w);
+/* Remember An(y) in d for the queries that follow with outcome y on d (one ancestral set per
+ * outcome, reused across its pairs), until cov_dsep_ws_unfix or another fix. d must stay alive
+ * and unchanged meanwhile. */
+void cov_dsep_ws_fix_outcome(cov_dsep_ws *w, const cov_dag *d, size_t y);
+void cov_dsep_ws_unfix(cov_dsep_ws *w);
+/* cov_dsep_minsep with a workspace: the separator (or, when *found is 0, the largest candidate)
+ * is written to z (room for d->n) as *nz ascending nodes. allowed is read only on An({x, y}). */
+int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
+                       const unsigned char *allowed, size_t *z, size_t *nz, int *found);
+/* cov_dsep_separated with a workspace; z lists the nz members of in_z. */
+int cov_dsep_separated_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
+                          const unsigned char *in_z, const size_t *z, size_t nz, int *separated);
+
 #endif
