@@ -15,8 +15,8 @@ WARN      = -std=c11 -Wall -Wextra -Wshadow -Wstrict-prototypes -Werror
 ALL_CPPFLAGS = -D_POSIX_C_SOURCE=200809L -I. $(CPPFLAGS)
 PKG_CFLAGS = $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
 PKG_LIBS   = $(shell pkg-config --libs $(PKGS) 2>/dev/null)
-ALL_CFLAGS = $(WARN) $(CFLAGS) $(PKG_CFLAGS) -MMD -MP
-LIBS       = $(PKG_LIBS) -lm
+ALL_CFLAGS = $(WARN) $(CFLAGS) $(PKG_CFLAGS) -pthread -MMD -MP
+LIBS       = $(PKG_LIBS) -lm -pthread
 
 # Debian packages: to build, to plot, and for the reference checks in `make check`.
 DEB_BUILD = libgsl-dev libsqlite3-dev pkg-config gnuplot-nox sqlite3

@@ -66,6 +66,7 @@ static void usage(FILE *f)
             "  --cost-budget C       plan: plan runs until their fitted cost would pass C\n"
             "  --rounds K            plan: write the first of K batches; plan again after it\n"
             "  --seed S              seed for subsampling, probes and planned seeds\n"
+            "  --threads N           threads for the shared summaries (default 1; same results)\n"
             "  -o, --output PATH     survey: report directory; plan: CSV file\n"
             "  --history FILE        survey: history side file for a read-only archive\n"
             "  --plan FILE           survey: overlay the runs of a plan file on the plots\n"
@@ -106,6 +107,8 @@ enum long_only {
     OPT_BINS, OPT_WAY, OPT_NEED_MARGINAL, OPT_NEED_PAIRWISE, OPT_NEED_THREEWAY, OPT_BUDGET,
     OPT_REPLICATES, OPT_AGAIN, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION,
     OPT_COST_COLUMN, OPT_COST_BUDGET, OPT_ROUNDS
+    OPT_REPLICATES, OPT_AGAIN, OPT_SEED, OPT_THREADS, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON,
+    OPT_VERSION
 };
 
 static const struct option long_options[] = {
@@ -128,6 +131,7 @@ static const struct option long_options[] = {
     {"rounds", required_argument, NULL, OPT_ROUNDS},
     {"seed", required_argument, NULL, OPT_SEED},
     {"again", no_argument, NULL, OPT_AGAIN},
+    {"threads", required_argument, NULL, OPT_THREADS},
     {"output", required_argument, NULL, 'o'},
     {"history", required_argument, NULL, OPT_HISTORY},
     {"plan", required_argument, NULL, OPT_PLAN},
@@ -201,6 +205,9 @@ static int apply_option(int c, const char *arg, cov_options *o)
     case OPT_ROUNDS:
         if (parse_long("--rounds", arg, 1, 1000, &k)) return -1;
         o->rounds = (int)k;
+    case OPT_THREADS:
+        if (parse_long("--threads", arg, 1, 64, &k)) return -1;
+        o->coverage.threads = (int)k;
         return 0;
     case 'o': o->out_path = arg; return 0;
     case OPT_HISTORY: o->history_path = arg; return 0;

@@ -356,6 +356,7 @@ typedef struct {
     int way;              /* highest t-way strength 2 or 3; 0: 3 when inputs <= 20, else 2 */
     double dependence_threshold;   /* |r| or Cramer's V above which a pair is flagged (0.5) */
     unsigned long seed;   /* for subsampling and the scrambled probe set */
+    int threads;          /* threads for the shared summaries (1); results do not depend on it */
 } cov_coverage_options;
 
 /* Bins of one input's declared domain: bools 2, level sets L, integers with <= 10 values one per

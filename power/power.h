@@ -110,6 +110,10 @@ void pw_moments_add(pw_moments *m, const double *row);
  * merged by Chan, Golub & LeVeque (1983). The same figures as nb calls of pw_moments_add (to
  * rounding), and faster: the block's products stay in cache. PW_OK or PW_ENOMEM. */
 int pw_moments_add_block(pw_moments *m, const double *rows, size_t nb);
+/* Merge the moments b of other rows into a (both of k columns): a then holds the moments of all
+ * their rows (Chan, Golub & LeVeque 1983, eq. 2.1), so shards summarised apart give the figures of
+ * one pass to rounding. PW_OK, or PW_EDOM when the column counts differ. */
+int pw_moments_merge(pw_moments *a, const pw_moments *b);
 /* The centred cross-product of columns i and j of m, either order. */
 double pw_moments_at(const pw_moments *m, size_t i, size_t j);
 

@@ -284,3 +284,21 @@ int pw_resid_sd(const pw_moments *m, const size_t *idx, size_t k, double *out)
     pw_xfit_free(f);
     return PW_OK;
 }
+
+int pw_moments_merge(pw_moments *a, const pw_moments *b)
+{
+    if (a->k != b->k) return PW_EDOM;
+    if (b->n == 0) return PW_OK;
+    size_t k = a->k;
+    /* Chan, Golub & LeVeque (1983), eq. 2.1: C = C_a + C_b + (n_a n_b / n) delta delta',
+     * delta = mean_b - mean_a; mean = mean_a + delta n_b / n. */
+    double na = a->n, n = na + b->n, w = na * b->n / n;
+    for (size_t i = 0; i < k; i++) {
+        double di = b->mean[i] - a->mean[i];
+        for (size_t j = i; j < k; j++)
+            a->xprod[i * k + j] += b->xprod[i * k + j] + w * di * (b->mean[j] - a->mean[j]);
+    }
+    for (size_t i = 0; i < k; i++) a->mean[i] += (b->mean[i] - a->mean[i]) * b->n / n;
+    a->n = n;
+    return PW_OK;
+}

@@ -42,6 +42,7 @@ void cov_options_default(cov_options *o)
     o->coverage.way = 0;              /* 0: decide from the input count */
     o->coverage.dependence_threshold = 0.5;
     o->coverage.seed = 20261202UL;
+    o->coverage.threads = 1;
     o->need_marginal = NAN;
     o->need_pairwise = NAN;
     o->need_threeway = NAN;

@@ -41,6 +41,23 @@ double cov_abs_pearson(const double *x, const double *y, size_t n);
 /* Fill c->dependence from c->pairs and the data (coverage/dependence.c). */
 int cov_dependence_fill(const cov_graph *g, const cov_data *d, cov_coverage *c);
 
+/* Shared summaries of the archive for every claim's support (coverage/measure/summary.c): the
+ * centred cross-products of every complete, non-level-set variable, merged shard by shard
+ * (Chan, Golub & LeVeque 1983), and the distinct values of the variables asked for. */
+typedef struct {
+    const cov_data *d;
+    size_t *col;          /* cross-product column of each variable; SIZE_MAX when not summarised */
+    pw_moments *xprod;    /* NULL when nothing is summarised */
+    size_t *distinct;     /* per variable: its distinct values when asked for, else 0 */
+} cov_summary;
+
+/* Summarise d on up to `threads` threads; want_distinct (length d->n_vars, may be NULL when no
+ * counts are wanted) marks the summarised variables whose distinct values to count. The figures do
+ * not depend on the thread count. Returns COV_OK or COV_ENOMEM. */
+int cov_summary_build(const cov_graph *g, const cov_data *d, const unsigned char *want_distinct,
+                      int threads, cov_summary **out);
+void cov_summary_free(cov_summary *s);
+
 /* Kish's effective sample size (Kish 1965) of weights w: (sum w)^2 / sum w^2; NAN when all are 0. */
 double cov_kish_ess(const double *w, size_t n);
 

@@ -354,6 +354,21 @@ done:
     return rc;
 }
 
+/* The reason for a numeric treatment whose residual spread is too small. */
+static int resid_reason(const cov_var *tv, cov_support *s)
+{
+    char share[64], lim[32];
+    snprintf(share, sizeof share, "%.1f%%", 100 * s->spread_resid / s->spread);
+    snprintf(lim, sizeof lim, "%.0f%%", 100 * COV_MIN_RESID_SHARE);
+    char *part = dup_printf("keeps %s of its spread once the adjustment set is known "
+                            "(below %s)", share, lim);
+    if (part == NULL) return COV_ENOMEM;
+    s->ok = 0;
+    s->reason = dup_printf("%s %s", tv->name, part);
+    free(part);
+    return s->reason != NULL ? COV_OK : COV_ENOMEM;
+}
+
 /* SD with divisor n. */
 static double sd_n(const double *x, size_t n)
 {
@@ -465,16 +480,7 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
         if ((rc = categorical_overlap(&cr, s, treated_level)) != COV_OK) goto done;
         rc = COV_ENOMEM;
     } else if (!(s->spread_resid >= COV_MIN_RESID_SHARE * s->spread)) {
-        char share[64], lim[32];
-        snprintf(share, sizeof share, "%.1f%%", 100 * s->spread_resid / s->spread);
-        snprintf(lim, sizeof lim, "%.0f%%", 100 * COV_MIN_RESID_SHARE);
-        char *part = dup_printf("keeps %s of its spread once the adjustment set is known "
-                                "(below %s)", share, lim);
-        if (part == NULL) goto done;
-        s->ok = 0;
-        s->reason = dup_printf("%s %s", tv->name, part);
-        free(part);
-        if (s->reason == NULL) goto done;
+        if ((rc = resid_reason(tv, s)) != COV_OK) goto done;
     }
     rc = COV_OK;
 done:
@@ -490,18 +496,113 @@ done:
     return rc;
 }
 
+/* A claim whose support the shared summaries give: every run records its treatment, outcome and
+ * separating set (so its rows are all the runs), the treatment is numeric and the set has no level
+ * set (one cross-product column each). */
+static int summarised(const cov_graph *g, const cov_claim *cl, const cov_data *d,
+                      const cov_summary *sh)
+{
+    if (sh == NULL || sh->xprod == NULL || cl->status != COV_TESTABLE) return 0;
+    const cov_var *tv = &g->vars[cl->treatment];
+    if (tv->type == COV_BOOL || tv->type == COV_LEVELS) return 0;
+    if (sh->col[cl->treatment] == SIZE_MAX) return 0;
+    if (d->col[cl->outcome] == NULL || d->n_missing[cl->outcome] > 0) return 0;
+    for (size_t j = 0; j < cl->n_cond; j++)
+        if (sh->col[cl->cond[j]] == SIZE_MAX) return 0;
+    return 1;
+}
+
+/* One claim's support from the shared summaries: the same figures as support_one. sd(X | S) is
+ * the root of the residual sum of squares of X on S and an intercept over n, solved from the
+ * cross-products (pw_xfit_solve) instead of a least-squares fit over the runs; the spread is the
+ * root of X's centred sum of squares over n. Replication: when some member of (X, S) takes as
+ * many distinct values as there are runs, every configuration is distinct; otherwise the runs'
+ * configurations are counted as before. */
+static int support_summary(const cov_graph *g, const cov_claim *cl, const cov_data *d,
+                           const cov_summary *sh, cov_support *s, cov_error *err)
+{
+    const cov_var *tv = &g->vars[cl->treatment];
+    const size_t n = d->n_runs, k1 = 1 + cl->n_cond;
+    size_t *idx = malloc(k1 * sizeof *idx);
+    int rc = COV_ENOMEM;
+    if (idx == NULL) goto done;
+    s->n = n;
+    s->ok = 1;
+    s->distinct = sh->distinct[cl->treatment];
+    double cxx = pw_moments_at(sh->xprod, sh->col[cl->treatment], sh->col[cl->treatment]);
+    s->spread = sqrt(cxx / (double)n);
+    size_t most = s->distinct;
+    for (size_t j = 0; j < cl->n_cond; j++) {
+        idx[j] = sh->col[cl->cond[j]];
+        if (sh->distinct[cl->cond[j]] > most) most = sh->distinct[cl->cond[j]];
+    }
+    idx[cl->n_cond] = sh->col[cl->treatment];
+    if (n > k1) {
+        pw_xfit *f = NULL;
+        if (pw_xfit_solve(sh->xprod, idx, cl->n_cond, 0, &f) != PW_OK) goto done;
+        s->spread_resid = sqrt(f->rss / (double)n);
+        pw_xfit_free(f);
+    } else {
+        s->spread_resid = 0;   /* no more runs than columns: nothing is left over */
+    }
+    size_t n_cfg = n;
+    if (most < n) {
+        double *cfg = malloc(n * k1 * sizeof *cfg);
+        size_t *ids = malloc(n * sizeof *ids);
+        if (cfg == NULL || ids == NULL) {
+            free(cfg);
+            free(ids);
+            goto done;
+        }
+        for (size_t i = 0; i < n; i++) {
+            cfg[i * k1] = d->col[cl->treatment][i];
+            for (size_t j = 0; j < cl->n_cond; j++) cfg[i * k1 + 1 + j] = d->col[cl->cond[j]][i];
+        }
+        n_cfg = tuple_ids(cfg, n, k1, ids);
+        free(cfg);
+        free(ids);
+        if (n_cfg == (size_t)-1) goto done;
+    }
+    s->runs_per_config = (double)n / (double)n_cfg;
+    s->pure_error = n_cfg < n;
+    rc = COV_OK;
+    if (s->distinct < 2) {
+        char val[128];
+        treatment_value(val, sizeof val, tv, d->col[cl->treatment][0]);
+        s->ok = 0;
+        s->reason = dup_printf("treatment %s takes one value (%s)", tv->name, val);
+        if (s->reason == NULL) rc = COV_ENOMEM;
+    } else if (!(s->spread_resid >= COV_MIN_RESID_SHARE * s->spread)) {
+        rc = resid_reason(tv, s);
+    }
+done:
+    free(idx);
+    if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory measuring support");
+    return rc;
+}
+
 int cov_support_measure(const cov_graph *g, const cov_claims *c, const cov_data *d,
                         const cov_coverage_options *opt, cov_supports **out, cov_error *err)
 {
     *out = NULL;
+    cov_summary *sh = NULL;
     cov_supports *s = calloc(1, sizeof *s);
-    if (s == NULL) return cov_fail(err, COV_ENOMEM, "", "out of memory measuring support");
+    unsigned char *want = calloc(d->n_vars ? d->n_vars : 1, 1);
+    if (s == NULL || want == NULL) goto oom;
     s->items = calloc(c->n ? c->n : 1, sizeof *s->items);
-    if (s->items == NULL) {
-        free(s);
-        return cov_fail(err, COV_ENOMEM, "", "out of memory measuring support");
-    }
+    if (s->items == NULL) goto oom;
     s->n = c->n;
+    /* The shared summaries, when some claim can use them. */
+    int any = 0;
+    for (size_t k = 0; k < c->n; k++) {
+        const cov_claim *cl = &c->items[k];
+        if (cl->status != COV_TESTABLE) continue;
+        want[cl->treatment] = 1;
+        for (size_t j = 0; j < cl->n_cond; j++) want[cl->cond[j]] = 1;
+        any = 1;
+    }
+    if (any && d->n_runs > 0 && cov_summary_build(g, d, want, opt->threads, &sh) != COV_OK)
+        goto oom;
     for (size_t k = 0; k < c->n; k++) {
         cov_support *it = &s->items[k];
         it->claim = k;
@@ -510,19 +611,27 @@ int cov_support_measure(const cov_graph *g, const cov_claims *c, const cov_data 
         if (c->items[k].status != COV_TESTABLE) {
             it->reason = dup_printf("untestable%s%s", c->items[k].reason ? ": " : "",
                                     c->items[k].reason ? c->items[k].reason : "");
-            if (it->reason == NULL) {
-                cov_supports_free(s);
-                return cov_fail(err, COV_ENOMEM, "", "out of memory measuring support");
-            }
+            if (it->reason == NULL) goto oom;
             continue;
         }
-        int rc = support_one(g, &c->items[k], d, opt, it, err);
+        int rc = summarised(g, &c->items[k], d, sh)
+                     ? support_summary(g, &c->items[k], d, sh, it, err)
+                     : support_one(g, &c->items[k], d, opt, it, err);
         if (rc != COV_OK) {
+            cov_summary_free(sh);
+            free(want);
             cov_supports_free(s);
             if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory measuring support");
             return rc;
         }
     }
+    cov_summary_free(sh);
+    free(want);
     *out = s;
     return COV_OK;
+oom:
+    cov_summary_free(sh);
+    free(want);
+    cov_supports_free(s);
+    return cov_fail(err, COV_ENOMEM, "", "out of memory measuring support");
 }
