@@ -89,7 +89,7 @@ static int mode_campaign(void)
     cov_data d;
     memset(&d, 0, sizeof d);
     d.n_runs = n, d.n_vars = K, d.col = cols, d.n_missing = n_missing, d.n_outside = n_outside;
-    cov_coverage_options o = {min_runs, bins, way, 0.5, 20261202UL};
+    cov_coverage_options o = {min_runs, bins, way, 0.5, 20261202UL, 1};
     cov_coverage *c = NULL;
     cov_error err;
     int rc = cov_coverage_measure(&g, &d, &o, &c, &err);

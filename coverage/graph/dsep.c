@@ -251,29 +251,27 @@ static int in_query(const cov_dsep_ws *w, int fix, size_t v)
  * node joined to its parents, the parents of each node joined to each other, directions dropped:
  * Lauritzen, Dawid, Larsen & Leimer 1990, Networks 20:491-505). The moral graph is never built:
  * the neighbours of v are its parents, its children in A and their other parents (A is ancestral,
- * so every parent of a member is a member). Nodes for which block(v) holds are reached, appended
- * to w->list, and not passed through; src is always passed through. The search stops once
+ * so every parent of a member is a member). Nodes that block are reached, appended
+ * to w->list, and not passed through (mode 0: Z0, mode 1: Z1); src is always passed through. The search stops once
  * `enough` blocking nodes are reached (SIZE_MAX: never). Returns the count appended; every node
  * reached carries the new seen stamp. Each child's parents are joined once per search: after
  * that they are all reached, so looking again finds nothing new. */
-typedef int (*block_fn)(const cov_dsep_ws *w, const unsigned char *allowed, int fix, size_t x,
-                        size_t y, size_t v);
-
-static int block_z0(const cov_dsep_ws *w, const unsigned char *allowed, int fix, size_t x,
-                    size_t y, size_t v)
+static inline int block_z0(const cov_dsep_ws *w, const unsigned char *allowed, int fix,
+                           size_t x, size_t y, size_t v)
 {
     return v != x && v != y && allowed[v] && in_query(w, fix, v);
 }
 
-static int block_z1(const cov_dsep_ws *w, const unsigned char *allowed, int fix, size_t x,
-                    size_t y, size_t v)
+/* The blocking test of each search: Z0 (mode 0) or Z1 (mode 1). */
+static inline int blocks(const cov_dsep_ws *w, int mode, const unsigned char *allowed, int fix,
+                         size_t x, size_t y, size_t v)
 {
-    (void)allowed, (void)fix, (void)x, (void)y;
-    return w->zm[v] == w->z_gen;
+    return mode ? w->zm[v] == w->z_gen : block_z0(w, allowed, fix, x, y, v);
 }
 
-static size_t moral_bfs(cov_dsep_ws *w, const cov_dag *d, size_t src, block_fn block,
-                        const unsigned char *allowed, int fix, size_t x, size_t y, size_t enough)
+static inline size_t moral_bfs(cov_dsep_ws *w, const cov_dag *d, size_t src, int mode,
+                               const unsigned char *allowed, int fix, size_t x, size_t y,
+                               size_t enough)
 {
     unsigned gen = next_gen(w->seen, &w->seen_gen, w->n);
     if (gen == 1) memset(w->wed, 0, w->n * sizeof *w->wed);
@@ -285,7 +283,7 @@ static size_t moral_bfs(cov_dsep_ws *w, const cov_dag *d, size_t src, block_fn b
         size_t u_ = (u);                                                                            \
         if (w->seen[u_] != gen) {                                                                   \
             w->seen[u_] = gen;                                                                      \
-            if (block(w, allowed, fix, x, y, u_)) w->list[count++] = u_;                           \
+            if (blocks(w, mode, allowed, fix, x, y, u_)) w->list[count++] = u_;                           \
             else w->queue[tail++] = u_;                                                             \
         }                                                                                           \
     } while (0)
@@ -326,7 +324,7 @@ int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
     *found = 0;
     *nz = 0;
     query_ancestors(w, d, x, y);
-    size_t n1 = moral_bfs(w, d, x, block_z0, allowed, fix, x, y, SIZE_MAX);
+    size_t n1 = moral_bfs(w, d, x, 0, allowed, fix, x, y, SIZE_MAX);
     if (w->seen[y] == w->seen_gen) {
         /* None: report Z0, the allowed members of A, which leaves some path open. */
         for (size_t v = 0; v < d->n; v++)
@@ -336,7 +334,7 @@ int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
     unsigned zg = next_gen(w->zm, &w->z_gen, w->n);
     for (size_t i = 0; i < n1; i++) w->zm[w->list[i]] = zg;
     /* Z is within Z1: once all of Z1 is reached there is nothing more to find. */
-    size_t n2 = n1 ? moral_bfs(w, d, y, block_z1, allowed, fix, x, y, n1) : 0;
+    size_t n2 = n1 ? moral_bfs(w, d, y, 1, allowed, fix, x, y, n1) : 0;
     memcpy(z, w->list, n2 * sizeof *z);
     qsort(z, n2, sizeof *z, cmp_size);
     *nz = n2;
