@@ -105,10 +105,8 @@ static int parse_long(const char *opt, const char *text, long lo, long hi, long 
 enum long_only {
     OPT_TABLE = 256, OPT_ARCHIVE, OPT_ALPHA, OPT_POWER, OPT_FAMILY, OPT_ONE_SIDED, OPT_MIN_RUNS,
     OPT_BINS, OPT_WAY, OPT_NEED_MARGINAL, OPT_NEED_PAIRWISE, OPT_NEED_THREEWAY, OPT_BUDGET,
-    OPT_REPLICATES, OPT_AGAIN, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION,
-    OPT_COST_COLUMN, OPT_COST_BUDGET, OPT_ROUNDS
     OPT_REPLICATES, OPT_AGAIN, OPT_SEED, OPT_THREADS, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON,
-    OPT_VERSION
+    OPT_VERSION, OPT_COST_COLUMN, OPT_COST_BUDGET, OPT_ROUNDS
 };
 
 static const struct option long_options[] = {
@@ -205,6 +203,7 @@ static int apply_option(int c, const char *arg, cov_options *o)
     case OPT_ROUNDS:
         if (parse_long("--rounds", arg, 1, 1000, &k)) return -1;
         o->rounds = (int)k;
+        return 0;
     case OPT_THREADS:
         if (parse_long("--threads", arg, 1, 64, &k)) return -1;
         o->coverage.threads = (int)k;
