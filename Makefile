@@ -9,6 +9,16 @@ CFLAGS   ?= -O2 -g
 PYTHON   ?= /usr/bin/python3
 BUILD    ?= build
 
+# Quiet build: one short line a file; `make V=1` shows every command.
+V        ?= 0
+ifeq ($(V),1)
+Q   =
+SAY = @:
+else
+Q   = @
+SAY = @printf '  %-6s %s\n'
+endif
+
 # ---- what the build needs ---------------------------------------------------------------------
 PKGS      = gsl sqlite3
 WARN      = -std=c11 -Wall -Wextra -Wshadow -Wstrict-prototypes -Werror
@@ -60,21 +70,26 @@ deps-check:
 
 $(BUILD)/%.o: %.c
 	@mkdir -p $(dir $@)
-	$(CC) $(ALL_CPPFLAGS) $(ALL_CFLAGS) -c $< -o $@
+	$(SAY) CC $<
+	$(Q)$(CC) $(ALL_CPPFLAGS) $(ALL_CFLAGS) -c $< -o $@
 
 $(BUILD)/libshoal.a: $(LIB_OBJ)
 	@rm -f $@
-	ar rcs $@ $(LIB_OBJ)
+	$(SAY) AR $@
+	$(Q)ar rcs $@ $(LIB_OBJ)
 
 $(SHOAL): $(BUILD)/shoal.o $(BUILD)/libshoal.a
-	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+	$(SAY) LINK $@
+	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
 
 $(BUILD)/tests/%: $(BUILD)/tests/%.o $(BUILD)/libshoal.a
-	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+	$(SAY) LINK $@
+	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
 
 $(BUILD)/bench/%: $(BUILD)/tests/bench/%.o $(BUILD)/libshoal.a
 	@mkdir -p $(dir $@)
-	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+	$(SAY) LINK $@
+	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
 
 $(BUILD)/fuzz/replay_%: $(BUILD)/tests/fuzz/fuzz_%.o $(FUZZ_COMMON) $(BUILD)/tests/fuzz/replay.o \
                       $(BUILD)/libshoal.a
@@ -86,14 +101,16 @@ $(BUILD)/fuzz/fuzz_%: $(BUILD)/tests/fuzz/fuzz_%.o $(FUZZ_COMMON) $(BUILD)/libsh
 	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -fsanitize=fuzzer -o $@ $^ $(LIBS)
 
 $(BUILD)/fixtures/%: $(BUILD)/fixtures/%.o
-	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
+	$(SAY) LINK $@
+	$(Q)$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $^ $(LIBS)
 
 # The main job on the bundled, invented demo campaign.
 DEMO_GRAPH   = fixtures/demo/triage.graph
 DEMO_CSV     = fixtures/demo/triage-runs.csv
 DEMO_ARCHIVE = $(BUILD)/demo/triage.db
+# The build stays silent unless it fails (V=1 shows it), so the verdict is what the demo prints.
 demo: deps
-	@$(MAKE) --no-print-directory all
+	@$(MAKE) --no-print-directory all $(if $(filter 1,$(V)),,-s SAY=@:)
 	@sh .ci/demo "$(SHOAL)" "$(DEMO_GRAPH)" "$(DEMO_CSV)" "$(DEMO_ARCHIVE)"
 
 check: deps deps-check
@@ -155,6 +172,7 @@ fuzz: deps
 
 install: $(SHOAL)
 	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1
+	install -d $(DESTDIR)$(PREFIX)/share/man/man5
 	install -m 755 $(SHOAL) $(DESTDIR)$(PREFIX)/bin/shoal
 	install -m 644 coverage/shoal.1 $(DESTDIR)$(PREFIX)/share/man/man1/shoal.1
 	install -d $(DESTDIR)$(PREFIX)/share/man/man5

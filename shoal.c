@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/ioctl.h>
 #include <unistd.h>
 
 #include <gsl/gsl_errno.h>
@@ -13,67 +14,146 @@
 #include "coverage/coverage.h"
 
 #define SHOAL_VERSION "0.1.0"
+/* Columns when stdout is not a terminal or its width is unknown. */
+#define TERM_WIDTH_DEFAULT 80
 
 /* Exit statuses: the contract a pipeline gates on (README.md, "Exit status"). */
 enum exit_code { EXIT_ADEQUATE = 0, EXIT_NOT_ADEQUATE = 1, EXIT_BAD_INPUT = 2 };
 
 typedef int (*command_fn)(const cov_options *, FILE *, FILE *, int *, cov_error *);
 
+/* The commands, as bits, so that each option can say where it applies. */
+enum { C_CLAIMS = 1, C_IMPORT = 2, C_CHECK = 4, C_POWER = 8, C_COVERAGE = 16, C_SURVEY = 32,
+       C_PLAN = 64, C_ALL = 127 };
+
 struct command {
     const char *name;
     command_fn run;
+    int bit;
     int min_args, max_args;     /* positional arguments after the command name */
     const char *synopsis;
+    const char *what;           /* one line: what it answers */
 };
 
 static const struct command commands[] = {
-    {"claims", cov_cmd_claims, 1, 1, "claims GRAPH [--csv|--json]"},
-    {"import", cov_cmd_import, 1, 1,
-     "import FILE.csv --archive ARCHIVE.db [--table NAME] [--again]"},
-    {"check", cov_cmd_check, 2, 2, "check GRAPH ARCHIVE [--table NAME] [--csv|--json]"},
-    {"power", cov_cmd_power, 2, 2,
-     "power GRAPH ARCHIVE [--alpha A] [--power P] [--family bonferroni|none] [--one-sided]"},
-    {"coverage", cov_cmd_coverage, 2, 2,
-     "coverage GRAPH ARCHIVE [--min-runs M] [--bins B] [--way 2|3] [--need-pairwise S]"},
-    {"survey", cov_cmd_survey, 2, 2,
-     "survey GRAPH ARCHIVE [-o DIR] [--history FILE] [--plan FILE] [--json] [--quiet]"},
-    {"plan", cov_cmd_plan, 1, 2, "plan GRAPH [ARCHIVE] --budget N|auto [-o FILE] [--replicates K]"},
+    {"claims", cov_cmd_claims, C_CLAIMS, 1, 1, "claims GRAPH",
+     "the effect and absence claims the graph implies, and their tests"},
+    {"import", cov_cmd_import, C_IMPORT, 1, 1, "import FILE.csv --archive ARCHIVE.db [--again]",
+     "append a CSV of runs to shoal's own SQLite archive as a new batch"},
+    {"check", cov_cmd_check, C_CHECK, 2, 2, "check GRAPH ARCHIVE",
+     "whether the archive holds every recorded variable inside its domain"},
+    {"power", cov_cmd_power, C_POWER, 2, 2, "power GRAPH ARCHIVE",
+     "power, minimum detectable effect and runs needed for every claim"},
+    {"coverage", cov_cmd_coverage, C_COVERAGE, 2, 2, "coverage GRAPH ARCHIVE",
+     "how much of the input space, its pairs and triples the runs cover"},
+    {"survey", cov_cmd_survey, C_SURVEY, 2, 2, "survey GRAPH ARCHIVE [-o DIR]",
+     "power and coverage in one pass, with plots, report and history"},
+    {"plan", cov_cmd_plan, C_PLAN, 1, 2, "plan GRAPH [ARCHIVE] --budget N|auto [-o FILE]",
+     "the next runs that bring the thin claims to the target at least cost"},
 };
 #define N_COMMANDS (sizeof commands / sizeof commands[0])
+
+enum long_only {
+    OPT_TABLE = 256, OPT_ARCHIVE, OPT_ALPHA, OPT_POWER, OPT_FAMILY, OPT_ONE_SIDED, OPT_MIN_RUNS,
+    OPT_BINS, OPT_WAY, OPT_NEED_MARGINAL, OPT_NEED_PAIRWISE, OPT_NEED_THREEWAY, OPT_BUDGET,
+    OPT_REPLICATES, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION,
+    OPT_RECORD_SNAPSHOT, OPT_JUNIT, OPT_AGAIN, OPT_THREADS, OPT_COST_COLUMN, OPT_COST_BUDGET,
+    OPT_ROUNDS
+};
+
+/* Every option: its long name, value, the commands it applies to, and its help line. */
+struct option_doc {
+    const char *name;
+    int has_arg;
+    int code;
+    int applies;
+    const char *arg;
+    const char *help;
+};
+
+static const struct option_doc options[] = {
+    {"table", 1, OPT_TABLE, C_ALL & ~C_CLAIMS, "NAME", "table of runs in the archive (default runs)"},
+    {"archive", 1, OPT_ARCHIVE, C_IMPORT, "FILE", "the SQLite archive to append to"},
+    {"alpha", 1, OPT_ALPHA, C_POWER | C_SURVEY | C_PLAN, "A",
+     "family-wise significance level (default 0.05)"},
+    {"power", 1, OPT_POWER, C_POWER | C_SURVEY | C_PLAN, "P", "target power (default 0.80)"},
+    {"family", 1, OPT_FAMILY, C_POWER | C_SURVEY | C_PLAN, "bonferroni|none",
+     "multiplicity correction (default bonferroni)"},
+    {"one-sided", 0, OPT_ONE_SIDED, C_POWER | C_SURVEY | C_PLAN, NULL,
+     "one-sided tests where the graph gives a sign"},
+    {"min-runs", 1, OPT_MIN_RUNS, C_COVERAGE | C_SURVEY | C_PLAN, "M",
+     "runs that make a bin or cell covered (default 5)"},
+    {"bins", 1, OPT_BINS, C_COVERAGE | C_SURVEY | C_PLAN, "B",
+     "bins for a numeric input (default 10)"},
+    {"way", 1, OPT_WAY, C_COVERAGE | C_SURVEY, "2|3",
+     "highest strength (default 3 up to 20 inputs)"},
+    {"need-marginal", 1, OPT_NEED_MARGINAL, C_COVERAGE | C_SURVEY, "S",
+     "share of input bins the campaign must cover (0..1)"},
+    {"need-pairwise", 1, OPT_NEED_PAIRWISE, C_COVERAGE | C_SURVEY, "S",
+     "share of 2-way cells the campaign must cover (0..1)"},
+    {"need-threeway", 1, OPT_NEED_THREEWAY, C_COVERAGE | C_SURVEY, "S",
+     "share of 3-way cells the campaign must cover (0..1)"},
+    {"budget", 1, OPT_BUDGET, C_PLAN, "N|auto", "runs to plan, or the fewest that reach the target"},
+    {"replicates", 1, OPT_REPLICATES, C_PLAN, "K", "seeds per planned configuration (default 1)"},
+    {"again", 0, OPT_AGAIN, C_IMPORT, NULL, "append a file whose rows the archive already holds"},
+    {"cost-column", 1, OPT_COST_COLUMN, C_PLAN, "NAME",
+     "cost column (default: graph's `ledger NAME cost`)"},
+    {"cost-budget", 1, OPT_COST_BUDGET, C_PLAN, "C",
+     "plan runs until their fitted cost would pass C"},
+    {"rounds", 1, OPT_ROUNDS, C_PLAN, "K", "write the first of K batches; plan again after it"},
+    {"seed", 1, OPT_SEED, C_COVERAGE | C_SURVEY | C_PLAN, "S",
+     "seed for subsampling, probes and planned seeds"},
+    {"threads", 1, OPT_THREADS, C_COVERAGE | C_SURVEY, "N",
+     "threads for shared summaries (default 1)"},
+    {"output", 1, 'o', C_SURVEY | C_PLAN, "PATH",
+     "survey: report directory; plan: CSV file"},
+    {"history", 1, OPT_HISTORY, C_SURVEY | C_PLAN, "FILE",
+     "history side file for a read-only archive"},
+    {"record-snapshot", 0, OPT_RECORD_SNAPSHOT, C_SURVEY, NULL,
+     "record a snapshot even if the runs are unchanged"},
+    {"plan", 1, OPT_PLAN, C_SURVEY, "FILE", "overlay the runs of a plan file on the plots"},
+    {"junit", 1, OPT_JUNIT, C_SURVEY, "FILE",
+     "also write JUnit XML (a case per claim and gate)"},
+    {"csv", 0, OPT_CSV, C_CLAIMS | C_CHECK | C_POWER | C_COVERAGE | C_SURVEY, NULL,
+     "CSV on standard output"},
+    {"json", 0, OPT_JSON, C_ALL, NULL, "JSON on standard output"},
+    {"quiet", 0, 'q', C_ALL, NULL, "print nothing; the exit status says it"},
+    {"help", 0, 'h', C_ALL, NULL, "this help"},
+    {"version", 0, OPT_VERSION, C_ALL, NULL, "the version"},
+};
+#define N_OPTIONS (sizeof options / sizeof options[0])
+
+/* "  -o, --output PATH" and the like, for the help. */
+static void option_line(FILE *f, const struct option_doc *d)
+{
+    char head[64];
+    snprintf(head, sizeof head, "%s--%s%s%s", d->code == 'o' ? "-o, " : d->code == 'q' ? "-q, "
+                                              : d->code == 'h' ? "-h, " : "",
+             d->name, d->arg ? " " : "", d->arg ? d->arg : "");
+    if (strlen(head) < 24) fprintf(f, "  %-24s %s\n", head, d->help);
+    else fprintf(f, "  %s\n  %-24s %s\n", head, "", d->help);
+}
 
 static void usage(FILE *f)
 {
     fprintf(f, "usage: shoal COMMAND [OPTIONS] ARGS\n\ncommands:\n");
     for (size_t i = 0; i < N_COMMANDS; i++)
-        fprintf(f, "  shoal %s\n", commands[i].synopsis);
-    fprintf(f,
-            "\noptions:\n"
-            "  --table NAME          table of runs in the archive (default runs)\n"
-            "  --archive FILE        import: the SQLite archive to append to\n"
-            "  --alpha A             family-wise significance level (default 0.05)\n"
-            "  --power P             target power (default 0.80)\n"
-            "  --family bonferroni|none   multiplicity correction (default bonferroni)\n"
-            "  --one-sided           one-sided tests where the graph gives a sign\n"
-            "  --min-runs M          runs that make a bin or cell covered (default 5)\n"
-            "  --bins B              bins for a numeric input (default 10)\n"
-            "  --way 2|3             highest combination strength (default 3 up to 20 inputs)\n"
-            "  --need-marginal S, --need-pairwise S, --need-threeway S\n"
-            "                        coverage shares the campaign must reach (0..1)\n"
-            "  --budget N|auto       plan: runs to plan, or the fewest that reach the target\n"
-            "  --replicates K        plan: seeds per planned configuration (default 1)\n"
-            "  --again               import: append a file whose rows the archive already holds\n"
-            "  --cost-column NAME    plan: the cost column (default: the graph's `ledger NAME cost`)\n"
-            "  --cost-budget C       plan: plan runs until their fitted cost would pass C\n"
-            "  --rounds K            plan: write the first of K batches; plan again after it\n"
-            "  --seed S              seed for subsampling, probes and planned seeds\n"
-            "  --threads N           threads for the shared summaries (default 1; same results)\n"
-            "  -o, --output PATH     survey: report directory; plan: CSV file\n"
-            "  --history FILE        survey: history side file for a read-only archive\n"
-            "  --plan FILE           survey: overlay the runs of a plan file on the plots\n"
-            "  --csv, --json         machine-readable output\n"
-            "  -q, --quiet           print nothing; the exit status says it\n"
-            "  -h, --help, --version\n"
-            "\nexit status: 0 adequate, 1 not adequate, 2 bad input or usage\n");
+        fprintf(f, "  %-9s %s\n", commands[i].name, commands[i].what);
+    fprintf(f, "\nGRAPH or FILE.csv may be - for standard input.\n"
+               "shoal help COMMAND (or shoal COMMAND --help) lists that command's options.\n"
+               "\noptions of every command:\n");
+    for (size_t k = 0; k < N_OPTIONS; k++)
+        if (options[k].applies == C_ALL) option_line(f, &options[k]);
+    fprintf(f, "\nexit status: 0 adequate, 1 not adequate, 2 bad input or usage\n");
+}
+
+static void command_help(FILE *f, const struct command *c)
+{
+    fprintf(f, "usage: shoal %s [OPTIONS]\n\n%s.\n\noptions:\n", c->synopsis, c->what);
+    for (size_t k = 0; k < N_OPTIONS; k++)
+        if (options[k].applies & c->bit) option_line(f, &options[k]);
+    fprintf(f, "\nGRAPH or FILE.csv may be - for standard input.\n"
+               "exit status: 0 adequate, 1 not adequate, 2 bad input or usage\n");
 }
 
 /* Parse a number the whole of which must be used, with the reader every input file uses. */
@@ -101,45 +181,6 @@ static int parse_long(const char *opt, const char *text, long lo, long hi, long 
     *out = v;
     return 0;
 }
-
-enum long_only {
-    OPT_TABLE = 256, OPT_ARCHIVE, OPT_ALPHA, OPT_POWER, OPT_FAMILY, OPT_ONE_SIDED, OPT_MIN_RUNS,
-    OPT_BINS, OPT_WAY, OPT_NEED_MARGINAL, OPT_NEED_PAIRWISE, OPT_NEED_THREEWAY, OPT_BUDGET,
-    OPT_REPLICATES, OPT_AGAIN, OPT_SEED, OPT_THREADS, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON,
-    OPT_VERSION, OPT_COST_COLUMN, OPT_COST_BUDGET, OPT_ROUNDS
-};
-
-static const struct option long_options[] = {
-    {"table", required_argument, NULL, OPT_TABLE},
-    {"archive", required_argument, NULL, OPT_ARCHIVE},
-    {"alpha", required_argument, NULL, OPT_ALPHA},
-    {"power", required_argument, NULL, OPT_POWER},
-    {"family", required_argument, NULL, OPT_FAMILY},
-    {"one-sided", no_argument, NULL, OPT_ONE_SIDED},
-    {"min-runs", required_argument, NULL, OPT_MIN_RUNS},
-    {"bins", required_argument, NULL, OPT_BINS},
-    {"way", required_argument, NULL, OPT_WAY},
-    {"need-marginal", required_argument, NULL, OPT_NEED_MARGINAL},
-    {"need-pairwise", required_argument, NULL, OPT_NEED_PAIRWISE},
-    {"need-threeway", required_argument, NULL, OPT_NEED_THREEWAY},
-    {"budget", required_argument, NULL, OPT_BUDGET},
-    {"replicates", required_argument, NULL, OPT_REPLICATES},
-    {"cost-column", required_argument, NULL, OPT_COST_COLUMN},
-    {"cost-budget", required_argument, NULL, OPT_COST_BUDGET},
-    {"rounds", required_argument, NULL, OPT_ROUNDS},
-    {"seed", required_argument, NULL, OPT_SEED},
-    {"again", no_argument, NULL, OPT_AGAIN},
-    {"threads", required_argument, NULL, OPT_THREADS},
-    {"output", required_argument, NULL, 'o'},
-    {"history", required_argument, NULL, OPT_HISTORY},
-    {"plan", required_argument, NULL, OPT_PLAN},
-    {"csv", no_argument, NULL, OPT_CSV},
-    {"json", no_argument, NULL, OPT_JSON},
-    {"quiet", no_argument, NULL, 'q'},
-    {"help", no_argument, NULL, 'h'},
-    {"version", no_argument, NULL, OPT_VERSION},
-    {NULL, 0, NULL, 0},
-};
 
 /* Apply one parsed option to o; returns -1 after printing a usage error. */
 static int apply_option(int c, const char *arg, cov_options *o)
@@ -212,11 +253,48 @@ static int apply_option(int c, const char *arg, cov_options *o)
     case OPT_HISTORY: o->history_path = arg; return 0;
     case OPT_AGAIN: o->again = 1; return 0;
     case OPT_PLAN: o->plan_path = arg; return 0;
-    case OPT_CSV: o->format = COV_FMT_CSV; return 0;
-    case OPT_JSON: o->format = COV_FMT_JSON; return 0;
+    case OPT_RECORD_SNAPSHOT: o->record_snapshot = 1; return 0;
+    case OPT_JUNIT: o->junit_path = arg; return 0;
+    case OPT_CSV:
+    case OPT_JSON:
+        if (o->format != COV_FMT_TABLE && o->format != (c == OPT_CSV ? COV_FMT_CSV : COV_FMT_JSON)) {
+            fprintf(stderr, "shoal: --csv and --json conflict; choose one output format\n");
+            return -1;
+        }
+        o->format = c == OPT_CSV ? COV_FMT_CSV : COV_FMT_JSON;
+        return 0;
     case 'q': o->quiet = 1; return 0;
     default: return -1;
     }
+}
+
+static const struct command *find_command(const char *name)
+{
+    for (size_t i = 0; i < N_COMMANDS; i++)
+        if (strcmp(name, commands[i].name) == 0) return &commands[i];
+    return NULL;
+}
+
+static const struct option_doc *find_option(int code)
+{
+    for (size_t k = 0; k < N_OPTIONS; k++)
+        if (options[k].code == code) return &options[k];
+    return NULL;
+}
+
+/* Columns for terminal text: the terminal's width when stdout is one, else 80 (tables then fit
+ * a log, a pipe or a mail). */
+static size_t terminal_width(void)
+{
+    if (!isatty(STDOUT_FILENO)) return TERM_WIDTH_DEFAULT;
+    struct winsize ws;
+    if (ioctl(STDOUT_FILENO, TIOCGWINSZ, &ws) == 0 && ws.ws_col >= 40) return ws.ws_col;
+    const char *cols = getenv("COLUMNS");
+    long k;
+    char *end;
+    if (cols != NULL && (k = strtol(cols, &end, 10)) >= 40 && *end == '\0' && k < 10000)
+        return (size_t)k;
+    return TERM_WIDTH_DEFAULT;
 }
 
 int main(int argc, char **argv)
@@ -228,6 +306,15 @@ int main(int argc, char **argv)
     }
     if (strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0 ||
         strcmp(argv[1], "help") == 0) {
+        if (argc > 2 && strcmp(argv[1], "help") == 0) {
+            const struct command *hc = find_command(argv[2]);
+            if (hc == NULL) {
+                fprintf(stderr, "shoal: unknown command '%s'; try 'shoal --help'\n", argv[2]);
+                return EXIT_BAD_INPUT;
+            }
+            command_help(stdout, hc);
+            return EXIT_ADEQUATE;
+        }
         usage(stdout);
         return EXIT_ADEQUATE;
     }
@@ -235,44 +322,72 @@ int main(int argc, char **argv)
         printf("shoal %s\n", SHOAL_VERSION);
         return EXIT_ADEQUATE;
     }
-    const struct command *cmd = NULL;
-    for (size_t i = 0; i < N_COMMANDS; i++)
-        if (strcmp(argv[1], commands[i].name) == 0) cmd = &commands[i];
+    const struct command *cmd = find_command(argv[1]);
     if (cmd == NULL) {
         fprintf(stderr, "shoal: unknown command '%s'; try 'shoal --help'\n", argv[1]);
         return EXIT_BAD_INPUT;
     }
 
+    static struct option long_options[N_OPTIONS + 1];
+    for (size_t k = 0; k < N_OPTIONS; k++)
+        long_options[k] = (struct option){options[k].name,
+                                          options[k].has_arg ? required_argument : no_argument,
+                                          NULL, options[k].code};
     cov_options o;
     cov_options_default(&o);
+    o.version = SHOAL_VERSION;
+    /* getopt_long permutes argv; the audit trail keeps the command line as it was typed. */
+    /* Held by a static so that an early exit (usage errors) leaves nothing unreachable. */
+    static char **typed;
+    typed = malloc(((size_t)argc + 1) * sizeof *typed);
+    if (typed == NULL) {
+        fprintf(stderr, "shoal: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
+    memcpy(typed, argv, ((size_t)argc + 1) * sizeof *typed);
+    o.argc = argc;
+    o.argv = typed;
     int c;
     optind = 2;
     /* getopt's own messages (unknown option, missing value) start with argv[0]; the README
      * promises every message starts with "shoal:", whatever path the binary was run by. */
     static char prog_name[] = "shoal";
+    char *const argv0 = argv[0];
     argv[0] = prog_name;
     while ((c = getopt_long(argc, argv, "o:qh", long_options, NULL)) != -1) {
         if (c == 'h') {
-            usage(stdout);
+            command_help(stdout, cmd);
             return EXIT_ADEQUATE;
         }
         if (c == OPT_VERSION) {
             printf("shoal %s\n", SHOAL_VERSION);
             return EXIT_ADEQUATE;
         }
-        if (c == '?' || apply_option(c, optarg, &o) != 0) {
-            fprintf(stderr, "usage: shoal %s\n", cmd->synopsis);
+        const struct option_doc *d = c == '?' ? NULL : find_option(c);
+        if (d != NULL && !(d->applies & cmd->bit)) {
+            /* Accepting and ignoring it would let a user believe it took effect. */
+            fprintf(stderr, "shoal: --%s does not apply to %s; see 'shoal help %s'\n", d->name,
+                    cmd->name, cmd->name);
             return EXIT_BAD_INPUT;
         }
+        if (c == '?' || apply_option(c, optarg, &o) != 0) {
+            fprintf(stderr, "usage: shoal %s [OPTIONS]; see 'shoal help %s'\n", cmd->synopsis,
+                    cmd->name);
+            return EXIT_BAD_INPUT;
+        }
+        int seen = 0;
+        for (size_t k = 0; k < o.n_given; k++) seen |= strcmp(o.given[k], d->name) == 0;
+        if (!seen && o.n_given < sizeof o.given / sizeof o.given[0]) o.given[o.n_given++] = d->name;
     }
+    argv[0] = argv0;
     int n_pos = argc - optind;
     if (n_pos < cmd->min_args || n_pos > cmd->max_args) {
-        fprintf(stderr, "shoal: %s takes %d%s argument%s\nusage: shoal %s\n", cmd->name,
+        fprintf(stderr, "shoal: %s takes %d%s argument%s\nusage: shoal %s [OPTIONS]\n", cmd->name,
                 cmd->min_args, cmd->max_args > cmd->min_args ? " or more" : "",
                 cmd->max_args == 1 ? "" : "s", cmd->synopsis);
         return EXIT_BAD_INPUT;
     }
-    if (strcmp(cmd->name, "import") == 0) {
+    if (cmd->bit == C_IMPORT) {
         o.csv_path = argv[optind];
         if (o.archive_path == NULL) {
             fprintf(stderr, "shoal: import needs --archive FILE.db\nusage: shoal %s\n",
@@ -282,9 +397,17 @@ int main(int argc, char **argv)
     } else {
         o.graph_path = argv[optind];
         if (n_pos > 1) o.archive_path = argv[optind + 1];
+        if (o.archive_path != NULL && strcmp(o.archive_path, "-") == 0) {
+            fprintf(stderr, "shoal: the archive is an SQLite file and cannot be standard input; "
+                            "import a CSV from - first\n");
+            return EXIT_BAD_INPUT;
+        }
     }
     o.progress = isatty(STDERR_FILENO);
-    o.color = isatty(STDOUT_FILENO) && getenv("NO_COLOR") == NULL;
+    /* The NO_COLOR convention: only a non-empty value turns colour off. */
+    const char *no_color = getenv("NO_COLOR");
+    o.color = isatty(STDOUT_FILENO) && (no_color == NULL || no_color[0] == '\0');
+    o.width = terminal_width();
 
     cov_error err = {{0}, {0}};
     int adequate = 1;

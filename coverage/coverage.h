@@ -492,6 +492,15 @@ typedef struct {
     const char *cost_column;      /* plan: the archive column holding each run's cost, or NULL */
     double cost_budget;           /* plan: stop before the fitted cost passes it; 0: no limit */
     int rounds;                   /* plan: rounds the campaign is split into (1: one batch) */
+    size_t width;                 /* columns of terminal text: the terminal's, else 80 */
+    int record_snapshot;          /* survey: record a snapshot even if the runs are unchanged */
+    const char *junit_path;       /* survey: write JUnit XML there, or NULL */
+    /* The audit trail: the program's version and what the driver was given. */
+    const char *version;
+    int argc;
+    char *const *argv;
+    const char *given[48];        /* long names of the options given on the command line */
+    size_t n_given;
 } cov_options;
 
 /* The whole NUL-terminated s as a finite plain decimal number, the one syntax shoal reads in every

@@ -35,7 +35,7 @@ run_browser() {
   profile=$(mktemp -d "$tmp/profile.XXXXXX")
   timeout 180 "$browser" --headless --no-sandbox --disable-gpu --disable-quic --no-first-run \
     --disable-background-networking --disable-component-update --disable-sync \
-    --user-data-dir="$profile" --hide-scrollbars --window-size=1200,1600 \
+    --user-data-dir="$profile" --hide-scrollbars --window-size="${WINDOW:-1200,1600}" \
     --virtual-time-budget=5000 "$@" 2>>"$tmp/chromium.log"
 }
 
@@ -122,5 +122,62 @@ set -- $("$PYTHON" tests/browser/pngstats.py "$tmp/blank.png" 2>>"$tmp/chromium.
 if [ "$#" -eq 4 ] && [ "$3" -lt 20 ] && awk -v s="$4" 'BEGIN { exit !(s <= 0.02) }'; then
   ok "negative control: a blank page is judged blank ($3 colour, share $4)"
 else bad "negative control: the blank page was not judged blank: $*"; fi
+
+# 3. Any screen: a 390-px phone and a 1,400-px desktop (tests/browser/layout.js). The page never
+#    scrolls sideways, the claims table keeps every column on screen (cards on the phone), plot
+#    text is drawn at 8.5 CSS px or more, and the graph is drawn and listed. At 1,400 px also a
+#    campaign of 63 claims with long names (tests/browser/wide_campaign.sh, invented).
+with_layout() {
+  awk -v probe="$here/tests/browser/layout.js" -v node="$3" \
+    '/<\/body>/ { print "<script>window.SHOAL_EXPECT_NODE=\"" node "\";"; while ((getline l < probe) > 0) print l; print "</script>" } { print }' \
+    "$1" >"$2"
+}
+# A headless window is never narrower than 500 px, so the page is opened in a frame WIDTH px wide
+# (its own viewport: media queries and innerWidth follow the frame), inside a 1,600-px window.
+layout() {   # layout PAGE WIDTH NODE -> the marker
+  with_layout "$1" "$1.layout.html" "$3"
+  printf '%s\n' '<!DOCTYPE html><html><body style="margin:0">' \
+    "<iframe src=\"$(basename "$1").layout.html\" style=\"width:$2px;height:2000px;border:0\"></iframe>" \
+    '<script>window.addEventListener("message",function(e){var p=document.createElement("pre");p.id="layout-check";p.textContent=e.data;document.body.appendChild(p);});</script>' \
+    '</body></html>' >"$1.frame.html"
+  WINDOW="1600,2100" run_browser --dump-dom "file://$1.frame.html" |
+    sed -n 's/.*<pre id="layout-check">\([^<]*\)<\/pre>.*/\1/p' | head -1
+}
+. "$here/tests/browser/wide_campaign.sh"
+wide_campaign "$tmp"
+"$SHOAL" import "$tmp/wide.csv" --archive "$tmp/wide.db" >/dev/null 2>&1
+"$SHOAL" survey "$tmp/wide.graph" "$tmp/wide.db" -o "$tmp/wide-report" >/dev/null 2>&1
+for case in "report 390 arrivals" "report 1400 arrivals" "wide-report 1400 worker_thread_pool_size" \
+            "wide-report 390 worker_thread_pool_size"; do
+  set -- $case
+  m=$(layout "$tmp/$1/index.html" "$2" "$3")
+  case $m in
+  LAYOUT-OK*" graph=yes"*) ok "$1 at $2 px: $m" ;;
+  *) bad "$1 at $2 px: ${m:-no marker ($(tail -2 "$tmp/chromium.log"))}" ;;
+  esac
+done
+rows=$("$PYTHON" -c 'import json,sys; print(len(json.load(open(sys.argv[1]))["claims"]))' "$tmp/wide-report/summary.json")
+if [ "$rows" -ge 60 ]; then ok "the wide campaign has $rows claims"; else bad "the wide campaign has only $rows claims"; fi
+# Negative controls: a planted wide table (60 columns) and a plot shrunk to a phone's width must
+# each be reported.
+sed 's|<section id="claims">|<table><tr>'"$(printf '<td>column%s</td>' $(seq 1 60))"'</tr></table>&|' \
+  "$tmp/report/index.html" >"$tmp/report/planted.html"
+m=$(layout "$tmp/report/planted.html" 1400 arrivals)
+case $m in
+LAYOUT-FAIL*"page scrolls sideways"*) ok "negative control: a planted wide table is reported at 1400 px ($m)" ;;
+*) bad "negative control: the planted wide table was not reported: ${m:-no marker}" ;;
+esac
+m=$(layout "$tmp/report/planted.html" 390 arrivals)
+case $m in
+LAYOUT-FAIL*"page scrolls sideways"*) ok "negative control: a planted wide table is reported at 390 px" ;;
+*) bad "negative control at 390 px: ${m:-no marker}" ;;
+esac
+sed 's|</style>|.plot svg{min-width:0 !important;max-width:100% !important}</style>|' \
+  "$tmp/report/index.html" >"$tmp/report/tiny.html"
+m=$(layout "$tmp/report/tiny.html" 390 arrivals)
+case $m in
+LAYOUT-FAIL*"plot text drawn at"*) ok "negative control: plots shrunk to the phone's width are reported ($m)" ;;
+*) bad "negative control: shrunken plot text was not reported: ${m:-no marker}" ;;
+esac
 
 [ "$fails" -eq 0 ]

@@ -156,7 +156,7 @@ class Page(HTMLParser):
         if "id" in d: self.ids.append(d["id"])
         if tag == "img": self.imgs.append(d.get("src", ""))
         if tag == "figcaption": self.in_caption = True; self.captions.append("")
-        if tag == "svg" and self.depth == 0 and self.stack and self.stack[-1] == "figure":
+        if tag == "svg" and self.depth == 0 and self.stack and (self.stack[-1] == "figure" or (self.stack[-1] == "div" and "figure" in self.stack)):
             self.cur = {"root": d, "items": [], "ids": [], "refs": [], "title": None}
             self.svgs.append(self.cur)
         if self.cur is not None:
@@ -238,7 +238,7 @@ check $? "each plot is an inline svg matching its file (python html.parser, xml.
 
 # Negative controls: a stand-in gnuplot on PATH writes plots holding a <script>, an onload
 # attribute, a <foreignObject>, an external href and an external url(); each must stay out of the
-# DOM (an <img> data URI instead), while two clean plots are inlined (one without a viewBox, which
+# DOM (an <img> data URI instead), while three clean plots are inlined (one without a viewBox, which
 # gets one from its size) and their shared ids gpDot and textbox are renamed apart.
 mkdir "$tmp/fakebin"
 cat >"$tmp/fakebin/gnuplot" <<EOF
@@ -272,7 +272,7 @@ chmod +x "$tmp/fakebin/gnuplot"
 PATH="$tmp/fakebin:$PATH" "$SHOAL" survey "$demo_graph" "$tmp/demo.db" -o "$tmp/r-hostile" >/dev/null 2>"$tmp/err"
 rc=$?
 check $([ "$rc" -eq 1 ] && [ -s "$tmp/r-hostile/mde.svg" ]; echo $?) "the survey with a stand-in gnuplot ran (got $rc: $(head -2 "$tmp/err"))"
-"$PYTHON" "$tmp/svgpage.py" "$tmp/r-hostile" mde,curves >"$tmp/py" 2>&1
+"$PYTHON" "$tmp/svgpage.py" "$tmp/r-hostile" mde,curves,graph >"$tmp/py" 2>&1
 check $? "SVGs with a script, onload, foreignObject or external reference stay <img>; clean ones inline with ids apart $(cat "$tmp/py")"
 check $(grep -c 'shown as an image, not inline' "$tmp/r-hostile/index.html" | grep -qx 5; echo $?) \
   "the page says in a comment why each of the 5 refused plots is an image"
@@ -376,7 +376,9 @@ sum_before=$(cksum <"$tmp/own.db")
 check $(grep -q "history: not kept" "$tmp/out" && grep -q "No history is kept" "$tmp/r-own/index.html"; echo $?) \
   "a user's archive without --history keeps no history, and the report says so"
 "$SHOAL" survey "$demo_graph" "$tmp/own.db" -o "$tmp/r-own" --history "$tmp/side.db" >/dev/null 2>&1
+# The same runs again add no snapshot unless asked (--record-snapshot).
 "$SHOAL" survey "$demo_graph" "$tmp/own.db" -o "$tmp/r-own" --history "$tmp/side.db" >/dev/null 2>&1
+"$SHOAL" survey "$demo_graph" "$tmp/own.db" -o "$tmp/r-own" --history "$tmp/side.db" --record-snapshot >/dev/null 2>&1
 check $([ "$sum_before" = "$(cksum <"$tmp/own.db")" ]; echo $?) "the user's archive is byte-for-byte unchanged"
 "$PYTHON" - "$tmp/side.db" "$tmp/r-own" <<'EOF' >"$tmp/py" 2>&1
 import json, sqlite3, sys
@@ -384,7 +386,7 @@ assert sqlite3.connect(sys.argv[1]).execute("select count(*) from shoal_snapshot
 h = json.load(open(sys.argv[2] + "/summary.json"))["history"]
 assert h["store"] == "side file" and len(h["snapshots"]) == 2
 EOF
-check $? "two surveys with --history give two snapshots in the side file $(cat "$tmp/py")"
+check $? "three surveys of the same runs with --history, the last with --record-snapshot, give two snapshots in the side file $(cat "$tmp/py")"
 "$SHOAL" survey "$demo_graph" "$tmp/own.db" -o "$tmp/r-own" --history "$tmp/own.db" >/dev/null 2>&1
 rc=$?
 check $([ "$rc" -eq 2 ] && [ "$sum_before" = "$(cksum <"$tmp/own.db")" ]; echo $?) \

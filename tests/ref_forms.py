@@ -115,8 +115,10 @@ with tempfile.TemporaryDirectory() as tmp:
     p_step = power(base + "share -> y effect 5 per 1000\nflow -> y effect 4 per 10000\n")
     r = subprocess.run([shoal, "power", os.path.join(tmp, "g.graph"), db], capture_output=True,
                        text=True)
+    # Terminal text is wrapped to 80 columns, so the line is compared with its wrapping undone.
     check("share -> y [flow]: effect of interest as written: 5 per 1000 = 5 raw per step = 0.005 "
-          "per unit" in r.stdout, "the power table shows the effect as written and per unit")
+          "per unit" in " ".join(r.stdout.split()),
+          "the power table shows the effect as written and per unit")
     a = p_step.get(("share", "y"))
     check(a is not None and a["effect_written"] == "5 per 1000" and
           rel(a["effect_written_raw"], 5) <= 1e-12 and rel(a["effect_raw"], 0.005) <= 1e-12,

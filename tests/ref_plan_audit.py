@@ -20,6 +20,11 @@ CSV = "fixtures/demo/triage-runs.csv"
 failed = 0
 
 
+def flat(text):
+    """Terminal text is wrapped to 80 columns; compare it with the wrapping undone."""
+    return " ".join(text.split())
+
+
 def check(ok, desc):
     global failed
     print(("PASS: " if ok else "FAIL: ") + desc)
@@ -63,7 +68,7 @@ with tempfile.TemporaryDirectory() as d:
 
     # Before the runs arrive: the survey says nothing arrived and compares nothing.
     r = run([SHOAL, "survey", GRAPH, db, "-o", os.path.join(d, "rep0")])
-    check("0 of 40 planned runs arrived; nothing to compare yet" in r.stdout,
+    check("0 of 40 planned runs arrived; nothing to compare yet" in flat(r.stdout),
           "before the runs arrive the survey says 0 of 40 arrived")
 
     # Run the plan through the simulator (a seed column comes back), import, survey.
@@ -72,7 +77,8 @@ with tempfile.TemporaryDirectory() as d:
         subprocess.run([TRIAGE, "run", plan_file], stdout=fh, check=True)
     run([SHOAL, "import", got, "--archive", db])
     r = run([SHOAL, "survey", GRAPH, db, "-o", os.path.join(d, "rep1")])
-    check("40 of 40 planned runs arrived" in r.stdout and "predicted to reach power 0.80" in r.stdout,
+    check("40 of 40 planned runs arrived" in flat(r.stdout) and
+          "predicted to reach power 0.80" in flat(r.stdout),
           "after the import the terminal shows the plan's predictions against the runs")
     powers = survey_powers(db, os.path.join(d, "rep2"))
     con = sqlite3.connect(db)
@@ -142,7 +148,7 @@ with tempfile.TemporaryDirectory() as d:
     con.close()
     before = sha(plain)
     r = run([SHOAL, "survey", GRAPH, plain, "-o", os.path.join(d, "rep4"), "--history", side])
-    check("20 of 20 planned runs arrived" in r.stdout and sha(plain) == before,
+    check("20 of 20 planned runs arrived" in flat(r.stdout) and sha(plain) == before,
           "the survey of the read-only archive shows the audit from the side file, archive unchanged")
 
 sys.exit(1 if failed else 0)

@@ -362,8 +362,8 @@ static void test_round_trip(const char *tmp)
     free(script);
 }
 
-static const char *const expected[] = {"pairs", "pair-1", "pair-2", "pair-3", "pair-4",
-                                       "power", "mde", "curves"};
+static const char *const expected[] = {"graph", "pairs", "pair-1", "pair-2", "pair-3",
+                                       "pair-4", "power", "mde", "curves"};
 #define N_EXPECTED (sizeof expected / sizeof expected[0])
 
 static void test_list(void)
@@ -375,7 +375,7 @@ static void test_list(void)
     gsl_test_int(rc, COV_OK, "cov_plot_list succeeds");
     if (rc != COV_OK) return;
     gsl_test_int((int)p->n, (int)N_EXPECTED,
-                 "cov_plot_list: matrix, 4 sparse pairs, power, MDE, curves");
+                 "cov_plot_list: graph, matrix, 4 thin pairs, power, MDE, curves");
     for (size_t i = 0; i < p->n && i < N_EXPECTED; i++) {
         gsl_test(strcmp(p->items[i].name, expected[i]) != 0, "plot %zu is named %s (got %s)", i + 1,
                  expected[i], p->items[i].name);
@@ -392,7 +392,8 @@ static void test_list(void)
     f.assess = &none;
     f.coverage = &one;
     rc = cov_plot_list(&f, &p, &err);
-    gsl_test(rc != COV_OK || p->n != 0, "cov_plot_list: no plots without pairs or testable claims");
+    gsl_test(rc != COV_OK || p->n != 1 || strcmp(p->items[0].name, "graph") != 0,
+             "cov_plot_list: only the graph without pairs or testable claims");
     cov_plots_free(p);
 }
 

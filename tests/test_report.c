@@ -163,8 +163,11 @@ int main(void)
     free(none);
 
     /* The report, with every user string escaped for its format. */
+    /* The cautions too carry user names (outputs, variables moved together) into every format. */
+    cov_cautions *cautions = NULL;
+    gsl_test_int(cov_cautions_gather(&f, &cautions), COV_OK, "the cautions are gathered");
     cov_report_info info = {"2026-01-02T00:00:00Z", 0, NULL, "gnuplot is not on PATH",
-                            COV_HISTORY_SIDE, side, snaps, n_snapshots};
+                            COV_HISTORY_SIDE, side, snaps, n_snapshots, cautions, 1, NULL, NULL, NULL};
     memset(&err, 0, sizeof err);
     rc = cov_report_write(&f, &info, dir, &err);
     gsl_test_int(rc, COV_OK, "the report is written (%s)", err.msg);
@@ -205,6 +208,7 @@ int main(void)
     o.fault_at = NULL;
 
     free(snaps);
+    cov_cautions_free(cautions);
     remove_dir(dir);
     cov_claims_free(cl);
     cov_graph_free(g);

@@ -182,6 +182,7 @@ typedef struct {
     long long n_batches;
     long long n_ample, n_underpowered, n_blind;
     double marginal_share, pairwise_share, threeway_share;   /* NAN when not computed */
+    char digest[65];          /* content digest of the runs (cov_data_digest); "" when unknown */
 } cov_snapshot;
 
 /* One claim's line in a snapshot (all strings borrowed). */
@@ -211,5 +212,10 @@ int cov_history_load(const char *db_path, int missing_ok, cov_snapshot **out, si
 int cov_history_record(const char *db_path, int create_file, const cov_history_source *src,
                        const cov_snapshot *r, const cov_snapshot_claim *claims, size_t n_claims,
                        cov_error *err);
+/* The content digest of d (coverage/archive/digest.c): SHA-256 over the run count (8 bytes,
+ * little-endian), then, for each recorded variable in graph order, its name and NUL and each value
+ * as IEEE 754 binary64 little-endian (missing cells as 0x7ff8000000000000, -0 as +0; bools 0/1,
+ * levels by index). 64 hex digits and a NUL into hex. */
+void cov_data_digest(const cov_graph *g, const cov_data *d, char hex[65]);
 
 #endif

@@ -315,7 +315,9 @@ int cov_csv_open(const char *path, cov_csv **out, cov_error *err)
     c->path = strdup(path);
     if (c->path == NULL) goto nomem;
     char why[160];
-    if (cov_open_regular(path, &c->f, why, sizeof why) != 0) {
+    /* "-" is standard input, as in most command-line tools. */
+    if (strcmp(path, "-") == 0) c->f = stdin;
+    else if (cov_open_regular(path, &c->f, why, sizeof why) != 0) {
         rc = cov_fail(err, errno == 0 || errno == ENOENT ? COV_EINPUT : COV_EIO, path,
                       "cannot open: %s", why);
         goto fail;
@@ -400,7 +402,7 @@ fail:
 void cov_csv_close(cov_csv *c)
 {
     if (c == NULL) return;
-    if (c->f) fclose(c->f);
+    if (c->f && c->f != stdin) fclose(c->f);
     if (c->header)
         for (size_t i = 0; i < c->n_fields; i++) free(c->header[i]);
     free(c->header);

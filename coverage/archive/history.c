@@ -19,7 +19,7 @@ static const char history_schema[] =
     " id INTEGER PRIMARY KEY, surveyed_at TEXT NOT NULL, graph TEXT, archive TEXT,"
     " runs INTEGER NOT NULL, batches INTEGER NOT NULL, ample INTEGER NOT NULL,"
     " underpowered INTEGER NOT NULL, untestable INTEGER NOT NULL,"
-    " marginal_share REAL, pairwise_share REAL, threeway_share REAL);"
+    " marginal_share REAL, pairwise_share REAL, threeway_share REAL, runs_digest TEXT);"
     "CREATE TABLE IF NOT EXISTS shoal_snapshot_claims ("
     " snapshot INTEGER NOT NULL REFERENCES shoal_snapshots(id), claim INTEGER NOT NULL,"
     " kind TEXT NOT NULL, treatment TEXT NOT NULL, outcome TEXT NOT NULL, verdict TEXT NOT NULL,"
@@ -68,8 +68,13 @@ int cov_history_load(const char *db_path, int missing_ok, cov_snapshot **out, si
     sqlite3_finalize(st);
     st = NULL;
     if (has_table) {
-        if (sqlite3_prepare_v2(db, "SELECT surveyed_at, runs, batches, ample, underpowered, untestable, "
-                                   "marginal_share, pairwise_share, threeway_share "
+        /* Snapshots recorded before the digest column existed read as digest "". */
+        if (sqlite3_prepare_v2(db, "SELECT surveyed_at, runs, batches, ample, underpowered, "
+                                   "untestable, marginal_share, pairwise_share, threeway_share, "
+                                   "runs_digest FROM shoal_snapshots ORDER BY id", -1, &st,
+                               NULL) != SQLITE_OK &&
+            sqlite3_prepare_v2(db, "SELECT surveyed_at, runs, batches, ample, underpowered, "
+                                   "untestable, marginal_share, pairwise_share, threeway_share, '' "
                                    "FROM shoal_snapshots ORDER BY id", -1, &st, NULL) != SQLITE_OK) {
             rc = sql_fail(err, COV_EIO, db, db_path, "cannot read the history in");
             goto fail;
@@ -97,6 +102,8 @@ int cov_history_load(const char *db_path, int missing_ok, cov_snapshot **out, si
             r->marginal_share = column_real(st, 6);
             r->pairwise_share = column_real(st, 7);
             r->threeway_share = column_real(st, 8);
+            const unsigned char *dg = sqlite3_column_text(st, 9);
+            snprintf(r->digest, sizeof r->digest, "%s", dg ? (const char *)dg : "");
         }
         if (step != SQLITE_DONE) {
             rc = sql_fail(err, COV_EIO, db, db_path, "cannot read the history in");
@@ -140,11 +147,24 @@ int cov_history_record(const char *db_path, int create_file, const cov_history_s
         goto fail;
     }
     in_tx = 1;
-    if (sqlite3_exec(db, history_schema, NULL, NULL, NULL) != SQLITE_OK ||
-        sqlite3_prepare_v2(db, "INSERT INTO shoal_snapshots (surveyed_at, graph, archive, runs, "
-                               "batches, ample, underpowered, untestable, marginal_share, pairwise_share, "
-                               "threeway_share) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)", -1, &st,
-                           NULL) != SQLITE_OK) {
+    if (sqlite3_exec(db, history_schema, NULL, NULL, NULL) != SQLITE_OK) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
+        goto fail;
+    }
+    /* A history begun before snapshots carried the runs' digest gains the column. */
+    if (sqlite3_prepare_v2(db, "SELECT runs_digest FROM shoal_snapshots LIMIT 0", -1, &st,
+                           NULL) != SQLITE_OK &&
+        sqlite3_exec(db, "ALTER TABLE shoal_snapshots ADD COLUMN runs_digest TEXT", NULL, NULL,
+                     NULL) != SQLITE_OK) {
+        rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
+        goto fail;
+    }
+    sqlite3_finalize(st);
+    st = NULL;
+    if (sqlite3_prepare_v2(db, "INSERT INTO shoal_snapshots (surveyed_at, graph, archive, runs, "
+                               "batches, ample, underpowered, untestable, marginal_share, "
+                               "pairwise_share, threeway_share, runs_digest) VALUES (?, ?, ?, ?, ?, "
+                               "?, ?, ?, ?, ?, ?, ?)", -1, &st, NULL) != SQLITE_OK) {
         rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
         goto fail;
     }
@@ -159,6 +179,7 @@ int cov_history_record(const char *db_path, int create_file, const cov_history_s
     bind_real(st, 9, r->marginal_share);
     bind_real(st, 10, r->pairwise_share);
     bind_real(st, 11, r->threeway_share);
+    sqlite3_bind_text(st, 12, r->digest, -1, SQLITE_TRANSIENT);
     if (sqlite3_step(st) != SQLITE_DONE) {
         rc = sql_fail(err, COV_EIO, db, db_path, "cannot write the history into");
         goto fail;

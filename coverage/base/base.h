@@ -3,6 +3,7 @@
 #ifndef SHOAL_COVERAGE_BASE_H
 #define SHOAL_COVERAGE_BASE_H
 
+#include <stdint.h>
 #include <stdio.h>
 #include <sys/types.h>
 
@@ -43,6 +44,8 @@ void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t s
 /* The claim in words: "an effect of a on y given s, t", "no effect of a on y" (empty adjustment
  * set); truncated to fit size bytes (size > 0). */
 void cov_claim_sentence(const cov_graph *g, const cov_claim *c, char *buf, size_t size);
+/* The claim without its adjustment set, "a -0-> y"; truncated to fit size bytes (size > 0). */
+void cov_claim_pair_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size);
 /* Width of a UTF-8 string in characters (code points), for aligning table columns. */
 size_t cov_text_width(const char *s);
 /* The length of the longest prefix of s[0..n) that is well-formed UTF-8 (n when all of it is). */
@@ -77,6 +80,56 @@ int cov_output_check(const char *path, int want_dir, const char *const *inputs, 
                      const char *option, cov_error *err);
 /* The permission bits of a new file under the process's umask: 0666 & ~umask. */
 mode_t cov_new_file_mode(void);
+/* ---- terminal text (coverage/base/wrap.c; cov_term_text is in coverage.h) ----------------------------------------------------- */
+
+/* Columns a table may use when stdout is not a terminal, or its width is unknown. */
+#define COV_TERM_WIDTH_DEFAULT 80
+/* Write text word by word, control characters as '?', starting at column col of the current line;
+ * a word that would pass width starts a new line indented by indent spaces (a word longer than a
+ * line is cut). Leading blanks in text put one space before its first word when that word stays
+ * on the current line. Returns the column after the last word. Widths count characters. */
+size_t cov_term_wrap(FILE *out, const char *text, size_t col, size_t indent, size_t width);
+
+/* Text written aside, then copied to the terminal with every line longer than width wrapped under
+ * a hanging indent. cov_reflow_begin returns the stream to write to (fallback itself when memory
+ * is short, so the text is never lost); cov_reflow_end copies it to out. */
+typedef struct {
+    char *buf;
+    size_t len;
+    FILE *mem;
+} cov_reflow;
+FILE *cov_reflow_begin(cov_reflow *r, FILE *fallback);
+void cov_reflow_end(cov_reflow *r, FILE *out, size_t width);
+
+/* ---- terminal tables (coverage/base/table.c) ------------------------------------------------- */
+
+/* A table whose columns take the width of their widest cell. When a row would pass the terminal's
+ * width, the columns marked 'd' (detail) leave the row and follow it as "  heading: value" lines,
+ * wrapped; the other columns stay. Cells are copied; control characters print as '?'. */
+typedef struct cov_table cov_table;
+/* n_cols headings; align holds 'l' or 'r' per column; detail holds 'd' or '.' per column (either
+ * may be NULL). NULL when out of memory. */
+cov_table *cov_table_new(size_t n_cols, const char *const *head, const char *align,
+                         const char *detail);
+/* Append a row of n_cols cells (NULL cells print empty). COV_OK or COV_ENOMEM. */
+int cov_table_add(cov_table *t, const char *const *cells);
+void cov_table_print(const cov_table *t, FILE *out, size_t width);
+void cov_table_free(cov_table *t);
+
+/* ---- SHA-256 (coverage/base/sha256.c), FIPS 180-4 ------------------------------------------------ */
+
+typedef struct {
+    uint32_t state[8];
+    uint64_t bytes;           /* message length so far */
+    unsigned char buf[64];
+    size_t fill;
+} cov_sha256;
+
+void cov_sha256_init(cov_sha256 *h);
+void cov_sha256_update(cov_sha256 *h, const void *data, size_t n);
+/* Finish and write the digest as 64 lower-case hex digits and a NUL; h is spent. */
+void cov_sha256_hex(cov_sha256 *h, char hex[65]);
+/* The digest of a whole file: coverage/plan/plan_digest.c's cov_sha256_file (with a cov_error). */
 
 /* ---- what counts as one run, in words (coverage/base/runs_text.c) ---------------------------- */
 

@@ -99,6 +99,12 @@ static size_t append_set(const cov_graph *g, const cov_claim *c, char *buf, size
     return used;
 }
 
+void cov_claim_pair_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
+{
+    snprintf(buf, size, "%s %s %s", g->vars[c->treatment].name, cov_claim_arrow(c->kind),
+             g->vars[c->outcome].name);
+}
+
 void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
 {
     size_t used = (size_t)snprintf(buf, size, "%s %s %s", g->vars[c->treatment].name,

@@ -49,4 +49,5 @@ void cov_options_default(cov_options *o)
     o->budget = 0;
     o->replicates = 1;
     o->rounds = 1;
+    o->width = 80;
 }

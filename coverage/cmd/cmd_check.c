@@ -255,7 +255,12 @@ int cov_cmd_check(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     if (o->quiet) goto done;
     if (o->format == COV_FMT_JSON) print_json(g, a, d, b, nb, p, out);
     else if (o->format == COV_FMT_CSV) print_csv(g, d, out);
-    else print_table(g, a, d, b, nb, p, out);
+    else {
+        cov_reflow rf;   /* long notes and names wrap to the terminal's width */
+        FILE *w = cov_reflow_begin(&rf, out);
+        print_table(g, a, d, b, nb, p, w);
+        cov_reflow_end(&rf, out, o->width);
+    }
 done:
     cov_batches_free(b, nb);
     cov_data_free(d);

@@ -25,58 +25,39 @@ static char *set_text(const cov_graph *g, const cov_claim *c)
     return s;
 }
 
-static void pad(FILE *f, const char *s, size_t width)
+/* The table fits the terminal: when a row would be too wide, the adjustment set and the reason
+ * follow the row on lines of their own. */
+static int print_table(const cov_graph *g, const cov_claims *cl, size_t width, FILE *out)
 {
-    fputs(s, f);
-    for (size_t w = cov_text_width(s); w < width + 2; w++) fputc(' ', f);
-}
-
-static int print_table(const cov_graph *g, const cov_claims *cl, FILE *out)
-{
-    static const char *const head[5] = {"kind", "treatment", "outcome", "adjustment set",
-                                        "effect of interest"};
-    size_t width[5];
-    for (int k = 0; k < 5; k++) width[k] = strlen(head[k]);
-    char **sets = calloc(cl->n ? cl->n : 1, sizeof *sets);
-    if (sets == NULL) return COV_ENOMEM;
-    int rc = COV_ENOMEM;
-    for (size_t i = 0; i < cl->n; i++) {
-        const cov_claim *c = &cl->items[i];
-        char eff[64];
-        if (c->status == COV_TESTABLE && (sets[i] = set_text(g, c)) == NULL) goto fail;
-        cov_report_effect_text(c, eff, sizeof eff);
-        size_t w[5] = {cov_text_width(cov_claim_kind_word(c->kind)), cov_text_width(g->vars[c->treatment].name),
-                       cov_text_width(g->vars[c->outcome].name), sets[i] ? cov_text_width(sets[i]) : 1,
-                       cov_text_width(eff)};
-        for (int k = 0; k < 5; k++)
-            if (w[k] > width[k]) width[k] = w[k];
-    }
-    for (int k = 0; k < 5; k++) pad(out, head[k], width[k]);
-    fputs("status\n", out);
+    static const char *const head[7] = {"kind", "treatment", "outcome", "effect of interest",
+                                        "status", "adjustment set", "why untestable"};
+    cov_table *t = cov_table_new(7, head, "lllllll", ".....dd");
+    if (t == NULL) return COV_ENOMEM;
+    int rc = COV_OK;
     size_t n_untestable = 0, n_effect = 0;
-    for (size_t i = 0; i < cl->n; i++) {
+    for (size_t i = 0; i < cl->n && rc == COV_OK; i++) {
         const cov_claim *c = &cl->items[i];
         char eff[64];
         cov_report_effect_text(c, eff, sizeof eff);
-        pad(out, cov_claim_kind_word(c->kind), width[0]);
-        pad(out, g->vars[c->treatment].name, width[1]);
-        pad(out, g->vars[c->outcome].name, width[2]);
-        pad(out, sets[i] ? sets[i] : "-", width[3]);
-        pad(out, eff, width[4]);
-        if (c->status == COV_TESTABLE) {
-            fputs("testable\n", out);
-        } else {
-            fprintf(out, "untestable: %s\n", c->reason ? c->reason : "");
-            n_untestable++;
+        char *set = c->status == COV_TESTABLE ? set_text(g, c) : NULL;
+        if (c->status == COV_TESTABLE && set == NULL) {
+            rc = COV_ENOMEM;
+            break;
         }
+        const char *row[7] = {cov_claim_kind_word(c->kind), g->vars[c->treatment].name,
+                              g->vars[c->outcome].name, eff, c->status == COV_TESTABLE ? "testable" : "untestable",
+                              set ? set : "-", c->reason ? c->reason : "-"};
+        rc = cov_table_add(t, row);
+        free(set);
+        n_untestable += c->status != COV_TESTABLE;
         n_effect += c->kind == COV_CLAIM_EFFECT;
     }
-    fprintf(out, "\n%zu claims (%zu effect, %zu absence), %zu untestable\n", cl->n, n_effect,
-            cl->n - n_effect, n_untestable);
-    rc = COV_OK;
-fail:
-    for (size_t i = 0; i < cl->n; i++) free(sets[i]);
-    free(sets);
+    if (rc == COV_OK) {
+        cov_table_print(t, out, width);
+        fprintf(out, "\n%zu claims (%zu effect, %zu absence), %zu untestable\n", cl->n, n_effect,
+                cl->n - n_effect, n_untestable);
+    }
+    cov_table_free(t);
     return rc;
 }
 
@@ -113,7 +94,7 @@ int cov_cmd_claims(const cov_options *o, FILE *out, FILE *note, int *adequate, c
     switch (o->format) {
     case COV_FMT_JSON: print_json(g, cl, o->graph_path, out); break;
     case COV_FMT_CSV: print_csv(g, cl, out); break;
-    case COV_FMT_TABLE: rc = print_table(g, cl, out); break;
+    case COV_FMT_TABLE: rc = print_table(g, cl, o->width, out); break;
     }
     if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory printing the claims");
 fail:

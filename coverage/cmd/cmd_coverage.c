@@ -77,14 +77,19 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
                         FILE *out)
 {
     const size_t m = c->opt.min_runs, bins = c->opt.bins;
+    /* Everything above the support table is written aside, then its long lines are wrapped to
+     * the terminal's width. */
+    cov_reflow rf;
+    FILE *const out_final = out;
+    out = cov_reflow_begin(&rf, out_final);
     fprintf(out, "campaign: %zu runs, %zu inputs (%zu numeric); a bin or cell is covered with "
             ">= %zu runs\n\n", d->n_runs, c->n_inputs, c->n_numeric, m);
 
-    fprintf(out, "marginal coverage: %.3f of all bins\n", c->marginal_share);
+    fprintf(out, "marginal coverage: %.1f%% of all bins\n", 100 * c->marginal_share);
     for (size_t k = 0; k < c->n_inputs; k++) {
         const cov_marginal *mg = &c->marginal[k];
         const cov_var *v = &g->vars[mg->var];
-        fprintf(out, "  %-20s %.3f of %zu bins", v->name, mg->share, mg->n_bins);
+        fprintf(out, "  %-20s %5.1f%% of %zu bins", v->name, 100 * mg->share, mg->n_bins);
         size_t shown = 0, short_bins = 0;
         for (size_t b = 0; b < mg->n_bins; b++) {
             if (mg->count[b] >= m) continue;
@@ -101,13 +106,14 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
     if (c->n_pairs == 0)
         fprintf(out, "\n2-way coverage: not measured (fewer than 2 inputs)\n");
     else
-        fprintf(out, "\n2-way coverage: %.3f of the cells of %zu input pairs\n", c->pairwise_share,
-                c->n_pairs);
+        fprintf(out, "\n2-way coverage: %.1f%% of the cells of %zu input pairs\n",
+                100 * c->pairwise_share, c->n_pairs);
     for (size_t w = 0; w < c->n_pairs && w < SHOW_PAIRS; w++) {
         const cov_pair *p = &c->pairs[c->worst[w]];
         if (p->share >= 1) break;
         const cov_var *va = &g->vars[p->a], *vb = &g->vars[p->b];
-        fprintf(out, "  %s x %s: %.3f, %zu empty cells", va->name, vb->name, p->share, p->n_empty);
+        fprintf(out, "  %s x %s: %.1f%%, %zu empty cells", va->name, vb->name, 100 * p->share,
+                p->n_empty);
         size_t shown = 0;
         for (size_t i = 0; i < p->na && shown < SHOW_CELLS; i++)
             for (size_t j = 0; j < p->nb && shown < SHOW_CELLS; j++) {
@@ -122,11 +128,13 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
         fputc('\n', out);
     }
     if (isfinite(c->threeway_share))
-        fprintf(out, "3-way coverage: %.3f of the cells of %zu input triples%s\n",
-                c->threeway_share, c->n_triples,
+        fprintf(out, "3-way coverage: %.1f%% of the cells of %zu input triples%s\n",
+                100 * c->threeway_share, c->n_triples,
                 c->threeway_sampled ? " (a fixed-seed sample of all triples)" : "");
     else if (c->n_inputs < 3)
         fprintf(out, "3-way coverage: not measured (fewer than 3 inputs)\n");
+    else if (c->opt.way == 2)
+        fprintf(out, "3-way coverage: not measured (--way 2 asks for pairs only)\n");
     else
         fprintf(out, "3-way coverage: not measured (more than 20 inputs: ask with --way 3; or too "
                 "many bins for 3-way tables)\n");
@@ -186,30 +194,44 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
     }
 
     fprintf(out, "\nsupport per claim (overlap and ESS for bool and level-set treatments):\n");
-    int width = 5;
-    for (size_t k = 0; k < cl->n; k++) {
-        char lab[512];
-        cov_claim_label(g, &cl->items[k], lab, sizeof lab);
-        if ((int)cov_text_width(lab) > width) width = (int)cov_text_width(lab);
-    }
-    fprintf(out, "  %-*s %7s %8s %9s %9s %7s %7s %8s %4s  %s\n", width, "claim", "runs", "distinct",
-            "spread", "sd(X|S)", "overlap", "ESS", "runs/cfg", "pure", "support");
-    for (size_t k = 0; k < cl->n; k++) {
+    out = out_final;
+    cov_reflow_end(&rf, out, o->width);
+    static const char *const head[8] = {"claim", "runs", "distinct", "overlap", "ESS", "support",
+                                        "detail", "why short"};
+    cov_table *t = cov_table_new(8, head, "lrrrrlll", "......dd");
+    for (size_t k = 0; t != NULL && k < cl->n; k++) {
         const cov_support *s = &sp->items[k];
-        char lab[512], f[5][32];
-        cov_claim_label(g, &cl->items[k], lab, sizeof lab);
+        const cov_claim *cc = &cl->items[k];
+        char lab[512], set[512], runs[32], distinct[32], detail[1024], f[5][32];
+        cov_claim_pair_label(g, cc, lab, sizeof lab);
+        size_t used = (size_t)snprintf(set, sizeof set, "[");
+        for (size_t q = 0; q < cc->n_cond && used < sizeof set; q++)
+            used += (size_t)snprintf(set + used, sizeof set - used, "%s%s", q ? ", " : "",
+                                     g->vars[cc->cond[q]].name);
+        if (used < sizeof set) snprintf(set + used, sizeof set - used, "]");
+        if (cc->status != COV_TESTABLE) snprintf(set, sizeof set, "-");
         fmt_num(f[0], sizeof f[0], s->spread, "%.4g");
         fmt_num(f[1], sizeof f[1], s->spread_resid, "%.4g");
-        fmt_num(f[2], sizeof f[2], s->overlap, "%.3f");
+        fmt_num(f[2], sizeof f[2], s->overlap, "%.2f");
         fmt_num(f[3], sizeof f[3], s->kish_ess, "%.1f");
         fmt_num(f[4], sizeof f[4], s->runs_per_config, "%.3g");
-        fprintf(out, "  %s", lab);
-        for (int w = (int)cov_text_width(lab); w < width; w++) fputc(' ', out);
-        fprintf(out, " %7zu %8zu %9s %9s %7s %7s %8s %4s  %s%s%s\n", s->n, s->distinct, f[0], f[1],
-                f[2], f[3], f[4], s->pure_error ? "yes" : "no", s->ok ? "ok" : "short",
-                s->reason ? ": " : "", s->reason ? s->reason : "");
+        snprintf(runs, sizeof runs, "%zu", s->n);
+        snprintf(distinct, sizeof distinct, "%zu", s->distinct);
+        if (cc->status != COV_TESTABLE)
+            snprintf(detail, sizeof detail, "-");
+        else
+            snprintf(detail, sizeof detail, "adjustment set %s; spread %s, sd(X|S) %s; %s runs per "
+                     "configuration; replicates %s", set, f[0], f[1], f[4],
+                     s->pure_error ? "yes" : "no");
+        const char *row[8] = {lab, runs, distinct, f[2], f[3], s->ok ? "ok" : "short", detail,
+                              s->reason ? s->reason : "-"};
+        if (cov_table_add(t, row) != COV_OK) {
+            cov_table_free(t);
+            t = NULL;
+        }
     }
-    (void)o;
+    if (t != NULL) cov_table_print(t, out, o->width);
+    cov_table_free(t);
 }
 
 /* ---- CSV: one long table, scope,name,figure,value ------------------------------------------- */
@@ -441,6 +463,35 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_data 
     fputs(cl->n ? "\n ]}\n" : "]}\n", out);
 }
 
+/* Each --need-* gate: met, or missed with the share reached and the shortfall in points. */
+static void print_gates(const cov_options *o, const cov_coverage *c, FILE *out_final)
+{
+    cov_reflow rf;
+    FILE *out = cov_reflow_begin(&rf, out_final);
+    const struct { const char *opt, *name; double need, got; } gate[] = {
+        {"--need-marginal", "marginal", o->need_marginal, c->marginal_share},
+        {"--need-pairwise", "2-way", o->need_pairwise, c->pairwise_share},
+        {"--need-threeway", "3-way", o->need_threeway, c->threeway_share},
+    };
+    int any = 0;
+    for (size_t k = 0; k < sizeof gate / sizeof gate[0]; k++) {
+        if (isnan(gate[k].need)) continue;
+        if (!any) fputc('\n', out);
+        any = 1;
+        if (!isfinite(gate[k].got))
+            fprintf(out, "gate %s %.1f%%: missed: %s coverage was not measured\n",
+                    gate[k].opt, 100 * gate[k].need, gate[k].name);
+        else if (gate[k].got >= gate[k].need)
+            fprintf(out, "gate %s %.1f%%: met: %s coverage %.1f%%\n", gate[k].opt,
+                    100 * gate[k].need, gate[k].name, 100 * gate[k].got);
+        else
+            fprintf(out, "gate %s %.1f%%: missed: %s coverage %.1f%%, %.1f points short\n",
+                    gate[k].opt, 100 * gate[k].need, gate[k].name, 100 * gate[k].got,
+                    100 * (gate[k].need - gate[k].got));
+    }
+    cov_reflow_end(&rf, out_final, o->width);
+}
+
 int cov_cmd_coverage(const cov_options *o, FILE *out, FILE *note, int *adequate, cov_error *err)
 {
     cov_graph *g = NULL;
@@ -475,8 +526,7 @@ int cov_cmd_coverage(const cov_options *o, FILE *out, FILE *note, int *adequate,
     case COV_FMT_CSV: print_csv(g, cl, d, c, sp, out); break;
     case COV_FMT_TABLE:
         print_table(o, g, cl, d, c, sp, out);
-        if (!isnan(o->need_marginal) || !isnan(o->need_pairwise) || !isnan(o->need_threeway))
-            fprintf(out, "\ncoverage gate: %s\n", *adequate ? "met" : "missed");
+        print_gates(o, c, out);
         break;
     }
 done:

@@ -1,6 +1,7 @@
 /* The `shoal import` command: append a CSV file to an SQLite archive as a new batch.
  * See LICENSE. */
 #include <stdio.h>
+#include <string.h>
 
 #include "coverage/plan/plan.h"
 #include "coverage/report/report.h"
@@ -44,8 +45,13 @@ int cov_cmd_import(const cov_options *o, FILE *out, FILE *note, int *adequate, c
                     ov.count[k]);
         fprintf(out, "]}\n");
     } else {
-        fprintf(out, "imported %zu row%s from %s into %s as batch %lld\n", rows,
-                rows == 1 ? "" : "s", o->csv_path, o->archive_path, batch);
+        cov_reflow rf;   /* long paths wrap to the terminal's width */
+        FILE *w = cov_reflow_begin(&rf, out);
+        fprintf(w, "imported %zu row%s from %s into %s as batch %lld\n", rows,
+                rows == 1 ? "" : "s", strcmp(o->csv_path, "-") == 0 ? "standard input"
+                                                                     : o->csv_path,
+                o->archive_path, batch);
+        cov_reflow_end(&rf, out, o->width);
     }
     return COV_OK;
 }

@@ -388,8 +388,11 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
     if (!o->quiet && o->format == COV_FMT_JSON)
         print_json(out, o, g, c, as, p, path, copt.seed, from_archive, &xi);
     else if (!o->quiet) {
-        print_report(out, o, g, c, as, p, n_testable, path, copt.seed, from_archive);
-        print_models(out, o, p, &xi);
+        cov_reflow rf;   /* long notes and names wrap to the terminal's width */
+        FILE *w = cov_reflow_begin(&rf, out);
+        print_report(w, o, g, c, as, p, n_testable, path, copt.seed, from_archive);
+        print_models(w, o, p, &xi);
+        cov_reflow_end(&rf, out, o->width);
     }
     int all = 1;
     for (size_t j = 0; j < p->n; j++) all &= p->items[j].reaches;

@@ -15,77 +15,160 @@ static void fmt_num(char *buf, size_t size, double x)
     else snprintf(buf, size, "%.4g", x);
 }
 
-static void family_line(const cov_assessments *as, FILE *out)
+static void family_line(const cov_assessments *as, size_t width, FILE *out)
 {
     const cov_power_options *p = &as->opt;
+    char line[512];
     if (p->bonferroni && as->n_testable > 1)
-        fprintf(out, "family: Bonferroni over %zu testable claims: alpha %g / %zu = %.4g per "
-                "claim; target power %g; %s tests\n", as->n_testable, p->alpha, as->n_testable,
-                cov_family_alpha(p, as->n_testable), p->target,
-                p->one_sided ? "one-sided (where a sign is given)" : "two-sided");
+        snprintf(line, sizeof line, "family: Bonferroni over %zu testable claims: alpha %g / %zu = "
+                 "%.4g per claim; target power %g; %s tests", as->n_testable, p->alpha,
+                 as->n_testable, cov_family_alpha(p, as->n_testable), p->target,
+                 p->one_sided ? "one-sided (where a sign is given)" : "two-sided");
     else
-        fprintf(out, "family: %s: alpha %g per claim; target power %g; %s tests\n",
-                !p->bonferroni          ? "no correction (--family none)"
-                : as->n_testable == 0   ? "Bonferroni over 0 testable claims"
-                                        : "Bonferroni over 1 testable claim",
-                p->alpha, p->target,
-                p->one_sided ? "one-sided (where a sign is given)" : "two-sided");
+        snprintf(line, sizeof line, "family: %s: alpha %g per claim; target power %g; %s tests",
+                 !p->bonferroni          ? "no correction (--family none)"
+                 : as->n_testable == 0   ? "Bonferroni over 0 testable claims"
+                                         : "Bonferroni over 1 testable claim",
+                 p->alpha, p->target, p->one_sided ? "one-sided (where a sign is given)"
+                                                   : "two-sided");
+    cov_term_wrap(out, line, 0, 2, width);
+    fputc('\n', out);
 }
 
+/* "[a, b]" or "[]" (nothing to adjust for) into buf, as the claim notation writes the set. */
+static void set_text(const cov_graph *g, const cov_claim *c, char *buf, size_t size)
+{
+    size_t used = (size_t)snprintf(buf, size, "[");
+    for (size_t k = 0; k < c->n_cond && used < size; k++)
+        used += (size_t)snprintf(buf + used, size - used, "%s%s", k ? ", " : "",
+                                 g->vars[c->cond[k]].name);
+    if (used < size) snprintf(buf + used, size - used, "]");
+}
+
+/* The table fits the terminal: the claim and its figures in the row; the separating set, sigma,
+ * sd(X|S) and the power interval follow the row when the terminal is too narrow for them. Notes
+ * come after the table, one per distinct text: a noise note shared by several claims of the same
+ * outcome is printed once, after their names. */
 static void print_table(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
-                        const cov_data *d, FILE *out)
+                        const cov_data *d, size_t width, FILE *out)
 {
     char run_line[512], caution[768];
     cov_runs_summary(d, run_line, sizeof run_line);
-    fprintf(out, "runs: %s\n", run_line);
-    if (cov_runs_caution(d, g, caution, sizeof caution)) fprintf(out, "caution: %s\n", caution);
-    family_line(as, out);
-    int width = 5;
-    for (size_t i = 0; i < cl->n; i++) {
-        char label[512];
-        cov_claim_label(g, &cl->items[i], label, sizeof label);
-        int w = (int)cov_text_width(label);
-        if (w > width) width = w;
+    size_t col = cov_term_wrap(out, "runs:", 0, 4, width);
+    fputc(' ', out);
+    cov_term_wrap(out, run_line, col + 1, 4, width);
+    fputc('\n', out);
+    if (cov_runs_caution(d, g, caution, sizeof caution)) {
+        col = cov_term_wrap(out, "caution:", 0, 4, width);
+        fputc(' ', out);
+        cov_term_wrap(out, caution, col + 1, 4, width);
+        fputc('\n', out);
     }
-    fprintf(out, "\n%-*s %9s %9s %9s  %-22s %-22s %10s  %s\n", width, "claim", "n", "sigma",
-            "sd(X|S)", "power [95% interval]", "MDE (effect)", "runs", "verdict");
-    for (size_t i = 0; i < cl->n; i++) {
+    family_line(as, width, out);
+    static const char *const head[8] = {"claim", "n", "power", "MDE", "effect", "needs",
+                                        "verdict", "detail"};
+    cov_table *t = cov_table_new(8, head, "lrrrrrll", ".......d");
+    int any_noise = 0;
+    for (size_t i = 0; t != NULL && i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
         const cov_assessment *a = &as->items[i];
-        char label[512], sigma[32], sdx[32], pw[96], mde[80], runs[32], e1[32], e2[32], e3[32];
-        cov_claim_label(g, c, label, sizeof label);
-        fmt_num(sigma, sizeof sigma, a->sigma);
-        fmt_num(sdx, sizeof sdx, a->sd_treatment_resid);
+        char label[512], set[512], n[32], pw[32], mde[32], eff[32], runs[32], verdict[32];
+        char detail[1024], e1[32], e2[32];
+        cov_claim_pair_label(g, c, label, sizeof label);
+        if (c->status == COV_TESTABLE) set_text(g, c, set, sizeof set);
+        else snprintf(set, sizeof set, "-");
+        snprintf(n, sizeof n, "%zu", a->n);
         if (isnan(a->power)) snprintf(pw, sizeof pw, "-");
-        else snprintf(pw, sizeof pw, "%.2f [%.2f, %.2f]", a->power, a->power_lo, a->power_hi);
-        fmt_num(e1, sizeof e1, a->mde);
-        fmt_num(e2, sizeof e2, a->effect_raw);
-        snprintf(mde, sizeof mde, "%s (%s)", e1, e2);
-        fmt_num(e3, sizeof e3, a->runs_needed);
-        snprintf(runs, sizeof runs, "%s", isnan(a->runs_needed) ? "-" : e3);
-        if (isfinite(a->runs_needed)) snprintf(runs, sizeof runs, "%.0f", a->runs_needed);
-        fputs(label, out);
-        for (int w = (int)cov_text_width(label); w < width; w++) fputc(' ', out);
-        fprintf(out, " %9zu %9s %9s  %-22s %-22s %10s  %s%s\n", a->n, sigma, sdx, pw,
-                a->verdict == COV_BLIND ? "-" : mde, a->verdict == COV_BLIND ? "-" : runs,
-                cov_verdict_word(a->verdict), a->noise_flag ? " (noise?)" : "");
+        else snprintf(pw, sizeof pw, "%.2f", a->power);
+        fmt_num(mde, sizeof mde, a->verdict == COV_BLIND ? NAN : a->mde);
+        fmt_num(eff, sizeof eff, a->verdict == COV_BLIND ? NAN : a->effect_raw);
+        if (a->verdict == COV_BLIND || isnan(a->runs_needed)) snprintf(runs, sizeof runs, "-");
+        else if (isinf(a->runs_needed)) snprintf(runs, sizeof runs, "unreachable");
+        else snprintf(runs, sizeof runs, "%.0f", a->runs_needed);
+        snprintf(verdict, sizeof verdict, "%s%s", cov_verdict_word(a->verdict),
+                 a->noise_flag ? "*" : "");
+        any_noise |= a->noise_flag;
+        fmt_num(e1, sizeof e1, a->sigma);
+        fmt_num(e2, sizeof e2, a->sd_treatment_resid);
+        if (c->status != COV_TESTABLE || isnan(a->power))
+            snprintf(detail, sizeof detail, "-");
+        else
+            snprintf(detail, sizeof detail, "adjustment set %s; sigma %s, sd(X|S) %s; power 95%% "
+                     "interval [%.2f, %.2f]", set, e1, e2, a->power_lo, a->power_hi);
+        const char *row[8] = {label, n, pw, mde, eff, runs, verdict, detail};
+        if (cov_table_add(t, row) != COV_OK) {
+            cov_table_free(t);
+            t = NULL;
+        }
     }
+    if (t != NULL) {
+        fputc('\n', out);
+        cov_table_print(t, out, width);
+        cov_table_free(t);
+    }
+    fputs("\nMDE and effect (of interest): outcome units per unit of the treatment.\n"
+          "needs: runs in all for the target power.\n", out);
+    if (any_noise) fputs("*: the noise estimate cannot be trusted (notes below).\n", out);
     int any = 0;
     for (size_t i = 0; i < cl->n; i++) {
         const cov_assessment *a = &as->items[i];
+        char label[512], line[2048];
+        cov_claim_label(g, &cl->items[i], label, sizeof label);
+        if (a->reason) {
+            if (!any) fputs("\n", out);
+            any = 1;
+            snprintf(line, sizeof line, "%s: %s: %s", label, cov_verdict_word(a->verdict),
+                     a->reason);
+            cov_term_wrap(out, line, 0, 4, width);
+            fputc('\n', out);
+        }
         const cov_claim *cw = &cl->items[i];
-        if (a->reason == NULL && a->noise_note == NULL && !a->trend && !isfinite(a->shape_f) &&
-            cw->effect.per == COV_PER_UNIT && cw->effect.unit != COV_UNIT_SD)
-            continue;
+        if (a->trend || isfinite(a->shape_f) || cw->effect.per != COV_PER_UNIT ||
+            cw->effect.unit == COV_UNIT_SD) {
+            /* The effect's shape and units, as the assessment words it, wrapped to the width. */
+            if (!any) fputs("\n", out);
+            any = 1;
+            cov_reflow rf;
+            FILE *w = cov_reflow_begin(&rf, out);
+            cov_assessment_table_shape(w, label, cw, a);
+            cov_reflow_end(&rf, out, width);
+        }
+    }
+    /* Noise notes, each text once with the claims that share it. */
+    for (size_t i = 0; i < cl->n; i++) {
+        const cov_assessment *a = &as->items[i];
+        if (a->noise_note == NULL) continue;
+        int seen = 0;
+        for (size_t j = 0; j < i && !seen; j++)
+            seen = as->items[j].noise_note != NULL &&
+                   cl->items[j].outcome == cl->items[i].outcome &&
+                   as->items[j].noise_flag == a->noise_flag &&
+                   strcmp(as->items[j].noise_note, a->noise_note) == 0;
+        if (seen) continue;
         if (!any) fputs("\n", out);
         any = 1;
-        char label[512];
-        cov_claim_label(g, &cl->items[i], label, sizeof label);
-        if (a->reason) fprintf(out, "%s: %s: %s\n", label, cov_verdict_word(a->verdict), a->reason);
-        if (a->noise_note)
-            fprintf(out, "%s: noise%s: %s\n", label, a->noise_flag ? " (cannot be trusted)" : "",
-                    a->noise_note);
-        cov_assessment_table_shape(out, label, &cl->items[i], a);
+        char *line = NULL;
+        size_t len = 0;
+        FILE *m = open_memstream(&line, &len);
+        if (m == NULL) continue;
+        fprintf(m, "noise of %s%s for", g->vars[cl->items[i].outcome].name,
+                a->noise_flag ? " (cannot be trusted)" : "");
+        for (size_t j = i, first = 1; j < cl->n; j++) {
+            const cov_assessment *b = &as->items[j];
+            if (b->noise_note == NULL || cl->items[j].outcome != cl->items[i].outcome ||
+                b->noise_flag != a->noise_flag || strcmp(b->noise_note, a->noise_note) != 0)
+                continue;
+            char lab[512];
+            cov_claim_pair_label(g, &cl->items[j], lab, sizeof lab);
+            fprintf(m, "%s %s", first ? "" : ";", lab);
+            first = 0;
+        }
+        fprintf(m, ": %s", a->noise_note);
+        if (fclose(m) == 0 && line != NULL) {
+            cov_term_wrap(out, line, 0, 4, width);
+            fputc('\n', out);
+        }
+        free(line);
     }
     size_t n_ample = 0, n_underpowered = 0, n_blind = 0;
     for (size_t i = 0; i < as->n; i++) {
@@ -153,7 +236,7 @@ int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     switch (o->format) {
     case COV_FMT_JSON: print_json(g, cl, as, d, out); break;
     case COV_FMT_CSV: print_csv(g, cl, as, out); break;
-    case COV_FMT_TABLE: print_table(g, cl, as, d, out); break;
+    case COV_FMT_TABLE: print_table(g, cl, as, d, o->width, out); break;
     }
 done:
     cov_assessments_free(as);

@@ -149,13 +149,7 @@ static int move_into_place(const char *tmp, const char *dir, cov_error *err)
 
 /* ---- the terminal verdict -------------------------------------------------------------------- */
 
-/* Write user text to the terminal with control characters shown as '?', so that a name in the
- * graph cannot move the cursor or change the terminal's state. */
-static void term_text(FILE *out, const char *s)
-{
-    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++)
-        fputc(*p < 0x20 || *p == 0x7f ? '?' : *p, out);
-}
+#define term_text cov_term_text
 
 static const char *verdict_colour(cov_verdict v)
 {
@@ -189,11 +183,9 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
     term_text(out, o->archive_path);
     fprintf(out, ": %zu runs in %zu batch%s\n", f->data->n_runs, f->data->n_batches,
             f->data->n_batches == 1 ? "" : "es");
-    char run_line[512], caution[768];
+    char run_line[512];
     cov_runs_summary(f->data, run_line, sizeof run_line);
-    fprintf(out, "runs: %s\n", run_line);
-    if (cov_runs_caution(f->data, g, caution, sizeof caution))
-        fprintf(out, "%scaution%s: %s\n", col ? C_THIN : "", col ? C_RESET : "", caution);
+    fprintf(out, "runs: %s\n", run_line);   /* a conflicting run is in the cautions below */
     fprintf(out, "claims: %zu  %s%lld ample%s  %s%lld underpowered%s  %s%lld untestable%s\n", f->claims->n,
             col ? C_AMPLE : "", count[COV_AMPLE], col ? C_RESET : "", col ? C_THIN : "",
             count[COV_UNDERPOWERED], col ? C_RESET : "", col ? C_BLIND : "", count[COV_BLIND],
@@ -230,29 +222,42 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
                 continue;
             }
             if (shown++ == 0) fputs("\nweakest first:\n", out);
-            fprintf(out, "  %s%-10s%s ", col ? verdict_colour(a->verdict) : "",
+            fprintf(out, "  %s%-12s%s ", col ? verdict_colour(a->verdict) : "",
                     cov_verdict_word(a->verdict), col ? C_RESET : "");
-            term_text(out, g->vars[c->treatment].name);
-            fprintf(out, " %s ", cov_claim_arrow(c->kind));
-            term_text(out, g->vars[c->outcome].name);
+            char lab[600];
+            cov_claim_pair_label(g, c, lab, sizeof lab);
+            size_t at = cov_term_wrap(out, lab, 15, 15, o->width);
             /* The assessment's reason already gives power and runs needed; say them here only
              * when it is silent. */
+            char line[1200] = "";
             if (a->verdict == COV_UNDERPOWERED && a->reason == NULL) {
-                fprintf(out, "  power %.2f", a->power);
                 if (isinf(a->runs_needed))
-                    fputs(", not reachable by more runs like these", out);
+                    snprintf(line, sizeof line, " power %.2f, not reachable by more runs like "
+                             "these", a->power);
                 else if (isfinite(a->runs_needed))
-                    fprintf(out, ", needs %.0f runs (%.0f more)", a->runs_needed,
-                            a->runs_needed > (double)a->n ? a->runs_needed - (double)a->n : 0.0);
+                    snprintf(line, sizeof line, " power %.2f, needs %.0f runs (%.0f more)",
+                             a->power, a->runs_needed, a->runs_needed > (double)a->n
+                                                          ? a->runs_needed - (double)a->n : 0.0);
+                else
+                    snprintf(line, sizeof line, " power %.2f", a->power);
+                at = cov_term_wrap(out, line, at, 15, o->width);
             }
             const char *why = a->reason ? a->reason : c->reason;
             if (why == NULL && f->support->items[i].reason) why = f->support->items[i].reason;
-            fputs("\n             ", out);
-            term_text(out, why);
+            fputs("\n               ", out);
+            at = cov_term_wrap(out, why, 15, 15, o->width);
+            const cov_caution *first;
+            size_t n_caut = cov_cautions_of_claim(info->cautions, i, &first);
+            if (n_caut > 0) {
+                snprintf(line, sizeof line, " (%zu caution%s below)", n_caut, n_caut == 1 ? "" : "s");
+                cov_term_wrap(out, line, at, 15, o->width);
+            }
             fputc('\n', out);
         }
         if (left > 0) fprintf(out, "  ... and %zu more in the report\n", left);
     }
+    cov_next_steps_print(info->next, out, o->width);
+    cov_cautions_print(f, info->cautions, out, o->width);
     if (info->plot_note) {
         fputs("\nplots skipped: ", out);
         term_text(out, info->plot_note);
@@ -264,11 +269,44 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
     fputs("/index.html (also report.md, summary.json, claims.csv)\n", out);
     if (info->store == COV_HISTORY_NONE) {
         fputs("history: not kept (the archive is not shoal's own; --history FILE keeps it)\n", out);
-    } else {
+    } else if (info->recorded) {
         fprintf(out, "history: snapshot %zu, kept in ", info->n_snapshots);
         term_text(out, info->history_path);
         fputc('\n', out);
+    } else {
+        fprintf(out, "history: the runs are those of snapshot %zu (%s); none recorded "
+                     "(--record-snapshot records one anyway)\n", info->n_snapshots,
+                info->snapshots[info->n_snapshots - 1].at);
     }
+}
+
+/* Write the JUnit file beside its final name and rename it into place, so a CI server never
+ * reads half a file; the mode follows the umask like any file a tool writes. */
+static int write_junit(const char *path, const cov_findings *f, const cov_report_info *info,
+                       cov_error *err)
+{
+    char tmp[4096];
+    if (snprintf(tmp, sizeof tmp, "%s.XXXXXX", path) >= (int)sizeof tmp)
+        return cov_fail(err, COV_EINPUT, "", "--junit path too long: %s", path);
+    int fd = mkstemp(tmp);
+    if (fd < 0) return cov_fail(err, COV_EIO, "", "cannot write %s: %s", path, strerror(errno));
+    mode_t mask = umask(0);
+    umask(mask);
+    FILE *out = fchmod(fd, 0666 & ~mask) == 0 ? fdopen(fd, "w") : NULL;
+    if (out == NULL) {
+        int e = errno;
+        close(fd);
+        unlink(tmp);
+        return cov_fail(err, COV_EIO, "", "cannot write %s: %s", path, strerror(e));
+    }
+    cov_report_junit(f, info, out);
+    int bad = ferror(out);
+    if (fclose(out) != 0 || bad || rename(tmp, path) != 0) {
+        int e = errno;
+        unlink(tmp);
+        return cov_fail(err, COV_EIO, "", "could not finish writing %s: %s", path, strerror(e));
+    }
+    return COV_OK;
 }
 
 /* ---- the command ----------------------------------------------------------------------------- */
@@ -286,6 +324,8 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     cov_supports *sp = NULL;
     cov_snapshot *snaps = NULL;
     size_t n_snapshots = 0;
+    cov_cautions *cautions = NULL;
+    cov_next_steps *next = NULL;
     double *planned = NULL;
     size_t n_planned = 0, *order = NULL;
     double *seed_col = NULL;
@@ -293,7 +333,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     cov_pred_record *preds = NULL;
     size_t n_preds = 0;
     unsigned char *frozen = NULL;
-    char tmp[4096] = "", gate[256], plot_msg[sizeof err->msg + 64], at[32];
+    char tmp[4096] = "", gate[256], plot_msg[sizeof err->msg + 64], at[32], graph_digest[65] = "";
     int rc;
     *adequate = 0;
 
@@ -317,7 +357,19 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     }
 
     step_note(&o, note, "reading the graph");
-    if ((rc = cov_graph_parse_file(o.graph_path, &g, err)) != COV_OK) goto fail;
+    /* Read as text first, so that the audit trail can name the digest of the very bytes parsed
+     * (standard input included). */
+    char *graph_text = NULL;
+    rc = cov_graph_read_text(o.graph_path, &graph_text, err);
+    if (rc == COV_OK) rc = cov_graph_parse_text(o.graph_path, graph_text, &g, err);
+    if (graph_text != NULL) {
+        cov_sha256 h;
+        cov_sha256_init(&h);
+        cov_sha256_update(&h, graph_text, strlen(graph_text));
+        cov_sha256_hex(&h, graph_digest);
+        free(graph_text);
+    }
+    if (rc != COV_OK) goto fail;
     if ((rc = cov_claims_derive(g, &claims, err)) != COV_OK) goto fail;
     /* A plan file is read before the archive, so a bad one stops the survey early. */
     if (o.plan_path != NULL &&
@@ -420,44 +472,69 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         goto fail;
     }
 
-    cov_snapshot *grown = realloc(snaps, (n_snapshots + 1) * sizeof *grown);
-    if (grown == NULL) {
-        rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
+    /* A snapshot is recorded only when the runs differ from the last one's (or when asked):
+     * surveying the same runs again adds nothing to the campaign's history. */
+    cov_snapshot this_snap;
+    cov_snapshot_from_findings(&f, &this_snap);
+    snprintf(this_snap.at, sizeof this_snap.at, "%s", at);
+    int record = store != COV_HISTORY_NONE &&
+                 (o.record_snapshot || n_snapshots == 0 || snaps[n_snapshots - 1].digest[0] == '\0' ||
+                  strcmp(snaps[n_snapshots - 1].digest, this_snap.digest) != 0);
+    if (record || store == COV_HISTORY_NONE) {
+        cov_snapshot *grown = realloc(snaps, (n_snapshots + 1) * sizeof *grown);
+        if (grown == NULL) {
+            rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
+            goto fail;
+        }
+        snaps = grown;
+        snaps[n_snapshots++] = this_snap;
+    }
+    if ((rc = cov_cautions_gather(&f, &cautions)) != COV_OK) {
+        rc = cov_fail(err, rc, "", "out of memory gathering the cautions");
         goto fail;
     }
-    snaps = grown;
-    cov_snapshot *now_snap = &snaps[n_snapshots++];
-    cov_snapshot_from_findings(&f, now_snap);
-    snprintf(now_snap->at, sizeof now_snap->at, "%s", at);
-
     cov_report_info info = {at, all_ample && !missed, missed ? gate : NULL, plot_note, store,
-                            history_path, snaps, n_snapshots};
+                            history_path, snaps, n_snapshots, cautions, record,
+                            this_snap.digest, graph_digest, NULL};
+    if ((rc = cov_next_steps_make(&f, &next)) != COV_OK) {
+        rc = cov_fail(err, rc, "", "out of memory writing the next steps");
+        goto fail;
+    }
+    info.next = next;
     step_note(&o, note, "writing the report");
     if ((order = malloc((claims->n ? claims->n : 1) * sizeof *order)) == NULL) {
         rc = cov_fail(err, COV_ENOMEM, "", "out of memory");
         goto fail;
     }
     if ((rc = cov_report_write(&f, &info, tmp, err)) != COV_OK) goto fail;
-    if (store != COV_HISTORY_NONE &&
-        (rc = cov_report_history_record(history_path, store == COV_HISTORY_SIDE, &f, now_snap,
-                                        err)) != COV_OK)
+    if (record && (rc = cov_report_history_record(history_path, store == COV_HISTORY_SIDE, &f,
+                                                   &this_snap, err)) != COV_OK)
         goto fail;
     for (size_t k = 0; k < n_preds; k++)
         if (frozen[k] && (rc = cov_pred_save_achieved(history_path, &preds[k], err)) != COV_OK)
             goto fail;
     if ((rc = move_into_place(tmp, dir, err)) != COV_OK) goto fail;
     tmp[0] = '\0';
+    if (o.junit_path != NULL && (rc = write_junit(o.junit_path, &f, &info, err)) != COV_OK)
+        goto fail;
 
     if (!o.quiet) {
         if (o.format == COV_FMT_JSON) cov_report_summary_json(&f, &info, out);
         else if (o.format == COV_FMT_CSV) cov_report_claims_csv(&f, out);
-        else print_verdict(&f, &info, dir, order, out);
+        else {
+            cov_reflow rf;   /* paths and names too long for a line wrap */
+            FILE *w = cov_reflow_begin(&rf, out);
+            print_verdict(&f, &info, dir, order, w);
+            cov_reflow_end(&rf, out, o.width);
+        }
     }
     *adequate = info.adequate;
     rc = COV_OK;
 fail:
     if (tmp[0] != '\0') remove_flat_dir(tmp);
     free(order);
+    cov_cautions_free(cautions);
+    cov_next_steps_free(next);
     free(snaps);
     free(planned);
     free(seed_col);

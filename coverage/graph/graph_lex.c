@@ -218,7 +218,9 @@ int cov_graph_read_text(const char *path, char **text, cov_error *err)
     *text = NULL;
     FILE *f = NULL;
     char why[160];
-    if (cov_open_regular(path, &f, why, sizeof why) != 0)
+    /* "-" is standard input, as in most command-line tools. */
+    if (strcmp(path, "-") == 0) f = stdin;
+    else if (cov_open_regular(path, &f, why, sizeof why) != 0)
         return cov_fail(err, errno == 0 ? COV_EINPUT : COV_EIO, path,
                         "cannot open the graph file: %s", why);
     char *buf = NULL;
@@ -271,6 +273,6 @@ int cov_graph_read_text(const char *path, char **text, cov_error *err)
     buf = NULL;
 fail:
     free(buf);
-    fclose(f);
+    if (f != stdin) fclose(f);
     return rc;
 }

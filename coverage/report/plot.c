@@ -32,14 +32,14 @@
 static const char *const matrix_palette =
     "(0 '#2B1140', 0.25 '#6A2366', 0.5 '#B63E63', 0.75 '#EE8A58', 1 '#FBEBB5')";
 
-enum plot_kind { PLOT_PAIRS, PLOT_PAIR, PLOT_POWER, PLOT_MDE, PLOT_CURVES };
+enum plot_kind { PLOT_PAIRS, PLOT_PAIR, PLOT_POWER, PLOT_MDE, PLOT_CURVES, PLOT_GRAPH };
 
 typedef struct {
     enum plot_kind kind;
     size_t arg;       /* PLOT_PAIR: the rank among the thinnest pairs (0 = sparsest) */
 } plot_ref;
 
-#define MAX_PLOTS (1 + MAX_PAIR_PLOTS + 3)
+#define MAX_PLOTS (1 + 1 + MAX_PAIR_PLOTS + 3)
 
 /* The sparse pairs drawn cell by cell: up to MAX_PAIR_PLOTS of those not fully covered, worst first;
  * when every pair is covered, the worst one still, so the report always shows where runs lie. */
@@ -56,6 +56,7 @@ static size_t pair_plot_count(const cov_findings *f)
 static size_t plan_plots(const cov_findings *f, plot_ref *refs)
 {
     size_t n = 0;
+    if (f->graph->n_vars > 0 && f->claims != NULL) refs[n++] = (plot_ref){PLOT_GRAPH, 0};
     if (f->coverage != NULL && f->coverage->n_inputs >= 2 && f->coverage->n_pairs > 0) {
         refs[n++] = (plot_ref){PLOT_PAIRS, 0};
         for (size_t k = 0; k < pair_plot_count(f); k++) refs[n++] = (plot_ref){PLOT_PAIR, k};
@@ -89,6 +90,13 @@ static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
     char a[COV_PLOT_NAME_SHOWN + 8], b[COV_PLOT_NAME_SHOWN + 8];
     size_t min_runs = f->coverage ? f->coverage->opt.min_runs : 0;
     switch (r.kind) {
+    case PLOT_GRAPH:
+        snprintf(out, size,
+                 "The graph: arrows are expected effects, thin lines expected absences, each "
+                 "drawn by its verdict (blue solid ample, orange dashed underpowered, grey dotted "
+                 "untestable); grey boxes are hidden variables. The list below the drawing says "
+                 "the same in words.");
+        return;
     case PLOT_PAIRS:
         snprintf(out, size,
                  "Pairwise coverage: for every pair of inputs, the share of its cells that hold at "
@@ -114,9 +122,9 @@ static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
         return;
     case PLOT_MDE:
         snprintf(out, size,
-                 "Smallest detectable effect (dot, with its uncertainty range) beside the effect "
-                 "of interest (diamond), log scale. A claim is sized well when its dot lies left "
-                 "of its diamond.");
+                 "Smallest detectable effect of each claim (dot, with its uncertainty range) as a "
+                 "multiple of its effect of interest, log scale, one axis for every outcome's "
+                 "units. A claim is sized well when its dot lies left of the dashed line at 1.");
         return;
     case PLOT_CURVES:
         snprintf(out, size,
@@ -136,6 +144,7 @@ static const char *plot_base(plot_ref r, char *buf, size_t size)
     case PLOT_POWER: return "power";
     case PLOT_MDE: return "mde";
     case PLOT_CURVES: return "curves";
+    case PLOT_GRAPH: return "graph";
     }
     return "plot";
 }
@@ -539,6 +548,7 @@ int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *
         case PLOT_POWER: rc = cov_plot_power(s, f, dir); break;
         case PLOT_MDE: rc = cov_plot_mde(s, f, dir); break;
         case PLOT_CURVES: rc = cov_plot_curves(s, f, dir); break;
+        case PLOT_GRAPH: rc = cov_plot_graph(s, f, dir); break;
         }
     }
     if (fclose(s) != 0 && rc == COV_OK) rc = COV_ENOMEM;

@@ -210,22 +210,23 @@ int cov_plot_mde(FILE *s, const cov_findings *f, const char *dir)
     row_key *rows = claim_rows(f, 1, &total);
     if (rows == NULL && total > 0) return COV_ENOMEM;
     size_t n = total < PLOT_MAX_ROWS ? total : PLOT_MAX_ROWS;
-    double lo = INFINITY, hi = -INFINITY;
+    /* Each claim's MDE as a multiple of its own effect of interest: one unitless axis for claims
+     * whose outcomes have different units, with the line at 1 where the two are equal. */
+    double lo = 1, hi = 1;
     fputs("$mde << EOD\n", s);
     for (size_t r = 0; r < n; r++) {
         const cov_assessment *it = &f->assess->items[rows[r].idx];
-        double v[4] = {it->effect_raw, it->mde, it->mde_lo, it->mde_hi};
-        for (int k = 0; k < 4; k++)
+        double e = it->effect_raw > 0 ? it->effect_raw : NAN;
+        double v[3] = {it->mde / e, it->mde_lo / e, it->mde_hi / e};
+        for (int k = 0; k < 3; k++)
             if (isfinite(v[k]) && v[k] > 0) {
                 lo = fmin(lo, v[k]);
                 hi = fmax(hi, v[k]);
             }
-        double mlo = isfinite(it->mde_lo) && it->mde_lo > 0 ? it->mde_lo : it->mde;
-        double mhi = isfinite(it->mde_hi) ? it->mde_hi : it->mde;
-        fprintf(s, "%zu ", r + 1);
-        cov_plot_num(s, it->effect_raw);
-        fputc(' ', s);
-        cov_plot_num(s, it->mde > 0 ? it->mde : NAN);
+        double mlo = isfinite(v[1]) && v[1] > 0 ? v[1] : v[0];
+        double mhi = isfinite(v[2]) ? v[2] : v[0];
+        fprintf(s, "%zu 1 ", r + 1);
+        cov_plot_num(s, v[0] > 0 ? v[0] : NAN);
         fputc(' ', s);
         cov_plot_num(s, mlo > 0 ? mlo : NAN);
         fputc(' ', s);
@@ -233,15 +234,14 @@ int cov_plot_mde(FILE *s, const cov_findings *f, const char *dir)
         fprintf(s, " %d\n", it->verdict == COV_AMPLE ? 0x2B5C9E : 0xE3872D);
     }
     fputs("EOD\n", s);
-    if (!(lo < hi)) {   /* one value, or none: a decade either side */
-        double mid = isfinite(lo) ? lo : 1.0;
-        lo = mid / 10;
-        hi = mid * 10;
+    if (!(lo < hi)) {   /* every ratio 1, or none: a decade either side */
+        lo = 0.1;
+        hi = 10;
     }
     int h = row_height(n);
     cov_plot_start(s, h);
-    rows_title(s, "Smallest detectable effect beside the effect of interest", n, total,
-               "a claim is sized well when its dot lies left of its diamond");
+    rows_title(s, "Smallest detectable effect as a multiple of the effect of interest", n, total,
+               "a claim is sized well when its dot lies left of the line at 1");
     row_tics(s, f, rows, n, " (no MDE)");
     fputs("set logscale x\nset xrange [", s);
     cov_plot_num(s, lo / 1.6);
@@ -264,7 +264,10 @@ int cov_plot_mde(FILE *s, const cov_findings *f, const char *dir)
             first = 0;
         }
     fputs(") format '%g'\n", s);
-    fputs("set xlabel 'effect, in outcome units per unit of treatment (log scale)'\n", s);
+    fputs("set xlabel 'MDE / effect of interest (log scale; unitless)'\n", s);
+    fputs("set arrow 1 from 1, graph 0 to 1, graph 1 nohead lw 1.5 dt 2 lc rgb '" COV_PLOT_INK
+          "'\nset label 1 'MDE = effect of interest' at 1, graph 1.02 center tc rgb '"
+          COV_PLOT_INK "'\n", s);
     fputs("set key below horizontal height 1.5\nset errorbars small\n", s);
     char plot[1536], keys[512];
     verdict_keys(keys, sizeof keys, f, rows, n, "points pt 7 ps 1.1", "MDE, ");
@@ -272,9 +275,7 @@ int cov_plot_mde(FILE *s, const cov_findings *f, const char *dir)
              "plot $mde using 2:1:($3-$2):(0) with vectors nohead lw 5 lc rgb '#DADADA' "
              "notitle, \\\n"
              "  $mde using 3:1:4:5:6 with xerrorbars pt 7 ps 1.1 lw 1.2 lc rgb variable "
-             "notitle, \\\n"
-             "  $mde using 2:1 with points pt 12 ps 1.7 lw 1.5 lc rgb '" COV_PLOT_INK
-             "' title 'effect of interest'%s\n", keys);
+             "notitle%s\n", keys);
     cov_plot_finish(s, dir, "mde", h, plot);
     free(rows);
     return COV_OK;

@@ -216,6 +216,55 @@ static void json_coverage(FILE *out, const cov_findings *f)
     fputs("]},\n", out);
 }
 
+/* The audit trail: what a reviewer needs to repeat the survey and to know it saw the same inputs. */
+static void json_audit(FILE *out, const cov_findings *f, const cov_report_info *info)
+{
+    const cov_options *o = f->opt;
+    fputs("  \"audit\": {\"version\": ", out);
+    cov_emit_json_string(out, o->version ? o->version : "");
+    fputs(", \"command_line\": ", out);
+    char *line = NULL;
+    size_t len = 0;
+    FILE *m = open_memstream(&line, &len);
+    if (m != NULL) {
+        cov_audit_command_line(o, m);
+        if (fclose(m) != 0) {
+            free(line);
+            line = NULL;
+        }
+    }
+    cov_emit_json_string(out, line ? line : "");
+    free(line);
+    fputs(", \"argv\": [", out);
+    for (int i = 0; o->argv != NULL && i < o->argc; i++) {
+        if (i) fputs(", ", out);
+        cov_emit_json_string(out, o->argv[i]);
+    }
+    fputs("],\n    \"options\": [", out);
+    cov_audit_option opts[40];
+    size_t n = cov_audit_options(o, opts, sizeof opts / sizeof opts[0]);
+    for (size_t k = 0; k < n; k++) {
+        fputs(k ? ",\n      {\"name\": " : "\n      {\"name\": ", out);
+        cov_emit_json_string(out, opts[k].name);
+        fputs(", \"value\": ", out);
+        cov_emit_json_string(out, opts[k].value);
+        fprintf(out, ", \"default\": %s}", opts[k].given ? "false" : "true");
+    }
+    fprintf(out, "],\n    \"seed\": %lu, \"archive\": ", o->coverage.seed);
+    cov_emit_json_string(out, o->archive_path ? o->archive_path : "");
+    fprintf(out, ", \"table\": ");
+    cov_emit_json_string(out, o->table ? o->table : COV_DEFAULT_TABLE);
+    fprintf(out, ", \"rows\": %zu, \"runs_digest\": ", f->data ? f->data->n_runs : 0);
+    cov_emit_json_string(out, info->runs_digest ? info->runs_digest : "");
+    fputs(", \"graph\": ", out);
+    cov_emit_json_string(out, f->graph->path);
+    fputs(", \"graph_digest\": ", out);
+    cov_emit_json_string(out, info->graph_digest ? info->graph_digest : "");
+    fputs(", \"digest_method\": \"SHA-256 (FIPS 180-4)\", \"time\": ", out);
+    cov_emit_json_string(out, info->generated ? info->generated : "");
+    fputs("},\n", out);
+}
+
 void cov_report_summary_json(const cov_findings *f, const cov_report_info *info, FILE *out)
 {
     const cov_options *o = f->opt;
@@ -256,6 +305,7 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
         cov_emit_json_number(out, o->need_threeway);
         fputs("},\n", out);
     }
+    if (o != NULL) json_audit(out, f, info);
     if (f->coverage != NULL) json_coverage(out, f);
     fputs("  \"plots\": {\"made\": ", out);
     fputs(info->plot_note ? "false, \"note\": " : "true, \"note\": null", out);
@@ -280,6 +330,21 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
     for (size_t k = 0; k < cov_report_n_cautions; k++) {
         fputs(k ? ",\n    " : "\n    ", out);
         cov_emit_json_string(out, cov_report_cautions[k]);
+    }
+    fputs("],\n  \"next_steps\": [", out);
+    for (size_t k = 0; info->next != NULL && k < info->next->n; k++) {
+        fputs(k ? ",\n    " : "\n    ", out);
+        cov_emit_json_string(out, info->next->lines[k]);
+    }
+    fputs("],\n  \"caveats\": [", out);
+    for (size_t k = 0; info->cautions != NULL && k < info->cautions->n; k++) {
+        const cov_caution *c = &info->cautions->items[k];
+        fprintf(out, "%s{\"kind\": \"%s\", \"claim\": ", k ? ",\n    " : "\n    ", c->kind->key);
+        if (c->claim >= 0) fprintf(out, "%ld", c->claim + 1);
+        else fputs("null", out);
+        fputs(", \"text\": ", out);
+        cov_emit_json_string(out, c->text);
+        fputc('}', out);
     }
     cov_record_src src = record_src(f);
     fputs("],\n  \"claims\": [\n", out);

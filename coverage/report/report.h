@@ -27,6 +27,64 @@ typedef struct {
     size_t n_preds;
 } cov_findings;
 
+/* ---- cautions (coverage/report/caution.c) ------------------------------------------------------
+ * What shoal computed that the verdict rests on or cannot promise, per claim and for the campaign.
+ * Every format shows the same list; a new caution is one entry in caution.c's table of kinds. */
+typedef struct cov_caution_kind cov_caution_kind;
+typedef struct cov_cautions cov_cautions;
+typedef struct cov_caution_sink cov_caution_sink;   /* private to caution.c */
+typedef struct {
+    const cov_caution_kind *kind;
+    long claim;               /* claim index, or -1 for the campaign as a whole */
+    char *text;               /* one or two plain sentences; user names unescaped */
+} cov_caution;
+struct cov_cautions {
+    cov_caution *items;       /* by kind, in the order of the table of kinds; claims in claim order */
+    size_t n;
+};
+struct cov_caution_kind {
+    const char *key;          /* stable: "noise", "lack-of-fit", ... (summary.json, JUnit) */
+    const char *title;        /* the heading the formats show */
+    void (*gather)(const cov_findings *f, const cov_caution_kind *self, cov_caution_sink *s);
+};
+/* Gather every caution of f (any part of f but graph and claims may be NULL). COV_ENOMEM. */
+int cov_cautions_gather(const cov_findings *f, cov_cautions **out);
+void cov_cautions_free(cov_cautions *c);
+/* The kinds, in display order; *n of them. */
+const cov_caution_kind *cov_caution_kinds(size_t *n);
+/* How many cautions name claim, and the first of them in *first (NULL when none). */
+size_t cov_cautions_of_claim(const cov_cautions *c, size_t claim, const cov_caution **first);
+/* Whether item j is about a claim and repeats the text of an earlier item of its kind: the
+ * formats show such texts once, after every claim that shares them. */
+int cov_caution_is_repeat(const cov_cautions *c, size_t j);
+/* The cautions as terminal text within width columns: a heading per kind, claims sharing a text
+ * listed together before it. */
+void cov_cautions_print(const cov_findings *f, const cov_cautions *c, FILE *out, size_t width);
+
+/* ---- next steps (coverage/report/next.c) ------------------------------------------------------ */
+typedef struct {
+    char **lines;             /* one step each, plain text; user names unescaped */
+    size_t n;
+} cov_next_steps;
+/* The plan command with its expected need, hidden variables worth recording, gates missed by how
+ * much; "nothing to add" when adequate. COV_ENOMEM. */
+int cov_next_steps_make(const cov_findings *f, cov_next_steps **out);
+void cov_next_steps_free(cov_next_steps *s);
+/* "next steps:" and the numbered steps, wrapped to width columns. */
+void cov_next_steps_print(const cov_next_steps *s, FILE *out, size_t width);
+
+/* ---- the audit trail (coverage/report/audit.c) ----------------------------------------------- */
+typedef struct {
+    const char *name;         /* the long option, without "--" */
+    char value[160];          /* its value as used */
+    int given;                /* 1 when given on the command line, 0 when left at its default */
+} cov_audit_option;
+/* The survey's options with their values into out (at most cap); returns how many. */
+size_t cov_audit_options(const cov_options *o, cov_audit_option *out, size_t cap);
+/* The command line as given (o->argv), each word quoted for a POSIX shell where needed. */
+void cov_audit_command_line(const cov_options *o, FILE *out);
+
+
 /* Where a survey keeps its history: in the owned archive, in a --history side file, or nowhere. */
 typedef enum { COV_HISTORY_NONE, COV_HISTORY_ARCHIVE, COV_HISTORY_SIDE } cov_history_store;
 
@@ -76,6 +134,11 @@ typedef struct {
     const char *history_path; /* archive or side file; NULL with COV_HISTORY_NONE */
     const cov_snapshot *snapshots; /* earlier snapshots and this one, oldest first */
     size_t n_snapshots;
+    const cov_cautions *cautions;   /* what the survey computed as cautions, or NULL */
+    int recorded;             /* 1 when this survey recorded a snapshot (the runs changed) */
+    const char *runs_digest;  /* content digest of the runs (cov_data_digest), or NULL */
+    const char *graph_digest; /* SHA-256 of the graph file's bytes, or NULL */
+    const cov_next_steps *next;   /* what to do next, or NULL */
 } cov_report_info;
 
 /* Write index.html, report.md, summary.json and claims.csv into the existing directory dir. The
@@ -88,6 +151,10 @@ int cov_report_write(const cov_findings *f, const cov_report_info *info, const c
                      cov_error *err);
 /* summary.json alone, to any stream (`shoal survey --json` prints it to stdout). */
 void cov_report_summary_json(const cov_findings *f, const cov_report_info *info, FILE *out);
+/* The verdict as JUnit XML (coverage/report/junit.c): one <testsuite>, a <testcase> per claim
+ * (failure: underpowered, or untestable on these runs; skipped: untestable by the graph) and per --need-*
+ * gate (failure: missed, with the shortfall). */
+void cov_report_junit(const cov_findings *f, const cov_report_info *info, FILE *out);
 /* claims.csv alone, to any stream (`shoal survey --csv`). */
 void cov_report_claims_csv(const cov_findings *f, FILE *out);
 /* Ordering of claims for the terminal and the report: underpowered first by rising power, then
@@ -134,7 +201,8 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
 
 /* Plots (coverage/plot.c, coverage/plot_claims.c), drawn by gnuplot through a pipe
  * (coverage/gnuplot.c). Each plot is written twice into the report directory: NAME.svg (svg
- * terminal, to inline) and NAME.png (pngcairo). The names, in report order: "pairs" (pairwise
+ * terminal, to inline) and NAME.png (pngcairo). The names, in report order: "graph" (the graph
+ * drawn, whenever it has variables), "pairs" (pairwise
  * coverage matrix, when >= 2 inputs), "pair-1" .. "pair-4" (cell grids of the sparsest pairs),
  * then, when some claim is testable, "power" (power bars), "mde" (MDE beside the effect of
  * interest) and "curves" (power over added runs). The SVG files start with an XML declaration
@@ -194,6 +262,10 @@ void cov_plot_claim_counts(const cov_findings *f, size_t *power, size_t *mde, si
 int cov_plot_power(FILE *s, const cov_findings *f, const char *dir);
 int cov_plot_mde(FILE *s, const cov_findings *f, const char *dir);
 int cov_plot_curves(FILE *s, const cov_findings *f, const char *dir);
+/* The graph drawn ("graph", coverage/report/plot_graph.c): nodes in layers, edges and absences
+ * styled by verdict, hidden variables marked; its height in pixels grows with the widest layer. */
+int cov_plot_graph(FILE *s, const cov_findings *f, const char *dir);
+int cov_plot_graph_height(const cov_findings *f);
 
 /* Write s as a gnuplot string literal: single-quoted, ' doubled, control characters and invalid
  * UTF-8 bytes replaced by '?'. The only way user text reaches gnuplot. s may be NULL (""). */

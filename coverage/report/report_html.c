@@ -27,6 +27,22 @@ static void html_text(FILE *out, const char *s)
     }
 }
 
+/* Like html_text, with each arrow ("->", "<-") kept whole: a browser may break a line after a
+ * hyphen, which split "a -" from "> b". */
+static void html_reason(FILE *out, const char *s)
+{
+    for (const char *p = s ? s : ""; *p; p++) {
+        if ((p[0] == '-' && p[1] == '>') || (p[0] == '<' && p[1] == '-')) {
+            fputs(p[0] == '-' ? "<span class=\"nw\">-&gt;</span>" : "<span class=\"nw\">&lt;-</span>",
+                  out);
+            p++;
+            continue;
+        }
+        char one[2] = {*p, '\0'};
+        html_text(out, one);
+    }
+}
+
 /* RFC 4648 base64, for the data URI of a plot that cannot be inlined. */
 static void base64(FILE *out, const unsigned char *b, size_t n)
 {
@@ -337,7 +353,7 @@ static const char *svg_inline(svg_walk *w)
 /* Our own palette, told apart without colour vision too (each verdict also carries its word). */
 static const char html_style[] =
     "body{font:15px/1.45 system-ui,sans-serif;color:#1d232a;background:#fbfbf8;margin:0 auto;"
-    "max-width:1180px;padding:1.2em 1.6em 3em}\n"
+    "max-width:1340px;padding:1.2em 1.6em 3em}\n"
     "h1{font-size:1.6em;margin:.2em 0}h2{font-size:1.25em;margin-top:1.8em;border-bottom:2px solid "
     "#d9dcd3;padding-bottom:.2em}\n"
     ".sub{color:#5a6169;margin:0}code{background:#eef0ea;padding:0 .25em;border-radius:3px}\n"
@@ -359,7 +375,37 @@ static const char html_style[] =
     ".note{background:#f3f1e8;border:1px dashed #b9b39b;padding:.5em .9em}\n"
     "#claims-table td:last-child{min-width:14em}td small{color:#6a7079;white-space:nowrap}\n"
     ".wide{overflow-x:auto}\n"
-    "ul.cautions li{margin:.35em 0}\n";
+    "ul.cautions li,ul.found li{margin:.35em 0}.caution-tag{color:#8a4b0f;font-size:.9em}\n"
+    "h3.caution{font-size:1.05em;margin:1em 0 .2em}.claim-name{font-weight:600}\n"
+    "dl.audit dt{font-weight:600;margin-top:.4em}dl.audit dd{margin-left:1.2em}"
+    "code.digest,code.cmdline{overflow-wrap:anywhere;word-break:break-all}\n"
+    /* Every column stays on screen: long names break anywhere rather than widen the table, and an
+     * arrow never splits from its dash. */
+    "code,td{overflow-wrap:anywhere}.nw{white-space:nowrap}#claims-table{width:100%}\n"
+    "#snapshots-chart{max-width:100%;height:auto}p.full{margin:.2em 0 0;font-size:.9em}\n"
+    /* A phone: the claims table becomes one card per claim, plots keep a readable size and
+     * scroll inside their frame, with a link to the full-size drawing. */
+    "@media (max-width:640px){body{padding:.8em .7em 2em}"
+    "#claims-table thead{display:none}"
+    "#claims-table,#claims-table tbody,#claims-table tr,#claims-table td{display:block}"
+    "#claims-table tr{border:1px solid #d9dcd3;border-radius:6px;margin:.7em 0;padding:.35em .6em;"
+    "background:#fff}#claims-table td{border:0;padding:.08em 0;text-align:left;min-width:0}"
+    "#claims-table td:last-child{min-width:0}"
+    "#claims-table td::before{display:inline-block;min-width:8.8em;color:#5a6169;font-weight:600}"
+    "#claims-table td:nth-child(1)::before{content:'claim'}"
+    "#claims-table td:nth-child(2)::before{content:'verdict'}"
+    "#claims-table td:nth-child(3)::before{content:'kind'}"
+    "#claims-table td:nth-child(4)::before{content:'treatment'}"
+    "#claims-table td:nth-child(5)::before{content:'outcome'}"
+    "#claims-table td:nth-child(6)::before{content:'adjusted for'}"
+    "#claims-table td:nth-child(7)::before{content:'effect of interest'}"
+    "#claims-table td:nth-child(8)::before{content:'in outcome units'}"
+    "#claims-table td:nth-child(9)::before{content:'runs used'}"
+    "#claims-table td:nth-child(10)::before{content:'power'}"
+    "#claims-table td:nth-child(11)::before{content:'MDE'}"
+    "#claims-table td:nth-child(12)::before{content:'runs needed'}"
+    "#claims-table td:nth-child(13)::before{content:'why'}"
+    ".plot{overflow-x:auto}.plot svg,.plot img{min-width:720px;max-width:none}}\n";
 
 /* Sorts the claims table by the clicked column: numbers by data-v, text by its content. */
 static const char html_script[] =
@@ -385,7 +431,20 @@ static void html_num_cell(FILE *out, double x, const char *text)
     fputs("</td>", out);
 }
 
-static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
+/* The cautions that name claim i, as short links to their headings. */
+static void html_claim_cautions(FILE *out, const cov_cautions *c, size_t i)
+{
+    for (size_t j = 0; c != NULL && j < c->n; j++) {
+        if (c->items[j].claim != (long)i) continue;
+        fprintf(out, "<br><a class=\"caution-tag\" href=\"#caution-%s\">&#9888; ",
+                c->items[j].kind->key);
+        html_text(out, c->items[j].kind->title);
+        fputs("</a>", out);
+    }
+}
+
+static void html_claims(FILE *out, const cov_findings *f, const cov_report_info *info,
+                        const size_t *order)
 {
     fputs("<div class=\"wide\"><table id=\"claims-table\" class=\"sortable\"><thead><tr>"
           "<th data-type=\"num\">#</th><th>verdict</th><th>kind</th><th>treatment</th>"
@@ -438,10 +497,117 @@ static void html_claims(FILE *out, const cov_findings *f, const size_t *order)
         cov_report_num_text(a ? a->runs_needed : NAN, "%.0f", buf, sizeof buf);
         html_num_cell(out, a ? a->runs_needed : NAN, buf);
         fputs("<td>", out);
-        html_text(out, cov_report_reason(f, i) ? cov_report_reason(f, i) : "");
+        html_reason(out, cov_report_reason(f, i) ? cov_report_reason(f, i) : "");
+        html_claim_cautions(out, info->cautions, i);
         fputs("</td></tr>\n", out);
     }
     fputs("</tbody></table></div>\n", out);
+}
+
+/* One plot as a figure: inline SVG when it passes the check above, else an image; its caption,
+ * and a link to the full-size file beside index.html (small screens shrink the inline one). */
+static int html_figure(FILE *out, const char *dir, const cov_plot *plot, size_t number)
+{
+    char path[4096];
+    size_t len = 0;
+    snprintf(path, sizeof path, "%s/%s.svg", dir, plot->name);
+    char *svg = slurp(path, &len);
+    if (svg == NULL) return 0;
+    svg_walk w = {svg, 0, NULL, number, plot->caption};
+    const char *why = strlen(svg) == len ? svg_inline(&w) : "a NUL byte in the file";
+    fprintf(out, "<figure id=\"fig-%s\"><div class=\"plot\">", plot->name);
+    if (why == NULL) {
+        w.out = out;
+        svg_inline(&w);
+    } else {
+        /* Refused markup stays out of the DOM: an image cannot run script or reach out. */
+        fprintf(out, "<!-- %s.svg is shown as an image, not inline (refused: %s) -->", plot->name,
+                why);
+        fputs("<img alt=\"", out);
+        html_text(out, plot->caption);
+        fputs("\" src=\"data:image/svg+xml;base64,", out);
+        base64(out, (const unsigned char *)svg, len);
+        fputs("\">", out);
+    }
+    fputs("</div><figcaption>", out);
+    html_text(out, plot->caption);
+    fprintf(out, "</figcaption><p class=\"full\"><a href=\"%s.svg\">Full size</a></p></figure>\n",
+            plot->name);
+    free(svg);
+    return 1;
+}
+
+/* The graph drawn, and the same in words: every edge and absence with its verdict. */
+static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *info,
+                       const char *dir)
+{
+    fputs("<section id=\"graph\"><h2>The graph</h2>\n", out);
+    if (info->plot_note == NULL) {
+        cov_plots *plots = NULL;
+        if (cov_plot_list(f, &plots, NULL) == COV_OK)
+            for (size_t k = 0; k < plots->n; k++)
+                if (strcmp(plots->items[k].name, "graph") == 0)
+                    html_figure(out, dir, &plots->items[k], k + 1);
+        cov_plots_free(plots);
+    }
+    const cov_graph *g = f->graph;
+    static const char *const role_word[3] = {"Inputs", "Outputs", "Hidden (never recorded)"};
+    static const cov_role roles[3] = {COV_INPUT, COV_OUTPUT, COV_HIDDEN};
+    fputs("<ul class=\"graph-list\">\n", out);
+    for (int r = 0; r < 3; r++) {
+        int any = 0;
+        for (size_t v = 0; v < g->n_vars; v++) {
+            if (g->vars[v].role != roles[r]) continue;
+            fputs(any ? ", " : "<li>", out);
+            if (!any) fprintf(out, "%s: ", role_word[r]);
+            fputs("<code>", out);
+            html_text(out, g->vars[v].name);
+            fputs("</code>", out);
+            any = 1;
+        }
+        if (any) fputs("</li>\n", out);
+    }
+    for (size_t e = 0; e < g->n_edges; e++) {
+        size_t a = g->edges[e].from, b = g->edges[e].to;
+        long claim = -1;
+        for (size_t i = 0; i < f->claims->n; i++)
+            if (f->claims->items[i].kind == COV_CLAIM_EFFECT &&
+                f->claims->items[i].treatment == a && f->claims->items[i].outcome == b)
+                claim = (long)i;
+        fputs("<li><code>", out);
+        html_text(out, g->vars[a].name);
+        fputs("</code> <span class=\"nw\">-&gt;</span> <code>", out);
+        html_text(out, g->vars[b].name);
+        fputs("</code>: ", out);
+        if (claim < 0) {
+            fputs("part of the model, tested by no claim (a hidden variable at one end)", out);
+        } else {
+            char eff[96];
+            const char *word = cov_verdict_word(cov_report_verdict(f, (size_t)claim));
+            cov_report_effect_text(&f->claims->items[claim], eff, sizeof eff);
+            fputs("expected effect ", out);
+            html_text(out, eff);
+            fprintf(out, "; <span class=\"v-%s\">%s</span>", word, word);
+        }
+        fputs("</li>\n", out);
+    }
+    for (size_t i = 0; i < f->claims->n; i++) {
+        const cov_claim *c = &f->claims->items[i];
+        if (c->kind != COV_CLAIM_ABSENCE) continue;
+        const char *word = cov_verdict_word(cov_report_verdict(f, i));
+        char eff[96];
+        cov_report_effect_text(c, eff, sizeof eff);
+        fputs("<li><code>", out);
+        html_text(out, g->vars[c->treatment].name);
+        fputs("</code> <span class=\"nw\">", out);
+        html_text(out, cov_claim_arrow(c->kind));
+        fputs("</span> <code>", out);
+        html_text(out, g->vars[c->outcome].name);
+        fputs("</code>: expected absence ", out);
+        html_text(out, eff);
+        fprintf(out, "; <span class=\"v-%s\">%s</span></li>\n", word, word);
+    }
+    fputs("</ul>\n</section>\n", out);
 }
 
 static void html_plots(FILE *out, const cov_findings *f, const cov_report_info *info,
@@ -458,32 +624,8 @@ static void html_plots(FILE *out, const cov_findings *f, const cov_report_info *
     if ((*rc = cov_plot_list(f, &plots, err)) != COV_OK) return;
     size_t shown = 0;
     for (size_t k = 0; k < plots->n; k++) {
-        char path[4096];
-        size_t len = 0;
-        snprintf(path, sizeof path, "%s/%s.svg", dir, plots->items[k].name);
-        char *svg = slurp(path, &len);
-        if (svg == NULL) continue;
-        svg_walk w = {svg, 0, NULL, k + 1, plots->items[k].caption};
-        const char *why = strlen(svg) == len ? svg_inline(&w) : "a NUL byte in the file";
-        fputs("<figure>", out);
-        if (why == NULL) {
-            w.out = out;
-            svg_inline(&w);
-        } else {
-            /* Refused markup stays out of the DOM: an image cannot run script or reach out. */
-            fprintf(out, "<!-- %s.svg is shown as an image, not inline (refused: %s) -->",
-                    plots->items[k].name, why);
-            fputs("<img alt=\"", out);
-            html_text(out, plots->items[k].caption);
-            fputs("\" src=\"data:image/svg+xml;base64,", out);
-            base64(out, (const unsigned char *)svg, len);
-            fputs("\">", out);
-        }
-        fputs("<figcaption>", out);
-        html_text(out, plots->items[k].caption);
-        fputs("</figcaption></figure>\n", out);
-        free(svg);
-        shown++;
+        if (strcmp(plots->items[k].name, "graph") == 0) continue;   /* in its own section */
+        shown += html_figure(out, dir, &plots->items[k], k + 1);
     }
     if (shown == 0) fputs("<p class=\"note\">No plot applies to this campaign.</p>\n", out);
     fputs("</section>\n", out);
@@ -494,7 +636,7 @@ static void html_coverage(FILE *out, const cov_findings *f)
 {
     const cov_coverage *cv = f->coverage;
     char buf[64];
-    fputs("<section id=\"coverage\"><h2>Coverage of the input space</h2>\n<table><tbody>", out);
+    fputs("<section id=\"coverage\"><h2>Coverage of the input space</h2>\n<div class=\"wide\"><table><tbody>", out);
     cov_report_share_text(cv->marginal_share, buf, sizeof buf);
     fprintf(out, "<tr><th>bins of each input with at least %zu runs</th><td class=\"num\">%s</td>"
                  "</tr>", cv->opt.min_runs, buf);
@@ -511,7 +653,7 @@ static void html_coverage(FILE *out, const cov_findings *f)
     if (isfinite(cv->fill_distance))
         fprintf(out, "<tr><th>fill distance (largest gap, unit cube of the numeric inputs)</th>"
                      "<td class=\"num\">%.3g</td></tr>", cv->fill_distance);
-    fputs("</tbody></table>\n<h3>Each input</h3>\n<table><thead><tr><th>input</th>"
+    fputs("</tbody></table></div>\n<h3>Each input</h3>\n<div class=\"wide\"><table><thead><tr><th>input</th>"
           "<th>bins</th><th>covered</th><th>fewest runs in a bin</th></tr></thead><tbody>\n", out);
     for (size_t m = 0; m < cv->n_inputs; m++) {
         const cov_marginal *mg = &cv->marginal[m];
@@ -524,9 +666,9 @@ static void html_coverage(FILE *out, const cov_findings *f)
         fprintf(out, "</td><td class=\"num\">%zu</td><td class=\"num\">%s</td>"
                      "<td class=\"num\">%zu</td></tr>\n", mg->n_bins, buf, least);
     }
-    fputs("</tbody></table>\n", out);
+    fputs("</tbody></table></div>\n", out);
     if (cv->n_pairs > 0) {
-        fputs("<h3>Thinnest pairs of inputs</h3>\n<table><thead><tr><th>pair</th><th>cells</th>"
+        fputs("<h3>Thinnest pairs of inputs</h3>\n<div class=\"wide\"><table><thead><tr><th>pair</th><th>cells</th>"
               "<th>covered</th><th>empty cells</th><th>dependence</th></tr></thead><tbody>\n", out);
         for (size_t k = 0; k < cv->n_pairs && k < REPORT_WORST_PAIRS; k++) {
             const cov_pair *p = &cv->pairs[cv->worst ? cv->worst[k] : k];
@@ -546,11 +688,97 @@ static void html_coverage(FILE *out, const cov_findings *f)
             fprintf(out, "<td class=\"num\">%s%s</td></tr>\n", buf,
                     isfinite(dep) && dep > cv->opt.dependence_threshold ? " (set together)" : "");
         }
-        fputs("</tbody></table>\n<p>Dependence is |r| for two numeric inputs and Cram&eacute;r's V "
+        fputs("</tbody></table></div>\n<p>Dependence is |r| for two numeric inputs and Cram&eacute;r's V "
               "otherwise; above the threshold the campaign moved the two inputs together, so "
               "their effects are hard to tell apart.</p>\n", out);
     }
     fputs("</section>\n", out);
+}
+
+/* What the survey computed as cautions: a heading per kind; claims sharing a text listed once. */
+static void html_found_cautions(FILE *out, const cov_findings *f, const cov_cautions *c)
+{
+    fputs("<section id=\"rests-on\"><h2>What these figures rest on</h2>\n", out);
+    if (c == NULL || c->n == 0) {
+        fputs("<p>No caution was computed for this campaign.</p>\n</section>\n", out);
+        return;
+    }
+    const cov_caution_kind *last = NULL;
+    for (size_t j = 0; j < c->n; j++) {
+        const cov_caution *it = &c->items[j];
+        if (it->kind != last) {
+            if (last != NULL) fputs("</ul>\n", out);
+            fprintf(out, "<h3 class=\"caution\" id=\"caution-%s\">", it->kind->key);
+            html_text(out, it->kind->title);
+            fputs("</h3>\n<ul class=\"found\">\n", out);
+            last = it->kind;
+        }
+        if (cov_caution_is_repeat(c, j)) continue;
+        fputs("<li>", out);
+        if (it->claim >= 0) {
+            int first = 1;
+            for (size_t i = j; i < c->n && c->items[i].kind == it->kind; i++) {
+                if (strcmp(c->items[i].text, it->text) != 0) continue;
+                size_t k = (size_t)c->items[i].claim;
+                char lab[600];
+                cov_claim_pair_label(f->graph, &f->claims->items[k], lab, sizeof lab);
+                const char *word = cov_verdict_word(cov_report_verdict(f, k));
+                fprintf(out, "%s<span class=\"claim-name\">", first ? "" : "; ");
+                html_text(out, lab);
+                fprintf(out, "</span> (<span class=\"v-%s\">%s</span>)", word, word);
+                first = 0;
+            }
+            fputs(": ", out);
+        }
+        html_text(out, it->text);
+        fputs("</li>\n", out);
+    }
+    fputs("</ul>\n</section>\n", out);
+}
+
+/* The audit trail: version, command line, options (defaults marked), seed, digests, time. */
+static void html_audit(FILE *out, const cov_findings *f, const cov_report_info *info)
+{
+    const cov_options *o = f->opt;
+    if (o == NULL) return;
+    fputs("<section id=\"audit\"><h2>Audit trail</h2>\n<dl class=\"audit\">", out);
+    fputs("<dt>shoal version</dt><dd>", out);
+    html_text(out, o->version ? o->version : "unknown");
+    fputs("</dd><dt>command line</dt><dd><code class=\"cmdline\">", out);
+    char *line = NULL;
+    size_t len = 0;
+    FILE *m = open_memstream(&line, &len);
+    if (m != NULL) {
+        cov_audit_command_line(o, m);
+        if (fclose(m) == 0 && line != NULL) html_text(out, line);
+    }
+    free(line);
+    fputs("</code></dd><dt>archive</dt><dd><code>", out);
+    html_text(out, o->archive_path);
+    fprintf(out, "</code>, table <code>");
+    html_text(out, o->table ? o->table : COV_DEFAULT_TABLE);
+    fprintf(out, "</code>, %zu rows; runs digest (SHA-256 of the recorded columns) <code "
+                 "class=\"digest\">", f->data ? f->data->n_runs : 0);
+    html_text(out, info->runs_digest ? info->runs_digest : "not computed");
+    fputs("</code></dd><dt>graph</dt><dd><code>", out);
+    html_text(out, f->graph->path);
+    fputs("</code>; SHA-256 of the file <code class=\"digest\">", out);
+    html_text(out, info->graph_digest && info->graph_digest[0] ? info->graph_digest : "not computed");
+    fprintf(out, "</code></dd><dt>seed</dt><dd>%lu</dd><dt>surveyed (UTC)</dt><dd>",
+            o->coverage.seed);
+    html_text(out, info->generated);
+    fputs("</dd></dl>\n<div class=\"wide\"><table class=\"options\"><thead><tr><th>option</th><th>value</th>"
+          "<th>set by</th></tr></thead><tbody>\n", out);
+    cov_audit_option opts[40];
+    size_t n = cov_audit_options(o, opts, sizeof opts / sizeof opts[0]);
+    for (size_t k = 0; k < n; k++) {
+        fputs("<tr><td><code>--", out);
+        html_text(out, opts[k].name);
+        fputs("</code></td><td>", out);
+        html_text(out, opts[k].value);
+        fprintf(out, "</td><td>%s</td></tr>\n", opts[k].given ? "command line" : "default");
+    }
+    fputs("</tbody></table></div>\n</section>\n", out);
 }
 
 /* The snapshots as a small chart of ample claims against total runs, drawn directly as SVG. */
@@ -607,7 +835,7 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
         fprintf(out, "<circle cx=\"%.1f\" cy=\"%.1f\" r=\"4.5\" fill=\"#1f6e99\"/>\n",
                 left + (w - left - right) * info->snapshots[r].n_runs / max_runs,
                 h - bottom - (h - top - bottom) * info->snapshots[r].n_ample / max_claims);
-    fputs("</svg>\n<table><thead><tr><th>snapshot</th><th>when (UTC)</th><th>runs</th>"
+    fputs("</svg>\n<div class=\"wide\"><table><thead><tr><th>snapshot</th><th>when (UTC)</th><th>runs</th>"
           "<th>batches</th><th>ample</th><th>underpowered</th><th>untestable</th><th>2-way</th></tr>"
           "</thead><tbody>\n", out);
     for (size_t r = 0; r < info->n_snapshots; r++) {
@@ -621,7 +849,7 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
                      "<td class=\"num\">%lld</td><td class=\"num\">%s</td></tr>\n", rd->n_runs,
                 rd->n_batches, rd->n_ample, rd->n_underpowered, rd->n_blind, buf);
     }
-    fputs("</tbody></table>\n</section>\n", out);
+    fputs("</tbody></table></div>\n</section>\n", out);
 }
 
 int cov_report_html(const cov_findings *f, const cov_report_info *info, const char *dir,
@@ -672,16 +900,11 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
     }
     fputs("</div>\n", out);
     if (f->data != NULL) {
-        char run_line[512], caution[768];
+        char run_line[512];
         cov_runs_summary(f->data, run_line, sizeof run_line);
         fputs("<p>Runs: ", out);
         html_text(out, run_line);
-        fputs(".</p>\n", out);
-        if (cov_runs_caution(f->data, f->graph, caution, sizeof caution)) {
-            fputs("<p class=\"caution\">Caution: ", out);
-            html_text(out, caution);
-            fputs(".</p>\n", out);
-        }
+        fputs(".</p>\n", out);   /* a conflicting run is among the cautions below */
     }
     if (f->opt != NULL)
         fprintf(out, "<p>Targets: power %.2f at family-wise level %.3g (%s), effects as declared in "
@@ -689,18 +912,30 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
                 f->opt->power.bonferroni ? "Bonferroni over the testable claims" : "no correction");
     fputs("</section>\n", out);
 
+    if (info->next != NULL) {
+        fputs("<section id=\"next\"><h2>Next steps</h2>\n<ol class=\"next\">\n", out);
+        for (size_t k = 0; k < info->next->n; k++) {
+            fputs("<li>", out);
+            html_text(out, info->next->lines[k]);
+            fputs("</li>\n", out);
+        }
+        fputs("</ol>\n</section>\n", out);
+    }
+    html_found_cautions(out, f, info->cautions);
     fputs("<section id=\"claims\"><h2>Claims</h2>\n<p>Thin claims first, weakest first. Click a "
           "heading to sort. Power is at the declared effect of interest; for an absence claim it "
           "is the chance of showing the effect lies within the margin, and the MDE is the "
           "smallest margin the runs could show.</p>\n", out);
-    html_claims(out, f, order);
+    html_claims(out, f, info, order);
     fputs("</section>\n", out);
     int rc = COV_OK;
+    html_graph(out, f, info, dir);
     html_plots(out, f, info, dir, err, &rc);
     if (rc == COV_OK) {
         if (f->coverage != NULL) html_coverage(out, f);
         html_history(out, f, info);
         cov_report_audit_html(f, out);
+        html_audit(out, f, info);
         fputs("<section id=\"cautions\"><h2>Read with care</h2>\n<ul class=\"cautions\">\n", out);
         for (size_t k = 0; k < cov_report_n_cautions; k++) {
             fputs("<li>", out);

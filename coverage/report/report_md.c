@@ -40,6 +40,90 @@ static void md_name(FILE *out, const char *s)
     for (size_t k = 0; k <= longest; k++) fputc('`', out);
 }
 
+/* What the survey computed as cautions: a heading per kind; claims sharing a text listed once. */
+static void md_found_cautions(FILE *out, const cov_findings *f, const cov_cautions *c)
+{
+    fputs("\n## What these figures rest on\n", out);
+    if (c == NULL || c->n == 0) {
+        fputs("\nNo caution was computed for this campaign.\n", out);
+        return;
+    }
+    const cov_caution_kind *last = NULL;
+    for (size_t j = 0; j < c->n; j++) {
+        const cov_caution *it = &c->items[j];
+        if (it->kind != last) {
+            fputs("\n### ", out);
+            md_text(out, it->kind->title);
+            fputs("\n\n", out);
+            last = it->kind;
+        }
+        if (cov_caution_is_repeat(c, j)) continue;
+        fputs("- ", out);
+        if (it->claim >= 0) {
+            int first = 1;
+            for (size_t i = j; i < c->n && c->items[i].kind == it->kind; i++) {
+                if (strcmp(c->items[i].text, it->text) != 0) continue;
+                size_t k = (size_t)c->items[i].claim;
+                const cov_claim *cl = &f->claims->items[k];
+                fputs(first ? "" : "; ", out);
+                md_name(out, cov_report_var(f, cl->treatment));
+                fputs(" ", out);
+                md_text(out, cov_claim_arrow(cl->kind));
+                fputs(" ", out);
+                md_name(out, cov_report_var(f, cl->outcome));
+                fprintf(out, " (%s)", cov_verdict_word(cov_report_verdict(f, k)));
+                first = 0;
+            }
+            fputs(": ", out);
+        }
+        md_text(out, it->text);
+        fputs("\n", out);
+    }
+}
+
+/* The audit trail: version, command line, options (defaults marked), seed, digests, time. */
+static void md_audit(FILE *out, const cov_findings *f, const cov_report_info *info)
+{
+    const cov_options *o = f->opt;
+    if (o == NULL) return;
+    fputs("\n## Audit trail\n\n- shoal version: ", out);
+    md_text(out, o->version ? o->version : "unknown");
+    fputs("\n- command line: ", out);
+    char *line = NULL;
+    size_t len = 0;
+    FILE *m = open_memstream(&line, &len);
+    if (m != NULL) {
+        cov_audit_command_line(o, m);
+        if (fclose(m) == 0 && line != NULL) md_name(out, line);
+    }
+    free(line);
+    fputs("\n- archive: ", out);
+    md_name(out, o->archive_path ? o->archive_path : "");
+    fputs(", table ", out);
+    md_name(out, o->table ? o->table : COV_DEFAULT_TABLE);
+    fprintf(out, ", %zu rows; runs digest (SHA-256 of the recorded columns) ",
+            f->data ? f->data->n_runs : 0);
+    md_name(out, info->runs_digest ? info->runs_digest : "not computed");
+    fputs("\n- graph: ", out);
+    md_name(out, f->graph->path);
+    fputs("; SHA-256 of the file ", out);
+    md_name(out, info->graph_digest && info->graph_digest[0] ? info->graph_digest : "not computed");
+    fprintf(out, "\n- seed: %lu\n- surveyed (UTC): ", o->coverage.seed);
+    md_text(out, info->generated);
+    fputs("\n\n| option | value | set by |\n|---|---|---|\n", out);
+    cov_audit_option opts[40];
+    size_t n = cov_audit_options(o, opts, sizeof opts / sizeof opts[0]);
+    for (size_t k = 0; k < n; k++) {
+        fputs("| ", out);
+        char name[64];
+        snprintf(name, sizeof name, "--%s", opts[k].name);
+        md_name(out, name);
+        fputs(" | ", out);
+        md_text(out, opts[k].value);
+        fprintf(out, " | %s |\n", opts[k].given ? "command line" : "default");
+    }
+}
+
 /* ---- report.md ------------------------------------------------------------------------------- */
 
 int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE *out)
@@ -67,16 +151,11 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
         fputs("\n", out);
     }
     if (f->data != NULL) {
-        char run_line[512], caution[768];
+        char run_line[512];
         cov_runs_summary(f->data, run_line, sizeof run_line);
         fputs("\nRuns: ", out);
         md_text(out, run_line);
-        fputs(".\n", out);
-        if (cov_runs_caution(f->data, f->graph, caution, sizeof caution)) {
-            fputs("\nCaution: ", out);
-            md_text(out, caution);
-            fputs(".\n", out);
-        }
+        fputs(".\n", out);   /* a conflicting run is among the cautions below */
     }
     if (f->coverage != NULL) {
         char m[32], p2[32], p3[32];
@@ -86,6 +165,15 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
         fprintf(out, "\nCoverage (bins or cells with at least %zu runs): marginal %s, 2-way %s, "
                      "3-way %s.\n", f->coverage->opt.min_runs, m, p2, p3);
     }
+    if (info->next != NULL && info->next->n > 0) {
+        fputs("\n## Next steps\n\n", out);
+        for (size_t k = 0; k < info->next->n; k++) {
+            fprintf(out, "%zu. ", k + 1);
+            md_text(out, info->next->lines[k]);
+            fputs("\n", out);
+        }
+    }
+    md_found_cautions(out, f, info->cautions);
     fputs("\n## Claims\n\n| # | verdict | kind | treatment | outcome | adjustment set | effect of "
           "interest | runs | power | MDE | runs needed | why |\n"
           "|---:|---|---|---|---|---|---|---:|---:|---:|---:|---|\n", out);
@@ -138,6 +226,7 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
                 info->snapshots[r].n_ample, info->snapshots[r].n_underpowered, info->snapshots[r].n_blind);
     }
     cov_report_audit_md(f, out);
+    md_audit(out, f, info);
     fputs("\n## Read with care\n\n", out);
     for (size_t k = 0; k < cov_report_n_cautions; k++)
         fprintf(out, "- %s\n", cov_report_cautions[k]);

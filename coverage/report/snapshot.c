@@ -17,6 +17,8 @@ void cov_snapshot_from_findings(const cov_findings *f, cov_snapshot *r)
     r->marginal_share = f->coverage ? f->coverage->marginal_share : NAN;
     r->pairwise_share = f->coverage ? f->coverage->pairwise_share : NAN;
     r->threeway_share = f->coverage ? f->coverage->threeway_share : NAN;
+    if (f->data != NULL) cov_data_digest(f->graph, f->data, r->digest);
+    else r->digest[0] = '\0';
 }
 
 int cov_report_history_record(const char *db_path, int create_file, const cov_findings *f,

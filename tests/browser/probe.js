@@ -13,7 +13,7 @@ window.addEventListener('load', function () {
     if (box.width === 0 || box.height === 0) problems.push('svg ' + (i + 1) + ' has no size');
   });
   // The plots: each an inline <svg> of its own figure, drawn with a size.
-  var plots = document.querySelectorAll('figure > svg').length;
+  var plots = document.querySelectorAll('figure svg').length;
   // Ids unique across the whole document, so no plot's references land in another plot.
   var seen = {}, dups = 0;
   document.querySelectorAll('[id]').forEach(function (el) {
