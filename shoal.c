@@ -338,7 +338,7 @@ int main(int argc, char **argv)
     o.version = SHOAL_VERSION;
     /* getopt_long permutes argv; the audit trail keeps the command line as it was typed. */
     /* Held by a static so that an early exit (usage errors) leaves nothing unreachable. */
-    static char **typed;
+    static char **volatile typed;   /* volatile: kept in memory, so LeakSanitizer sees it */
     typed = malloc(((size_t)argc + 1) * sizeof *typed);
     if (typed == NULL) {
         fprintf(stderr, "shoal: out of memory\n");
