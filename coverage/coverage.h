@@ -280,6 +280,17 @@ typedef struct {
     int one_sided;        /* 1: one-sided tests where the edge gives a sign */
 } cov_power_options;
 
+/* How much of an outcome's variance the runs' seeds explain when seeds are shared across
+ * configurations (common random numbers): one block per seed that two or more of the runs share,
+ * the other runs in no block; the F test of the blocks added to a regression. */
+typedef struct {
+    size_t blocks;        /* seed blocks; 0: not measured (no seed shared by two of the runs) */
+    size_t unblocked;     /* runs in no block (their seed is in no other run, or they have none) */
+    double share;         /* partial R^2 of the blocks given the regressors; NAN: not measured */
+    double var_drop;      /* the residual variance estimate's drop with the blocks, df counted */
+    double f, df1, df2, p;    /* the F test of the blocks */
+} cov_seed_share;
+
 typedef struct {
     size_t claim;         /* index into the claims */
     size_t n;             /* complete cases used */
@@ -319,6 +330,11 @@ typedef struct {
     size_t fixed_var;     /* untestable on these runs: the outcome or treatment that takes one
                              value in every run the claim uses; SIZE_MAX when none */
     double fixed_value;   /* that value (level index for a level set), or NAN */
+    /* Seed blocks (coverage/assess/seedblock.c; README.md, "Seed blocks"). */
+    cov_seed_share seed;  /* how much of the claim's residual variance the seeds explain */
+    int seed_blocks_used; /* 1: estimate, se, df, sigma, power, MDE and runs needed are the
+                             blocked model's (runs needed then assumes more runs reuse the seeds) */
+    double power_unblocked;   /* with blocks used: the power without them; NAN otherwise */
 } cov_assessment;
 
 /* The value a variable never leaves, as text: the level name, true/false, or the number. */
@@ -329,6 +345,8 @@ typedef struct {
     size_t n_testable;    /* the family size used for Bonferroni */
     cov_assessment *items;    /* one per claim, in claim order */
     size_t n;
+    cov_seed_share *seed_outcome;   /* per variable: each complete outcome given every complete
+                                       input; NULL when no two runs share a seed */
 } cov_assessments;
 
 /* Assess every claim of c (derived from g) on the runs d (read against g): the adjusted

@@ -404,6 +404,50 @@ int pw_nested_f(double rss_small, double p_small, double rss_big, double p_big, 
                 double *f, double *pval);
 
 /* ---------------------------------------------------------------------------------------------
+ * Block fixed effects (seed blocks) by the within transformation (power/blocks.c): one mean per
+ * group is taken out of every column, and the regression of the demeaned outcome on the demeaned
+ * predictors gives the slopes and residuals of the regression with one dummy per group (Frisch &
+ * Waugh 1933; Lovell 1963; Wooldridge 2010, sec. 10.5). */
+
+/* Per-group running means of k columns over n_groups groups. Allocated by pw_within_alloc (PW_OK,
+ * PW_EDOM when k or n_groups is 0, PW_ENOMEM), freed by pw_within_free (NULL allowed). */
+typedef struct pw_within pw_within;
+int pw_within_alloc(size_t k, size_t n_groups, pw_within **out);
+void pw_within_free(pw_within *w);
+/* Add a row of k values (none NaN) to its group's mean (Welford 1962). group < n_groups. */
+void pw_within_add_mean(pw_within *w, size_t group, const double *row);
+/* Rows added to group so far (0 after it was moved). */
+double pw_within_count(const pw_within *w, size_t group);
+/* Merge group from into group to (which must not itself have been moved): its rows then count
+ * as rows of to, and pw_within_demean of from uses to's mean. */
+void pw_within_move(pw_within *w, size_t from, size_t to);
+/* Groups holding at least one row. */
+size_t pw_within_groups(const pw_within *w);
+/* out = row less its group's mean (k values). */
+void pw_within_demean(const pw_within *w, size_t group, const double *row, double *out);
+/* Add the demeaned rows to m (k columns): row_at(ctx, i, row, &group) fills row i's k values and
+ * its group for i < n and returns 0 for a row to leave out. PW_OK, PW_EDOM, PW_ENOMEM. */
+int pw_within_accumulate(const pw_within *w, size_t n, size_t k,
+                         int (*row_at)(void *ctx, size_t i, double *row, size_t *group),
+                         void *ctx, pw_moments *m);
+/* The blocked regression: pw_xfit_solve on the demeaned moments within, with a column whose
+ * variance within the groups is below PW_ALIAS_TOL of its variance in raw (the same rows not
+ * demeaned) dropped as constant, and df = n - n_groups - rank (n_groups: groups with rows),
+ * sigma and the SEs rescaled to it. Returns pw_xfit_solve's statuses, PW_EDOM on bad sizes. */
+int pw_within_fit(const pw_moments *within, const pw_moments *raw, const size_t *idx, size_t k,
+                  size_t t, size_t n_groups, pw_xfit **out);
+/* The F test of the blocks: the regression without them (rss_r on df_r) against the one with
+ * them (rss_u on df_u < df_r). partial_r2 = (rss_r - rss_u) / rss_r, the share of the residual
+ * sum of squares the blocks explain; var_drop = 1 - (rss_u / df_u) / (rss_r / df_r), the drop in
+ * the residual variance estimate (it counts the degrees of freedom the blocks cost). PW_OK, or
+ * PW_EFEW when either df is below 1 (figures NAN). */
+typedef struct {
+    double f, df1, df2, p;
+    double partial_r2, var_drop;
+} pw_within_test;
+int pw_within_ftest(double rss_r, double df_r, double rss_u, double df_u, pw_within_test *out);
+
+/* ---------------------------------------------------------------------------------------------
  * Logistic regression (power/logit.c). */
 
 /* Iterations allowed to the IRLS fit: R's glm.fit stops at 25 by default; a well-posed fit needs

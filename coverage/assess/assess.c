@@ -71,6 +71,8 @@ typedef struct {
      * page faults than the diagnostics themselves. */
     double *ws_y, *ws_fit, *ws_keys;
     size_t ws_rows, ws_kk;
+    cov_seed_groups seeds;    /* each run's seed block (seedblock.c); group NULL when none */
+    cov_seed_fit seed_global; /* the global cross-products demeaned by seed block */
 } assess_ctx;
 
 static int is_recorded(const cov_data *d, size_t v)
@@ -135,6 +137,8 @@ static void ctx_free(assess_ctx *x)
     free(x->ws_y);
     free(x->ws_fit);
     free(x->ws_keys);
+    cov_seed_groups_free(&x->seeds);
+    cov_seed_fit_free(&x->seed_global);
 }
 
 /* Make the scratch hold rows x kk keys. */
@@ -154,6 +158,20 @@ static int ctx_scratch(assess_ctx *x, size_t rows, size_t kk)
     x->ws_rows = rows;
     x->ws_kk = kk;
     return COV_OK;
+}
+
+/* Run i's values in the global columns (K of them); always complete. */
+static int global_row(void *ctx, size_t i, double *row)
+{
+    const assess_ctx *x = ctx;
+    for (size_t v = 0; v < x->g->n_vars; v++) {
+        if (x->base[v] == SIZE_MAX) continue;
+        double val = x->d->col[v][i];
+        term tm = {v, dummy_cols(&x->g->vars[v]), x->g->vars[v].type == COV_LEVELS};
+        fill_term(&tm, val, row + x->base[v]);
+        if (x->index_col[v] != SIZE_MAX) row[x->index_col[v]] = val;
+    }
+    return 1;
 }
 
 /* Accumulate the global centred cross-products of every recorded variable without missing cells,
@@ -213,14 +231,7 @@ static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
     if (block == NULL) return COV_ENOMEM;
     size_t nb = 0;
     for (size_t i = 0; i < n; i++) {
-        double *row = block + nb * K;
-        for (size_t v = 0; v < g->n_vars; v++) {
-            if (x->base[v] == SIZE_MAX) continue;
-            double val = d->col[v][i];
-            term tm = {v, dummy_cols(&g->vars[v]), g->vars[v].type == COV_LEVELS};
-            fill_term(&tm, val, row + x->base[v]);
-            if (x->index_col[v] != SIZE_MAX) row[x->index_col[v]] = val;
-        }
+        global_row(x, i, block + nb * K);
         if (++nb == COV_MOMENT_BLOCK || i + 1 == n) {
             if (pw_moments_add_block(x->global, block, nb) != PW_OK) {
                 free(block);
@@ -230,6 +241,11 @@ static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
         }
     }
     free(block);
+    /* Runs that share seeds: the same cross-products demeaned by seed block (seedblock.c). */
+    if (cov_seed_groups_init(d, &x->seeds) != COV_OK) return COV_ENOMEM;
+    if (x->seeds.group != NULL &&
+        cov_seed_within(&x->seeds, n, K, global_row, x, &x->seed_global) != COV_OK)
+        return COV_ENOMEM;
     return COV_OK;
 }
 
@@ -479,12 +495,13 @@ static void global_index(const assess_ctx *x, const layout *lay, size_t *idx)
 static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
                          const pw_moments *m, const size_t *idx, const cov_data *d,
                          const size_t *rows, size_t n_rows, int fast,
-                         const cov_power_options *opt, double alpha, cov_assessment *a)
+                         const cov_seed_fit *seeds, const cov_power_options *opt, double alpha,
+                         cov_assessment *a)
 {
     const cov_graph *g = x->g;
     const cov_var *yv = &g->vars[c->outcome], *xv = &g->vars[c->treatment];
     size_t k = lay->k, t = lay->t;
-    pw_xfit *fit = NULL;
+    pw_xfit *fit = NULL, *bfit = NULL;
     double *yy, *fitted, *keys, *row = NULL;
     int rc = COV_ENOMEM;
     if (pw_xfit_solve(m, idx, k, t, &fit) != PW_OK) goto fail;
@@ -527,8 +544,18 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         pw_xfit_free(fit);
         return assess_planning(g, c, lay, opt, alpha, a);
     }
-    a->df = fit->df;
-    a->sigma = fit->sigma;
+    /* Seed blocks (seedblock.c): measured whenever runs share seeds; when material, a one-column
+     * coefficient or equivalence test takes its figures from the blocked fit tf. */
+    if (cov_seed_measure(seeds, m, idx, k, t, fit, &a->seed, &bfit) != COV_OK) goto fail;
+    pw_test tk = cov_claim_test(g, c, 1, fit->t_rank);
+    a->seed_blocks_used = bfit != NULL && xv->type != COV_LEVELS && fit->t_rank == 1 &&
+                          bfit->t_rank == 1 && bfit->df >= 1 &&
+                          (tk == PW_TEST_COEF_T || tk == PW_TEST_TOST) &&
+                          cov_seed_material(&a->seed, alpha);
+    const pw_xfit *tf = a->seed_blocks_used ? bfit : fit;
+    const pw_moments *tm = a->seed_blocks_used ? seeds->m : m;
+    a->df = tf->df;
+    a->sigma = tf->sigma;
     double syy = pw_moments_at(m, idx[k], idx[k]);
     a->sd_outcome = n > 1 ? sqrt(syy / (n - 1)) : NAN;
     a->effect_raw = effect_per_unit(g, c, a->sd_outcome, a);
@@ -540,18 +567,19 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     dz->sides = cov_claim_sides(opt, c);
     dz->sigma = a->sigma;
     dz->n = n;
-    dz->n_params = 1.0 + (double)(fit->rank - fit->t_rank);
+    dz->n_params = 1.0 + (double)(tf->rank - tf->t_rank) +
+                   (a->seed_blocks_used ? (double)seeds->n_groups - 1.0 : 0.0);
     dz->ncp_per_run = NAN;
     size_t tr = fit->t_rank;
     if (tr == 1) {
         size_t col = 0;
         for (size_t a0 = k - t; a0 < k; a0++)
-            if (fit->kept[a0]) col = a0;
-        double info = fit->treat_info[0];
-        a->sd_treatment_resid = pw_xfit_sd_treatment(fit);
-        a->vif = pw_moments_at(m, idx[col], idx[col]) / info;
-        a->estimate = fit->coef[col];
-        a->se = fit->se[col];
+            if (tf->kept[a0]) col = a0;
+        double info = tf->treat_info[0];
+        a->sd_treatment_resid = pw_xfit_sd_treatment(tf);
+        a->vif = pw_moments_at(tm, idx[col], idx[col]) / info;
+        a->estimate = tf->coef[col];
+        a->se = tf->se[col];
         dz->sd_x_resid = a->sd_treatment_resid;
     } else {
         double q_min, v_max;
@@ -810,10 +838,24 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
      * 1e-9 allows for the root searches' rounding). */
     assert(!(a->power < 0) && !(a->power > 1));
     assert(isnan(a->power_lo) || (a->power_lo <= a->power + 1e-9 && a->power <= a->power_hi + 1e-9));
+    if (a->seed_blocks_used) {
+        /* The same test without the blocks, for comparison. */
+        pw_design e = *dz;
+        e.sigma = fit->sigma;
+        e.sd_x_resid = pw_xfit_sd_treatment(fit);
+        e.n_params = 1.0 + (double)(fit->rank - fit->t_rank);
+        if (pw_power(&e, &a->power_unblocked) != PW_OK) a->power_unblocked = NAN;
+    }
     decide(a, c, opt->target);
+    if (a->seed_blocks_used) {
+        char note[640];
+        cov_seed_note(a, note, sizeof note);
+        note_add(&a->reason, "%s", note);
+    }
     rc = COV_OK;
 fail:
     pw_xfit_free(fit);
+    pw_xfit_free(bfit);
     free(row);
     return rc;
 }
@@ -831,6 +873,8 @@ static void assessment_init(cov_assessment *a, size_t claim)
     a->omnibus_power = a->shape_f = a->shape_p = a->shape_df1 = a->shape_df2 = NAN;
     a->fixed_var = SIZE_MAX;
     a->fixed_value = NAN;
+    a->seed.share = a->seed.var_drop = a->seed.f = a->seed.df1 = a->seed.df2 = NAN;
+    a->seed.p = a->power_unblocked = NAN;
 }
 
 void cov_value_text(const cov_var *v, double x, char *buf, size_t size)
@@ -840,6 +884,20 @@ void cov_value_text(const cov_var *v, double x, char *buf, size_t size)
         snprintf(buf, size, "%s", v->levels[(size_t)x]);
     else if (v->type == COV_BOOL) snprintf(buf, size, "%s", x != 0 ? "true" : "false");
     else snprintf(buf, size, "%.10g", x);
+}
+
+/* A claim's complete rows for its seed blocks (seedblock.c). */
+typedef struct {
+    const cov_data *d;
+    const layout *lay;
+} claim_rows;
+
+static int claim_row(void *ctx, size_t i, double *row)
+{
+    const claim_rows *cr = ctx;
+    if (!row_complete(cr->d, cr->lay, i)) return 0;
+    fill_row(cr->d, cr->lay, i, row);
+    return 1;
 }
 
 /* One claim: pick the fast path or accumulate its own complete cases, then fit and size it. */
@@ -853,6 +911,7 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
     pw_moments *local = NULL;
     double *row = NULL;
     gsl_rng *r = NULL;
+    cov_seed_fit sf = {NULL, 0, 0, 0};
     int rc = build_layout(g, c, &lay);
     if (rc != COV_OK) goto fail;
     for (size_t j = 0; j < lay.n_terms; j++) {
@@ -875,7 +934,7 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
         global_index(x, &lay, idx);
         a->n = d->n_runs;
         rc = assess_fitted(x, c, &lay, x->global, idx, &x->sampled, x->sample_ids, x->n_sample, 1,
-                           opt, alpha, a);
+                           &x->seed_global, opt, alpha, a);
         goto fail;
     }
     /* Complete cases of this claim: count them, then accumulate and sample in one more pass. */
@@ -900,8 +959,15 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
         pw_moments_add(local, row);
         if (sample_keep(r, &want, left--)) rows[n_rows++] = i;
     }
-    rc = assess_fitted(x, c, &lay, local, idx, d, rows, n_rows, 0, opt, alpha, a);
+    claim_rows cr = {d, &lay};
+    if (x->seeds.group != NULL &&
+        cov_seed_within(&x->seeds, d->n_runs, lay.k + 1, claim_row, &cr, &sf) != COV_OK) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    rc = assess_fitted(x, c, &lay, local, idx, d, rows, n_rows, 0, &sf, opt, alpha, a);
 fail:
+    cov_seed_fit_free(&sf);
     free(lay.terms);
     free(idx);
     free(rows);
@@ -961,6 +1027,8 @@ int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
         }
         if (rc != COV_OK) goto fail;
     }
+    rc = cov_seed_outcomes(g, x.global, &x.seed_global, x.base, x.index_col, &as->seed_outcome);
+    if (rc != COV_OK) goto fail;
     ctx_free(&x);
     *out = as;
     return COV_OK;
@@ -981,6 +1049,7 @@ void cov_assessments_free(cov_assessments *a)
             free(a->items[i].caution);
         }
     free(a->items);
+    free(a->seed_outcome);
     free(a);
 }
 

@@ -62,6 +62,50 @@ cov_verdict cov_claim_verdict(const cov_claim *c, const cov_assessment *a);
  * reason when it is untestable. */
 const char *cov_claim_verdict_reason(const cov_claim *c, const cov_assessment *a);
 
+/* ---- seed blocks (coverage/assess/seedblock.c) ------------------------------------------------ */
+
+/* Each run's seed block over the whole archive: runs whose seed another run also used share a
+ * block; every other run (its seed in no other run, or none) is in group n_groups - 1, no block.
+ * group is NULL when no two runs share a seed (or the graph declares no seed column). */
+typedef struct {
+    size_t *group;
+    size_t n_groups;
+} cov_seed_groups;
+int cov_seed_groups_init(const cov_data *d, cov_seed_groups *out);   /* COV_OK, COV_ENOMEM */
+void cov_seed_groups_free(cov_seed_groups *s);
+
+/* The regression columns of run i (kk values) for a claim: 1 when complete, 0 to leave it out. */
+typedef int (*cov_row_fn)(void *ctx, size_t i, double *row);
+/* A claim's columns demeaned by seed block over the rows fill accepts. A block that holds one of
+ * those rows only is no block for them: that row joins the runs in no block. m is NULL when no
+ * block holds two rows (nothing to measure). */
+typedef struct {
+    pw_moments *m;        /* the demeaned cross-products, or NULL */
+    size_t n_groups;      /* groups with rows: the blocks, plus one when some rows are in none */
+    size_t blocks, unblocked;
+} cov_seed_fit;
+int cov_seed_within(const cov_seed_groups *s, size_t n, size_t kk, cov_row_fn fill, void *ctx,
+                    cov_seed_fit *out);   /* COV_OK, COV_ENOMEM */
+void cov_seed_fit_free(cov_seed_fit *f);
+/* The blocked regression of the columns idx (as pw_xfit_solve; raw the same rows' moments not
+ * demeaned) beside fit, the one without blocks: the F test of the blocks in *out (NAN figures and
+ * blocks 0 when it cannot be formed) and the blocked fit in *blocked (the caller's; NULL then).
+ * COV_OK or COV_ENOMEM. */
+int cov_seed_measure(const cov_seed_fit *sf, const pw_moments *raw, const size_t *idx, size_t k,
+                     size_t t, const pw_xfit *fit, cov_seed_share *out, pw_xfit **blocked);
+/* Whether the blocks are material at the claim's level alpha: their F test significant at alpha
+ * and the residual variance estimate at least 10% lower with them (seedblock.c says why). */
+int cov_seed_material(const cov_seed_share *sh, double alpha);
+/* One sentence on a's seed blocks (empty when none were measured): the share, the F test, and
+ * when used the power without them and the assumption that further runs reuse the seeds. */
+void cov_seed_note(const cov_assessment *a, char *buf, size_t size);
+/* Per variable: each outcome whose column is complete against every complete input, with and
+ * without the seed blocks of sf (the archive's demeaned global cross-products; raw the global
+ * ones, base and index_col their first column per variable or SIZE_MAX). *out is NULL when sf
+ * holds no blocks, else the caller's (free). COV_OK, COV_ENOMEM. */
+int cov_seed_outcomes(const cov_graph *g, const pw_moments *raw, const cov_seed_fit *sf,
+                      const size_t *base, const size_t *index_col, cov_seed_share **out);
+
 /* ---- the rules every command shares (coverage/assess/rules.c) -------------------------------- */
 
 /* The per-claim level after the family correction: alpha / m over the m = n_testable testable

@@ -153,6 +153,16 @@ static rec_value get_shape_pure(rec_row *r)
     return r->a && isfinite(r->a->shape_f) ? v_bool(r->a->shape_pure) : v_null();
 }
 static rec_value get_caution(rec_row *r) { return r->a ? v_text(r->a->caution) : v_null(); }
+/* Seed blocks (coverage/assess/seedblock.c): whether the test used them, how many there were. */
+static rec_value get_seed_used(rec_row *r) { return r->a ? v_bool(r->a->seed_blocks_used) : v_null(); }
+static rec_value get_seed_blocks(rec_row *r)
+{
+    return r->a ? v_count((long long)r->a->seed.blocks) : v_null();
+}
+static rec_value get_seed_unblocked(rec_row *r)
+{
+    return r->a && r->a->seed.blocks > 0 ? v_count((long long)r->a->seed.unblocked) : v_null();
+}
 
 static rec_value get_runs(rec_row *r) { return r->s ? v_count((long long)r->s->n) : v_null(); }
 static rec_value get_distinct(rec_row *r)
@@ -249,6 +259,17 @@ static const rec_field fields[] = {
     /* untestable on these runs: the variable that never varies, and its value */
     GET("never_varies", COV_RECORD_ASSESS, get_fixed_var),
     GET("never_varies_value", COV_RECORD_ASSESS, get_fixed_value),
+    /* seed blocks: shared seeds as fixed effects in the claim's regression */
+    GET("seed_blocks_used", COV_RECORD_ASSESS, get_seed_used),
+    GET("seed_blocks", COV_RECORD_ASSESS, get_seed_blocks),
+    GET("seed_unblocked_runs", COV_RECORD_ASSESS, get_seed_unblocked),
+    A_NUM("seed_share", seed.share),
+    A_NUM("seed_variance_drop", seed.var_drop),
+    A_NUM("seed_f", seed.f),
+    A_NUM("seed_df1", seed.df1),
+    A_NUM("seed_df2", seed.df2),
+    A_NUM("seed_p", seed.p),
+    A_NUM("power_unblocked", power_unblocked),
     /* its support in the runs, as `shoal coverage` and the survey print it */
     GET("runs", COV_RECORD_SUPPORT, get_runs),
     GET("distinct", COV_RECORD_SUPPORT, get_distinct),
