@@ -285,7 +285,8 @@ typedef struct {
  * the other runs in no block; the F test of the blocks added to a regression. */
 typedef struct {
     size_t blocks;        /* seed blocks; 0: not measured (no seed shared by two of the runs) */
-    size_t unblocked;     /* runs in no block (their seed is in no other run, or they have none) */
+    size_t unblocked;     /* runs in a block of their own (their seed is in no other run of the
+                             regression, or they have none): they add nothing to a blocked test */
     double share;         /* partial R^2 of the blocks given the regressors; NAN: not measured */
     double var_drop;      /* the residual variance estimate's drop with the blocks, df counted */
     double f, df1, df2, p;    /* the F test of the blocks */

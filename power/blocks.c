@@ -15,7 +15,6 @@ struct pw_within {
     size_t k, n_groups;
     double *count;     /* rows per group */
     double *mean;      /* n_groups * k running means */
-    size_t *to;        /* the group whose mean a group's rows are demeaned by (itself unless moved) */
 };
 
 int pw_within_alloc(size_t k, size_t n_groups, pw_within **out)
@@ -28,12 +27,10 @@ int pw_within_alloc(size_t k, size_t n_groups, pw_within **out)
     w->n_groups = n_groups;
     w->count = calloc(n_groups, sizeof *w->count);
     w->mean = calloc(n_groups * k, sizeof *w->mean);
-    w->to = malloc(n_groups * sizeof *w->to);
-    if (w->count == NULL || w->mean == NULL || w->to == NULL) {
+    if (w->count == NULL || w->mean == NULL) {
         pw_within_free(w);
         return PW_ENOMEM;
     }
-    for (size_t g = 0; g < n_groups; g++) w->to[g] = g;
     *out = w;
     return PW_OK;
 }
@@ -43,14 +40,12 @@ void pw_within_free(pw_within *w)
     if (w == NULL) return;
     free(w->count);
     free(w->mean);
-    free(w->to);
     free(w);
 }
 
 /* Welford's (1962) running mean per group: no large sums are formed and subtracted. */
 void pw_within_add_mean(pw_within *w, size_t group, const double *row)
 {
-    group = w->to[group];
     double n1 = ++w->count[group];
     double *mu = w->mean + group * w->k;
     for (size_t j = 0; j < w->k; j++) mu[j] += (row[j] - mu[j]) / n1;
@@ -61,30 +56,10 @@ double pw_within_count(const pw_within *w, size_t group)
     return group < w->n_groups ? w->count[group] : 0.0;
 }
 
-void pw_within_move(pw_within *w, size_t from, size_t to)
-{
-    if (from == to || from >= w->n_groups || to >= w->n_groups || w->to[to] != to) return;
-    w->to[from] = to;
-    if (w->count[from] == 0) return;
-    double a = w->count[to], b = w->count[from], n = a + b;
-    double *mt = w->mean + to * w->k, *mf = w->mean + from * w->k;
-    /* The mean of two groups from their means (Chan, Golub & LeVeque 1983, eq. 2.1). */
-    for (size_t j = 0; j < w->k; j++) mt[j] += (mf[j] - mt[j]) * b / n;
-    w->count[to] = n;
-    w->count[from] = 0;
-    memset(mf, 0, w->k * sizeof *mf);
-}
-
-size_t pw_within_groups(const pw_within *w)
-{
-    size_t g = 0;
-    for (size_t i = 0; i < w->n_groups; i++) g += w->count[i] > 0;
-    return g;
-}
 
 void pw_within_demean(const pw_within *w, size_t group, const double *row, double *out)
 {
-    const double *mu = w->mean + w->to[group] * w->k;
+    const double *mu = w->mean + group * w->k;
     for (size_t j = 0; j < w->k; j++) out[j] = row[j] - mu[j];
 }
 

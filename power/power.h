@@ -416,13 +416,8 @@ int pw_within_alloc(size_t k, size_t n_groups, pw_within **out);
 void pw_within_free(pw_within *w);
 /* Add a row of k values (none NaN) to its group's mean (Welford 1962). group < n_groups. */
 void pw_within_add_mean(pw_within *w, size_t group, const double *row);
-/* Rows added to group so far (0 after it was moved). */
+/* Rows added to group so far. */
 double pw_within_count(const pw_within *w, size_t group);
-/* Merge group from into group to (which must not itself have been moved): its rows then count
- * as rows of to, and pw_within_demean of from uses to's mean. */
-void pw_within_move(pw_within *w, size_t from, size_t to);
-/* Groups holding at least one row. */
-size_t pw_within_groups(const pw_within *w);
 /* out = row less its group's mean (k values). */
 void pw_within_demean(const pw_within *w, size_t group, const double *row, double *out);
 /* Add the demeaned rows to m (k columns): row_at(ctx, i, row, &group) fills row i's k values and
@@ -432,8 +427,8 @@ int pw_within_accumulate(const pw_within *w, size_t n, size_t k,
                          void *ctx, pw_moments *m);
 /* The blocked regression: pw_xfit_solve on the demeaned moments within, with a column whose
  * variance within the groups is below PW_ALIAS_TOL of its variance in raw (the same rows not
- * demeaned) dropped as constant, and df = n - n_groups - rank (n_groups: groups with rows),
- * sigma and the SEs rescaled to it. Returns pw_xfit_solve's statuses, PW_EDOM on bad sizes. */
+ * demeaned) dropped as constant, and df = n - n_groups - rank (n the rows of within, n_groups
+ * the groups among them), sigma and the SEs rescaled to it. Returns pw_xfit_solve's statuses, PW_EDOM on bad sizes. */
 int pw_within_fit(const pw_moments *within, const pw_moments *raw, const size_t *idx, size_t k,
                   size_t t, size_t n_groups, pw_xfit **out);
 /* The F test of the blocks: the regression without them (rss_r on df_r) against the one with

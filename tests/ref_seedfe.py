@@ -6,8 +6,8 @@
 # df equal the C(block) model's, and the power equals scipy's noncentral t at that model's SE;
 # where it does not, they equal the model without blocks. Tolerance 1e-8 relative (shoal prints
 # 10 significant digits; both fits are backward stable, and the design's condition number is
-# below 1e3, so they agree to about 1e-12). The blocks are formed here independently of shoal:
-# a seed that two or more of the claim's runs share is a block, every other run is in none.
+# below 1e3, so they agree to about 1e-12). The blocks are formed here independently of shoal,
+# one effect per seed: a run whose seed no other of the claim's runs used is a block of its own.
 # See LICENSE.
 import json
 import os
@@ -113,18 +113,18 @@ with tempfile.TemporaryDirectory() as tmp:
         name = "%s %s %s" % (x, "->" if c["kind"] == "effect" else "-0->", y)
         d = runs.dropna(subset=[x, y] + S).copy()
         counts = d["seed"].map(d["seed"].value_counts())
-        d["block"] = np.where(counts >= 2, d["seed"].astype(str), "none")
-        blocks = d.loc[d["block"] != "none", "block"].nunique()
+        own = counts < 2
+        d["block"] = np.where(own, "own" + d.index.astype(str), d["seed"].astype(str))
+        blocks = d.loc[~own, "block"].nunique()
         rhs = " + ".join([x] + S)
         small = smf.ols("%s ~ %s" % (y, rhs), data=d).fit()
         big = smf.ols("%s ~ %s + C(block)" % (y, rhs), data=d).fit()
         an = anova_lm(small, big)
         f_sm, df1_sm, p_sm = an["F"][1], an["df_diff"][1], an["Pr(>F)"][1]
         share_sm = (small.ssr - big.ssr) / small.ssr
-        report(c["seed_blocks"] == blocks and c["seed_unblocked_runs"] == int((d["block"] ==
-               "none").sum()), "%s: %s seed blocks and %s runs in none (pandas %d, %d)"
-               % (name, c["seed_blocks"], c["seed_unblocked_runs"], blocks,
-                  (d["block"] == "none").sum()))
+        report(c["seed_blocks"] == blocks and c["seed_unblocked_runs"] == int(own.sum()),
+               "%s: %s shared seed blocks and %s runs on seeds of their own (pandas %d, %d)"
+               % (name, c["seed_blocks"], c["seed_unblocked_runs"], blocks, own.sum()))
         report(close(c["seed_f"], f_sm) and c["seed_df1"] == df1_sm and
                c["seed_df2"] == big.df_resid and close(c["seed_p"], p_sm) if p_sm > 1e-300
                else c["seed_p"] == 0 or c["seed_p"] < 1e-290,
@@ -136,11 +136,20 @@ with tempfile.TemporaryDirectory() as tmp:
         report(close(c["seed_share"], share_sm), "%s: seed share %.10g (statsmodels %.10g)"
                % (name, c["seed_share"], share_sm))
         s2s, s2b = small.ssr / small.df_resid, big.ssr / big.df_resid
+
+        def t_power(fit):
+            # Power of the two-sided t test at the effect of interest: ncp = effect / SE
+            # (scipy's noncentral t; tests/REFERENCES.md 1a's method).
+            ncp = c["effect_raw"] / fit.bse[x]
+            tc = stats.t.isf(c["alpha"] / 2, fit.df_resid)
+            return stats.nct.sf(tc, fit.df_resid, ncp) + stats.nct.cdf(-tc, fit.df_resid, ncp)
         material = p_sm < c["alpha"] and 1 - s2b / s2s >= 0.10
-        report(c["seed_blocks_used"] == material,
-               "%s: blocks used %s; the rule (F p %.3g < alpha %.4g and variance drop %.3f >= "
-               "0.10) says %s" % (name, c["seed_blocks_used"], p_sm, c["alpha"], 1 - s2b / s2s,
-                                  material))
+        stronger = t_power(big) >= t_power(small) if c["test"] == "coefficient t" else True
+        report(c["seed_blocks_used"] == (material and stronger),
+               "%s: blocks used %s; the rule (F p %.3g < alpha %.4g, variance drop %.3f >= "
+               "0.10, blocked power not lower) says %s" % (name, c["seed_blocks_used"], p_sm,
+                                                          c["alpha"], 1 - s2b / s2s,
+                                                          material and stronger))
         ref = big if c["seed_blocks_used"] else small
         used_any += c["seed_blocks_used"]
         unused_any += not c["seed_blocks_used"]
@@ -152,16 +161,33 @@ with tempfile.TemporaryDirectory() as tmp:
                   "C(block)" if c["seed_blocks_used"] else "unblocked", ref.params[x],
                   ref.bse[x], ref.df_resid, np.sqrt(ref.scale)))
         if c["test"] == "coefficient t":
-            # Power of the two-sided t test at the effect of interest: ncp = effect / SE
-            # (scipy's noncentral t; tests/REFERENCES.md 1a's method).
-            ncp = c["effect_raw"] / ref.bse[x]
-            tc = stats.t.isf(c["alpha"] / 2, ref.df_resid)
-            pw = stats.nct.sf(tc, ref.df_resid, ncp) + stats.nct.cdf(-tc, ref.df_resid, ncp)
+            pw = t_power(ref)
             report(rel(c["power"], pw) <= 1e-6,
                    "%s: power %.8g equals scipy's noncentral t %.8g on the %s model (1e-6, the "
                    "root searches' tolerance)" % (name, c["power"], pw,
                                                  "blocked" if c["seed_blocks_used"] else
                                                  "unblocked"))
+            if c["seed_blocks_used"]:
+                pu = t_power(small)
+                report(rel(c["power_unblocked"], pu) <= 1e-6, "%s: power without blocks %.8g "
+                       "equals scipy's %.8g on the unblocked model (1e-6)"
+                       % (name, c["power_unblocked"], pu))
+    # Per outcome: the outcome on every input, without and with C(block) over all runs.
+    seeds = json.loads(p.stdout)["seed_blocks"] if claims else []
+    counts = runs["seed"].map(runs["seed"].value_counts())
+    runs = runs.assign(block=np.where(counts >= 2, runs["seed"].astype(str),
+                                      "own" + runs.index.astype(str)))
+    for o in ("delay", "misroutes"):
+        got = [e for e in seeds if e["outcome"] == o]
+        small = smf.ols("%s ~ speed + sorters + express" % o, data=runs).fit()
+        big = smf.ols("%s ~ speed + sorters + express + C(block)" % o, data=runs).fit()
+        an = anova_lm(small, big)
+        share = (small.ssr - big.ssr) / small.ssr
+        report(len(got) == 1 and close(got[0]["share"], share) and close(got[0]["f"], an["F"][1])
+               and got[0]["df1"] == an["df_diff"][1] and got[0]["df2"] == big.df_resid,
+               "outcome %s: seed share %s and F %s on every input equal statsmodels' %.10g, %.10g "
+               "(1e-8 relative)" % (o, got[0]["share"] if got else None,
+                                    got[0]["f"] if got else None, share, an["F"][1]))
     report(used_any >= 1 and unused_any >= 1, "the campaign has claims with seed blocks used (%d) "
            "and not used (%d)" % (used_any, unused_any))
 

@@ -547,11 +547,14 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     /* Seed blocks (seedblock.c): measured whenever runs share seeds; when material, a one-column
      * coefficient or equivalence test takes its figures from the blocked fit tf. */
     if (cov_seed_measure(seeds, m, idx, k, t, fit, &a->seed, &bfit) != COV_OK) goto fail;
-    pw_test tk = cov_claim_test(g, c, 1, fit->t_rank);
-    a->seed_blocks_used = bfit != NULL && xv->type != COV_LEVELS && fit->t_rank == 1 &&
-                          bfit->t_rank == 1 && bfit->df >= 1 &&
-                          (tk == PW_TEST_COEF_T || tk == PW_TEST_TOST) &&
-                          cov_seed_material(&a->seed, alpha);
+    if (bfit != NULL && xv->type != COV_LEVELS) {
+        pw_design e = {.test = cov_claim_test(g, c, 1, fit->t_rank), .alpha = alpha,
+                       .sides = cov_claim_sides(opt, c), .target = opt->target, .n = n,
+                       .ncp_per_run = NAN};
+        e.effect = effect_per_unit(g, c, n > 1 ? sqrt(pw_moments_at(m, idx[k], idx[k]) / (n - 1))
+                                                : NAN, a);
+        a->seed_blocks_used = cov_seed_choose(&a->seed, &e, fit, bfit, &a->power_unblocked);
+    }
     const pw_xfit *tf = a->seed_blocks_used ? bfit : fit;
     const pw_moments *tm = a->seed_blocks_used ? seeds->m : m;
     a->df = tf->df;
@@ -567,8 +570,8 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     dz->sides = cov_claim_sides(opt, c);
     dz->sigma = a->sigma;
     dz->n = n;
-    dz->n_params = 1.0 + (double)(tf->rank - tf->t_rank) +
-                   (a->seed_blocks_used ? (double)seeds->n_groups - 1.0 : 0.0);
+    dz->n_params = a->seed_blocks_used ? cov_seed_n_params(tf, &a->seed)
+                                       : 1.0 + (double)(tf->rank - tf->t_rank);
     dz->ncp_per_run = NAN;
     size_t tr = fit->t_rank;
     if (tr == 1) {
@@ -838,14 +841,6 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
      * 1e-9 allows for the root searches' rounding). */
     assert(!(a->power < 0) && !(a->power > 1));
     assert(isnan(a->power_lo) || (a->power_lo <= a->power + 1e-9 && a->power <= a->power_hi + 1e-9));
-    if (a->seed_blocks_used) {
-        /* The same test without the blocks, for comparison. */
-        pw_design e = *dz;
-        e.sigma = fit->sigma;
-        e.sd_x_resid = pw_xfit_sd_treatment(fit);
-        e.n_params = 1.0 + (double)(fit->rank - fit->t_rank);
-        if (pw_power(&e, &a->power_unblocked) != PW_OK) a->power_unblocked = NAN;
-    }
     decide(a, c, opt->target);
     if (a->seed_blocks_used) {
         char note[640];

@@ -65,8 +65,9 @@ const char *cov_claim_verdict_reason(const cov_claim *c, const cov_assessment *a
 /* ---- seed blocks (coverage/assess/seedblock.c) ------------------------------------------------ */
 
 /* Each run's seed block over the whole archive: runs whose seed another run also used share a
- * block; every other run (its seed in no other run, or none) is in group n_groups - 1, no block.
- * group is NULL when no two runs share a seed (or the graph declares no seed column). */
+ * block; every other run (its seed in no other run, or none) is in group n_groups - 1, which
+ * stands for a block of its own per run. group is NULL when no two runs share a seed (or the
+ * graph declares no seed column). */
 typedef struct {
     size_t *group;
     size_t n_groups;
@@ -76,13 +77,15 @@ void cov_seed_groups_free(cov_seed_groups *s);
 
 /* The regression columns of run i (kk values) for a claim: 1 when complete, 0 to leave it out. */
 typedef int (*cov_row_fn)(void *ctx, size_t i, double *row);
-/* A claim's columns demeaned by seed block over the rows fill accepts. A block that holds one of
- * those rows only is no block for them: that row joins the runs in no block. m is NULL when no
- * block holds two rows (nothing to measure). */
+/* A claim's columns demeaned by seed block over the rows fill accepts. A row whose seed no other
+ * of those rows has (or that has none) is a block of its own: it demeans to zero and is left out
+ * of m, though it still counts as a run and a block. m is NULL when no seed is shared by two of
+ * the rows (nothing to measure). */
 typedef struct {
-    pw_moments *m;        /* the demeaned cross-products, or NULL */
-    size_t n_groups;      /* groups with rows: the blocks, plus one when some rows are in none */
-    size_t blocks, unblocked;
+    pw_moments *m;        /* the demeaned cross-products of the rows in shared blocks, or NULL */
+    size_t n_groups;      /* the shared blocks (= blocks) */
+    size_t blocks;        /* seeds shared by two or more rows */
+    size_t unblocked;     /* rows in blocks of their own */
 } cov_seed_fit;
 int cov_seed_within(const cov_seed_groups *s, size_t n, size_t kk, cov_row_fn fill, void *ctx,
                     cov_seed_fit *out);   /* COV_OK, COV_ENOMEM */
@@ -96,6 +99,16 @@ int cov_seed_measure(const cov_seed_fit *sf, const pw_moments *raw, const size_t
 /* Whether the blocks are material at the claim's level alpha: their F test significant at alpha
  * and the residual variance estimate at least 10% lower with them (seedblock.c says why). */
 int cov_seed_material(const cov_seed_share *sh, double alpha);
+/* The pw_design n_params of the blocked test: the blocked fit's columns, blocks - 1 and the rows
+ * in blocks of their own. */
+double cov_seed_n_params(const pw_xfit *blocked, const cov_seed_share *sh);
+/* Whether the claim's test uses the blocks: a one-column coefficient t or equivalence test
+ * (base->test) whose treatment varies within the blocks, the blocks material at base->alpha, and
+ * the blocked test (blocked's sigma and sd(X | S, blocks)) at least as powerful at base->effect as
+ * the unblocked one (fit's), whose power is then written to *power_unblocked (else NAN). base
+ * holds the claim's test, level, sides, target, effect and n. */
+int cov_seed_choose(const cov_seed_share *sh, const pw_design *base, const pw_xfit *fit,
+                    const pw_xfit *blocked, double *power_unblocked);
 /* One sentence on a's seed blocks (empty when none were measured): the share, the F test, and
  * when used the power without them and the assumption that further runs reuse the seeds. */
 void cov_seed_note(const cov_assessment *a, char *buf, size_t size);

@@ -56,7 +56,7 @@ int cov_seed_groups_init(const cov_data *d, cov_seed_groups *out)
         return COV_ENOMEM;
     }
     out->n_groups = shared + 1;
-    for (size_t i = 0; i < n; i++) out->group[i] = shared;   /* no block until shown otherwise */
+    for (size_t i = 0; i < n; i++) out->group[i] = shared;   /* a block of its own until shown */
     size_t b = 0;
     for (size_t i = 0; i < m;) {
         size_t j = i;
@@ -81,14 +81,16 @@ void cov_seed_groups_free(cov_seed_groups *s)
 
 typedef struct {
     const cov_seed_groups *s;
+    const unsigned char *block;   /* per group: 1 when it holds two or more of the claim's rows */
     cov_row_fn fill;
     void *ctx;
 } fill_ctx;
 
+/* A row in a block of its own demeans to zero: it adds nothing to the cross-products. */
 static int row_at(void *c, size_t i, double *row, size_t *group)
 {
     fill_ctx *f = c;
-    if (!f->fill(f->ctx, i, row)) return 0;
+    if (!f->block[f->s->group[i]] || !f->fill(f->ctx, i, row)) return 0;
     *group = f->s->group[i];
     return 1;
 }
@@ -100,26 +102,32 @@ int cov_seed_within(const cov_seed_groups *s, size_t n, size_t kk, cov_row_fn fi
     if (s->group == NULL || kk == 0) return COV_OK;
     pw_within *w = NULL;
     double *row = malloc(kk * sizeof *row);
+    unsigned char *block = calloc(s->n_groups, 1);
     int rc = COV_ENOMEM;
-    if (row == NULL || pw_within_alloc(kk, s->n_groups, &w) != PW_OK) goto fail;
-    size_t none = s->n_groups - 1;
+    if (row == NULL || block == NULL || pw_within_alloc(kk, s->n_groups, &w) != PW_OK) goto fail;
+    size_t own = s->n_groups - 1;
     for (size_t i = 0; i < n; i++)
         if (fill(ctx, i, row)) pw_within_add_mean(w, s->group[i], row);
-    /* A seed that only one of the claim's runs used is no block for this claim: that run joins
-     * the runs in no block (a block of one would absorb it and cost a degree of freedom). */
-    for (size_t b = 0; b < none; b++) {
+    /* A seed that only one of the claim's runs used, like a run without a seed, is a block of its
+     * own: with one effect per seed in the model that run is fitted exactly, adds nothing to the
+     * test and costs a degree of freedom. */
+    for (size_t b = 0; b < own; b++) {
         double c = pw_within_count(w, b);
-        if (c >= 2) out->blocks++;
-        else if (c == 1) pw_within_move(w, b, none);
+        if (c >= 2) {
+            block[b] = 1;
+            out->blocks++;
+        } else {
+            out->unblocked += (size_t)c;
+        }
     }
-    out->unblocked = (size_t)pw_within_count(w, none);
-    out->n_groups = pw_within_groups(w);
+    out->unblocked += (size_t)pw_within_count(w, own);
+    out->n_groups = out->blocks;
     if (out->blocks == 0) {
         rc = COV_OK;
         goto fail;
     }
     if (pw_moments_alloc(kk, &out->m) != PW_OK) goto fail;
-    fill_ctx fc = {s, fill, ctx};
+    fill_ctx fc = {s, block, fill, ctx};
     if (pw_within_accumulate(w, n, kk, row_at, &fc, out->m) != PW_OK) goto fail;
     rc = COV_OK;
 fail:
@@ -129,6 +137,7 @@ fail:
         out->blocks = 0;
     }
     free(row);
+    free(block);
     pw_within_free(w);
     return rc;
 }
@@ -156,6 +165,11 @@ int cov_seed_measure(const cov_seed_fit *sf, const pw_moments *raw, const size_t
     int rc = pw_within_fit(sf->m, raw, idx, k, t, sf->n_groups, &b);
     if (rc == PW_ENOMEM) return COV_ENOMEM;
     if (rc != PW_OK) return COV_OK;
+    /* The rows in blocks of their own were left out of the moments, and rightly: each is fitted
+     * exactly by its own seed's effect, so the residual df, n - (blocks + those rows) - rank, is
+     * already the df of the moments' rows less their blocks. Each still counts as a run of the
+     * claim: sd(X | S, blocks) has divisor n, as every sd(X | S) in shoal. */
+    b->n = fit->n;
     pw_within_test wt;
     if (pw_within_ftest(fit->rss, fit->df, b->rss, b->df, &wt) != PW_OK) {
         pw_xfit_free(b);
@@ -178,15 +192,50 @@ int cov_seed_material(const cov_seed_share *sh, double alpha)
     return sh->blocks > 0 && sh->p < alpha && sh->var_drop >= COV_SEED_MIN_DROP;
 }
 
+double cov_seed_n_params(const pw_xfit *blocked, const cov_seed_share *sh)
+{
+    /* Intercept and the kept adjustment columns, then one effect per block beyond the first and
+     * one per run in a block of its own: df = n - n_params - 1 is the blocked fit's df. */
+    return 1.0 + (double)(blocked->rank - blocked->t_rank) + (double)(sh->blocks - 1) +
+           (double)sh->unblocked;
+}
+
+int cov_seed_choose(const cov_seed_share *sh, const pw_design *base, const pw_xfit *fit,
+                    const pw_xfit *blocked, double *power_unblocked)
+{
+    *power_unblocked = NAN;
+    if (blocked == NULL || fit->t != 1 || fit->t_rank != 1 || blocked->t_rank != 1 ||
+        !(blocked->df >= 1) || !(blocked->sigma > 0) ||
+        (base->test != PW_TEST_COEF_T && base->test != PW_TEST_TOST) ||
+        !cov_seed_material(sh, base->alpha))
+        return 0;
+    pw_design u = *base, b = *base;
+    u.sigma = fit->sigma;
+    u.sd_x_resid = pw_xfit_sd_treatment(fit);
+    u.n_params = 1.0 + (double)(fit->rank - fit->t_rank);
+    b.sigma = blocked->sigma;
+    b.sd_x_resid = pw_xfit_sd_treatment(blocked);
+    b.n_params = cov_seed_n_params(blocked, sh);
+    double pu = NAN, pb = NAN;
+    if (pw_power(&u, &pu) != PW_OK || pw_power(&b, &pb) != PW_OK) return 0;
+    /* Runs in blocks of their own add nothing to the blocked test: with many of them it can be
+     * weaker than the test without blocks even when the seed matters. Keep the stronger. */
+    if (!(pb >= pu)) return 0;
+    *power_unblocked = pu;
+    return 1;
+}
+
 void cov_seed_note(const cov_assessment *a, char *buf, size_t size)
 {
     const cov_seed_share *sh = &a->seed;
     buf[0] = '\0';
     if (sh->blocks == 0 || isnan(sh->share)) return;
     int at = snprintf(buf, size, "the seed explains %.0f%% of the residual variation (%zu seed "
-                      "block%s, %zu run%s in none; F = %.3g on %.0f and %.0f df, p = %.2g)",
+                      "block%s, %zu run%s on a seed of %s own; F = %.3g on %.0f and %.0f df, "
+                      "p = %.2g)",
                       100 * sh->share, sh->blocks, sh->blocks == 1 ? "" : "s", sh->unblocked,
-                      sh->unblocked == 1 ? "" : "s", sh->f, sh->df1, sh->df2, sh->p);
+                      sh->unblocked == 1 ? "" : "s", sh->unblocked == 1 ? "its" : "their", sh->f,
+                      sh->df1, sh->df2, sh->p);
     if (at < 0 || (size_t)at >= size) return;
     if (a->seed_blocks_used)
         snprintf(buf + at, size - (size_t)at, ": the test uses the seed blocks (power %.2f, %.2f "

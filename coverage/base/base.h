@@ -142,8 +142,14 @@ int cov_runs_caution(const cov_data *d, const cov_graph *g, char *buf, size_t n)
 /* The run figures as one JSON object: rows, runs, repeated_rows, conflicting_runs,
  * configurations, configurations_repeated, seeds, seeds_shared (null without a seed column). */
 void cov_runs_json(FILE *f, const cov_data *d);
-/* `, "never_varies": null` or `, "never_varies": {"variable", "as" (outcome|treatment), "value"}`
- * for a claim untestable on these runs because a variable takes one value in all of them. */
-void cov_fixed_json(FILE *f, const cov_graph *g, const cov_claim *c, const cov_assessment *a);
+/* How much of outcome v's variation left by the inputs the seed explains (README.md, "Seed
+ * blocks"), and how many of its claims use seed blocks, as one sentence into buf; returns 1, or 0
+ * and buf "" when it was not measured (no shared seeds, or v's column has missing cells). */
+int cov_seed_outcome_text(const cov_graph *g, const cov_claims *c, const cov_assessments *as,
+                          size_t v, char *buf, size_t n);
+/* The same for every outcome as a JSON array of {outcome, blocks, unblocked_runs, share,
+ * variance_drop, f, df1, df2, p, claims_using_blocks}; null when no two runs share a seed. */
+void cov_seed_outcomes_json(FILE *f, const cov_graph *g, const cov_claims *c,
+                            const cov_assessments *as);
 
 #endif

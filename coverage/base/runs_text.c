@@ -1,5 +1,6 @@
 /* How the commands and reports say what counts as one run: repeated rows, conflicting replicates,
  * configurations and seeds (the figures of coverage/archive/runs.c). See LICENSE. */
+#include <math.h>
 #include <stdint.h>
 #include <stdio.h>
 
@@ -43,18 +44,68 @@ void cov_runs_json(FILE *f, const cov_data *d)
         fprintf(f, "\"seeds\": null, \"seeds_shared\": null}");
 }
 
-void cov_fixed_json(FILE *f, const cov_graph *g, const cov_claim *c, const cov_assessment *a)
+/* An outcome's seed share as measured (seedblock.c), or NULL. */
+static const cov_seed_share *outcome_share(const cov_graph *g, const cov_assessments *as, size_t v)
 {
-    fputs(", \"never_varies\": ", f);
-    if (a == NULL || a->fixed_var == SIZE_MAX) {
+    if (as == NULL || as->seed_outcome == NULL || g->vars[v].role != COV_OUTPUT) return NULL;
+    const cov_seed_share *sh = &as->seed_outcome[v];
+    return sh->blocks > 0 && !isnan(sh->share) ? sh : NULL;
+}
+
+static size_t claims_using_blocks(const cov_claims *c, const cov_assessments *as, size_t v)
+{
+    size_t k = 0;
+    for (size_t i = 0; i < as->n && i < c->n; i++)
+        k += c->items[i].outcome == v && c->items[i].status == COV_TESTABLE &&
+             as->items[i].seed_blocks_used;
+    return k;
+}
+
+int cov_seed_outcome_text(const cov_graph *g, const cov_claims *c, const cov_assessments *as,
+                          size_t v, char *buf, size_t n)
+{
+    buf[0] = '\0';
+    const cov_seed_share *sh = outcome_share(g, as, v);
+    if (sh == NULL) return 0;
+    size_t used = claims_using_blocks(c, as, v);
+    snprintf(buf, n, "the seed explains %.0f%% of the variation of %s left by the inputs (%zu seed "
+             "block%s, %zu run%s on a seed of %s own; F = %.3g on %.0f and %.0f df, p = %.2g); %zu "
+             "claim%s on it use%s seed blocks", 100 * sh->share, g->vars[v].name, sh->blocks,
+             sh->blocks == 1 ? "" : "s", sh->unblocked, sh->unblocked == 1 ? "" : "s",
+             sh->unblocked == 1 ? "its" : "their", sh->f,
+             sh->df1, sh->df2, sh->p, used, used == 1 ? "" : "s", used == 1 ? "s" : "");
+    return 1;
+}
+
+void cov_seed_outcomes_json(FILE *f, const cov_graph *g, const cov_claims *c,
+                            const cov_assessments *as)
+{
+    if (as == NULL || as->seed_outcome == NULL) {
         fputs("null", f);
         return;
     }
-    char val[160];
-    cov_value_text(&g->vars[a->fixed_var], a->fixed_value, val, sizeof val);
-    fputs("{\"variable\": ", f);
-    cov_emit_json_string(f, g->vars[a->fixed_var].name);
-    fprintf(f, ", \"as\": \"%s\", \"value\": ", a->fixed_var == c->outcome ? "outcome" : "treatment");
-    cov_emit_json_string(f, val);
-    fputc('}', f);
+    int first = 1;
+    fputc('[', f);
+    for (size_t v = 0; v < g->n_vars; v++) {
+        const cov_seed_share *sh = outcome_share(g, as, v);
+        if (sh == NULL) continue;
+        fputs(first ? "{\"outcome\": " : ", {\"outcome\": ", f);
+        first = 0;
+        cov_emit_json_string(f, g->vars[v].name);
+        fprintf(f, ", \"blocks\": %zu, \"unblocked_runs\": %zu, \"share\": ", sh->blocks,
+                sh->unblocked);
+        cov_emit_json_number(f, sh->share);
+        fputs(", \"variance_drop\": ", f);
+        cov_emit_json_number(f, sh->var_drop);
+        fputs(", \"f\": ", f);
+        cov_emit_json_number(f, sh->f);
+        fputs(", \"df1\": ", f);
+        cov_emit_json_number(f, sh->df1);
+        fputs(", \"df2\": ", f);
+        cov_emit_json_number(f, sh->df2);
+        fputs(", \"p\": ", f);
+        cov_emit_json_number(f, sh->p);
+        fprintf(f, ", \"claims_using_blocks\": %zu}", claims_using_blocks(c, as, v));
+    }
+    fputc(']', f);
 }

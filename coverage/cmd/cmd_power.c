@@ -64,6 +64,14 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         cov_term_wrap(out, caution, col + 1, 4, width);
         fputc('\n', out);
     }
+    for (size_t v = 0; v < g->n_vars; v++) {
+        char seeds[640];
+        if (!cov_seed_outcome_text(g, cl, as, v, seeds, sizeof seeds)) continue;
+        col = cov_term_wrap(out, "seeds:", 0, 4, width);
+        fputc(' ', out);
+        cov_term_wrap(out, seeds, col + 1, 4, width);
+        fputc('\n', out);
+    }
     family_line(as, width, out);
     static const char *const head[8] = {"claim", "n", "power", "MDE", "effect", "needs",
                                         "verdict", "detail"};
@@ -73,7 +81,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         const cov_claim *c = &cl->items[i];
         const cov_assessment *a = &as->items[i];
         char label[512], set[512], n[32], pw[32], mde[32], eff[32], runs[32], verdict[32];
-        char detail[1024], e1[32], e2[32];
+        char detail[1024], e1[32], e2[32], seed[96] = "";
         cov_claim_pair_label(g, c, label, sizeof label);
         if (c->status == COV_TESTABLE) set_text(g, c, set, sizeof set);
         else snprintf(set, sizeof set, "-");
@@ -92,9 +100,17 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         fmt_num(e2, sizeof e2, a->sd_treatment_resid);
         if (c->status != COV_TESTABLE || isnan(a->power))
             snprintf(detail, sizeof detail, "-");
-        else
+        else {
+            /* Seed blocks (README.md, "Seed blocks"): used or not, and the seed's share. */
+            if (a->seed_blocks_used)
+                snprintf(seed, sizeof seed, "; seed blocks used (seed explains %.0f%%; power "
+                         "%.2f without)", 100 * a->seed.share, a->power_unblocked);
+            else if (a->seed.blocks > 0 && !isnan(a->seed.share))
+                snprintf(seed, sizeof seed, "; seed blocks not used (seed explains %.0f%%)",
+                         100 * a->seed.share);
             snprintf(detail, sizeof detail, "adjustment set %s; sigma %s, sd(X|S) %s; power 95%% "
-                     "interval [%.2f, %.2f]", set, e1, e2, a->power_lo, a->power_hi);
+                     "interval [%.2f, %.2f]%s", set, e1, e2, a->power_lo, a->power_hi, seed);
+        }
         const char *row[8] = {label, n, pw, mde, eff, runs, verdict, detail};
         if (cov_table_add(t, row) != COV_OK) {
             cov_table_free(t);
@@ -194,6 +210,8 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_asses
     const cov_power_options *p = &as->opt;
     fputs("{\"schema_version\": 3, \"run_identity\": ", out);
     cov_runs_json(out, d);
+    fputs(", \"seed_blocks\": ", out);
+    cov_seed_outcomes_json(out, g, cl, as);
     fputs(", \"alpha\": ", out);
     cov_emit_json_number(out, p->alpha);
     fprintf(out, ", \"family\": \"%s\", \"family_size\": %zu, \"sides\": \"%s\", "

@@ -236,6 +236,23 @@ static void data_errors(const cov_findings *f, const cov_caution_kind *k, sink *
             "out of every figure (shoal check lists them).", f->coverage->n_outside);
 }
 
+/* Shared seeds: how much of each outcome's variation they explain, and the claims whose test
+ * uses seed blocks with the assumption that comes with them (coverage/assess/seedblock.c). */
+static void seed_blocks(const cov_findings *f, const cov_caution_kind *k, sink *s)
+{
+    if (f->assess == NULL) return;
+    char text[640];
+    for (size_t v = 0; v < f->graph->n_vars; v++)
+        if (cov_seed_outcome_text(f->graph, f->claims, f->assess, v, text, sizeof text))
+            add(s, k, -1, "%s%s.", text[0] == 't' ? "T" : "", text + (text[0] == 't'));
+    for (size_t i = 0; i < f->assess->n && i < f->claims->n; i++) {
+        const cov_assessment *a = &f->assess->items[i];
+        if (f->claims->items[i].status != COV_TESTABLE || !a->seed_blocks_used) continue;
+        cov_seed_note(a, text, sizeof text);
+        add(s, k, (long)i, "%s%s.", text[0] == 't' ? "T" : "", text + (text[0] == 't'));
+    }
+}
+
 /* Every kind of caution, in the order the formats show them. */
 static const cov_caution_kind kinds[] = {
     {"family", "Tests judged together", family},
@@ -248,6 +265,7 @@ static const cov_caution_kind kinds[] = {
     {"assumption", "Claims resting on the graph's assumptions", assumed},
     {"conflicting-runs", "Runs that disagree", conflicting_runs},
     {"data-errors", "Data errors", data_errors},
+    {"seed-blocks", "Shared seeds (seed blocks)", seed_blocks},
 };
 
 const cov_caution_kind *cov_caution_kinds(size_t *n)

@@ -286,6 +286,11 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
         cov_runs_json(out, f->data);
         fputs(",\n", out);
     }
+    if (f->assess != NULL) {
+        fputs("  \"seed_blocks\": ", out);
+        cov_seed_outcomes_json(out, f->graph, f->claims, f->assess);
+        fputs(",\n", out);
+    }
     fprintf(out, "  \"counts\": {\"claims\": %zu, \"ample\": %lld, \"underpowered\": %lld, "
                  "\"untestable\": %lld},\n", f->claims->n, count[COV_AMPLE], count[COV_UNDERPOWERED],
             count[COV_BLIND]);
