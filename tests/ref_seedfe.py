@@ -6,8 +6,9 @@
 # df equal the C(block) model's, and the power equals scipy's noncentral t at that model's SE;
 # where it does not, they equal the model without blocks. Tolerance 1e-8 relative (shoal prints
 # 10 significant digits; both fits are backward stable, and the design's condition number is
-# below 1e3, so they agree to about 1e-12). The blocks are formed here independently of shoal,
-# one effect per seed: a run whose seed no other of the claim's runs used is a block of its own.
+# below 1e3, so they agree to about 1e-12; tests/REFERENCES.md 12). The blocks are formed here
+# independently of shoal, one effect per seed: a run whose seed no other of the claim's runs used
+# is a block of its own.
 # See LICENSE.
 import json
 import os
@@ -139,7 +140,7 @@ with tempfile.TemporaryDirectory() as tmp:
 
         def t_power(fit):
             # Power of the two-sided t test at the effect of interest: ncp = effect / SE
-            # (scipy's noncentral t; tests/REFERENCES.md 1a's method).
+            # (scipy's noncentral t; tests/REFERENCES.md 2b's method, and 12).
             ncp = c["effect_raw"] / fit.bse[x]
             tc = stats.t.isf(c["alpha"] / 2, fit.df_resid)
             return stats.nct.sf(tc, fit.df_resid, ncp) + stats.nct.cdf(-tc, fit.df_resid, ncp)
@@ -188,6 +189,23 @@ with tempfile.TemporaryDirectory() as tmp:
                "outcome %s: seed share %s and F %s on every input equal statsmodels' %.10g, %.10g "
                "(1e-8 relative)" % (o, got[0]["share"] if got else None,
                                     got[0]["f"] if got else None, share, an["F"][1]))
+    # Every reader format says whether blocks were used, the share, and the assumption.
+    t = subprocess.run([SHOAL, "power", graph, db], capture_output=True, text=True).stdout
+    report("seed blocks used (seed explains" in t and "seed blocks not used (seed explains" in t
+           and "seeds: the seed explains" in t and "assume further runs reuse these" in t,
+           "shoal power's table: blocks used / not used with the share, per-outcome lines, and "
+           "the assumption that further runs reuse the seeds")
+    out = os.path.join(tmp, "rep")
+    subprocess.run([SHOAL, "survey", graph, db, "-o", out, "--history",
+                    os.path.join(tmp, "h.db")], capture_output=True, text=True)
+    summ = json.load(open(os.path.join(out, "summary.json")))
+    kinds = [c for c in summ["caveats"] if c["kind"] == "seed-blocks"]
+    texts = [open(os.path.join(out, f)).read() for f in ("report.md", "index.html")]
+    report(summ["seed_blocks"] == seeds and len(kinds) == 2 + used_any and
+           all("Shared seeds" in x and "reuse these 12 seeds" in x for x in texts),
+           "survey: summary.json's seed_blocks equal power's, %d seed-block cautions (2 outcomes "
+           "+ %d claims), in report.md and index.html with the assumption" % (len(kinds),
+                                                                               used_any))
     report(used_any >= 1 and unused_any >= 1, "the campaign has claims with seed blocks used (%d) "
            "and not used (%d)" % (used_any, unused_any))
 

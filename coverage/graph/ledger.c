@@ -52,6 +52,10 @@ static int declared_line(const cov_graph *g, const char *s)
     return 0;
 }
 
+/* The seed column identifies runs (coverage/archive/runs.c) and, when runs share seeds across
+ * configurations, gives each claim's regression its seed blocks: one additive effect per seed,
+ * assumed the same in every configuration (coverage/assess/seedblock.c; README.md, "Seed
+ * blocks"). */
 static int parse_runseed(cov_graph *g, const cov_token *tok, const char *name, int line,
                          cov_error *err)
 {
