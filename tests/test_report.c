@@ -101,7 +101,7 @@ int main(void)
         items[i].verdict = verdict[i];
         items[i].reason = verdict[i] == COV_UNDERPOWERED ? "too few runs for <b>this</b>" : NULL;
     }
-    cov_assessments as = {o.power, 3, items, 3};
+    cov_assessments as = {o.power, 3, items, 3, NULL};
     cov_findings f = {&o, g, cl, NULL, &as, NULL, NULL, NULL, 0, NULL, 0};
     size_t order[3];
     cov_report_order(&f, order);
