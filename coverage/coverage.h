@@ -336,6 +336,8 @@ typedef struct {
     int seed_blocks_used; /* 1: estimate, se, df, sigma, power, MDE and runs needed are the
                              blocked model's (runs needed then assumes more runs reuse the seeds) */
     double power_unblocked;   /* with blocks used: the power without them; NAN otherwise */
+    pw_design design_unblocked;   /* with blocks used: the same test without them (the plan's
+                                     runs carry fresh seeds, so it sizes the claim by this) */
 } cov_assessment;
 
 /* The value a variable never leaves, as text: the level name, true/false, or the number. */

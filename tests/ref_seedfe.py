@@ -206,6 +206,19 @@ with tempfile.TemporaryDirectory() as tmp:
            "survey: summary.json's seed_blocks equal power's, %d seed-block cautions (2 outcomes "
            "+ %d claims), in report.md and index.html with the assumption" % (len(kinds),
                                                                                used_any))
+    # The plan's runs carry fresh seeds: it sizes a blocked claim by the test without blocks.
+    q = subprocess.run([SHOAL, "plan", graph, db, "--json", "-o", os.path.join(tmp, "plan.csv")],
+                       capture_output=True, text=True)
+    plan = json.loads(q.stdout)["claims"] if q.returncode in (0, 1) else []
+    byname = {(c["kind"], c["treatment"], c["outcome"]): c for c in claims}
+    good = len(plan) == len(claims)
+    for pc in plan:
+        c = byname[(pc["kind"], pc["treatment"], pc["outcome"])]
+        want = c["power_unblocked"] if c["seed_blocks_used"] else c["power"]
+        good &= pc["sized_without_seed_blocks"] == c["seed_blocks_used"] and \
+            pc["power_now"] is not None and rel(pc["power_now"], want) <= 1e-8
+    report(good, "plan: the claims whose test uses seed blocks are sized without them "
+           "(power_now equals power_unblocked), the others as assessed")
     report(used_any >= 1 and unused_any >= 1, "the campaign has claims with seed blocks used (%d) "
            "and not used (%d)" % (used_any, unused_any))
 

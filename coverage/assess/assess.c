@@ -553,7 +553,8 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
                        .ncp_per_run = NAN};
         e.effect = effect_per_unit(g, c, n > 1 ? sqrt(pw_moments_at(m, idx[k], idx[k]) / (n - 1))
                                                 : NAN, a);
-        a->seed_blocks_used = cov_seed_choose(&a->seed, &e, fit, bfit, &a->power_unblocked);
+        a->seed_blocks_used = cov_seed_choose(&a->seed, &e, fit, bfit, &a->power_unblocked,
+                                              &a->design_unblocked);
     }
     const pw_xfit *tf = a->seed_blocks_used ? bfit : fit;
     const pw_moments *tm = a->seed_blocks_used ? seeds->m : m;

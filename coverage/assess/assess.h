@@ -105,10 +105,11 @@ double cov_seed_n_params(const pw_xfit *blocked, const cov_seed_share *sh);
 /* Whether the claim's test uses the blocks: a one-column coefficient t or equivalence test
  * (base->test) whose treatment varies within the blocks, the blocks material at base->alpha, and
  * the blocked test (blocked's sigma and sd(X | S, blocks)) at least as powerful at base->effect as
- * the unblocked one (fit's), whose power is then written to *power_unblocked (else NAN). base
+ * the unblocked one (fit's), whose power and design are then written to *power_unblocked (else
+ * NAN) and *unblocked. base
  * holds the claim's test, level, sides, target, effect and n. */
 int cov_seed_choose(const cov_seed_share *sh, const pw_design *base, const pw_xfit *fit,
-                    const pw_xfit *blocked, double *power_unblocked);
+                    const pw_xfit *blocked, double *power_unblocked, pw_design *unblocked);
 /* One sentence on a's seed blocks (empty when none were measured): the share, the F test, and
  * when used the power without them and the assumption that further runs reuse the seeds. */
 void cov_seed_note(const cov_assessment *a, char *buf, size_t size);

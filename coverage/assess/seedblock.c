@@ -201,7 +201,7 @@ double cov_seed_n_params(const pw_xfit *blocked, const cov_seed_share *sh)
 }
 
 int cov_seed_choose(const cov_seed_share *sh, const pw_design *base, const pw_xfit *fit,
-                    const pw_xfit *blocked, double *power_unblocked)
+                    const pw_xfit *blocked, double *power_unblocked, pw_design *unblocked)
 {
     *power_unblocked = NAN;
     if (blocked == NULL || fit->t != 1 || fit->t_rank != 1 || blocked->t_rank != 1 ||
@@ -222,6 +222,7 @@ int cov_seed_choose(const cov_seed_share *sh, const pw_design *base, const pw_xf
      * weaker than the test without blocks even when the seed matters. Keep the stronger. */
     if (!(pb >= pu)) return 0;
     *power_unblocked = pu;
+    *unblocked = u;
     return 1;
 }
 

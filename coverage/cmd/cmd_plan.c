@@ -102,7 +102,7 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
     if (width > 60) width = 60;
     fprintf(out, "%-*s  %-10s %9s %10s %9s %10s  %s\n", (int)width, "claim", "how", "runs now",
             "power now", "runs after", "predicted", "outlook");
-    size_t n_assumed = 0, n_unsized = 0, n_unreach = 0, n_noise = 0, n_fixed = 0;
+    size_t n_assumed = 0, n_unsized = 0, n_unreach = 0, n_noise = 0, n_fixed = 0, n_seed = 0;
     for (size_t j = 0; j < p->n; j++) {
         const cov_plan_claim *it = &p->items[j];
         claim_label(g, &c->items[it->claim], label, sizeof label);
@@ -122,6 +122,7 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
         n_fixed += it->mode == COV_PLAN_FIXED;
         n_unreach += it->unreachable != 0;
         n_noise += it->from_noise != 0;
+        n_seed += it->seed_unblocked != 0;
     }
     if (c->n > n_testable)
         fprintf(out, "\n%zu untestable claim%s left out: no runs can test %s (see shoal claims).\n",
@@ -132,6 +133,12 @@ static void print_report(FILE *out, const cov_options *o, const cov_graph *g, co
                      "adjustment set. The plan cannot set outputs, so it assumes new runs add "
                      "information as the current runs do (the run count is scaled).\n",
                 n_assumed, n_assumed == 1 ? "" : "s");
+    if (n_seed > 0)
+        fprintf(out, "\n%zu claim%s whose test uses seed blocks %s sized here by the test without "
+                     "them (power now without blocks): the planned runs carry fresh seeds, and a "
+                     "run on a seed of its own adds nothing to a blocked test. Rerunning the "
+                     "archive's shared seeds at the planned configurations would do better.\n",
+                n_seed, n_seed == 1 ? "" : "s", n_seed == 1 ? "is" : "are");
     if (n_noise > 0)
         fprintf(out, "\n%zu claim%s sized from the noise SD declared in the graph (too few runs to "
                      "estimate it).\n",
@@ -213,8 +220,9 @@ static void print_json(FILE *out, const cov_options *o, const cov_graph *g, cons
         cov_emit_json_string(out, g->vars[cl->treatment].name);
         fputs(", \"outcome\": ", out);
         cov_emit_json_string(out, g->vars[cl->outcome].name);
-        fprintf(out, ", \"how\": \"%s\", \"from_noise\": %s, \"runs_now\": ", mode_word(it),
-                it->from_noise ? "true" : "false");
+        fprintf(out, ", \"how\": \"%s\", \"from_noise\": %s, \"sized_without_seed_blocks\": %s, "
+                "\"runs_now\": ", mode_word(it), it->from_noise ? "true" : "false",
+                it->seed_unblocked ? "true" : "false");
         cov_emit_json_number(out, it->n_now);
         fputs(", \"power_now\": ", out);
         cov_emit_json_number(out, it->power_now);

@@ -462,8 +462,14 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         int steer = g->vars[cl->treatment].role == COV_INPUT;
         for (size_t m = 0; m < cl->n_cond; m++) steer &= g->vars[cl->cond[m]].role == COV_INPUT;
         double pw = NAN;
-        if (have_runs && cov_assess_design(g, st->c, a, i, &w->pd) == COV_OK &&
-            pw_power(&w->pd, &pw) == PW_OK && w->pd.n > 0) {
+        int got = have_runs && cov_assess_design(g, st->c, a, i, &w->pd) == COV_OK;
+        if (got && a->items[i].seed_blocks_used) {
+            /* Planned runs carry seeds the archive never used: each would be a seed block of
+             * its own, adding nothing to the blocked test (README.md, "Seed blocks"). */
+            w->pd = a->items[i].design_unblocked;
+            it->seed_unblocked = 1;
+        }
+        if (got && pw_power(&w->pd, &pw) == PW_OK && w->pd.n > 0) {
             w->have_pd = 1;
             it->power_now = pw;
             w->n_base = w->pd.n;

@@ -31,6 +31,8 @@ typedef struct {
     int reaches;          /* power_after >= target */
     int unreachable;      /* --budget auto: cannot reach the target within COV_PLAN_AUTO_CAP */
     int from_noise;       /* sigma taken from the graph's declared noise SD */
+    int seed_unblocked;   /* the claim's test uses seed blocks, but the planned runs carry fresh
+                             seeds and would add nothing to it: sized by the test without them */
 } cov_plan_claim;
 
 /* Configurations --budget auto may plan at most; also the largest --budget. */
