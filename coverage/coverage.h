@@ -319,6 +319,8 @@ typedef struct {
     size_t fixed_var;     /* untestable on these runs: the outcome or treatment that takes one
                              value in every run the claim uses; SIZE_MAX when none */
     double fixed_value;   /* that value (level index for a level set), or NAN */
+    double turn_lo, turn_hi;   /* `expect turning` on a numeric treatment: the range over which
+                                  effect_raw is the height of the turn (turning.c); NAN else */
 } cov_assessment;
 
 /* The value a variable never leaves, as text: the level name, true/false, or the number. */
