@@ -331,6 +331,8 @@ typedef struct {
     size_t fixed_var;     /* untestable on these runs: the outcome or treatment that takes one
                              value in every run the claim uses; SIZE_MAX when none */
     double fixed_value;   /* that value (level index for a level set), or NAN */
+    double turn_lo, turn_hi;   /* `expect turning` on a numeric treatment: the range over which
+                                  effect_raw is the height of the turn (turning.c); NAN else */
     /* Seed blocks (coverage/assess/seedblock.c; README.md, "Seed blocks"). */
     cov_seed_share seed;  /* how much of the claim's residual variance the seeds explain */
     int seed_blocks_used; /* 1: estimate, se, df, sigma, power, MDE and runs needed are the

@@ -132,13 +132,14 @@ int pw_design_with_q(const pw_design *d, double n_new, double q_new, pw_design *
     /* The level-set F test reads its information as ncp_per_run n; two proportions read
      * sd_x_resid^2 n (n s (1 - s) for a bool treatment, the harmonic-mean group size behind Cohen's
      * h with unequal groups, Cohen 1988 sec. 6.3), so setting sd_x_resid covers them. */
-    if (d->test == PW_TEST_LEVELS_F) out->ncp_per_run = q_new * q_new / n_new;
+    if (d->test == PW_TEST_LEVELS_F || d->test == PW_TEST_BASIS_F)
+        out->ncp_per_run = q_new * q_new / n_new;
     return PW_OK;
 }
 
 double pw_design_q(const pw_design *d)
 {
-    if (d->test == PW_TEST_LEVELS_F) {
+    if (d->test == PW_TEST_LEVELS_F || d->test == PW_TEST_BASIS_F) {
         double unit = d->ncp_per_run > 0 ? d->ncp_per_run : 1.0 / (2.0 * d->n_levels);
         return sqrt(unit * d->n);
     }

@@ -192,8 +192,10 @@ typedef enum {
     PW_TEST_LEVELS_F,   /* F test of the L - 1 contrasts of a level-set treatment */
     PW_TEST_TWO_PROP,   /* two proportions through Cohen's h (bool outcome, bool treatment) */
     PW_TEST_TOST,       /* equivalence: two one-sided tests against +-margin (absence claims) */
-    PW_TEST_TREND_T     /* t test of the linear trend contrast of an ordered level set: one df,
+    PW_TEST_TREND_T,    /* t test of the linear trend contrast of an ordered level set: one df,
                            fitted beside its other L - 2 level columns */
+    PW_TEST_BASIS_F     /* F test of the n_levels - 1 columns of a numeric treatment's polynomial
+                           basis given the adjustment set (`expect turning`; power/basis.c) */
 } pw_test;
 
 /* What one claim's test looks like, in the outcome's units. */
@@ -207,11 +209,13 @@ typedef struct {
     double sd_x_resid;   /* sd(X | S) with divisor n: the treatment's spread left after S */
     double n;            /* runs (complete cases) */
     double n_params;     /* columns besides the treatment's own: intercept + dummy-coded S */
-    double n_levels;     /* PW_TEST_LEVELS_F: levels L; otherwise ignored */
+    double n_levels;     /* PW_TEST_LEVELS_F: levels L; PW_TEST_BASIS_F: basis columns + 1;
+                            otherwise ignored */
     double p_base;       /* PW_TEST_TWO_PROP: outcome's base rate; share_treated: group share */
     double share_treated;
     double ncp_per_run;  /* PW_TEST_LEVELS_F: noncentrality per run per (effect / sigma)^2 under the
-                            least favourable pattern; NAN or <= 0: balanced groups, 1 / (2 L) */
+                            least favourable pattern; NAN or <= 0: balanced groups, 1 / (2 L).
+                            PW_TEST_BASIS_F: u' M u / n of the reference turn, > 0 */
 } pw_design;
 
 /* Central quantiles checked against their own CDF (power/crit.c): GSL's inverses fail silently
@@ -242,7 +246,10 @@ int pw_level_pattern(const double *M, size_t t, double *q_min, double *v_max, si
  *   L - 1 columns; the contrast is one combination of them), sd_x_resid the contrast's
  *   equivalent spread S_xx / sqrt(n c' M^-1 c), effect per unit of the levels' positions.
  * - PW_TEST_TOST: se = sigma / (sd_x_resid sqrt(n)), df = n - n_params - max(1, L - 1), exact
- *   power through pw_tost_power at a true effect of 0 with margins -+effect. */
+ *   power through pw_tost_power at a true effect of 0 with margins -+effect.
+ * - PW_TEST_BASIS_F: as PW_TEST_LEVELS_F with df1 = n_levels - 1 basis columns and the design's
+ *   exact lambda = ncp_per_run n (effect / sigma)^2, effect the height of the reference turn
+ *   (power/basis.c); ncp_per_run must be > 0. */
 #define PW_PROP_EPS 1e-9     /* keeps both proportions inside (0, 1), where the arcsine is smooth */
 
 /* Power of the normal-approximation test of Cohen's h (Cohen 1988, ch. 6) with effective size
@@ -271,6 +278,39 @@ int pw_runs_needed(const pw_design *d, double *runs);
 /* The same, given the MDE at d->n (from pw_mde), which places the first guess within a run or
  * two when df is large; mde NAN falls back to pw_runs_needed's own guess. */
 int pw_runs_needed_from(const pw_design *d, double mde, double *runs);
+
+/* ---------------------------------------------------------------------------------------------
+ * A turning effect (`expect turning` on a numeric treatment; power/basis.c). The treatment x is
+ * mapped to z = (2x - lo - hi) / (hi - lo), -1 .. 1 over the reference range [lo, hi], and enters
+ * the regression as the Legendre polynomials P_1(z) .. P_D(z). The reference turn of height h is
+ * h (1 - z^2): 0 at both ends of the range, h in the middle (a hump for h > 0); it lies in the
+ * basis for every D >= 2, so the F test's noncentrality under it is exact. */
+
+/* Degree D = min(PW_TURN_DEGREE_MAX, distinct - 2), or 0 when distinct < PW_TURN_DEGREE_MIN + 2:
+ * the basis leaves one distinct value beyond the D + 1 it needs, and a turn needs degree 2. */
+#define PW_TURN_DEGREE_MIN 2
+#define PW_TURN_DEGREE_MAX 3
+size_t pw_turn_degree(size_t distinct);
+/* P_1(z) .. P_degree(z) into out[0 .. degree - 1]. */
+void pw_turn_basis(double z, size_t degree, double *out);
+/* z of x over [lo, hi] (hi > lo); the reference turn's shape 1 - z^2 at z; the shape's
+ * coefficients on P_1 .. P_degree (intercept aside) into u[0 .. degree - 1]. */
+double pw_turn_z(double x, double lo, double hi);
+double pw_turn_shape(double z);
+void pw_turn_shape_coef(size_t degree, double *u);
+
+typedef struct {
+    double f, p, df1, df2;   /* the basis's partial F given the adjustment set, and its p */
+    double ncp_per_run;      /* u' M u / n: lambda per run per (h / sigma)^2 */
+    double turn, turn_se;    /* the turn's height estimated from the P_2 coefficient, its SE */
+} pw_basis_figures;
+/* The figures of a fit (pw_xfit_solve) whose last t = D columns are the basis, u the shape's
+ * coefficients (pw_turn_shape_coef). PW_OK; PW_ESING when a basis column was aliased (t_rank < t)
+ * or M is singular; PW_EFEW when df < 1; PW_ENOMEM. */
+int pw_basis_test(const pw_xfit *fit, const double *u, pw_basis_figures *out);
+/* The same ncp_per_run without an adjustment set for a design of m points z with weights w (their
+ * shares of the runs): the weighted variance of 1 - z^2. PW_OK or PW_EDOM. */
+int pw_turn_ncp_points(const double *z, const double *w, size_t m, double *ncp_per_run);
 
 /* ---------------------------------------------------------------------------------------------
  * Optimal-design arithmetic for planning runs (power/design.c). Matrices are row-major. */
@@ -306,7 +346,7 @@ double pw_block_pattern_info(const double *ainv, size_t p, size_t first, size_t 
                              double xu, double w);
 
 /* The information a test's noncentrality rests on, as q with noncentrality (effect q / sigma):
- * sd_x_resid sqrt(n) for t and TOST tests, sqrt(ncp_per_run n) for the level-set F test (its
+ * sd_x_resid sqrt(n) for t and TOST tests, sqrt(ncp_per_run n) for the level-set and basis F tests (its
  * noncentrality is q^2 (effect / sigma)^2), sqrt(n sd_x_resid^2) or sqrt(n s (1 - s)) for two
  * proportions. pw_design_q reads it; pw_design_with_q writes d at n_new runs with q = q_new. */
 double pw_design_q(const pw_design *d);

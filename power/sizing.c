@@ -32,6 +32,7 @@ static int check_design(const pw_design *d)
         return PW_EDOM;
     if (d->test != PW_TEST_TWO_PROP && !(d->sigma > 0 && d->sd_x_resid > 0)) return PW_EDOM;
     if (d->test == PW_TEST_LEVELS_F && !(d->n_levels >= 2)) return PW_EDOM;
+    if (d->test == PW_TEST_BASIS_F && !(d->n_levels >= 2 && d->ncp_per_run > 0)) return PW_EDOM;
     if (d->test == PW_TEST_TWO_PROP && !(d->p_base > 0 && d->p_base < 1)) return PW_EDOM;
     return PW_OK;
 }
@@ -100,7 +101,9 @@ int pw_power(const pw_design *d, double *power)
         *power = p > 1 ? 1 : p;
         return PW_OK;
     }
-    case PW_TEST_LEVELS_F: {
+    case PW_TEST_LEVELS_F:
+    case PW_TEST_BASIS_F: {
+        /* P(F'(df1, df2, lambda) > F_{1-alpha}(df1, df2)) (Scheffe 1959, sec. 2.8). */
         double df1 = d->n_levels - 1.0;
         double df2 = d->n - d->n_params - df1;
         if (!(df2 > 0)) return PW_EFEW;
@@ -175,7 +178,7 @@ static double bloom_multiplier(const pw_design *d, double df)
                       : gsl_cdf_ugaussian_Qinv(p_crit) + gsl_cdf_ugaussian_Pinv(p_pow);
     /* The F test of L - 1 contrasts needs a larger noncentrality; sqrt(L - 1) is a rough guess
      * that the bracket search corrects. */
-    if (d->test == PW_TEST_LEVELS_F) z *= sqrt(d->n_levels - 1);
+    if (d->test == PW_TEST_LEVELS_F || d->test == PW_TEST_BASIS_F) z *= sqrt(d->n_levels - 1);
     return z;
 }
 
@@ -190,7 +193,9 @@ static double resid_df(const pw_design *d, double n)
  * is off by O(1/df) (the t quantiles stand in for the noncentral t), plus a floor. */
 static double first_width(const pw_design *d, double df)
 {
-    if (d->test == PW_TEST_TWO_PROP || d->test == PW_TEST_LEVELS_F || !(df > 0)) return 0.06;
+    if (d->test == PW_TEST_TWO_PROP || d->test == PW_TEST_LEVELS_F ||
+        d->test == PW_TEST_BASIS_F || !(df > 0))
+        return 0.06;
     return fmin(0.06, 2.0 / df + 1e-4);
 }
 
@@ -204,7 +209,8 @@ static double shift_per_effect(const pw_design *d)
         /* dh/dp = 1 / sqrt(p (1 - p)) near the base rate. */
         return sp / sqrt(d->p_base * (1 - d->p_base));
     }
-    case PW_TEST_LEVELS_F: {
+    case PW_TEST_LEVELS_F:
+    case PW_TEST_BASIS_F: {
         double unit = d->ncp_per_run > 0 ? d->ncp_per_run : 1.0 / (2.0 * d->n_levels);
         return sqrt(unit) / d->sigma;
     }

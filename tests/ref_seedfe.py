@@ -6,7 +6,7 @@
 # df equal the C(block) model's, and the power equals scipy's noncentral t at that model's SE;
 # where it does not, they equal the model without blocks. Tolerance 1e-8 relative (shoal prints
 # 10 significant digits; both fits are backward stable, and the design's condition number is
-# below 1e3, so they agree to about 1e-12; tests/REFERENCES.md 12). The blocks are formed here
+# below 1e3, so they agree to about 1e-12; tests/REFERENCES.md 13). The blocks are formed here
 # independently of shoal, one effect per seed: a run whose seed no other of the claim's runs used
 # is a block of its own.
 # See LICENSE.
@@ -40,7 +40,7 @@ default effect 0.15 sd
 default margin 0.1 sd
 design independent
 runseed seed
-ledger wall cost
+ledger wall
 speed, sorters, express -> delay
 speed, express -> misroutes
 """
@@ -140,7 +140,7 @@ with tempfile.TemporaryDirectory() as tmp:
 
         def t_power(fit):
             # Power of the two-sided t test at the effect of interest: ncp = effect / SE
-            # (scipy's noncentral t; tests/REFERENCES.md 2b's method, and 12).
+            # (scipy's noncentral t; tests/REFERENCES.md 2b's method, and 13).
             ncp = c["effect_raw"] / fit.bse[x]
             tc = stats.t.isf(c["alpha"] / 2, fit.df_resid)
             return stats.nct.sf(tc, fit.df_resid, ncp) + stats.nct.cdf(-tc, fit.df_resid, ncp)

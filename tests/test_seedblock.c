@@ -1,5 +1,5 @@
 /* Seed blocks: the within transformation against explicit seed dummies, and the blocked test's
- * predicted power against simulated campaigns with common random numbers (tests/REFERENCES.md 12).
+ * predicted power against simulated campaigns with common random numbers (tests/REFERENCES.md 13).
  * See LICENSE. */
 #include <math.h>
 #include <stdlib.h>

@@ -368,6 +368,7 @@ static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, do
 static const char *test_word(const pw_design *d)
 {
     if (d->test == PW_TEST_TREND_T) return "trend power";
+    if (d->test == PW_TEST_BASIS_F) return "turning power";
     return d->test == PW_TEST_TOST ? "equivalence power" : "power";
 }
 
@@ -419,7 +420,21 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     d->n_params = 1.0 + (double)(lay->k - lay->t);
     d->ncp_per_run = NAN;
     d->test = cov_claim_test(g, c, 0, 0);
-    if (x->type == COV_LEVELS && x->ordered && c->shape != COV_SHAPE_TURNING) {
+    if (d->test == PW_TEST_BASIS_F) {
+        /* Expected to turn: the basis F over the declared range (turning.c). */
+        size_t nv = 0;
+        int trc = cov_turning_planned(x, d, &a->effect_raw, &nv);
+        if (trc == COV_ENOMEM) return trc;
+        if (trc != COV_OK) {
+            a->verdict = COV_BLIND;
+            note_add(&a->reason, "untestable: '%s' is expected to turn, which needs at least %d "
+                     "distinct values; its declared range holds %zu", x->name,
+                     PW_TURN_DEGREE_MIN + 2, nv);
+            return COV_OK;
+        }
+        a->turn_lo = x->lo;
+        a->turn_hi = x->hi;
+    } else if (x->type == COV_LEVELS && x->ordered && c->shape != COV_SHAPE_TURNING) {
         /* Balanced groups: the trend contrast's equivalent spread is the SD of the positions
          * (shape.c: S_xx / sqrt(n c' M^-1 c) with M = (n / L) I). */
         double mean = 0, var = 0;
@@ -654,6 +669,11 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
                         "line", trd.n_present, xv->name);
         a->omnibus_power = q_lin;   /* the noncentrality per (effect / sigma)^2, until sized */
     }
+    if (dz->test == PW_TEST_BASIS_F) {
+        /* A numeric treatment expected to turn: the omnibus F over its basis (turning.c). */
+        if ((rc = cov_turning_fitted(g, c, x->d, a, dz)) != COV_OK || a->verdict == COV_BLIND)
+            goto fail;
+    }
     if (bool_outcome && dz->test != PW_TEST_TWO_PROP)
         note_add(&a->noise_note, "bool outcome: linear-probability %s, whose residuals are "
                  "heteroscedastic by construction", dz->test == PW_TEST_TOST ? "equivalence test"
@@ -722,23 +742,19 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
             rc = COV_ENOMEM;
             goto fail;
         }
-        a->distinct = sf.distinct;
+        if (dz->test != PW_TEST_BASIS_F) a->distinct = sf.distinct;   /* else: all rows' */
         a->shape_f = sf.f;
         a->shape_p = sf.p;
         a->shape_df1 = sf.df1;
         a->shape_df2 = sf.df2;
         a->shape_pure = sf.pure;
-        if (c->shape == COV_SHAPE_TURNING)
-            add_caution(a, "'%s' is expected to turn, but a numeric treatment is tested by its "
-                        "slope, which a turning effect can hide; see the lack of fit, or declare "
-                        "it an ordered level set to test every level", xv->name);
-        if (sf.distinct < 3)
+        if (sf.distinct < 3 && dz->test != PW_TEST_BASIS_F)
             add_caution(a, "'%s' takes only %zu distinct value%s in these runs: the shape of its "
                         "effect (straight, saturating, turning) cannot be checked; the figures "
                         "assume a straight line", xv->name, sf.distinct,
                         sf.distinct == 1 ? "" : "s");
     }
-    if (isfinite(a->shape_p) && a->shape_p < COV_LOF_P)
+    if (isfinite(a->shape_p) && a->shape_p < COV_LOF_P && dz->test != PW_TEST_BASIS_F)
         add_caution(a, "the effect of '%s' departs from a straight line: lack of fit F = %.3g on "
                     "%.0f and %.0f df, p = %.2g%s", xv->name, a->shape_f, a->shape_df1,
                     a->shape_df2, a->shape_p, a->shape_pure ? " (against pure error)" : "");
@@ -869,6 +885,7 @@ static void assessment_init(cov_assessment *a, size_t claim)
     a->omnibus_power = a->shape_f = a->shape_p = a->shape_df1 = a->shape_df2 = NAN;
     a->fixed_var = SIZE_MAX;
     a->fixed_value = NAN;
+    a->turn_lo = a->turn_hi = NAN;
     a->seed.share = a->seed.var_drop = a->seed.f = a->seed.df1 = a->seed.df2 = NAN;
     a->seed.p = a->power_unblocked = NAN;
 }

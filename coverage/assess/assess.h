@@ -62,6 +62,27 @@ cov_verdict cov_claim_verdict(const cov_claim *c, const cov_assessment *a);
  * reason when it is untestable. */
 const char *cov_claim_verdict_reason(const cov_claim *c, const cov_assessment *a);
 
+/* ---- a turning effect of a numeric treatment (coverage/assess/turning.c) ------------------- */
+
+/* 1 when claim c is an effect claim whose edge says `expect turning` and whose treatment is
+ * numeric (real or integer): its test is the basis F (PW_TEST_BASIS_F), not the slope. */
+int cov_claim_turns(const cov_graph *g, const cov_claim *c);
+/* Fit claim c's outcome on its adjustment set and the treatment's Legendre basis over the claim's
+ * complete rows of d (all runs, not a sample), and turn a (fitted by the straight line) and its
+ * design dz into the basis F test: sigma, df, the observed F and p (omnibus_*), the turn's
+ * estimated height and SE, distinct values, and dz's test, df1, ncp_per_run, n_params. The effect
+ * of interest a->effect_raw (per unit of treatment on entry) becomes the height of the turn over
+ * the reference range: per unit times (hi - lo), the treatment's declared range, else the range
+ * its runs span. Too few distinct values, or a basis the adjustment set fixes, make a untestable
+ * (verdict COV_BLIND, the reason naming the count). Returns COV_OK or COV_ENOMEM. */
+int cov_turning_fitted(const cov_graph *g, const cov_claim *c, const cov_data *d,
+                       cov_assessment *a, pw_design *dz);
+/* The same design before any run, for a treatment spread evenly over its declared range (a real:
+ * continuous; an integer: each value alike); *effect (per unit on entry) becomes the height.
+ * Returns COV_OK, or COV_EINPUT when the range has too few values for the basis (*distinct then
+ * says how many; may be NULL). */
+int cov_turning_planned(const cov_var *x, pw_design *d, double *effect, size_t *distinct);
+
 /* ---- seed blocks (coverage/assess/seedblock.c) ------------------------------------------------ */
 
 /* Each run's seed block over the whole archive: runs whose seed another run also used share a

@@ -21,6 +21,8 @@ pw_test cov_claim_test(const cov_graph *g, const cov_claim *c, int fitted, size_
     const cov_var *y = &g->vars[c->outcome], *x = &g->vars[c->treatment];
     assert(!fitted || treat_rank >= 1);   /* a fit whose treatment was dropped has no test */
     if (c->kind == COV_CLAIM_ABSENCE) return PW_TEST_TOST;
+    /* A numeric treatment expected to turn: the omnibus F over its polynomial basis (turning.c). */
+    if (cov_claim_turns(g, c)) return PW_TEST_BASIS_F;
     if (!fitted) {
         if (x->type != COV_LEVELS) return PW_TEST_COEF_T;
         /* An ordered level set is tested by its linear trend unless a turning shape is expected. */

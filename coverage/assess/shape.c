@@ -243,7 +243,18 @@ done:
 void cov_assessment_table_shape(FILE *out, const char *label, const cov_claim *c,
                                 const cov_assessment *a)
 {
-    if ((c->effect.per != COV_PER_UNIT || c->effect.unit == COV_UNIT_SD) &&
+    if (isfinite(a->turn_lo) && isfinite(a->effect_raw)) {
+        char text[96];
+        fprintf(out, "%s: expected to turn: effect of interest %s = a turn of height %.4g over "
+                "[%.4g, %.4g] (0 at both ends, the height in the middle); tested by the omnibus F "
+                "over a degree-%.0f polynomial basis given the adjustment set", label,
+                cov_amount_text(&c->effect, text, sizeof text), a->effect_raw, a->turn_lo,
+                a->turn_hi, a->design.n_levels - 1.0);
+        if (isfinite(a->omnibus_f))
+            fprintf(out, "; observed F = %.3g, p = %.2g; estimated height %.4g (SE %.3g)",
+                    a->omnibus_f, a->omnibus_p, a->estimate, a->se);
+        fputc('\n', out);
+    } else if ((c->effect.per != COV_PER_UNIT || c->effect.unit == COV_UNIT_SD) &&
         isfinite(a->effect_raw)) {
         char text[96];
         fprintf(out, "%s: %s as written: %s = %.4g raw per %s = %.4g per unit\n", label,

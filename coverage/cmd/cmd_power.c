@@ -124,6 +124,12 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
     }
     fputs("\nMDE and effect (of interest): outcome units per unit of the treatment.\n"
           "needs: runs in all for the target power.\n", out);
+    for (size_t i = 0; i < cl->n; i++)
+        if (isfinite(as->items[i].turn_lo)) {
+            fputs("Claims expected to turn: the height of the turn over the treatment's range.\n",
+                  out);
+            break;
+        }
     if (any_noise) fputs("*: the noise estimate cannot be trusted (notes below).\n", out);
     int any = 0;
     for (size_t i = 0; i < cl->n; i++) {

@@ -207,6 +207,9 @@ static int design_from_noise(const cov_graph *g, const cov_claim *cl, const cov_
     memset(pd, 0, sizeof *pd);
     pd->sigma = y->noise_sd;
     pd->effect = cl->effect.value * (cl->effect.unit == COV_UNIT_SD ? y->noise_sd : 1.0);
+    /* Per unit of treatment, as the assessment counts it (`per STEP`, `over range`). */
+    double per_unit = cov_amount_per_unit_factor(&cl->effect, x);
+    if (isfinite(per_unit)) pd->effect *= per_unit;
     pd->target = opt->target;
     pd->alpha = cov_family_alpha(opt, n_testable);
     pd->sides = cov_claim_sides(opt, cl);
@@ -216,6 +219,9 @@ static int design_from_noise(const cov_graph *g, const cov_claim *cl, const cov_
     pd->ncp_per_run = NAN;
     pd->test = cov_claim_test(g, cl, 0, 0);
     if (pd->test == PW_TEST_LEVELS_F) pd->n_levels = (double)x->n_levels;
+    /* Expected to turn: the basis F at the turn's height over the declared range. */
+    if (pd->test == PW_TEST_BASIS_F && cov_turning_planned(x, pd, &pd->effect, NULL) != COV_OK)
+        return -1;
     return 0;
 }
 
@@ -241,13 +247,14 @@ struct delta_cache {
 
 static double delta_needed(struct delta_cache *dc, const pw_design *pd, double n)
 {
-    double k = pd->test == PW_TEST_LEVELS_F ? pd->n_levels - 1.0 : 1.0;
+    int f_test = pd->test == PW_TEST_LEVELS_F || pd->test == PW_TEST_BASIS_F;
+    double k = f_test ? pd->n_levels - 1.0 : 1.0;
     double df = n - pd->n_params - k;
     if (!(df >= 1.0)) df = 1.0;
     if (df > PLAN_DF_EXACT)
         df = PLAN_DF_EXACT * pow(PLAN_DF_RATIO, floor(log(df / PLAN_DF_EXACT) / log(PLAN_DF_RATIO)));
     else df = floor(df);
-    double nl = pd->test == PW_TEST_LEVELS_F ? pd->n_levels : 0.0;
+    double nl = f_test ? pd->n_levels : 0.0;
     for (size_t i = 0; i < dc->n; i++) {
         const delta_entry *e = &dc->e[i];
         if (e->test == (int)pd->test && e->sides == pd->sides && e->alpha == pd->alpha &&
@@ -274,7 +281,8 @@ static double delta_needed(struct delta_cache *dc, const pw_design *pd, double n
 static double need_at(struct delta_cache *dc, const claim_work *w, double n)
 {
     /* Below one residual degree of freedom the test has no power at all; size it there instead. */
-    double k = w->pd.test == PW_TEST_LEVELS_F ? w->pd.n_levels - 1.0 : 1.0;
+    double k = w->pd.test == PW_TEST_LEVELS_F || w->pd.test == PW_TEST_BASIS_F
+                   ? w->pd.n_levels - 1.0 : 1.0;
     if (n < w->pd.n_params + k + 2.0) n = w->pd.n_params + k + 2.0;
     double q = NAN;
     if (w->pd.test == PW_TEST_TWO_PROP) {
@@ -514,6 +522,9 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
             w->have_pd = 1;
             it->from_noise = 1;
             w->q_mul = half * half;
+            /* Expected to turn: the basis F's lambda per run, 4/45 for runs spread evenly, where
+             * the slope's coded information per run is 1/3 (turning.c; a stand-in scaling). */
+            if (w->pd.test == PW_TEST_BASIS_F) w->q_mul = 3.0 * w->pd.ncp_per_run;
             w->n_base = (double)n_rows;
             /* The predictions' test counts a level-set input's levels present in the rows. */
             w->pd0 = w->pd;
@@ -537,7 +548,7 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
          * range. */
         pw_design t0;
         double info0e = 0.0;
-        w->q_mul0 = half * half;
+        w->q_mul0 = it->from_noise ? w->q_mul : half * half;
         int erc = exact_test(st, cl, w, &t0, &info0e);
         if (erc != COV_OK) return erc;
         if (!it->from_noise) {

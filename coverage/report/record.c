@@ -138,6 +138,7 @@ static rec_value get_test(rec_row *r)
     return v_word(!r->a->has_design              ? "none"
                   : d->test == PW_TEST_TREND_T   ? "trend t"
                   : d->test == PW_TEST_LEVELS_F  ? "levels F"
+                  : d->test == PW_TEST_BASIS_F   ? "basis F"
                   : d->test == PW_TEST_TWO_PROP  ? "two proportions"
                   : d->test == PW_TEST_TOST      ? "equivalence"
                                                  : "coefficient t");
@@ -248,6 +249,8 @@ static const rec_field fields[] = {
     A_NUM("omnibus_f", omnibus_f),
     A_NUM("omnibus_p", omnibus_p),
     A_NUM("omnibus_power", omnibus_power),
+    A_NUM("turn_lo", turn_lo),
+    A_NUM("turn_hi", turn_hi),
     GET("distinct_values", COV_RECORD_ASSESS, get_distinct_values),
     GET("shape_checkable", COV_RECORD_ASSESS, get_checkable),
     A_NUM("shape_f", shape_f),
