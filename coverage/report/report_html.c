@@ -537,6 +537,27 @@ static int html_figure(FILE *out, const char *dir, const cov_plot *plot, size_t 
     return 1;
 }
 
+/* The units an effect between a and b is counted in, " (delay in min, flow in veh/h)", naming
+ * only the variables whose unit the graph declares; nothing when neither has one. */
+static void html_units(FILE *out, const cov_graph *g, size_t a, size_t b)
+{
+    const char *ua = cov_var_unit(&g->vars[a]), *ub = cov_var_unit(&g->vars[b]);
+    if (!*ua && !*ub) return;
+    fputs(" (", out);
+    if (*ub) {
+        html_text(out, g->vars[b].name);
+        fputs(" in ", out);
+        html_text(out, ub);
+    }
+    if (*ua) {
+        if (*ub) fputs(", ", out);
+        html_text(out, g->vars[a].name);
+        fputs(" in ", out);
+        html_text(out, ua);
+    }
+    fputs(")", out);
+}
+
 /* The graph drawn, and the same in words: every edge and absence with its verdict. */
 static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *info,
                        const char *dir)
@@ -563,6 +584,11 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
             fputs("<code>", out);
             html_text(out, g->vars[v].name);
             fputs("</code>", out);
+            if (*cov_var_unit(&g->vars[v])) {
+                fputs(" (", out);
+                html_text(out, cov_var_unit(&g->vars[v]));
+                fputs(")", out);
+            }
             any = 1;
         }
         if (any) fputs("</li>\n", out);
@@ -587,6 +613,7 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
             cov_report_effect_text(&f->claims->items[claim], eff, sizeof eff);
             fputs("expected effect ", out);
             html_text(out, eff);
+            html_units(out, g, a, b);
             fprintf(out, "; <span class=\"v-%s\">%s</span>", word, word);
         }
         fputs("</li>\n", out);
@@ -605,6 +632,7 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
         html_text(out, g->vars[c->outcome].name);
         fputs("</code>: expected absence ", out);
         html_text(out, eff);
+        html_units(out, g, c->treatment, c->outcome);
         fprintf(out, "; <span class=\"v-%s\">%s</span></li>\n", word, word);
     }
     fputs("</ul>\n</section>\n", out);
