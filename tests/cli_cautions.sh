@@ -72,7 +72,7 @@ for name in ("demo", "kiln"):
             expect(name, fmts, c["noise_note"][:60], f"noise note of {label}")
         if c.get("lack_of_fit_p") is not None and c["lack_of_fit_p"] < 0.01:
             expect(name, fmts, f"lack of fit F = {c['lack_of_fit_f']:.3g}", f"lack of fit of {c['treatment']} -> {c['outcome']}")
-    for kind in ("Noise estimate cannot be trusted", "Inputs moved together"):
+    for kind in ("Power figure can be off", "Inputs moved together"):
         expect(name, fmts, kind, f"heading '{kind}'")
     # Claims testable only by adjusting for (or starting from) outputs rest on the graph's arrows
     # among outputs: named when summary.json has any (steerable false).

@@ -33,6 +33,14 @@ static void family_line(const cov_assessments *as, size_t width, FILE *out)
                                                    : "two-sided");
     cov_term_wrap(out, line, 0, 2, width);
     fputc('\n', out);
+    snprintf(line, sizeof line, "test: %s (%s standard errors); power by %s",
+             cov_test_word(p->test), p->test == COV_TEST_ROBUST ? "HC3" : "OLS",
+             p->power_by == COV_POWER_BY_FORMULA      ? "the normal formula"
+             : p->power_by == COV_POWER_BY_RESAMPLING ? "the wild bootstrap"
+                                                      : "the normal formula, or the wild "
+                                                        "bootstrap where the noise calls for it");
+    cov_term_wrap(out, line, 0, 2, width);
+    fputc('\n', out);
 }
 
 /* "[a, b]" or "[]" (nothing to adjust for) into buf, as the claim notation writes the set. */
@@ -93,8 +101,9 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         if (c->status != COV_TESTABLE || isnan(a->power))
             snprintf(detail, sizeof detail, "-");
         else
-            snprintf(detail, sizeof detail, "adjustment set %s; sigma %s, sd(X|S) %s; power 95%% "
-                     "interval [%.2f, %.2f]", set, e1, e2, a->power_lo, a->power_hi);
+            snprintf(detail, sizeof detail, "%s test, power by %s; adjustment set %s; sigma %s, "
+                     "sd(X|S) %s; power 95%% interval [%.2f, %.2f]", cov_test_word(a->test),
+                     cov_method_word(a->power_method), set, e1, e2, a->power_lo, a->power_hi);
         const char *row[8] = {label, n, pw, mde, eff, runs, verdict, detail};
         if (cov_table_add(t, row) != COV_OK) {
             cov_table_free(t);
@@ -114,7 +123,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
                   out);
             break;
         }
-    if (any_noise) fputs("*: the noise estimate cannot be trusted (notes below).\n", out);
+    if (any_noise) fputs("*: the power figure can be off (notes below).\n", out);
     int any = 0;
     for (size_t i = 0; i < cl->n; i++) {
         const cov_assessment *a = &as->items[i];
@@ -139,6 +148,23 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
             cov_assessment_table_shape(w, label, cw, a);
             cov_reflow_end(&rf, out, width);
         }
+        if (a->power_method == COV_METHOD_RESAMPLED) {
+            if (!any) fputs("\n", out);
+            any = 1;
+            snprintf(line, sizeof line, "%s: power resampled: %.3f (Monte Carlo SE %.3f, %zu %s "
+                     "bootstrap replicates); the normal formula gives %.3f", label, a->power,
+                     a->mc_se, a->replicates, a->resample_kind ? "pairs" : "wild",
+                     a->power_formula);
+            cov_term_wrap(out, line, 0, 4, width);
+            fputc('\n', out);
+        }
+        if (a->fit_note) {
+            if (!any) fputs("\n", out);
+            any = 1;
+            snprintf(line, sizeof line, "%s: fit: %s", label, a->fit_note);
+            cov_term_wrap(out, line, 0, 4, width);
+            fputc('\n', out);
+        }
     }
     /* Noise notes, each text once with the claims that share it. */
     for (size_t i = 0; i < cl->n; i++) {
@@ -158,7 +184,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         FILE *m = open_memstream(&line, &len);
         if (m == NULL) continue;
         fprintf(m, "noise of %s%s for", g->vars[cl->items[i].outcome].name,
-                a->noise_flag ? " (cannot be trusted)" : "");
+                a->noise_flag ? " (power can be off)" : "");
         for (size_t j = i, first = 1; j < cl->n; j++) {
             const cov_assessment *b = &as->items[j];
             if (b->noise_note == NULL || cl->items[j].outcome != cl->items[i].outcome ||
@@ -198,7 +224,11 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_asses
                        const cov_data *d, FILE *out)
 {
     const cov_power_options *p = &as->opt;
-    fputs("{\"schema_version\": 3, \"run_identity\": ", out);
+    fprintf(out, "{\"schema_version\": 3, \"test_se\": \"%s\", \"power_by\": \"%s\", "
+            "\"run_identity\": ", cov_test_word(as->opt.test),
+            as->opt.power_by == COV_POWER_BY_FORMULA      ? "formula"
+            : as->opt.power_by == COV_POWER_BY_RESAMPLING ? "resampling"
+                                                          : "auto");
     cov_runs_json(out, d);
     fputs(", \"alpha\": ", out);
     cov_emit_json_number(out, p->alpha);

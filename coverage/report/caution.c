@@ -72,8 +72,8 @@ static void noise(const cov_findings *f, const cov_caution_kind *k, sink *s)
     for (size_t i = 0; f->assess != NULL && i < f->assess->n; i++) {
         const cov_assessment *a = &f->assess->items[i];
         if (f->claims->items[i].status != COV_TESTABLE || !a->noise_flag) continue;
-        add(s, k, (long)i, "power and MDE rest on a noise estimate of %s that cannot be "
-            "trusted: %s.", name_of(f, f->claims->items[i].outcome),
+        add(s, k, (long)i, "power and MDE for %s can be off (the noise may not be what the "
+            "figure assumes): %s.", name_of(f, f->claims->items[i].outcome),
             a->noise_note ? a->noise_note : "see the diagnostics in summary.json");
     }
 }
@@ -239,7 +239,7 @@ static void data_errors(const cov_findings *f, const cov_caution_kind *k, sink *
 /* Every kind of caution, in the order the formats show them. */
 static const cov_caution_kind kinds[] = {
     {"family", "Tests judged together", family},
-    {"noise", "Noise estimate cannot be trusted", noise},
+    {"noise", "Power figure can be off", noise},
     {"lack-of-fit", "Lack of fit", lack_of_fit},
     {"shape", "The effect's shape and the levels run", shape},
     {"constant-outcome", "Constant or nearly constant outcome", constant},

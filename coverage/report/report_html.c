@@ -489,8 +489,9 @@ static void html_claims(FILE *out, const cov_findings *f, const cov_report_info 
         html_num_cell(out, a ? (double)a->n : NAN, buf);
         cov_report_num_text(a ? a->power : NAN, "%.2f", buf, sizeof buf);
         if (a && isfinite(a->power) && isfinite(a->power_lo) && isfinite(a->power_hi))
-            fprintf(out, "<td class=\"num\" data-v=\"%.9g\">%s<br><small>%.2f to %.2f</small></td>",
-                    a->power, buf, a->power_lo, a->power_hi);
+            fprintf(out, "<td class=\"num\" data-v=\"%.9g\">%s<br><small>%.2f to %.2f<br>%s test, "
+                    "%s</small></td>", a->power, buf, a->power_lo, a->power_hi,
+                    cov_test_word(a->test), cov_method_word(a->power_method));
         else html_num_cell(out, a ? a->power : NAN, buf);
         cov_report_num_text(a ? a->mde : NAN, "%.4g", buf, sizeof buf);
         html_num_cell(out, a ? a->mde : NAN, buf);
