@@ -146,9 +146,10 @@ typedef struct {
  * apart from the other predictors. */
 int pw_xfit_solve(const pw_moments *m, const size_t *idx, size_t k, size_t t, pw_xfit **out);
 void pw_xfit_free(pw_xfit *f);
-/* sd(X | S) of a fit with one treatment column (t = 1): sqrt(treat_info / n), the residual SD of
- * the treatment given the intercept and the other predictors, divisor n; 0 when the treatment was
- * dropped as aliased or constant (t_rank 0); NAN when t != 1. The one definition of sd(X | S) in
+/* sd(X | S) of a fit with one kept treatment column (t_rank = 1: one column, or a level set run
+ * at two of its levels): sqrt(treat_info / n), the residual SD of the treatment given the
+ * intercept and the other predictors, divisor n; 0 when the treatment was dropped as aliased or
+ * constant (t_rank 0); NAN when t_rank > 1. The one definition of sd(X | S) in
  * shoal: the assessment reads it from its fit, the support measure through pw_resid_sd. */
 double pw_xfit_sd_treatment(const pw_xfit *f);
 /* sd(X | S) of column idx[k] given an intercept and the columns idx[0..k-1] of m, by the fit

@@ -38,7 +38,10 @@
  * against each cell's systematic error (mean prediction less the truth): the share of campaigns
  * flagged in cells off by more than 5 points, and left silent in cells within 2 points. The
  * per-campaign rates (a campaign's own prediction off by > 5 or within 2 points, mostly sigma's
- * sampling error, which the interval carries) are printed beside them. */
+ * sampling error, which the interval carries) are printed beside them. A campaign whose runs
+ * never vary the outcome is "untestable on these runs": it shows no power (counted as 0 in the
+ * mean prediction, as the verdict is never ample) and no interval, so coverage is over the
+ * campaigns that show one; the share untestable is printed ("untest"). */
 #define HIT_MIN (slow ? 0.80 : 0.75)
 #define SILENT_MIN (slow ? 0.80 : 0.75)
 #define COVER_MIN (slow ? 0.93 : 0.886)
@@ -63,7 +66,7 @@ typedef struct {
 
 typedef struct {
     double pred, lo, hi, pred_formula;
-    int flag, reject, resampled;
+    int flag, reject, resampled, untestable;
     unsigned reasons;
     double kurt, mode, share;
 } record;
@@ -218,8 +221,9 @@ int main(void)
     printf("harness: pool %zu runs (invented depot simulator), %d campaigns per cell, truth from "
            "%d more, %s test, power by auto\n", p.n, R, truth_campaigns,
            opt.test == COV_TEST_ROBUST ? "robust" : "classic");
-    printf("harness: %-24s %5s %7s %7s %8s %8s %8s %8s %9s %6s %6s\n", "class", "n", "true",
-           "pred", "err pts", "formula", "flag hit", "false al", "coverage", "resamp", "tested");
+    printf("harness: %-24s %5s %7s %7s %8s %8s %8s %8s %9s %6s %6s %6s\n", "class", "n", "true",
+           "pred", "err pts", "formula", "flag hit", "false al", "coverage", "resamp", "tested",
+           "untest");
     double all_off = 0, all_off_flag = 0, all_ok = 0, all_ok_flag = 0;
     double sys_off = 0, sys_off_flag = 0, sys_ok = 0, sys_ok_flag = 0;
     double formula_off_cells = 0, formula_off_err = 0, formula_off_err_auto = 0;
@@ -268,6 +272,7 @@ int main(void)
             for (int k = 0; k < N_CLAIMS; k++) {
                 const cov_assessment *a = &as->items[k];
                 record *q = &rec[rep * N_CLAIMS + k];
+                q->untestable = a->verdict == COV_BLIND || !isfinite(a->power);
                 q->pred = isfinite(a->power) ? a->power : 0;
                 q->lo = isfinite(a->power_lo) ? a->power_lo : q->pred;
                 q->hi = isfinite(a->power_hi) ? a->power_hi : q->pred;
@@ -318,7 +323,7 @@ int main(void)
                 resamp += q->resampled;
             }
             double truth = truth_rate[k];
-            double off = 0, off_flag = 0, ok = 0, ok_flag = 0, cover = 0, flagged = 0;
+            double off = 0, off_flag = 0, ok = 0, ok_flag = 0, cover = 0, flagged = 0, shown = 0;
             for (int rep = 0; rep < R; rep++) {
                 const record *q = &rec[rep * N_CLAIMS + k];
                 double e = fabs(q->pred - truth);
@@ -329,7 +334,10 @@ int main(void)
                     ok++;
                     ok_flag += q->flag;
                 }
-                cover += q->lo <= truth && truth <= q->hi;
+                if (!q->untestable) {
+                    shown++;
+                    cover += q->lo <= truth && truth <= q->hi;
+                }
                 flagged += q->flag;
             }
             all_off += off;
@@ -350,7 +358,8 @@ int main(void)
                 sys_ok += R;
                 sys_ok_flag += flagged;
             }
-            if (cover / R < worst_cover) worst_cover = cover / R;
+            double coverage = shown > 0 ? cover / shown : 1;
+            if (coverage < worst_cover) worst_cover = coverage;
             if (fabs(err_pts) > 5 && flagged / R < 0.5) bad_cells++;
             char hit[16] = "-", fa[16] = "-";
             if (off > 0) snprintf(hit, sizeof hit, "%.2f", off_flag / off);
@@ -361,9 +370,10 @@ int main(void)
                         truth, q->pred, q->lo, q->hi, q->pred_formula, q->flag, q->reasons,
                         q->resampled, q->kurt, q->mode, q->share);
             }
-            printf("harness: %-24s %5zu %7.3f %7.3f %+8.1f %+8.1f %8s %8s %9.3f %6.2f %6.3f\n",
-                   class_name[k], n, truth, pred / R, err_pts, 100 * (form / R - truth), hit, fa,
-                   cover / R, resamp / R, rej / R);
+            printf("harness: %-24s %5zu %7.3f %7.3f %+8.1f %+8.1f %8s %8s %9.3f %6.2f %6.3f "
+                   "%6.2f\n", class_name[k], n, truth, pred / R, err_pts,
+                   100 * (form / R - truth), hit, fa, coverage, resamp / R, rej / R,
+                   1 - shown / R);
         }
     }
     if (!failed) {

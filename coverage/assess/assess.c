@@ -441,6 +441,15 @@ static void global_index(const assess_ctx *x, const layout *lay, size_t *idx)
 }
 
 /* A claim whose outcome given the treatment and adjustment set was fitted: everything else. */
+/* A column whose centred sum of squares is within rounding of zero takes one value: a constant
+ * 0.12 summed in binary leaves deviations near 1e-17, so "> 0" alone would call it varying. The
+ * cut is 1e-12 of the mean's magnitude in SD, far below any spread a simulator records. */
+static int moments_constant(const pw_moments *m, size_t i)
+{
+    double ss = pw_moments_at(m, i, i), scale = 1e-12 * fabs(m->mean[i]);
+    return !(ss > m->n * scale * scale);
+}
+
 static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
                          const pw_moments *m, const size_t *idx, const cov_data *d,
                          const size_t *rows, size_t n_rows, int fast,
@@ -460,8 +469,8 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
      * like these can test it, so it is untestable on these runs, never ample and never thin. */
     int x_constant = 1;
     for (size_t a0 = k - t; a0 < k; a0++)
-        if (pw_moments_at(m, idx[a0], idx[a0]) > 0) x_constant = 0;
-    int y_constant = !(pw_moments_at(m, idx[k], idx[k]) > 0);
+        if (!moments_constant(m, idx[a0])) x_constant = 0;
+    int y_constant = moments_constant(m, idx[k]);
     if ((y_constant || x_constant) && n_rows > 0) {
         size_t v = y_constant ? c->outcome : c->treatment;
         char val[160];

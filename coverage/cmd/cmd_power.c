@@ -57,6 +57,53 @@ static void set_text(const cov_graph *g, const cov_claim *c, char *buf, size_t s
  * sd(X|S) and the power interval follow the row when the terminal is too narrow for them. Notes
  * come after the table, one per distinct text: a noise note shared by several claims of the same
  * outcome is printed once, after their names. */
+/* The note of kind fit (0 noise, 1 lack of fit) of claim i, or NULL. */
+static const char *note_of(const cov_assessments *as, size_t i, int fit)
+{
+    return fit ? as->items[i].fit_note : as->items[i].noise_note;
+}
+
+/* Claims i and j share a note: same outcome, same flag, same text. */
+static int same_note(const cov_claims *cl, const cov_assessments *as, size_t i, size_t j, int fit)
+{
+    const char *x = note_of(as, i, fit), *y = note_of(as, j, fit);
+    return x != NULL && y != NULL && cl->items[i].outcome == cl->items[j].outcome &&
+           as->items[i].noise_flag == as->items[j].noise_flag && strcmp(x, y) == 0;
+}
+
+/* Every distinct note of one kind once, after the names of the claims that share it. */
+static void shared_notes(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
+                         int fit, size_t width, int *any, FILE *out)
+{
+    for (size_t i = 0; i < cl->n; i++) {
+        if (note_of(as, i, fit) == NULL) continue;
+        int seen = 0;
+        for (size_t j = 0; j < i && !seen; j++) seen = same_note(cl, as, j, i, fit);
+        if (seen) continue;
+        if (!*any) fputs("\n", out);
+        *any = 1;
+        char *line = NULL;
+        size_t len = 0;
+        FILE *m = open_memstream(&line, &len);
+        if (m == NULL) continue;
+        fprintf(m, "%s of %s%s for", fit ? "fit" : "noise", g->vars[cl->items[i].outcome].name,
+                !fit && as->items[i].noise_flag ? " (power can be off)" : "");
+        for (size_t j = i, first = 1; j < cl->n; j++) {
+            if (j != i && !same_note(cl, as, i, j, fit)) continue;
+            char lab[512];
+            cov_claim_pair_label(g, &cl->items[j], lab, sizeof lab);
+            fprintf(m, "%s %s", first ? "" : ";", lab);
+            first = 0;
+        }
+        fprintf(m, ": %s", note_of(as, i, fit));
+        if (fclose(m) == 0 && line != NULL) {
+            cov_term_wrap(out, line, 0, 4, width);
+            fputc('\n', out);
+        }
+        free(line);
+    }
+}
+
 static void print_table(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
                         const cov_data *d, size_t width, FILE *out)
 {
@@ -158,50 +205,10 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
             cov_term_wrap(out, line, 0, 4, width);
             fputc('\n', out);
         }
-        if (a->fit_note) {
-            if (!any) fputs("\n", out);
-            any = 1;
-            snprintf(line, sizeof line, "%s: fit: %s", label, a->fit_note);
-            cov_term_wrap(out, line, 0, 4, width);
-            fputc('\n', out);
-        }
     }
-    /* Noise notes, each text once with the claims that share it. */
-    for (size_t i = 0; i < cl->n; i++) {
-        const cov_assessment *a = &as->items[i];
-        if (a->noise_note == NULL) continue;
-        int seen = 0;
-        for (size_t j = 0; j < i && !seen; j++)
-            seen = as->items[j].noise_note != NULL &&
-                   cl->items[j].outcome == cl->items[i].outcome &&
-                   as->items[j].noise_flag == a->noise_flag &&
-                   strcmp(as->items[j].noise_note, a->noise_note) == 0;
-        if (seen) continue;
-        if (!any) fputs("\n", out);
-        any = 1;
-        char *line = NULL;
-        size_t len = 0;
-        FILE *m = open_memstream(&line, &len);
-        if (m == NULL) continue;
-        fprintf(m, "noise of %s%s for", g->vars[cl->items[i].outcome].name,
-                a->noise_flag ? " (power can be off)" : "");
-        for (size_t j = i, first = 1; j < cl->n; j++) {
-            const cov_assessment *b = &as->items[j];
-            if (b->noise_note == NULL || cl->items[j].outcome != cl->items[i].outcome ||
-                b->noise_flag != a->noise_flag || strcmp(b->noise_note, a->noise_note) != 0)
-                continue;
-            char lab[512];
-            cov_claim_pair_label(g, &cl->items[j], lab, sizeof lab);
-            fprintf(m, "%s %s", first ? "" : ";", lab);
-            first = 0;
-        }
-        fprintf(m, ": %s", a->noise_note);
-        if (fclose(m) == 0 && line != NULL) {
-            cov_term_wrap(out, line, 0, 4, width);
-            fputc('\n', out);
-        }
-        free(line);
-    }
+    /* Noise and fit notes, each text once with the claims of its outcome that share it. */
+    shared_notes(g, cl, as, 0, width, &any, out);
+    shared_notes(g, cl, as, 1, width, &any, out);
     size_t n_ample = 0, n_underpowered = 0, n_blind = 0;
     for (size_t i = 0; i < as->n; i++) {
         n_ample += as->items[i].verdict == COV_AMPLE;

@@ -158,7 +158,9 @@ static void dependence(const cov_findings *f, const cov_caution_kind *k, sink *s
             size_t used = 0, hit = 0;
             for (size_t c = 0; f->assess != NULL && c < f->claims->n; c++) {
                 const cov_claim *cl = &f->claims->items[c];
-                if (cl->status != COV_TESTABLE || c >= f->assess->n) continue;
+                if (cl->status != COV_TESTABLE || c >= f->assess->n ||
+                    !isfinite(f->assess->items[c].vif))
+                    continue;
                 size_t other = cl->treatment == va ? vb : cl->treatment == vb ? va : SIZE_MAX;
                 int held = 0;
                 for (size_t m = 0; other != SIZE_MAX && m < cl->n_cond; m++)
