@@ -58,7 +58,7 @@ enum long_only {
     OPT_BINS, OPT_WAY, OPT_NEED_MARGINAL, OPT_NEED_PAIRWISE, OPT_NEED_THREEWAY, OPT_BUDGET,
     OPT_REPLICATES, OPT_SEED, OPT_HISTORY, OPT_PLAN, OPT_CSV, OPT_JSON, OPT_VERSION,
     OPT_RECORD_SNAPSHOT, OPT_JUNIT, OPT_AGAIN, OPT_THREADS, OPT_COST_COLUMN, OPT_COST_BUDGET,
-    OPT_ROUNDS
+    OPT_ROUNDS, OPT_TEST, OPT_POWER_BY, OPT_RESAMPLES
 };
 
 /* Every option: its long name, value, the commands it applies to, and its help line. */
@@ -81,6 +81,12 @@ static const struct option_doc options[] = {
      "multiplicity correction (default bonferroni)"},
     {"one-sided", 0, OPT_ONE_SIDED, C_POWER | C_SURVEY | C_PLAN, NULL,
      "one-sided tests where the graph gives a sign"},
+    {"test", 1, OPT_TEST, C_POWER | C_SURVEY | C_PLAN, "classic|robust",
+     "OLS or HC3 standard errors (default robust)"},
+    {"power-by", 1, OPT_POWER_BY, C_POWER | C_SURVEY | C_PLAN, "auto|formula|resampling",
+     "normal formula or bootstrap (default auto: by noise)"},
+    {"resamples", 1, OPT_RESAMPLES, C_POWER | C_SURVEY | C_PLAN, "B",
+     "bootstrap replicates per claim (default 400)"},
     {"min-runs", 1, OPT_MIN_RUNS, C_COVERAGE | C_SURVEY | C_PLAN, "M",
      "runs that make a bin or cell covered (default 5)"},
     {"bins", 1, OPT_BINS, C_COVERAGE | C_SURVEY | C_PLAN, "B",
@@ -101,8 +107,8 @@ static const struct option_doc options[] = {
     {"cost-budget", 1, OPT_COST_BUDGET, C_PLAN, "C",
      "plan runs until their fitted cost would pass C"},
     {"rounds", 1, OPT_ROUNDS, C_PLAN, "K", "write the first of K batches; plan again after it"},
-    {"seed", 1, OPT_SEED, C_COVERAGE | C_SURVEY | C_PLAN, "S",
-     "seed for subsampling, probes and planned seeds"},
+    {"seed", 1, OPT_SEED, C_POWER | C_COVERAGE | C_SURVEY | C_PLAN, "S",
+     "seed for resampling, probes, subsamples, plan seeds"},
     {"threads", 1, OPT_THREADS, C_COVERAGE | C_SURVEY, "N",
      "threads for shared summaries (default 1)"},
     {"output", 1, 'o', C_SURVEY | C_PLAN, "PATH",
@@ -207,6 +213,28 @@ static int apply_option(int c, const char *arg, cov_options *o)
         }
         return 0;
     case OPT_ONE_SIDED: o->power.one_sided = 1; return 0;
+    case OPT_TEST:
+        if (strcmp(arg, "classic") == 0) o->power.test = COV_TEST_CLASSIC;
+        else if (strcmp(arg, "robust") == 0) o->power.test = COV_TEST_ROBUST;
+        else {
+            fprintf(stderr, "shoal: --test expects 'classic' or 'robust', got '%s'\n", arg);
+            return -1;
+        }
+        return 0;
+    case OPT_POWER_BY:
+        if (strcmp(arg, "auto") == 0) o->power.power_by = COV_POWER_BY_AUTO;
+        else if (strcmp(arg, "formula") == 0) o->power.power_by = COV_POWER_BY_FORMULA;
+        else if (strcmp(arg, "resampling") == 0) o->power.power_by = COV_POWER_BY_RESAMPLING;
+        else {
+            fprintf(stderr, "shoal: --power-by expects 'auto', 'formula' or 'resampling', got "
+                    "'%s'\n", arg);
+            return -1;
+        }
+        return 0;
+    case OPT_RESAMPLES:
+        if (parse_long("--resamples", arg, 100, 20000, &k)) return -1;
+        o->power.resample_reps = (size_t)k;
+        return 0;
     case OPT_MIN_RUNS:
         if (parse_long("--min-runs", arg, 1, 1000000, &k)) return -1;
         o->coverage.min_runs = (size_t)k;
@@ -238,6 +266,7 @@ static int apply_option(int c, const char *arg, cov_options *o)
         if (parse_long("--seed", arg, 0, 2147483647L, &k)) return -1;
         o->coverage.seed = (unsigned long)k;
         o->seed_given = 1;
+        o->power.resample_seed = (unsigned long)k + 1;
         return 0;
     case OPT_COST_COLUMN: o->cost_column = arg; return 0;
     case OPT_COST_BUDGET: return parse_double("--cost-budget", arg, 1e-300, 1e300, &o->cost_budget);

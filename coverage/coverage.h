@@ -278,7 +278,24 @@ typedef struct {
     double target;        /* target power, default 0.80 */
     int bonferroni;       /* 1 (default): Bonferroni over the testable claims */
     int one_sided;        /* 1: one-sided tests where the edge gives a sign */
+    int test;             /* COV_TEST_CLASSIC (0) or COV_TEST_ROBUST (HC3, the CLI's default) */
+    int power_by;         /* COV_POWER_BY_AUTO (0), _FORMULA or _RESAMPLING */
+    unsigned long resample_seed;   /* 0: COV_RESAMPLE_SEED */
+    size_t resample_reps; /* wild bootstrap replicates per claim; 0: COV_RESAMPLE_REPS */
 } cov_power_options;
+
+/* The test the figures are for: classic OLS standard errors, or HC3 ones (robust to spread that
+ * changes with the inputs). */
+enum { COV_TEST_CLASSIC = 0, COV_TEST_ROBUST = 1 };
+/* How power is computed: auto resamples where the normal formula cannot be trusted (far from
+ * normal, heteroscedastic, discrete or mostly one value); formula never; resampling always (single
+ * treatment column claims; the level-set F test always uses the formula). */
+enum { COV_POWER_BY_AUTO = 0, COV_POWER_BY_FORMULA = 1, COV_POWER_BY_RESAMPLING = 2 };
+/* The method a claim's power came from. */
+enum { COV_METHOD_FORMULA = 0, COV_METHOD_RESAMPLED = 1 };
+/* The words printed for them: "classic"/"robust", "formula"/"resampled". */
+const char *cov_test_word(int test);
+const char *cov_method_word(int method);
 
 /* How much of an outcome's variance the runs' seeds explain when seeds are shared across
  * configurations (common random numbers): one block per seed that two or more of the runs share,
@@ -305,7 +322,7 @@ typedef struct {
     double power, power_lo, power_hi;
     double mde, mde_lo, mde_hi;       /* for absence claims: the smallest margin it could show */
     double runs_needed;   /* total runs for the target; INFINITY when unreachable */
-    int noise_flag;       /* 1 when the noise estimate cannot be trusted */
+    int noise_flag;       /* 1 when the power figure can be off (noise_reasons says why) */
     char *noise_note;     /* why, or NULL */
     int has_pure_error;   /* replicated configurations allow a pure-error sigma */
     double sigma_pure, lof_f, lof_p;
@@ -333,6 +350,17 @@ typedef struct {
     double fixed_value;   /* that value (level index for a level set), or NAN */
     double turn_lo, turn_hi;   /* `expect turning` on a numeric treatment: the range over which
                                   effect_raw is the height of the turn (turning.c); NAN else */
+    int test;             /* COV_TEST_*: the test power, MDE and runs are for */
+    int power_method;     /* COV_METHOD_*: how they were computed */
+    double power_formula; /* the normal formula's power for that test (equals power when formula) */
+    double mc_se;         /* Monte Carlo SE of a resampled power; NAN for the formula */
+    size_t replicates;    /* wild bootstrap replicates behind a resampled power; 0 for the formula */
+    double se_robust;     /* HC3 SE of the estimate (on the diagnostic rows, scaled to n); NAN */
+    double mode_share;    /* share of the outcome's most common value; NAN when not measured */
+    char *fit_note;       /* lack of fit, reported in its own right (not a noise flag); or NULL */
+    unsigned noise_reasons;   /* COV_NOISE_* bits: why noise_flag is set */
+    int resample_kind;    /* a resampled power's bootstrap: 0 wild (Rademacher), 1 pairs */
+    double leave_out_share;   /* the largest share of the SE estimate held by one run, or NAN */
     /* Seed blocks (coverage/assess/seedblock.c; README.md, "Seed blocks"). */
     cov_seed_share seed;  /* how much of the claim's residual variance the seeds explain */
     int seed_blocks_used; /* 1: estimate, se, df, sigma, power, MDE and runs needed are the
@@ -344,6 +372,18 @@ typedef struct {
 
 /* The value a variable never leaves, as text: the level name, true/false, or the number. */
 void cov_value_text(const cov_var *v, double x, char *buf, size_t size);
+
+/* Why a power figure can be off (cov_assessment.noise_reasons). */
+enum {
+    COV_NOISE_DISAGREE = 1u,       /* formula and resampled power disagree */
+    COV_NOISE_FEW_VALUES = 2u,     /* fewer than 20 runs off a mostly-one-value outcome's value */
+    COV_NOISE_ONE_RUN = 4u,        /* leaving the heaviest run out moves power over 5 points */
+    COV_NOISE_NEAR_CONSTANT = 8u,  /* one value in more than 95% of runs */
+    COV_NOISE_TAIL = 16u,          /* a heavy tail the campaign is too small to have seen */
+    COV_NOISE_CLASSIC_HETERO = 32u,   /* classic test under changing spread: its level is off */
+    COV_NOISE_FEW_DF = 64u,        /* fewer than 10 residual degrees of freedom */
+    COV_NOISE_OTHER = 128u         /* fitted exactly, or a level-set outcome taken as numbers */
+};
 
 typedef struct {
     cov_power_options opt;

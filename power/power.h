@@ -146,9 +146,10 @@ typedef struct {
  * apart from the other predictors. */
 int pw_xfit_solve(const pw_moments *m, const size_t *idx, size_t k, size_t t, pw_xfit **out);
 void pw_xfit_free(pw_xfit *f);
-/* sd(X | S) of a fit with one treatment column (t = 1): sqrt(treat_info / n), the residual SD of
- * the treatment given the intercept and the other predictors, divisor n; 0 when the treatment was
- * dropped as aliased or constant (t_rank 0); NAN when t != 1. The one definition of sd(X | S) in
+/* sd(X | S) of a fit with one kept treatment column (t_rank = 1: one column, or a level set run
+ * at two of its levels): sqrt(treat_info / n), the residual SD of the treatment given the
+ * intercept and the other predictors, divisor n; 0 when the treatment was dropped as aliased or
+ * constant (t_rank 0); NAN when t_rank > 1. The one definition of sd(X | S) in
  * shoal: the assessment reads it from its fit, the support measure through pw_resid_sd. */
 double pw_xfit_sd_treatment(const pw_xfit *f);
 /* sd(X | S) of column idx[k] given an intercept and the columns idx[0..k-1] of m, by the fit
@@ -501,5 +502,71 @@ int pw_within_ftest(double rss_r, double df_r, double rss_u, double df_u, pw_wit
  * PW_ENOMEM. */
 int pw_logit_fit(const double *X, const double *y, size_t n, size_t p, double *coef, double *prob,
                  int *iter);
+
+/* ---------------------------------------------------------------------------------------------
+ * Heteroscedasticity-consistent standard errors (power/hc.c) and power by resampling
+ * (power/resample.c). */
+
+/* A least-squares fit with its HC3 covariance (MacKinnon & White 1985; Long & Ervin 2000):
+ * (X'X)^-1 [sum_i x_i x_i' e_i^2 / (1 - h_ii)^2] (X'X)^-1, the form statsmodels calls
+ * cov_type='HC3'. Allocated by pw_hc3_fit, freed by pw_hcfit_free. */
+typedef struct {
+    size_t n, p;
+    double *coef;         /* p estimates */
+    double *xtx_inv;      /* p * p, (X'X)^-1, row-major */
+    double *resid;        /* n residuals */
+    double *lev;          /* n leverages h_ii */
+    double *cov_hc3;      /* p * p, HC3 covariance */
+    double *cov_classic;  /* p * p, sigma^2 (X'X)^-1 */
+    double df, sigma;     /* n - p; residual SD */
+} pw_hcfit;
+/* Fit y on X (n-by-p, row-major; the caller includes any intercept column) by Householder QR
+ * (pw_ols_fit). PW_OK, PW_EDOM, PW_EFEW (n <= p), PW_ESING (rank-deficient, or a run with
+ * leverage 1, where HC3 is undefined), PW_ENOMEM. */
+int pw_hc3_fit(const double *X, const double *y, size_t n, size_t p, pw_hcfit **out);
+void pw_hcfit_free(pw_hcfit *f);
+/* The variance of the contrast c'beta (c: p values) under the HC3 covariance (robust 1) or the
+ * classic one (robust 0). */
+double pw_hc_contrast_var(const pw_hcfit *f, const double *c, int robust);
+
+/* Wild bootstrap replicates of a fit (Wu 1986; Liu 1988; Davidson & Flachaire 2008): y* = the
+ * fitted model with the effect of interest planted + e_i / sqrt(1 - h_ii) v_i, v_i Rademacher or
+ * Mammen weights; each replicate refits and keeps the contrast's estimation error and its SE (HC3
+ * when robust, else classic). Power at any effect and run count is then read off the same
+ * replicates: estimate = effect + error, both error and SE scaled by sqrt(n / n_new). B replicates
+ * from a mt19937 stream seeded with seed: the same inputs and seed give the same figures.
+ * Cost O(B n p). PW_OK, PW_EDOM, PW_EFEW (df < 1), PW_ENOMEM. */
+enum { PW_WILD_RADEMACHER = 0, PW_WILD_MAMMEN = 1 };
+typedef struct pw_wild pw_wild;
+int pw_wild_draw(const pw_hcfit *f, const double *X, const double *c, int robust, int weights,
+                 size_t B, unsigned long seed, pw_wild **out);
+void pw_wild_free(pw_wild *w);
+/* The same replicates from a pairs bootstrap (resampling whole runs; for discrete outcomes, which
+ * then keep their values): X (n-by-p, row-major, intercept included) and y are the runs; each
+ * replicate refits and keeps its contrast estimate less the archive's, and its SE (HC3 when
+ * robust). A replicate whose refit is singular or constant gets SE 0 and never rejects. Cost
+ * O(B n p^2). PW_OK, PW_EDOM, PW_EFEW, PW_ESING (the archive's own fit), PW_ENOMEM. */
+int pw_pairs_draw(const double *X, const double *y, size_t n, size_t p, const double *c,
+                  int robust, size_t B, unsigned long seed, pw_wild **out);
+size_t pw_wild_replicates(const pw_wild *w);
+/* The test read off the replicates: tost 1 for two one-sided tests at level alpha against
+ * -+effect at a true effect of 0; else a t test with sides 1 (effect in the expected direction)
+ * or 2, at level alpha, against a t reference with n_new - p df. */
+typedef struct {
+    int tost;
+    int sides;
+    double alpha;
+} pw_wild_test;
+/* Share of replicates that reject at effect (> 0) with n_new runs, and its binomial Monte Carlo
+ * SE sqrt(p (1 - p) / B) (mc_se may be NULL). PW_OK, PW_EDOM, PW_EFEW (n_new - p < 1). */
+int pw_wild_power(const pw_wild *w, const pw_wild_test *t, double effect, double n_new,
+                  double *power, double *mc_se);
+/* The smallest effect (margin for TOST) whose share reaches target at n_new runs, by doubling
+ * then bisection (monotone search); INFINITY when none does. */
+int pw_wild_mde(const pw_wild *w, const pw_wild_test *t, double target, double n_new, double *mde);
+/* The smallest whole number of runs whose share reaches target at effect; INFINITY beyond
+ * PW_MAX_RUNS. */
+int pw_wild_runs(const pw_wild *w, const pw_wild_test *t, double effect, double target,
+                 double *runs);
 
 #endif

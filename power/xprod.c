@@ -264,8 +264,9 @@ fail:
 
 double pw_xfit_sd_treatment(const pw_xfit *f)
 {
-    if (f == NULL || f->t != 1 || !(f->n > 0)) return NAN;
+    if (f == NULL || !(f->n > 0)) return NAN;
     if (f->t_rank == 0) return 0.0;
+    if (f->t_rank != 1) return NAN;
     return sqrt(f->treat_info[0] / f->n);
 }
 

@@ -21,11 +21,11 @@ fi
 # ---- an invented campaign: a level named with a per cent sign, a quote, a semicolon, <script> ----
 cat >"$tmp/odd.graph" <<'EOF'
 # Invented for the plot tests: no real system behind these names.
-input load real [0, 10]
+input load real [0, 10] unit "veh/h"
 input "it's; \"odd\"" bool
 input "<script>" levels {low, "a_b^c", "100% high"}
-input crews integer [1, 4]
-output delay real noise 1
+input crews integer [1, 4] unit "m_2^3 & <i>"
+output delay real noise 1 unit "min"
 load -> delay effect 0.3
 "it's; \"odd\"" -> delay effect 0.5
 "<script>" -> delay effect 1
@@ -88,6 +88,24 @@ for path in svgs:
 alltext = "\n".join(texts)
 for name in ["it's; \"odd\"", "<script>", "a_b^c", "100% high"]:
     check(name in alltext, f"the name {name!r} reads as typed in the SVG text (parsed, unescaped)")
+# Declared units reach every quantity axis: on each sparse-pair plot (whose axes are two inputs'
+# values) an input with a unit is labelled "name (unit)", never by its bare name; the other plots'
+# axes are unitless (power, MDE / effect of interest, runs) or list inputs by name (pairs).
+units = {"load": "veh/h", "crews": "m_2^3 & <i>"}
+labelled, bare = [], []
+for path in sorted(glob.glob(rep + "/pair-*.svg")):
+    t = ["".join(e.itertext()).strip() for e in ET.parse(path).getroot().iter()
+         if e.tag.endswith("text")]
+    labelled += [x for x in t if x in (f"{n} ({u})" for n, u in units.items())]
+    bare += [f"{os.path.basename(path)}: {x}" for x in t if x in units]
+check(labelled and not bare, f"pair plots label input axes with their units as typed: {labelled}; "
+      f"bare names {bare}")
+html = open(rep + "/index.html", encoding="utf-8").read()
+check("<code>load</code> (veh/h)" in html and "<code>crews</code> (m_2^3 &amp; &lt;i&gt;)" in html
+      and "<code>delay</code> (min)" in html,
+      "the graph listed in words gives each variable's unit, HTML-escaped")
+check("expected effect 0.3 (delay in min, load in veh/h)" in html,
+      "the graph listing says the units an effect is counted in")
 for path in sorted(glob.glob(rep + "/*.png")):
     data = open(path, "rb").read()
     good = data[:8] == b"\x89PNG\r\n\x1a\n"

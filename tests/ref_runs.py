@@ -115,7 +115,7 @@ with tempfile.TemporaryDirectory() as tmp:
         claims = json.loads(p.stdout)["claims"] if p.returncode in (0, 1) else []
         notes = 0
         for c in claims:
-            note = c.get("noise_note") or ""
+            note = c.get("fit_note") or ""
             m = re.search(r"pure error from (\d+) repeated configurations? \(of (\d+) distinct in "
                           r"(\d+) runs\)", note)
             if not m:

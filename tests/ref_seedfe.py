@@ -101,8 +101,22 @@ with tempfile.TemporaryDirectory() as tmp:
     con = sqlite3.connect(db)
     df.to_sql("runs", con, index=False)
     con.close()
-    p = subprocess.run([SHOAL, "power", graph, db, "--json"], capture_output=True, text=True)
+    # The classic test by formula: the statsmodels fits below use classic standard errors.
+    p = subprocess.run([SHOAL, "power", graph, db, "--json", "--test", "classic", "--power-by",
+                        "formula"], capture_output=True, text=True)
     claims = json.loads(p.stdout)["claims"] if p.returncode in (0, 1) else []
+    # With the default (robust) test, a blocked claim keeps the blocked model's classic test by
+    # formula (HC3 and resampling are not formed with the blocks) and says so.
+    r = subprocess.run([SHOAL, "power", graph, db, "--json"], capture_output=True, text=True)
+    robust = json.loads(r.stdout)["claims"] if r.returncode in (0, 1) else []
+    same = len(robust) == len(claims) > 0
+    for a, b in zip(claims, robust):
+        if a["seed_blocks_used"]:
+            same &= b["seed_blocks_used"] and b["test_se"] == "classic" and \
+                b["power_method"] == "formula" and b["power"] == a["power"] and \
+                "seed blocks: the classic test of the blocked model" in (b["noise_note"] or "")
+    report(same, "default robust test: the blocked claims keep the blocked classic test by "
+           "formula, with the note")
     report(len(claims) > 0, "shoal power --json ran on the invented campaign (exit %d)"
            % p.returncode)
     runs = df.drop_duplicates(subset=["seed", "speed", "sorters", "express"])
@@ -190,7 +204,8 @@ with tempfile.TemporaryDirectory() as tmp:
                "(1e-8 relative)" % (o, got[0]["share"] if got else None,
                                     got[0]["f"] if got else None, share, an["F"][1]))
     # Every reader format says whether blocks were used, the share, and the assumption.
-    t = subprocess.run([SHOAL, "power", graph, db], capture_output=True, text=True).stdout
+    t = " ".join(subprocess.run([SHOAL, "power", graph, db], capture_output=True,
+                                text=True).stdout.split())
     report("seed blocks used (seed explains" in t and "seed blocks not used (seed explains" in t
            and "seeds: the seed explains" in t and "assume further runs reuse these" in t,
            "shoal power's table: blocks used / not used with the share, per-outcome lines, and "
@@ -207,7 +222,8 @@ with tempfile.TemporaryDirectory() as tmp:
            "+ %d claims), in report.md and index.html with the assumption" % (len(kinds),
                                                                                used_any))
     # The plan's runs carry fresh seeds: it sizes a blocked claim by the test without blocks.
-    q = subprocess.run([SHOAL, "plan", graph, db, "--json", "-o", os.path.join(tmp, "plan.csv")],
+    q = subprocess.run([SHOAL, "plan", graph, db, "--json", "--test", "classic", "--power-by",
+                        "formula", "-o", os.path.join(tmp, "plan.csv")],
                        capture_output=True, text=True)
     plan = json.loads(q.stdout)["claims"] if q.returncode in (0, 1) else []
     byname = {(c["kind"], c["treatment"], c["outcome"]): c for c in claims}

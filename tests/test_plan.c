@@ -207,6 +207,9 @@ static void test_plan_file(gsl_rng *r)
     }
     cov_options o;
     cov_options_default(&o);
+    /* The simulations here run the classic test (OLS standard errors). */
+    o.power.test = COV_TEST_CLASSIC;
+    o.power.power_by = COV_POWER_BY_FORMULA;
     cov_power_options po = o.power;
     cov_coverage_options co = o.coverage;
     rc = cov_assess(g, c, d, &po, &a, &err);
@@ -355,6 +358,9 @@ static void test_calibration(gsl_rng *r, int slow)
     }
     cov_options o;
     cov_options_default(&o);
+    /* The simulations here run the classic test (OLS standard errors). */
+    o.power.test = COV_TEST_CLASSIC;
+    o.power.power_by = COV_POWER_BY_FORMULA;
     int rc = cov_assess(g, c, d, &o.power, &a, &err);
     if (rc == COV_OK)
         rc = cov_plan_make(g, c, d, a, &o.power, &o.coverage, 20, 2, &p, &err);
@@ -475,6 +481,9 @@ static void test_levels_prediction(gsl_rng *r, const char *graph, int drop_d)
         }
         cov_options o;
         cov_options_default(&o);
+        /* The simulations here run the classic test (OLS standard errors). */
+        o.power.test = COV_TEST_CLASSIC;
+        o.power.power_by = COV_POWER_BY_FORMULA;
         int rc = cov_assess(g, c, d, &o.power, &a, &err);
         if (rc == COV_OK)
             rc = cov_plan_make(g, c, d, a, &o.power, &o.coverage, (long)budget, 1, &p, &err);
@@ -559,6 +568,9 @@ static void test_empty_archive(void)
     }
     cov_options o;
     cov_options_default(&o);
+    /* The simulations here run the classic test (OLS standard errors). */
+    o.power.test = COV_TEST_CLASSIC;
+    o.power.power_by = COV_POWER_BY_FORMULA;
     int rc = cov_plan_make(g, c, NULL, NULL, &o.power, &o.coverage, -1, 1, &p, &err);
     gsl_test_int(rc, COV_OK, "plan --budget auto with no archive (%s)", err.msg);
     if (rc != COV_OK) goto done;

@@ -17,8 +17,6 @@
  * kurtosis to about +-0.035 under normal noise (SE sqrt(24/m)), far finer than the flag needs. */
 #define COV_DIAG_MAX_ROWS 20000
 #define COV_DIAG_SEED 20261202UL
-/* Level of the intervals for sigma, power and MDE. */
-#define COV_INTERVAL_LEVEL 0.95
 /* One value in at least this share of runs: a mostly-constant outcome, whose residual SD says
  * little about the noise of the rest (a count that is zero in most runs). */
 #define COV_MODE_SHARE 0.5
@@ -317,54 +315,6 @@ static double planned_spread(const cov_var *v)
     return w / sqrt(12.0);   /* continuous uniform */
 }
 
-/* The figures shared by every branch once a pw_design is known: power, MDE, runs and their
- * intervals from sigma's interval. Returns the status of the point figures; a failure of the
- * power interval alone leaves power_lo and power_hi NAN and is returned in *interval_rc (PW_OK
- * otherwise), so that the caller can say so. */
-static int size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, double sigma_hi,
-                      int *interval_rc)
-{
-    *interval_rc = PW_OK;
-    pw_design e = *d;
-    int rc = pw_power(&e, &a->power);
-    if (rc == PW_EFEW) {
-        a->power = 0;
-        rc = PW_OK;
-    }
-    if (rc == PW_OK) rc = pw_mde(&e, &a->mde);
-    if (rc == PW_EFEW) {
-        a->mde = INFINITY;
-        rc = PW_OK;
-    }
-    if (rc == PW_OK) rc = pw_runs_needed_from(&e, a->mde, &a->runs_needed);
-    if (rc != PW_OK) return rc;
-    a->power_lo = a->power_hi = a->power;
-    a->mde_lo = a->mde_hi = a->mde;
-    if (d->test == PW_TEST_TWO_PROP || !(sigma_lo > 0) || !isfinite(sigma_hi)) return PW_OK;
-    /* The upper sigma gives the low power and the high MDE, and the other way round. The t, F
-     * and TOST powers depend on effect and sigma only through effect / sigma, so the MDE scales
-     * with sigma exactly. */
-    double p;
-    int prc;
-    /* Power falls as sigma grows: a power of exactly 1 (or 0) at sigma bounds the other side. */
-    e.sigma = sigma_hi;
-    if (a->power > 0) {
-        if ((prc = pw_power(&e, &p)) == PW_ENOMEM) return prc;
-        if (prc == PW_OK) a->power_lo = p;
-        else *interval_rc = prc;
-    }
-    e.sigma = sigma_lo;
-    if (a->power < 1) {
-        if ((prc = pw_power(&e, &p)) == PW_ENOMEM) return prc;
-        if (prc == PW_OK) a->power_hi = p;
-        else *interval_rc = prc;
-    }
-    if (*interval_rc != PW_OK) a->power_lo = a->power_hi = NAN;
-    a->mde_lo = a->mde * sigma_lo / d->sigma;
-    a->mde_hi = a->mde * sigma_hi / d->sigma;
-    return PW_OK;
-}
-
 static const char *test_word(const pw_design *d)
 {
     if (d->test == PW_TEST_TREND_T) return "trend power";
@@ -396,6 +346,7 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
 {
     const cov_var *y = &g->vars[c->outcome], *x = &g->vars[c->treatment];
     a->noise_flag = 1;
+    a->noise_reasons |= COV_NOISE_OTHER;
     double spread = planned_spread(x);
     if (!(y->noise_sd > 0) || (x->type != COV_LEVELS && !(spread > 0))) {
         note_add(&a->noise_note, "no noise estimate from %zu runs", a->n);
@@ -453,8 +404,7 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     }
     a->sd_treatment_resid = d->sd_x_resid;
     a->has_design = 1;
-    int irc;
-    int rc = size_claim(a, d, NAN, NAN, &irc);
+    int rc = cov_size_claim(a, d, NAN, NAN);
     if (rc == PW_ENOMEM) return COV_ENOMEM;
     if (rc != PW_OK) {
         a->verdict = COV_UNDERPOWERED;
@@ -507,6 +457,15 @@ static void global_index(const assess_ctx *x, const layout *lay, size_t *idx)
 }
 
 /* A claim whose outcome given the treatment and adjustment set was fitted: everything else. */
+/* A column whose centred sum of squares is within rounding of zero takes one value: a constant
+ * 0.12 summed in binary leaves deviations near 1e-17, so "> 0" alone would call it varying. The
+ * cut is 1e-12 of the mean's magnitude in SD, far below any spread a simulator records. */
+static int moments_constant(const pw_moments *m, size_t i)
+{
+    double ss = pw_moments_at(m, i, i), scale = 1e-12 * fabs(m->mean[i]);
+    return !(ss > m->n * scale * scale);
+}
+
 static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
                          const pw_moments *m, const size_t *idx, const cov_data *d,
                          const size_t *rows, size_t n_rows, int fast,
@@ -517,7 +476,8 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     const cov_var *yv = &g->vars[c->outcome], *xv = &g->vars[c->treatment];
     size_t k = lay->k, t = lay->t;
     pw_xfit *fit = NULL, *bfit = NULL;
-    double *yy, *fitted, *keys, *row = NULL;
+    double *yy, *fitted, *keys, *row = NULL, *Xd = NULL, *contrast = NULL;
+    size_t wi_c = 0, wj_c = 1;
     int rc = COV_ENOMEM;
     if (pw_xfit_solve(m, idx, k, t, &fit) != PW_OK) goto fail;
     double n = m->n;
@@ -526,8 +486,8 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
      * like these can test it, so it is untestable on these runs, never ample and never thin. */
     int x_constant = 1;
     for (size_t a0 = k - t; a0 < k; a0++)
-        if (pw_moments_at(m, idx[a0], idx[a0]) > 0) x_constant = 0;
-    int y_constant = !(pw_moments_at(m, idx[k], idx[k]) > 0);
+        if (!moments_constant(m, idx[a0])) x_constant = 0;
+    int y_constant = moments_constant(m, idx[k]);
     if ((y_constant || x_constant) && n_rows > 0) {
         size_t v = y_constant ? c->outcome : c->treatment;
         char val[160];
@@ -614,6 +574,8 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         dz->sd_x_resid = 1.0 / sqrt(n * v_max);
         a->sd_treatment_resid = dz->sd_x_resid;
         a->estimate = (wj > 0 ? fit->treat_coef[wj - 1] : 0) - (wi > 0 ? fit->treat_coef[wi - 1] : 0);
+        wi_c = wi;
+        wj_c = wj;
         a->se = a->sigma * sqrt(v_max);
     }
     int bool_outcome = yv->type == COV_BOOL || (yv->type == COV_LEVELS && yv->n_levels == 2);
@@ -681,6 +643,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     if (yv->type == COV_LEVELS && yv->n_levels > 2) {
         note_add(&a->noise_note, "level-set outcome analysed by its level index");
         a->noise_flag = 1;
+        a->noise_reasons |= COV_NOISE_OTHER;
     }
 
     /* Residual diagnostics on the diagnostic rows. */
@@ -763,32 +726,26 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         a->sigma_pure = lof.sigma_pure;
         a->lof_f = lof.f;
         a->lof_p = lof.p;
-        if (lof.p < COV_LOF_P) {
-            a->noise_flag = 1;
-            note_add(&a->noise_note, "lack of fit: F = %.3g, p = %.2g against pure error from "
+        /* Lack of fit is reported in its own right: it says the linear model misses structure,
+         * not that the power figure is off. */
+        if (lof.p < COV_LOF_P)
+            note_add(&a->fit_note, "lack of fit: F = %.3g, p = %.2g against pure error from "
                      "%zu repeated configuration%s (of %zu distinct in %zu runs); sigma includes "
                      "structure the linear model misses", lof.f, lof.p, lof.repeated,
                      lof.repeated == 1 ? "" : "s", lof.groups, mrows);
-        }
     }
-    if (mode_share >= COV_MODE_SHARE) {
-        a->noise_flag = 1;
-        note_add(&a->noise_note, "one value in %.0f%% of runs: the residual SD says little about "
-                 "the noise", 100 * mode_share);
-    }
-    if (rd.excess_kurtosis > COV_KURTOSIS_FLAG) {
-        a->noise_flag = 1;
-        note_add(&a->noise_note, "heavy-tailed residuals (excess kurtosis %.3g > %g)",
-                 rd.excess_kurtosis, COV_KURTOSIS_FLAG);
-    }
-    if (rd.bp_p < COV_HETERO_P && rd.third_ratio >= COV_HETERO_RATIO) {
-        a->noise_flag = 1;
+    if (mode_share >= COV_MODE_SHARE)
+        note_add(&a->noise_note, "one value in %.0f%% of runs", 100 * mode_share);
+    if (rd.excess_kurtosis > COV_KURTOSIS_FLAG)
+        note_add(&a->noise_note, "heavy-tailed residuals (excess kurtosis %.3g)",
+                 rd.excess_kurtosis);
+    if (rd.bp_p < COV_HETERO_P && rd.third_ratio >= COV_HETERO_RATIO)
         note_add(&a->noise_note, "residual spread changes with the fitted value (Koenker-Breusch-"
                  "Pagan p = %.2g; variance ratio %.3g between outer thirds)", rd.bp_p,
                  rd.third_ratio);
-    }
     if (a->df < COV_MIN_DF) {
         a->noise_flag = 1;
+        a->noise_reasons |= COV_NOISE_FEW_DF;
         note_add(&a->noise_note, "only %.0f residual degrees of freedom: sigma is poorly known",
                  a->df);
     }
@@ -803,6 +760,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     if (!(a->sigma > 0)) {
         /* The outcome is an exact function of the regressors: any effect shows at once. */
         a->noise_flag = 1;
+        a->noise_reasons |= COV_NOISE_OTHER;
         note_add(&a->noise_note, "the outcome is fitted exactly: no noise left");
         a->power = a->power_lo = a->power_hi = 1;
         a->mde = a->mde_lo = a->mde_hi = 0;
@@ -812,20 +770,50 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         rc = COV_OK;
         goto fail;
     }
-    /* sigma^2's chi-squared interval with the degrees of freedom cut for excess kurtosis, so
-     * that var(s^2) = sigma^4 (2/df + kurtosis/n) (the large-sample variance of s^2; e.g.
-     * O'Neill 2014, Am. Stat. 68:282) is matched by a scaled chi-squared. */
-    double kurt = isfinite(rd.excess_kurtosis) && rd.excess_kurtosis > 0 ? rd.excess_kurtosis : 0;
-    double nu = 2.0 / (2.0 / a->df + kurt / n);
-    double tail = (1 - COV_INTERVAL_LEVEL) / 2;
-    double s2 = a->sigma * a->sigma;
-    double q_up = NAN, q_lo = NAN;
-    pw_chisq_quantile(tail, 1, nu, &q_up);
-    pw_chisq_quantile(tail, 0, nu, &q_lo);
-    double sigma_lo = sqrt(nu * s2 / q_up), sigma_hi = sqrt(nu * s2 / q_lo);
     a->has_design = 1;
-    int irc;
-    int src = size_claim(a, dz, sigma_lo, sigma_hi, &irc);
+    /* The claim's design rows for the HC3 test and resampling: the intercept and the kept
+     * predictors of every diagnostic row. */
+    size_t p = 1 + fit->rank;
+    Xd = malloc(mrows * p * sizeof *Xd);
+    contrast = calloc(p, sizeof *contrast);
+    if (Xd == NULL || contrast == NULL) {
+        rc = COV_ENOMEM;
+        goto fail;
+    }
+    for (size_t r = 0; r < mrows; r++) {
+        fill_row(d, lay, rows[r], row);
+        double *xr = Xd + r * p;
+        size_t q = 0;
+        xr[q++] = 1.0;
+        for (size_t a0 = 0; a0 < k; a0++)
+            if (fit->kept[a0]) xr[q++] = row[a0];
+    }
+    {
+        /* Positions of the kept treatment columns in Xd: the last t_rank. */
+        size_t first = p - fit->t_rank;
+        if (fit->t_rank == 1) contrast[first] = 1.0;
+        else {
+            if (wj_c > 0) contrast[first + wj_c - 1] += 1.0;
+            if (wi_c > 0) contrast[first + wi_c - 1] -= 1.0;
+        }
+    }
+    cov_claim_rows cr = {Xd, yy, mrows, p, contrast, rd.excess_kurtosis, rd.bp_p,
+                         rd.third_ratio, mode_share, bool_outcome, fit->t_rank == 1};
+    /* A blocked test (seedblock.c) is the classic t or TOST of the blocked model by formula: the
+     * design rows here are the model's without the blocks, so neither HC3 nor the bootstrap would
+     * be of the blocked test. */
+    cov_power_options nopt = *opt;
+    if (a->seed_blocks_used) {
+        nopt.test = COV_TEST_CLASSIC;
+        nopt.power_by = COV_POWER_BY_FORMULA;
+    }
+    int src = cov_assess_noise(&cr, &nopt, a->claim, a, dz);
+    if (a->seed_blocks_used) {
+        a->se_robust = NAN;
+        if (opt->test == COV_TEST_ROBUST || opt->power_by == COV_POWER_BY_RESAMPLING)
+            note_add(&a->noise_note, "seed blocks: the classic test of the blocked model, power "
+                     "by formula (HC3 and resampling are not formed with the blocks)");
+    }
     if (src == PW_ENOMEM) {
         rc = COV_ENOMEM;
         goto fail;
@@ -849,12 +837,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     } else {
         a->omnibus_power = NAN;
     }
-    if (irc != PW_OK) {
-        a->noise_flag = 1;
-        note_add(&a->noise_note, "the power interval could not be computed (%s)",
-                 pw_strerror(irc));
-    }
-    /* Invariants of size_claim: a probability, inside its interval (power falls as sigma grows;
+    /* Invariants of cov_size_claim and cov_assess_noise: a probability, inside its interval (power falls as sigma grows;
      * 1e-9 allows for the root searches' rounding). */
     assert(!(a->power < 0) && !(a->power > 1));
     assert(isnan(a->power_lo) || (a->power_lo <= a->power + 1e-9 && a->power <= a->power_hi + 1e-9));
@@ -869,6 +852,8 @@ fail:
     pw_xfit_free(fit);
     pw_xfit_free(bfit);
     free(row);
+    free(Xd);
+    free(contrast);
     return rc;
 }
 
@@ -886,6 +871,7 @@ static void assessment_init(cov_assessment *a, size_t claim)
     a->fixed_var = SIZE_MAX;
     a->fixed_value = NAN;
     a->turn_lo = a->turn_hi = NAN;
+    a->power_formula = a->mc_se = a->se_robust = a->mode_share = a->leave_out_share = NAN;
     a->seed.share = a->seed.var_drop = a->seed.f = a->seed.df1 = a->seed.df2 = NAN;
     a->seed.p = a->power_unblocked = NAN;
 }
@@ -1060,6 +1046,7 @@ void cov_assessments_free(cov_assessments *a)
             free(a->items[i].noise_note);
             free(a->items[i].reason);
             free(a->items[i].caution);
+            free(a->items[i].fit_note);
         }
     free(a->items);
     free(a->seed_outcome);

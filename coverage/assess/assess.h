@@ -162,4 +162,38 @@ pw_test cov_claim_test(const cov_graph *g, const cov_claim *c, int fitted, size_
  * implies no claim is never adequate). */
 int cov_claims_ample(const cov_claims *c, const cov_assessments *as);
 
+/* ---- the recommended test, resampled power, the noise judgement (coverage/assess/noise.c) ---- */
+
+/* Wild bootstrap replicates per claim (Monte Carlo SE of a power at most 0.025), the cap on the
+ * user's --replicates, and the default seed. */
+#define COV_RESAMPLE_REPS 400
+#define COV_RESAMPLE_MAX_REPS 20000
+#define COV_RESAMPLE_SEED 20261205UL
+
+/* A claim's design rows: the diagnostic rows (every complete run up to COV_DIAG_MAX_ROWS, else a
+ * fixed-seed uniform sample) as X = [1, kept predictors] and y, with the tested contrast. */
+typedef struct {
+    const double *X;          /* m rows of p values, row-major */
+    const double *y;          /* m outcomes */
+    size_t m, p;
+    const double *contrast;   /* p values: the treatment coefficient, or the least favourable
+                                 pairwise contrast of a level set */
+    double kurtosis, bp_p, third_ratio, mode_share;   /* residual diagnostics; NAN when unknown */
+    int bool_outcome;
+    int single_column;        /* 1: the treatment is one column (t test or TOST) */
+} cov_claim_rows;
+
+/* Power, MDE and runs for the design d with sigma's interval [sigma_lo, sigma_hi] (NAN: none)
+ * into a's figures. Returns a pw_status. */
+int cov_size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, double sigma_hi);
+
+/* Size the claim's test dz (effect, sigma, n, alpha set): the test chosen by opt->test (HC3 SEs
+ * enter as dz->sigma = sigma x HC3 SE / classic SE), power by formula or, where opt->power_by
+ * asks or the noise calls for it, by the wild bootstrap with the declared effect planted; the
+ * interval; a->test, a->power_method, a->mc_se; and the noise flag with its reasons appended to
+ * a->noise_note. claim seeds the resampling. Returns a pw_status (PW_ENOMEM, or a numerics
+ * failure of the formula). */
+int cov_assess_noise(const cov_claim_rows *cr, const cov_power_options *opt, size_t claim,
+                     cov_assessment *a, pw_design *dz);
+
 #endif

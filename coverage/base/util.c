@@ -37,6 +37,8 @@ void cov_options_default(cov_options *o)
     o->power.target = 0.80;
     o->power.bonferroni = 1;
     o->power.one_sided = 0;
+    o->power.test = COV_TEST_ROBUST;
+    o->power.power_by = COV_POWER_BY_AUTO;
     o->coverage.min_runs = 5;
     o->coverage.bins = 10;
     o->coverage.way = 0;              /* 0: decide from the input count */

@@ -33,6 +33,14 @@ static void family_line(const cov_assessments *as, size_t width, FILE *out)
                                                    : "two-sided");
     cov_term_wrap(out, line, 0, 2, width);
     fputc('\n', out);
+    snprintf(line, sizeof line, "test: %s (%s standard errors); power by %s",
+             cov_test_word(p->test), p->test == COV_TEST_ROBUST ? "HC3" : "OLS",
+             p->power_by == COV_POWER_BY_FORMULA      ? "the normal formula"
+             : p->power_by == COV_POWER_BY_RESAMPLING ? "the wild bootstrap"
+                                                      : "the normal formula, or the wild "
+                                                        "bootstrap where the noise calls for it");
+    cov_term_wrap(out, line, 0, 2, width);
+    fputc('\n', out);
 }
 
 /* "[a, b]" or "[]" (nothing to adjust for) into buf, as the claim notation writes the set. */
@@ -49,6 +57,53 @@ static void set_text(const cov_graph *g, const cov_claim *c, char *buf, size_t s
  * sd(X|S) and the power interval follow the row when the terminal is too narrow for them. Notes
  * come after the table, one per distinct text: a noise note shared by several claims of the same
  * outcome is printed once, after their names. */
+/* The note of kind fit (0 noise, 1 lack of fit) of claim i, or NULL. */
+static const char *note_of(const cov_assessments *as, size_t i, int fit)
+{
+    return fit ? as->items[i].fit_note : as->items[i].noise_note;
+}
+
+/* Claims i and j share a note: same outcome, same flag, same text. */
+static int same_note(const cov_claims *cl, const cov_assessments *as, size_t i, size_t j, int fit)
+{
+    const char *x = note_of(as, i, fit), *y = note_of(as, j, fit);
+    return x != NULL && y != NULL && cl->items[i].outcome == cl->items[j].outcome &&
+           as->items[i].noise_flag == as->items[j].noise_flag && strcmp(x, y) == 0;
+}
+
+/* Every distinct note of one kind once, after the names of the claims that share it. */
+static void shared_notes(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
+                         int fit, size_t width, int *any, FILE *out)
+{
+    for (size_t i = 0; i < cl->n; i++) {
+        if (note_of(as, i, fit) == NULL) continue;
+        int seen = 0;
+        for (size_t j = 0; j < i && !seen; j++) seen = same_note(cl, as, j, i, fit);
+        if (seen) continue;
+        if (!*any) fputs("\n", out);
+        *any = 1;
+        char *line = NULL;
+        size_t len = 0;
+        FILE *m = open_memstream(&line, &len);
+        if (m == NULL) continue;
+        fprintf(m, "%s of %s%s for", fit ? "fit" : "noise", g->vars[cl->items[i].outcome].name,
+                !fit && as->items[i].noise_flag ? " (power can be off)" : "");
+        for (size_t j = i, first = 1; j < cl->n; j++) {
+            if (j != i && !same_note(cl, as, i, j, fit)) continue;
+            char lab[512];
+            cov_claim_pair_label(g, &cl->items[j], lab, sizeof lab);
+            fprintf(m, "%s %s", first ? "" : ";", lab);
+            first = 0;
+        }
+        fprintf(m, ": %s", note_of(as, i, fit));
+        if (fclose(m) == 0 && line != NULL) {
+            cov_term_wrap(out, line, 0, 4, width);
+            fputc('\n', out);
+        }
+        free(line);
+    }
+}
+
 static void print_table(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
                         const cov_data *d, size_t width, FILE *out)
 {
@@ -108,8 +163,10 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
             else if (a->seed.blocks > 0 && !isnan(a->seed.share))
                 snprintf(seed, sizeof seed, "; seed blocks not used (seed explains %.0f%%)",
                          100 * a->seed.share);
-            snprintf(detail, sizeof detail, "adjustment set %s; sigma %s, sd(X|S) %s; power 95%% "
-                     "interval [%.2f, %.2f]%s", set, e1, e2, a->power_lo, a->power_hi, seed);
+            snprintf(detail, sizeof detail, "%s test, power by %s; adjustment set %s; sigma %s, "
+                     "sd(X|S) %s; power 95%% interval [%.2f, %.2f]%s", cov_test_word(a->test),
+                     cov_method_word(a->power_method), set, e1, e2, a->power_lo, a->power_hi,
+                     seed);
         }
         const char *row[8] = {label, n, pw, mde, eff, runs, verdict, detail};
         if (cov_table_add(t, row) != COV_OK) {
@@ -130,7 +187,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
                   out);
             break;
         }
-    if (any_noise) fputs("*: the noise estimate cannot be trusted (notes below).\n", out);
+    if (any_noise) fputs("*: the power figure can be off (notes below).\n", out);
     int any = 0;
     for (size_t i = 0; i < cl->n; i++) {
         const cov_assessment *a = &as->items[i];
@@ -155,43 +212,20 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
             cov_assessment_table_shape(w, label, cw, a);
             cov_reflow_end(&rf, out, width);
         }
-    }
-    /* Noise notes, each text once with the claims that share it. */
-    for (size_t i = 0; i < cl->n; i++) {
-        const cov_assessment *a = &as->items[i];
-        if (a->noise_note == NULL) continue;
-        int seen = 0;
-        for (size_t j = 0; j < i && !seen; j++)
-            seen = as->items[j].noise_note != NULL &&
-                   cl->items[j].outcome == cl->items[i].outcome &&
-                   as->items[j].noise_flag == a->noise_flag &&
-                   strcmp(as->items[j].noise_note, a->noise_note) == 0;
-        if (seen) continue;
-        if (!any) fputs("\n", out);
-        any = 1;
-        char *line = NULL;
-        size_t len = 0;
-        FILE *m = open_memstream(&line, &len);
-        if (m == NULL) continue;
-        fprintf(m, "noise of %s%s for", g->vars[cl->items[i].outcome].name,
-                a->noise_flag ? " (cannot be trusted)" : "");
-        for (size_t j = i, first = 1; j < cl->n; j++) {
-            const cov_assessment *b = &as->items[j];
-            if (b->noise_note == NULL || cl->items[j].outcome != cl->items[i].outcome ||
-                b->noise_flag != a->noise_flag || strcmp(b->noise_note, a->noise_note) != 0)
-                continue;
-            char lab[512];
-            cov_claim_pair_label(g, &cl->items[j], lab, sizeof lab);
-            fprintf(m, "%s %s", first ? "" : ";", lab);
-            first = 0;
-        }
-        fprintf(m, ": %s", a->noise_note);
-        if (fclose(m) == 0 && line != NULL) {
+        if (a->power_method == COV_METHOD_RESAMPLED) {
+            if (!any) fputs("\n", out);
+            any = 1;
+            snprintf(line, sizeof line, "%s: power resampled: %.3f (Monte Carlo SE %.3f, %zu %s "
+                     "bootstrap replicates); the normal formula gives %.3f", label, a->power,
+                     a->mc_se, a->replicates, a->resample_kind ? "pairs" : "wild",
+                     a->power_formula);
             cov_term_wrap(out, line, 0, 4, width);
             fputc('\n', out);
         }
-        free(line);
     }
+    /* Noise and fit notes, each text once with the claims of its outcome that share it. */
+    shared_notes(g, cl, as, 0, width, &any, out);
+    shared_notes(g, cl, as, 1, width, &any, out);
     size_t n_ample = 0, n_underpowered = 0, n_blind = 0;
     for (size_t i = 0; i < as->n; i++) {
         n_ample += as->items[i].verdict == COV_AMPLE;
@@ -214,7 +248,11 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_asses
                        const cov_data *d, FILE *out)
 {
     const cov_power_options *p = &as->opt;
-    fputs("{\"schema_version\": 3, \"run_identity\": ", out);
+    fprintf(out, "{\"schema_version\": 3, \"test_se\": \"%s\", \"power_by\": \"%s\", "
+            "\"run_identity\": ", cov_test_word(as->opt.test),
+            as->opt.power_by == COV_POWER_BY_FORMULA      ? "formula"
+            : as->opt.power_by == COV_POWER_BY_RESAMPLING ? "resampling"
+                                                          : "auto");
     cov_runs_json(out, d);
     fputs(", \"seed_blocks\": ", out);
     cov_seed_outcomes_json(out, g, cl, as);

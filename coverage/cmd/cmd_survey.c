@@ -190,6 +190,21 @@ static void print_verdict(const cov_findings *f, const cov_report_info *info, co
             col ? C_AMPLE : "", count[COV_AMPLE], col ? C_RESET : "", col ? C_THIN : "",
             count[COV_UNDERPOWERED], col ? C_RESET : "", col ? C_BLIND : "", count[COV_BLIND],
             col ? C_RESET : "");
+    {
+        /* Which test and power method the figures are for (per claim in the report). */
+        size_t by_resampling = 0, by_formula = 0, flagged = 0;
+        for (size_t i = 0; i < f->assess->n; i++) {
+            const cov_assessment *a = &f->assess->items[i];
+            if (isnan(a->power) || a->verdict == COV_BLIND) continue;
+            if (a->power_method == COV_METHOD_RESAMPLED) by_resampling++;
+            else by_formula++;
+            flagged += a->noise_flag != 0;
+        }
+        fprintf(out, "power: %s test (%s standard errors), %zu claim%s by resampling, %zu by "
+                "formula; %zu whose figure can be off (see the report)\n",
+                cov_test_word(o->power.test), o->power.test == COV_TEST_ROBUST ? "HC3" : "OLS",
+                by_resampling, by_resampling == 1 ? "" : "s", by_formula, flagged);
+    }
     fprintf(out, "coverage (bins or cells with >= %zu runs): ", f->coverage->opt.min_runs);
     print_share(out, "marginal", f->coverage->marginal_share);
     print_share(out, ", 2-way", f->coverage->pairwise_share);

@@ -72,8 +72,8 @@ static void noise(const cov_findings *f, const cov_caution_kind *k, sink *s)
     for (size_t i = 0; f->assess != NULL && i < f->assess->n; i++) {
         const cov_assessment *a = &f->assess->items[i];
         if (f->claims->items[i].status != COV_TESTABLE || !a->noise_flag) continue;
-        add(s, k, (long)i, "power and MDE rest on a noise estimate of %s that cannot be "
-            "trusted: %s.", name_of(f, f->claims->items[i].outcome),
+        add(s, k, (long)i, "power and MDE for %s can be off (the noise may not be what the "
+            "figure assumes): %s.", name_of(f, f->claims->items[i].outcome),
             a->noise_note ? a->noise_note : "see the diagnostics in summary.json");
     }
 }
@@ -158,7 +158,9 @@ static void dependence(const cov_findings *f, const cov_caution_kind *k, sink *s
             size_t used = 0, hit = 0;
             for (size_t c = 0; f->assess != NULL && c < f->claims->n; c++) {
                 const cov_claim *cl = &f->claims->items[c];
-                if (cl->status != COV_TESTABLE || c >= f->assess->n) continue;
+                if (cl->status != COV_TESTABLE || c >= f->assess->n ||
+                    !isfinite(f->assess->items[c].vif))
+                    continue;
                 size_t other = cl->treatment == va ? vb : cl->treatment == vb ? va : SIZE_MAX;
                 int held = 0;
                 for (size_t m = 0; other != SIZE_MAX && m < cl->n_cond; m++)
@@ -256,7 +258,7 @@ static void seed_blocks(const cov_findings *f, const cov_caution_kind *k, sink *
 /* Every kind of caution, in the order the formats show them. */
 static const cov_caution_kind kinds[] = {
     {"family", "Tests judged together", family},
-    {"noise", "Noise estimate cannot be trusted", noise},
+    {"noise", "Power figure can be off", noise},
     {"lack-of-fit", "Lack of fit", lack_of_fit},
     {"shape", "The effect's shape and the levels run", shape},
     {"constant-outcome", "Constant or nearly constant outcome", constant},

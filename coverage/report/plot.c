@@ -85,6 +85,18 @@ const char *cov_plot_var_name(const cov_findings *f, size_t v, char *buf, size_t
     return shown(f->graph->vars[v].name, buf, size);
 }
 
+/* A quantity axis's label: the variable's shown name and, when the graph declares one, its unit
+ * in parentheses ("flow (veh/h)"). */
+static const char *axis_label(const cov_findings *f, size_t v, char *buf, size_t size)
+{
+    char nb[COV_PLOT_NAME_SHOWN + 8], ub[COV_PLOT_NAME_SHOWN + 8];
+    const char *name = cov_plot_var_name(f, v, nb, sizeof nb);
+    const char *unit = cov_var_unit(&f->graph->vars[v]);
+    if (*unit == '\0') snprintf(buf, size, "%s", name);
+    else snprintf(buf, size, "%s (%s)", name, shown(unit, ub, sizeof ub));
+    return buf;
+}
+
 static void caption(const cov_findings *f, plot_ref r, char *out, size_t size)
 {
     char a[COV_PLOT_NAME_SHOWN + 8], b[COV_PLOT_NAME_SHOWN + 8];
@@ -479,8 +491,9 @@ static int plot_pair(FILE *s, const cov_findings *f, const char *dir, size_t ran
     cov_plot_title(s, line, line2);
     axis_tics(s, "x", va, ga, p->na);
     axis_tics(s, "y", vb, gb, p->nb);
-    set_label_cmd(s, "xlabel", name_a);
-    set_label_cmd(s, "ylabel", name_b);
+    char la[2 * COV_PLOT_NAME_SHOWN + 32], lb[2 * COV_PLOT_NAME_SHOWN + 32];
+    set_label_cmd(s, "xlabel", axis_label(f, p->a, la, sizeof la));
+    set_label_cmd(s, "ylabel", axis_label(f, p->b, lb, sizeof lb));
     fputs("set key below horizontal height 1.5\n", s);
     fputs("set style textbox opaque fc rgb '#FFFFFF' noborder margins 1,0.5\n", s);
     char runs_title[128], few_title[128], plan_title[128];

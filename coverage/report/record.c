@@ -143,6 +143,39 @@ static rec_value get_test(rec_row *r)
                   : d->test == PW_TEST_TOST      ? "equivalence"
                                                  : "coefficient t");
 }
+/* The test's standard errors and the power method (issue 11). */
+static rec_value get_test_se(rec_row *r)
+{
+    return r->a && r->a->has_design ? v_word(cov_test_word(r->a->test)) : v_null();
+}
+static rec_value get_power_method(rec_row *r)
+{
+    return r->a && r->a->has_design ? v_word(cov_method_word(r->a->power_method)) : v_null();
+}
+static rec_value get_replicates(rec_row *r)
+{
+    return r->a ? v_count((long long)r->a->replicates) : v_null();
+}
+static rec_value get_resampling(rec_row *r)
+{
+    if (r->a == NULL || r->a->power_method != COV_METHOD_RESAMPLED) return v_null();
+    return v_word(r->a->resample_kind ? "pairs" : "wild");
+}
+static rec_value get_noise_reasons(rec_row *r)
+{
+    static const char *const why[] = {"formula_vs_resampled", "few_values", "one_run",
+                                      "near_constant", "unseen_tail", "classic_hetero",
+                                      "few_df", "other"};
+    if (r->a == NULL) return v_null();
+    size_t at = 0;
+    r->text[0] = '\0';
+    for (unsigned b = 0; b < 8; b++)
+        if (r->a->noise_reasons & (1u << b))
+            at += (size_t)snprintf(r->text + at, at < sizeof r->text ? sizeof r->text - at : 0,
+                                   "%s%s", at ? ";" : "", why[b]);
+    return v_text(r->text);
+}
+static rec_value get_fit_note(rec_row *r) { return r->a ? v_text(r->a->fit_note) : v_null(); }
 static rec_value get_trend(rec_row *r) { return r->a ? v_bool(r->a->trend) : v_null(); }
 static rec_value get_distinct_values(rec_row *r)
 {
@@ -262,6 +295,16 @@ static const rec_field fields[] = {
     /* untestable on these runs: the variable that never varies, and its value */
     GET("never_varies", COV_RECORD_ASSESS, get_fixed_var),
     GET("never_varies_value", COV_RECORD_ASSESS, get_fixed_value),
+    GET("test_se", COV_RECORD_ASSESS, get_test_se),
+    GET("power_method", COV_RECORD_ASSESS, get_power_method),
+    A_NUM("power_formula", power_formula),
+    A_NUM("mc_se", mc_se),
+    GET("replicates", COV_RECORD_ASSESS, get_replicates),
+    GET("resampling", COV_RECORD_ASSESS, get_resampling),
+    A_NUM("se_robust", se_robust),
+    A_NUM("leave_out_share", leave_out_share),
+    GET("noise_reasons", COV_RECORD_ASSESS, get_noise_reasons),
+    GET("fit_note", COV_RECORD_ASSESS, get_fit_note),
     /* seed blocks: shared seeds as fixed effects in the claim's regression */
     GET("seed_blocks_used", COV_RECORD_ASSESS, get_seed_used),
     GET("seed_blocks", COV_RECORD_ASSESS, get_seed_blocks),

@@ -489,8 +489,9 @@ static void html_claims(FILE *out, const cov_findings *f, const cov_report_info 
         html_num_cell(out, a ? (double)a->n : NAN, buf);
         cov_report_num_text(a ? a->power : NAN, "%.2f", buf, sizeof buf);
         if (a && isfinite(a->power) && isfinite(a->power_lo) && isfinite(a->power_hi))
-            fprintf(out, "<td class=\"num\" data-v=\"%.9g\">%s<br><small>%.2f to %.2f</small></td>",
-                    a->power, buf, a->power_lo, a->power_hi);
+            fprintf(out, "<td class=\"num\" data-v=\"%.9g\">%s<br><small>%.2f to %.2f<br>%s test, "
+                    "%s</small></td>", a->power, buf, a->power_lo, a->power_hi,
+                    cov_test_word(a->test), cov_method_word(a->power_method));
         else html_num_cell(out, a ? a->power : NAN, buf);
         cov_report_num_text(a ? a->mde : NAN, "%.4g", buf, sizeof buf);
         html_num_cell(out, a ? a->mde : NAN, buf);
@@ -537,6 +538,27 @@ static int html_figure(FILE *out, const char *dir, const cov_plot *plot, size_t 
     return 1;
 }
 
+/* The units an effect between a and b is counted in, " (delay in min, flow in veh/h)", naming
+ * only the variables whose unit the graph declares; nothing when neither has one. */
+static void html_units(FILE *out, const cov_graph *g, size_t a, size_t b)
+{
+    const char *ua = cov_var_unit(&g->vars[a]), *ub = cov_var_unit(&g->vars[b]);
+    if (!*ua && !*ub) return;
+    fputs(" (", out);
+    if (*ub) {
+        html_text(out, g->vars[b].name);
+        fputs(" in ", out);
+        html_text(out, ub);
+    }
+    if (*ua) {
+        if (*ub) fputs(", ", out);
+        html_text(out, g->vars[a].name);
+        fputs(" in ", out);
+        html_text(out, ua);
+    }
+    fputs(")", out);
+}
+
 /* The graph drawn, and the same in words: every edge and absence with its verdict. */
 static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *info,
                        const char *dir)
@@ -563,6 +585,11 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
             fputs("<code>", out);
             html_text(out, g->vars[v].name);
             fputs("</code>", out);
+            if (*cov_var_unit(&g->vars[v])) {
+                fputs(" (", out);
+                html_text(out, cov_var_unit(&g->vars[v]));
+                fputs(")", out);
+            }
             any = 1;
         }
         if (any) fputs("</li>\n", out);
@@ -587,6 +614,7 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
             cov_report_effect_text(&f->claims->items[claim], eff, sizeof eff);
             fputs("expected effect ", out);
             html_text(out, eff);
+            html_units(out, g, a, b);
             fprintf(out, "; <span class=\"v-%s\">%s</span>", word, word);
         }
         fputs("</li>\n", out);
@@ -605,6 +633,7 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
         html_text(out, g->vars[c->outcome].name);
         fputs("</code>: expected absence ", out);
         html_text(out, eff);
+        html_units(out, g, c->treatment, c->outcome);
         fprintf(out, "; <span class=\"v-%s\">%s</span></li>\n", word, word);
     }
     fputs("</ul>\n</section>\n", out);

@@ -199,6 +199,8 @@ int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE
         fprintf(out, " | %s", buf);
         cov_report_num_text(a ? a->power : NAN, "%.2f", buf, sizeof buf);
         fprintf(out, " | %s", buf);
+        if (a && isfinite(a->power))
+            fprintf(out, " (%s test, %s)", cov_test_word(a->test), cov_method_word(a->power_method));
         cov_report_num_text(a ? a->mde : NAN, "%.4g", buf, sizeof buf);
         fprintf(out, " | %s", buf);
         cov_report_num_text(a ? a->runs_needed : NAN, "%.0f", buf, sizeof buf);

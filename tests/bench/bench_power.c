@@ -130,10 +130,13 @@ static int time_all(const char *db_path, const char *graph_path)
         fprintf(stderr, "bench_power: %s: %s\n", err.where, err.msg);
         return 1;
     }
-    cov_power_options opt = {0.05, 0.80, 1, 0};
+    cov_power_options opt = {0.05, 0.80, 1, 0, COV_TEST_ROBUST, COV_POWER_BY_AUTO, 0, 0};
     double t_scan[REPEATS], t_read[REPEATS], t_assess[REPEATS], sink = 0;
-    double c_scan[REPEATS], c_read[REPEATS], c_assess[REPEATS];
-    size_t runs = 0, n_ample = 0;
+    double c_scan[REPEATS], c_read[REPEATS], c_assess[REPEATS], c_classic[REPEATS];
+    /* Baseline of the same run: the classic test with the normal formula only (issue 11's cost). */
+    cov_power_options opt_classic = {0.05, 0.80, 1, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0,
+                                     0};
+    size_t runs = 0, n_ample = 0, n_resampled = 0;
     for (int r = 0; r < REPEATS; r++) {
         t_scan[r] = bare_scan(db_path, &sink, &c_scan[r]);
         cov_archive *a = NULL;
@@ -145,6 +148,10 @@ static int time_all(const char *db_path, const char *graph_path)
         double t1 = bench_wall(), c1 = bench_cpu();
         if (rc == COV_OK) rc = cov_assess(g, cl, d, &opt, &as, &err);
         double t2 = bench_wall(), c2 = bench_cpu();
+        cov_assessments *as_classic = NULL;
+        if (rc == COV_OK) rc = cov_assess(g, cl, d, &opt_classic, &as_classic, &err);
+        c_classic[r] = bench_cpu() - c2;
+        cov_assessments_free(as_classic);
         c_read[r] = c1 - c0;
         c_assess[r] = c2 - c1;
         if (rc != COV_OK) {
@@ -154,14 +161,17 @@ static int time_all(const char *db_path, const char *graph_path)
         t_read[r] = t1 - t0;
         t_assess[r] = t2 - t1;
         runs = d->n_runs;
-        n_ample = 0;
-        for (size_t i = 0; i < as->n; i++) n_ample += as->items[i].verdict == COV_AMPLE;
+        n_ample = n_resampled = 0;
+        for (size_t i = 0; i < as->n; i++) {
+            n_ample += as->items[i].verdict == COV_AMPLE;
+            n_resampled += as->items[i].power_method == COV_METHOD_RESAMPLED;
+        }
         cov_assessments_free(as);
         cov_data_free(d);
         cov_archive_close(a);
     }
-    double *all[6] = {t_scan, t_read, t_assess, c_scan, c_read, c_assess};
-    for (int k = 0; k < 6; k++) qsort(all[k], REPEATS, sizeof(double), bench_cmp_double);
+    double *all[7] = {t_scan, t_read, t_assess, c_scan, c_read, c_assess, c_classic};
+    for (int k = 0; k < 7; k++) qsort(all[k], REPEATS, sizeof(double), bench_cmp_double);
     double scan = t_scan[REPEATS / 2], rd = t_read[REPEATS / 2], as = t_assess[REPEATS / 2];
     double cs = c_scan[REPEATS / 2], cr = c_read[REPEATS / 2], ca = c_assess[REPEATS / 2];
     printf("power of %zu claims (%zu ample) on %zu runs x %d columns (medians of %d):\n"
@@ -170,6 +180,9 @@ static int time_all(const char *db_path, const char *graph_path)
            "  cpu ratio %.2f, wall ratio %.2f (target <= 3)\n", cl->n, n_ample, runs,
            N_IN + N_OUT, REPEATS, scan, rd, as, rd + as, cs, cr, ca, cr + ca, (cr + ca) / cs,
            (rd + as) / scan);
+    printf("  robust test, power by auto (%zu claims resampled): cov_assess %.2f s cpu against "
+           "%.2f s cpu for the classic test by formula alone (ratio %.2f)\n", n_resampled, ca,
+           c_classic[REPEATS / 2], ca / c_classic[REPEATS / 2]);
     sink_out = sink;
     cov_claims_free(cl);
     cov_graph_free(g);
