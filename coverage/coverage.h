@@ -252,6 +252,8 @@ typedef struct {
     size_t n_replicated;  /* configurations run more than once */
     size_t n_seeds;       /* distinct seeds among the runs (0 without a seed column) */
     size_t n_shared_seeds;    /* seeds used by two or more configurations (common random numbers) */
+    size_t *row_of;       /* per run: the row (0-based, in the order read) it was first read
+                             from; NULL when no row repeated an earlier one */
 } cov_data;
 
 #define COV_SEED_NONE ((long long)-9223372036854775807LL - 1)
@@ -264,6 +266,11 @@ typedef struct {
 int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double share, void *ctx),
                   void *ctx, cov_data **out, cov_error *err);
 void cov_data_free(cov_data *d);
+/* A column read row by row in the archive's order (cov_archive_read_number: *n values) turned into
+ * one value per run of d, in place: when *n is d->n_rows and rows repeated, the value of each
+ * run's first row; *n becomes d->n_runs. Leaves other columns as they are (coverage/archive/
+ * runs.c). */
+void cov_data_rows_to_runs(const cov_data *d, double *col, size_t *n);
 
 /* ---------------------------------------------------------------------------------------------
  * Per-claim assessment: regression, power, MDE, runs needed (coverage/assess/assess.c). */

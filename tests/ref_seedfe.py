@@ -40,7 +40,7 @@ default effect 0.15 sd
 default margin 0.1 sd
 design independent
 runseed seed
-ledger wall
+ledger wall cost
 speed, sorters, express -> delay
 speed, express -> misroutes
 """

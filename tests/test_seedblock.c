@@ -191,7 +191,8 @@ static int run_scenario(gsl_rng *r, double beta, double effect, double seed_sd, 
 {
     campaign c;
     campaign_init(&c, effect);
-    cov_power_options opt = {0.05, 0.80, 1, 0};
+    cov_power_options opt = {.alpha = 0.05, .target = 0.80, .bonferroni = 1,
+                             .test = COV_TEST_ROBUST, .power_by = COV_POWER_BY_AUTO};
     memset(out, 0, sizeof *out);
     out->predicted = out->predicted_unblocked = NAN;
     int rc = COV_OK;

@@ -44,6 +44,7 @@ void cov_data_free(cov_data *d)
     free(d->issues);
     free(d->batch);
     free(d->seed);
+    free(d->row_of);
     free(d);
 }
 

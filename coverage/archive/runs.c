@@ -152,11 +152,15 @@ int cov_runs_identify(cov_data *d, const cov_graph *g, unsigned char *kept, cov_
     }
 
     if (kept != NULL) memcpy(kept, keep, n);
-    /* Keep each run once, in first-seen order. */
+    /* Keep each run once, in first-seen order, and the row each came from. */
     if (d->n_duplicates > 0) {
         size_t m = 0;
+        free(d->row_of);
+        d->row_of = malloc((n - d->n_duplicates + 1) * sizeof *d->row_of);
+        if (d->row_of == NULL) goto fail;
         for (size_t i = 0; i < n; i++) {
             if (!keep[i]) continue;
+            d->row_of[m] = i;
             if (m != i) {
                 for (size_t v = 0; v < g->n_vars; v++)
                     if (d->col[v] != NULL) d->col[v][m] = d->col[v][i];
@@ -236,6 +240,14 @@ fail:
     free(config_of);
     free(config_runs);
     return rc;
+}
+
+void cov_data_rows_to_runs(const cov_data *d, double *col, size_t *n)
+{
+    if (d->row_of == NULL || col == NULL || *n != d->n_rows) return;
+    /* row_of is increasing, so the copy never overwrites a row still to be read. */
+    for (size_t i = 0; i < d->n_runs; i++) col[i] = col[d->row_of[i]];
+    *n = d->n_runs;
 }
 
 unsigned long cov_runs_fingerprint(const cov_data *d)

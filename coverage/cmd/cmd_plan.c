@@ -355,6 +355,8 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
         if (rc == COV_OK && cost_column != NULL) {
             size_t n_cost = 0;
             rc = cov_archive_read_number(ar, cost_column, &run_cost, &n_cost, err);
+            /* Rows repeating a run are counted once: the cost of the run's first row. */
+            if (rc == COV_OK) cov_data_rows_to_runs(d, run_cost, &n_cost);
             if (rc == COV_OK && n_cost != d->n_runs)
                 rc = cov_fail(err, COV_EIO, o->archive_path, "the cost column gave %zu rows for "
                                                              "%zu runs", n_cost, d->n_runs);

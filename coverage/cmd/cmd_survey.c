@@ -399,6 +399,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     if (cov_archive_has_column(ar, seed_name) &&
         ((rc = cov_archive_read_number(ar, seed_name, &seed_col, &n_seed_col, err)) != COV_OK))
         goto fail;
+    if (seed_col != NULL) cov_data_rows_to_runs(d, seed_col, &n_seed_col);
     if (seed_col != NULL && n_seed_col != d->n_runs) {
         free(seed_col);
         seed_col = NULL;
