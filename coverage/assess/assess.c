@@ -801,7 +801,10 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
                          rd.third_ratio, mode_share, bool_outcome, fit->t_rank == 1};
     /* A blocked test (seedblock.c) is the classic t or TOST of the blocked model by formula: the
      * design rows here are the model's without the blocks, so neither HC3 nor the bootstrap would
-     * be of the blocked test. */
+     * be of the blocked test; and HC standard errors of a fixed-effects (within) regression are
+     * inconsistent when each block holds few runs (Stock & Watson 2008, Econometrica 76:155), the
+     * common case of a few configurations per seed. Heteroscedasticity still raises the noise
+     * flag below (classic_hetero). */
     cov_power_options nopt = *opt;
     if (a->seed_blocks_used) {
         nopt.test = COV_TEST_CLASSIC;
