@@ -239,11 +239,33 @@ typedef struct {
     double info, need;
     double scale;      /* the information counts info * scale against need (1 unless the caller
                           sets a noise ratio with pw_aug_set_scale) */
+    double *contrast;  /* k weights (pw_aug_set_contrast): measured by this one contrast; NULL */
 } aug_target;
+
+/* c'Vc over the block's columns first .. first + k - 1 of v (p-by-p), only where on (block
+ * positions; NULL: all) is set; with u != NULL, after adding w x x': c'Vc - w (c'u)^2 / (1 + w xu)
+ * (Sherman & Morrison 1950). */
+static double contrast_var(const double *v, size_t p, size_t first, size_t k, const double *c,
+                           const unsigned char *on, const double *u, double xu, double w)
+{
+    double s = 0.0, cu = 0.0;
+    for (size_t a = 0; a < k; a++) {
+        if (on != NULL && !on[a]) continue;
+        if (u != NULL) cu += c[a] * u[first + a];
+        for (size_t b = 0; b < k; b++)
+            if (on == NULL || on[b]) s += c[a] * v[(first + a) * p + first + b] * c[b];
+    }
+    if (u != NULL) s -= w * cu * cu / (1.0 + w * xu);
+    return s;
+}
 
 static double target_info(const aug_target *t, const aug_group *gr, const double *u, double xu,
                           double w)
 {
+    if (t->contrast != NULL) {
+        double v = contrast_var(gr->inv, gr->p, t->first, t->k, t->contrast, NULL, u, xu, w);
+        return v > 0.0 ? 1.0 / v : INFINITY;
+    }
     if (t->pattern) return pw_block_pattern_info(gr->inv, gr->p, t->first, t->k, u, xu, w);
     return u != NULL ? pw_block_info_after(gr->inv, gr->p, t->first, t->k, u, xu, w)
                      : pw_block_info(gr->inv, gr->p, t->first, t->k);
@@ -280,6 +302,7 @@ void pw_aug_free(pw_aug *a)
         free(a->groups[g].tg);
     }
     free(a->groups);
+    for (size_t i = 0; i < a->n_targets; i++) free(a->targets[i].contrast);
     free(a->targets);
     free(a->x);
     free(a->u);
@@ -356,7 +379,7 @@ int pw_aug_add_target(pw_aug *a, size_t group, size_t first, size_t k, int patte
         gr->cap_tg = cap;
     }
     gr->tg[gr->n_tg++] = a->n_targets;
-    aug_target t = {group, first, k, pattern != 0, 0.0, need, 1.0};
+    aug_target t = {group, first, k, pattern != 0, 0.0, need, 1.0, NULL};
     t.info = target_info(&t, gr, NULL, 0.0, 0.0);
     a->targets[a->n_targets] = t;
     if (target_active(&t)) gr->n_active++;
@@ -483,6 +506,74 @@ int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, 
     *info = pattern ? pw_block_pattern_info(inv, q, first, k, NULL, 0.0, 0.0)
                     : pw_block_info(inv, q, first, k);
 fail:
+    free(sub);
+    free(inv);
+    return rc;
+}
+
+int pw_aug_set_contrast(pw_aug *a, size_t target, const double *c)
+{
+    if (target >= a->n_targets) return PW_EDOM;
+    aug_target *t = &a->targets[target];
+    for (size_t j = 0; j < t->k; j++)
+        if (!isfinite(c[j])) return PW_EDOM;
+    double *copy = realloc(t->contrast, t->k * sizeof *copy);
+    if (copy == NULL) return PW_ENOMEM;
+    memcpy(copy, c, t->k * sizeof *copy);
+    t->contrast = copy;
+    aug_group *gr = &a->groups[t->group];
+    if (target_active(t)) gr->n_active--;
+    t->info = target_info(t, gr, NULL, 0.0, 0.0);
+    if (target_active(t)) gr->n_active++;
+    return PW_OK;
+}
+
+int pw_aug_contrast_subset(const pw_aug *a, size_t target, const unsigned char *on,
+                           const double *c, double *info)
+{
+    *info = 0.0;
+    if (target >= a->n_targets) return PW_EDOM;
+    const aug_target *t = &a->targets[target];
+    const aug_group *gr = &a->groups[t->group];
+    size_t q = 0, first = 0, k = 0;
+    for (size_t j = 0; j < gr->p; j++) {
+        if (!on[j]) continue;
+        if (j < t->first) first++;
+        else if (j < t->first + t->k) k++;
+        q++;
+    }
+    if (k == 0) return PW_OK;
+    /* The block's weights of the columns that are in, in order. */
+    double cb[PW_PATTERN_MAX_COLS];
+    double *ck = k <= PW_PATTERN_MAX_COLS ? cb : malloc(k * sizeof *ck);
+    double *sub = NULL, *inv = NULL;
+    int rc = PW_ENOMEM;
+    if (ck == NULL) return rc;
+    for (size_t j = 0, m = 0; j < t->k; j++)
+        if (on[t->first + j]) ck[m++] = c[j];
+    double v;
+    if (q == gr->p) {
+        v = contrast_var(gr->inv, gr->p, t->first, t->k, ck, NULL, NULL, 0.0, 0.0);
+    } else {
+        /* The smaller design's inverse from the kept exact cross-products, as pw_aug_info_subset. */
+        sub = malloc(q * q * sizeof *sub);
+        inv = malloc(q * q * sizeof *inv);
+        if (sub == NULL || inv == NULL) goto fail;
+        size_t r = 0;
+        for (size_t i = 0; i < gr->p; i++) {
+            if (!on[i]) continue;
+            size_t cc = 0;
+            for (size_t j = 0; j < gr->p; j++)
+                if (on[j]) sub[r * q + cc++] = gr->gram[i * gr->p + j];
+            r++;
+        }
+        if ((rc = pw_spd_inverse(sub, q, inv)) != PW_OK) goto fail;
+        v = contrast_var(inv, q, first, k, ck, NULL, NULL, 0.0, 0.0);
+    }
+    *info = v > 0.0 ? 1.0 / v : INFINITY;
+    rc = PW_OK;
+fail:
+    if (ck != cb) free(ck);
     free(sub);
     free(inv);
     return rc;

@@ -409,6 +409,15 @@ double pw_aug_score_cost(const pw_aug *a);
  * of the block's columns is on. PW_OK, PW_EDOM, PW_ENOMEM, PW_ESING. */
 int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, int pattern,
                        double *info);
+/* Measure target by one contrast of its block instead (an ordered level set's linear trend): its
+ * information is 1 / (c' V c), c the k weights (copied; finite), V the block of the group's
+ * inverse (after the runs, in scoring). Weights scaled so that 1 / (c' V c) is the test's q^2 (the
+ * trend: (x_l - mean) / S_xx) make the information q^2 itself. PW_OK, PW_EDOM, PW_ENOMEM. */
+int pw_aug_set_contrast(pw_aug *a, size_t target, const double *c);
+/* As pw_aug_info_subset for the contrast c (k weights over the target's block; the weights of
+ * columns that are off are ignored). PW_OK, PW_EDOM, PW_ENOMEM, PW_ESING. */
+int pw_aug_contrast_subset(const pw_aug *a, size_t target, const unsigned char *on,
+                           const double *c, double *info);
 /* Add w runs at row to every group (Sherman-Morrison, with a fresh Cholesky inverse of the kept
  * cross-products every PW_AUG_REFRESH commits to stop rounding drift). */
 #define PW_AUG_REFRESH 64

@@ -378,9 +378,13 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
         if (trc == COV_ENOMEM) return trc;
         if (trc != COV_OK) {
             a->verdict = COV_BLIND;
-            note_add(&a->reason, "untestable: '%s' is expected to turn, which needs at least %d "
-                     "distinct values; its declared range holds %zu", x->name,
-                     PW_TURN_DEGREE_MIN + 2, nv);
+            if (nv == 0)
+                note_add(&a->reason, "too few complete runs (%zu) to fit the turn of '%s', and it "
+                         "has no declared range to plan from", a->n, x->name);
+            else
+                note_add(&a->reason, "untestable: '%s' is expected to turn, which needs at least "
+                         "%d distinct values; its declared range holds %zu", x->name,
+                         PW_TURN_DEGREE_MIN + 2, nv);
             return COV_OK;
         }
         a->turn_lo = x->lo;

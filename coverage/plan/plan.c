@@ -198,6 +198,39 @@ static int find_group(struct plan_state *st, const cov_claim *cl, size_t *gi, si
     return COV_OK;
 }
 
+/* Whether claim cl's treatment is an ordered level set that the assessment tests by its linear
+ * trend (coverage/assess/assess.c, shape.c): ordered, with positions, not expected to turn. The
+ * plan then measures it by the trend contrast's own information (trend_weights). */
+static int trend_claim(const cov_graph *g, const cov_claim *cl)
+{
+    const cov_var *x = &g->vars[cl->treatment];
+    return x->type == COV_LEVELS && x->ordered && x->positions != NULL && x->n_levels >= 2 &&
+           cl->shape != COV_SHAPE_TURNING;
+}
+
+/* The trend contrast over the levels l with here[l] set, as weights c[l - 1] on the dummies of
+ * levels 1 .. L - 1: (x_l - mean) / S_xx over those levels (the orthogonal-polynomial linear
+ * contrast of shape.c, scaled so that 1 / (c' V c) is the test's q^2 = S_xx^2 / (c' M^-1 c), the
+ * square of the trend's sd_eq sqrt(n)). Weights of levels not marked are 0; so is a reference
+ * level's, whose coefficient is 0 by the coding. Returns 0 when S_xx is 0 (fewer than two levels). */
+static int trend_weights(const cov_var *x, const unsigned char *here, double *c)
+{
+    size_t L = x->n_levels, m = 0;
+    double mean = 0.0, sxx = 0.0;
+    for (size_t l = 0; l < L; l++)
+        if (here[l]) {
+            mean += x->positions[l];
+            m++;
+        }
+    if (m < 2) return 0;
+    mean /= (double)m;
+    for (size_t l = 0; l < L; l++)
+        if (here[l]) sxx += (x->positions[l] - mean) * (x->positions[l] - mean);
+    if (!(sxx > 0.0)) return 0;
+    for (size_t l = 1; l < L; l++) c[l - 1] = here[l] ? (x->positions[l] - mean) / sxx : 0.0;
+    return 1;
+}
+
 /* The test of a claim sized from the graph's declared noise SD of its outcome (no usable runs). */
 static int design_from_noise(const cov_graph *g, const cov_claim *cl, const cov_power_options *opt,
                              size_t n_testable, const layout *L, pw_design *pd)
@@ -218,7 +251,7 @@ static int design_from_noise(const cov_graph *g, const cov_claim *cl, const cov_
     pd->n_params = params;
     pd->ncp_per_run = NAN;
     pd->test = cov_claim_test(g, cl, 0, 0);
-    if (pd->test == PW_TEST_LEVELS_F) pd->n_levels = (double)x->n_levels;
+    if (pd->test == PW_TEST_LEVELS_F || trend_claim(g, cl)) pd->n_levels = (double)x->n_levels;
     /* Expected to turn: the basis F at the turn's height over the declared range. */
     if (pd->test == PW_TEST_BASIS_F && cov_turning_planned(x, pd, &pd->effect, NULL) != COV_OK)
         return -1;
@@ -247,14 +280,15 @@ struct delta_cache {
 
 static double delta_needed(struct delta_cache *dc, const pw_design *pd, double n)
 {
-    int f_test = pd->test == PW_TEST_LEVELS_F || pd->test == PW_TEST_BASIS_F;
-    double k = f_test ? pd->n_levels - 1.0 : 1.0;
+    /* The treatment's columns, as power/sizing.c counts them (the trend and equivalence tests of
+     * an ordered level set keep its L - 1 columns too). */
+    double k = pd->n_levels >= 2 ? pd->n_levels - 1.0 : 1.0;
     double df = n - pd->n_params - k;
     if (!(df >= 1.0)) df = 1.0;
     if (df > PLAN_DF_EXACT)
         df = PLAN_DF_EXACT * pow(PLAN_DF_RATIO, floor(log(df / PLAN_DF_EXACT) / log(PLAN_DF_RATIO)));
     else df = floor(df);
-    double nl = f_test ? pd->n_levels : 0.0;
+    double nl = pd->n_levels >= 2 ? pd->n_levels : 0.0;
     for (size_t i = 0; i < dc->n; i++) {
         const delta_entry *e = &dc->e[i];
         if (e->test == (int)pd->test && e->sides == pd->sides && e->alpha == pd->alpha &&
@@ -281,8 +315,7 @@ static double delta_needed(struct delta_cache *dc, const pw_design *pd, double n
 static double need_at(struct delta_cache *dc, const claim_work *w, double n)
 {
     /* Below one residual degree of freedom the test has no power at all; size it there instead. */
-    double k = w->pd.test == PW_TEST_LEVELS_F || w->pd.test == PW_TEST_BASIS_F
-                   ? w->pd.n_levels - 1.0 : 1.0;
+    double k = w->pd.n_levels >= 2 ? w->pd.n_levels - 1.0 : 1.0;
     if (n < w->pd.n_params + k + 2.0) n = w->pd.n_params + k + 2.0;
     double q = NAN;
     if (w->pd.test == PW_TEST_TWO_PROP) {
@@ -388,6 +421,26 @@ static int exact_test(const struct plan_state *st, const cov_claim *cl, const cl
             return COV_OK;
         }
         size_t tr = n_treat - 1;
+        if (trend_claim(g, cl)) {
+            /* The linear trend (or, for an absence, the equivalence test on it) over the levels
+             * present, measured by the trend contrast's own information. */
+            const cov_var *x = &g->vars[cl->treatment];
+            size_t v = cl->treatment;
+            unsigned char *here = malloc(x->n_levels);
+            double *c = malloc(x->n_levels * sizeof *c);
+            int prc = here && c ? PW_OK : PW_ENOMEM;
+            for (size_t l = 0; prc == PW_OK && l < x->n_levels; l++)
+                here[l] = (unsigned char)level_present(st, gr, v, l, 1);
+            t->test = cl->kind == COV_CLAIM_ABSENCE ? PW_TEST_TOST : PW_TEST_TREND_T;
+            t->n_levels = (double)n_treat;
+            if (prc == PW_OK && !trend_weights(x, here, c)) *info = NAN;
+            else if (prc == PW_OK) prc = pw_aug_contrast_subset(st->aug, w->target, on, c, info);
+            free(here);
+            free(c);
+            free(on);
+            if (prc != PW_OK) return prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
+            return COV_OK;
+        }
         t->test = cov_claim_test(g, cl, 1, tr);
         t->n_levels = tr >= 2 ? (double)(tr + 1) : 0.0;
         pattern = t->test == PW_TEST_LEVELS_F;
@@ -497,9 +550,25 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
         /* The pd decides the measure; without one yet, a level-set effect claim is an F test. */
         int pattern = w->have_pd ? w->pd.test == PW_TEST_LEVELS_F
                                  : cl->kind == COV_CLAIM_EFFECT && g->vars[cl->treatment].type == COV_LEVELS;
+        if (trend_claim(g, cl)) pattern = 0;
         int prc = pw_aug_add_target(st->aug, st->groups[gi].group, first, k, pattern, INFINITY,
                                     &w->target);
         if (prc != PW_OK) return COV_ENOMEM;
+        if (trend_claim(g, cl)) {
+            /* An ordered level set is steered by its trend contrast over every declared level
+             * (the levels a planned run may bring in), whose information is the trend test's q^2. */
+            const cov_var *xt = &g->vars[cl->treatment];
+            unsigned char *all = malloc(xt->n_levels);
+            double *c = malloc(xt->n_levels * sizeof *c);
+            if (all == NULL || c == NULL) prc = PW_ENOMEM;
+            else {
+                memset(all, 1, xt->n_levels);
+                if (trend_weights(xt, all, c)) prc = pw_aug_set_contrast(st->aug, w->target, c);
+            }
+            free(all);
+            free(c);
+            if (prc != PW_OK) return prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
+        }
         double info0 = pw_aug_info(st->aug, w->target);
         double q_now = w->have_pd ? pw_design_q(&w->pd) : NAN;
         const cov_var *x = &g->vars[cl->treatment];
