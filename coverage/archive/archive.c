@@ -109,8 +109,7 @@ static void free_columns(char **cols, size_t n)
     free(cols);
 }
 
-/* 1 when the schema has a table called name, 0 when not, -1 on an SQLite error. */
-static int has_table(sqlite3 *db, const char *name)
+int cov_sqlite_has_table(sqlite3 *db, const char *name)
 {
     sqlite3_stmt *st = NULL;
     if (sqlite3_prepare_v2(db, "SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?1",
@@ -170,7 +169,7 @@ int cov_archive_open(const char *path, const char *table, cov_archive **out, cov
                       "(choose another with --table)", table);
         goto fail;
     }
-    int owned = has_table(a->db, BATCH_TABLE);
+    int owned = cov_sqlite_has_table(a->db, BATCH_TABLE);
     if (owned < 0) {
         rc = sql_fail(err, a->db, path, "cannot read the archive's tables");
         goto fail;

@@ -112,6 +112,9 @@ int cov_archive_explain_journal(struct sqlite3 *db, const char *path, cov_error 
 /* path as a file name SQLite will not read as a URI ("file:x" becomes "./file:x"); malloc'd,
  * NULL when out of memory (coverage/archive/archive_create.c). */
 char *cov_sqlite_filename(const char *path);
+/* 1 when the schema of db has a table called name, 0 when not, -1 on an SQLite error (also when
+ * the file is not an SQLite database). */
+int cov_sqlite_has_table(struct sqlite3 *db, const char *name);
 
 /* Write name as an SQL identifier in double quotes, doubling embedded quotes, into a new string
  * (NULL when out of memory). Every identifier shoal puts into SQL goes through this. */

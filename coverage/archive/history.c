@@ -58,15 +58,11 @@ int cov_history_load(const char *db_path, int missing_ok, cov_snapshot **out, si
     }
     /* Asking the schema first tells a file that is not SQLite (an error) from one with no
      * history yet (no snapshots). */
-    if (sqlite3_prepare_v2(db, "SELECT count(*) FROM sqlite_master WHERE type = 'table' AND "
-                               "name = 'shoal_snapshots'", -1, &st, NULL) != SQLITE_OK ||
-        sqlite3_step(st) != SQLITE_ROW) {
+    int has_table = cov_sqlite_has_table(db, "shoal_snapshots");
+    if (has_table < 0) {
         rc = sql_fail(err, COV_EINPUT, db, db_path, "not an SQLite file with history:");
         goto fail;
     }
-    int has_table = sqlite3_column_int(st, 0) > 0;
-    sqlite3_finalize(st);
-    st = NULL;
     if (has_table) {
         /* Snapshots recorded before the digest column existed read as digest "". */
         if (sqlite3_prepare_v2(db, "SELECT surveyed_at, runs, batches, ample, underpowered, "

@@ -155,13 +155,8 @@ int cov_pred_load(const char *db_path, int missing_ok, cov_pred_record **out, si
     size_t count = 0;
     int rc = COV_EIO;
     if (sqlite3_open_v2(db_path, &db, SQLITE_OPEN_READONLY, NULL) != SQLITE_OK) goto sqlerr;
-    if (sqlite3_prepare_v2(db, "SELECT count(*) FROM sqlite_master WHERE type = 'table' AND "
-                               "name = 'shoal_plans'", -1, &st, NULL) != SQLITE_OK ||
-        sqlite3_step(st) != SQLITE_ROW)
-        goto sqlerr;
-    int has = sqlite3_column_int(st, 0) > 0;
-    sqlite3_finalize(st);
-    st = NULL;
+    int has = cov_sqlite_has_table(db, "shoal_plans");
+    if (has < 0) goto sqlerr;
     if (!has) {
         sqlite3_close(db);
         return COV_OK;

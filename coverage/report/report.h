@@ -196,6 +196,9 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
 void cov_report_audit_text(const cov_findings *f, FILE *out);
 void cov_report_audit_md(const cov_findings *f, FILE *out);
 void cov_report_audit_html(const cov_findings *f, FILE *out);
+/* s as HTML text or attribute content (report_html.c): & < > " ' as character references,
+ * control characters other than newline and tab as '?'. */
+void cov_html_text(FILE *out, const char *s);
 /* Write report.md (coverage/report_md.c) of f to out. Returns COV_OK or COV_ENOMEM (no message). */
 int cov_report_markdown(const cov_findings *f, const cov_report_info *info, FILE *out);
 

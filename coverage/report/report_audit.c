@@ -143,29 +143,15 @@ void cov_report_audit_md(const cov_findings *f, FILE *out)
           out);
 }
 
-static void html_esc(FILE *out, const char *s)
-{
-    for (const char *p = s ? s : ""; *p; p++) {
-        switch (*p) {
-        case '&': fputs("&amp;", out); break;
-        case '<': fputs("&lt;", out); break;
-        case '>': fputs("&gt;", out); break;
-        case '"': fputs("&quot;", out); break;
-        case '\'': fputs("&#39;", out); break;
-        default: fputc((unsigned char)*p < 0x20 || *p == 0x7f ? '?' : *p, out);
-        }
-    }
-}
-
 void cov_report_audit_html(const cov_findings *f, FILE *out)
 {
     if (f->n_preds == 0) return;
     const cov_pred_record *r = &f->preds[f->n_preds - 1];
     fputs("<section id=\"plan-audit\"><h2>The plan's predictions against what the runs "
           "achieved</h2>\n<p>Latest plan: made ", out);
-    html_esc(out, r->made_at);
+    cov_html_text(out, r->made_at);
     fputs(", plan file SHA-256 <code>", out);
-    html_esc(out, r->digest);
+    cov_html_text(out, r->digest);
     fprintf(out, "</code>; %zu of %zu planned runs arrived%s. Power is at the declared effect of "
                  "interest, target %.2f.</p>\n",
             r->arrived, r->n_seeds,
@@ -176,9 +162,9 @@ void cov_report_audit_html(const cov_findings *f, FILE *out)
         const cov_pred_claim *c = &r->claims[k];
         fputs(strcmp(c->kind, "effect") == 0 ? "<tr><td>an effect of <code>"
                                              : "<tr><td>no effect of <code>", out);
-        html_esc(out, c->treatment);
+        cov_html_text(out, c->treatment);
         fputs("</code> on <code>", out);
-        html_esc(out, c->outcome);
+        cov_html_text(out, c->outcome);
         fputs("</code></td><td>", out);
         num(out, c->power_now);
         fputs("</td><td>", out);
@@ -195,9 +181,9 @@ void cov_report_audit_html(const cov_findings *f, FILE *out)
         size_t pred, reach, agree, measured;
         tally(q, &pred, &reach, &agree, &measured);
         fputs("<tr><td>", out);
-        html_esc(out, q->made_at);
+        cov_html_text(out, q->made_at);
         fputs("</td><td><code>", out);
-        html_esc(out, q->digest);
+        cov_html_text(out, q->digest);
         fprintf(out, "</code></td><td>%zu of %zu</td><td>%zu</td><td>%zu</td><td>%zu of %zu</td>"
                      "</tr>\n",
                 q->arrived, q->n_seeds, pred, reach, agree, measured);

@@ -12,22 +12,25 @@
 /* The worst pairs and data-issue examples listed in the report. */
 #define REPORT_WORST_PAIRS 10
 
-/* Write s as HTML text or attribute content: & < > " ' become character references. */
-static void html_text(FILE *out, const char *s)
+/* Write s as HTML text or attribute content: & < > " ' become character references, and control
+ * characters other than newline and tab (never meant for a reader; a name read from a file may
+ * hold them) become '?'. */
+void cov_html_text(FILE *out, const char *s)
 {
     for (const char *p = s ? s : ""; *p; p++) {
-        switch (*p) {
+        unsigned char ch = (unsigned char)*p;
+        switch (ch) {
         case '&': fputs("&amp;", out); break;
         case '<': fputs("&lt;", out); break;
         case '>': fputs("&gt;", out); break;
         case '"': fputs("&quot;", out); break;
         case '\'': fputs("&#39;", out); break;
-        default: fputc(*p, out);
+        default: fputc((ch < 0x20 && ch != '\n' && ch != '\t') || ch == 0x7f ? '?' : ch, out);
         }
     }
 }
 
-/* Like html_text, with each arrow ("->", "<-") kept whole: a browser may break a line after a
+/* Like cov_html_text, with each arrow ("->", "<-") kept whole: a browser may break a line after a
  * hyphen, which split "a -" from "> b". */
 static void html_reason(FILE *out, const char *s)
 {
@@ -39,7 +42,7 @@ static void html_reason(FILE *out, const char *s)
             continue;
         }
         char one[2] = {*p, '\0'};
-        html_text(out, one);
+        cov_html_text(out, one);
     }
 }
 
@@ -198,7 +201,7 @@ static const char *svg_start_tag(svg_walk *w, size_t depth, int text_only, const
     }
     if (root && w->out != NULL) {
         fputs(" role=\"img\" aria-label=\"", w->out);
-        html_text(w->out, w->caption);
+        cov_html_text(w->out, w->caption);
         fputc('"', w->out);
     }
     int has_viewbox = 0;
@@ -266,7 +269,7 @@ static const char *svg_start_tag(svg_walk *w, size_t depth, int text_only, const
         svg_put(w, ">", 1);
         if (w->out != NULL) {
             fputs("<title>", w->out);
-            html_text(w->out, w->caption);
+            cov_html_text(w->out, w->caption);
             fputs("</title>", w->out);
         }
     } else if (!*dropped) {
@@ -427,7 +430,7 @@ static void html_num_cell(FILE *out, double x, const char *text)
     else if (isinf(x)) fputs("Infinity", out);
     else fprintf(out, "%.9g", x);
     fputs("\">", out);
-    html_text(out, text);
+    cov_html_text(out, text);
     fputs("</td>", out);
 }
 
@@ -438,7 +441,7 @@ static void html_claim_cautions(FILE *out, const cov_cautions *c, size_t i)
         if (c->items[j].claim != (long)i) continue;
         fprintf(out, "<br><a class=\"caution-tag\" href=\"#caution-%s\">&#9888; ",
                 c->items[j].kind->key);
-        html_text(out, c->items[j].kind->title);
+        cov_html_text(out, c->items[j].kind->title);
         fputs("</a>", out);
     }
 }
@@ -466,21 +469,21 @@ static void html_claims(FILE *out, const cov_findings *f, const cov_report_info 
         cov_claim_sentence(f->graph, c, words, sizeof words);
         words[cov_utf8_valid_prefix(words, strlen(words))] = '\0';
         fprintf(out, "<td class=\"v-%s\">%s</td><td title=\"", word, word);
-        html_text(out, words);
+        cov_html_text(out, words);
         fprintf(out, "\">%s</td><td>", cov_report_kind(c));
-        html_text(out, cov_report_var(f, c->treatment));
+        cov_html_text(out, cov_report_var(f, c->treatment));
         fputs("</td><td>", out);
-        html_text(out, cov_report_var(f, c->outcome));
+        cov_html_text(out, cov_report_var(f, c->outcome));
         fputs("</td><td>", out);
         if (c->status != COV_TESTABLE) fputs("-", out);
         else if (c->n_cond == 0) fputs("nothing", out);
         for (size_t m = 0; c->status == COV_TESTABLE && m < c->n_cond; m++) {
             if (m) fputs(", ", out);
-            html_text(out, cov_report_var(f, c->cond[m]));
+            cov_html_text(out, cov_report_var(f, c->cond[m]));
         }
         cov_report_effect_text(c, buf, sizeof buf);
         fputs("</td><td>", out);
-        html_text(out, buf);
+        cov_html_text(out, buf);
         fputs("</td>", out);
         double fx = a ? a->effect_raw : NAN;
         cov_report_num_text(fx, "%.4g", buf, sizeof buf);
@@ -525,13 +528,13 @@ static int html_figure(FILE *out, const char *dir, const cov_plot *plot, size_t 
         fprintf(out, "<!-- %s.svg is shown as an image, not inline (refused: %s) -->", plot->name,
                 why);
         fputs("<img alt=\"", out);
-        html_text(out, plot->caption);
+        cov_html_text(out, plot->caption);
         fputs("\" src=\"data:image/svg+xml;base64,", out);
         base64(out, (const unsigned char *)svg, len);
         fputs("\">", out);
     }
     fputs("</div><figcaption>", out);
-    html_text(out, plot->caption);
+    cov_html_text(out, plot->caption);
     fprintf(out, "</figcaption><p class=\"full\"><a href=\"%s.svg\">Full size</a></p></figure>\n",
             plot->name);
     free(svg);
@@ -546,15 +549,15 @@ static void html_units(FILE *out, const cov_graph *g, size_t a, size_t b)
     if (!*ua && !*ub) return;
     fputs(" (", out);
     if (*ub) {
-        html_text(out, g->vars[b].name);
+        cov_html_text(out, g->vars[b].name);
         fputs(" in ", out);
-        html_text(out, ub);
+        cov_html_text(out, ub);
     }
     if (*ua) {
         if (*ub) fputs(", ", out);
-        html_text(out, g->vars[a].name);
+        cov_html_text(out, g->vars[a].name);
         fputs(" in ", out);
-        html_text(out, ua);
+        cov_html_text(out, ua);
     }
     fputs(")", out);
 }
@@ -583,11 +586,11 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
             fputs(any ? ", " : "<li>", out);
             if (!any) fprintf(out, "%s: ", role_word[r]);
             fputs("<code>", out);
-            html_text(out, g->vars[v].name);
+            cov_html_text(out, g->vars[v].name);
             fputs("</code>", out);
             if (*cov_var_unit(&g->vars[v])) {
                 fputs(" (", out);
-                html_text(out, cov_var_unit(&g->vars[v]));
+                cov_html_text(out, cov_var_unit(&g->vars[v]));
                 fputs(")", out);
             }
             any = 1;
@@ -602,9 +605,9 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
                 f->claims->items[i].treatment == a && f->claims->items[i].outcome == b)
                 claim = (long)i;
         fputs("<li><code>", out);
-        html_text(out, g->vars[a].name);
+        cov_html_text(out, g->vars[a].name);
         fputs("</code> <span class=\"nw\">-&gt;</span> <code>", out);
-        html_text(out, g->vars[b].name);
+        cov_html_text(out, g->vars[b].name);
         fputs("</code>: ", out);
         if (claim < 0) {
             fputs("part of the model, tested by no claim (a hidden variable at one end)", out);
@@ -613,7 +616,7 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
             const char *word = cov_verdict_word(cov_report_verdict(f, (size_t)claim));
             cov_report_effect_text(&f->claims->items[claim], eff, sizeof eff);
             fputs("expected effect ", out);
-            html_text(out, eff);
+            cov_html_text(out, eff);
             html_units(out, g, a, b);
             fprintf(out, "; <span class=\"v-%s\">%s</span>", word, word);
         }
@@ -626,13 +629,13 @@ static void html_graph(FILE *out, const cov_findings *f, const cov_report_info *
         char eff[96];
         cov_report_effect_text(c, eff, sizeof eff);
         fputs("<li><code>", out);
-        html_text(out, g->vars[c->treatment].name);
+        cov_html_text(out, g->vars[c->treatment].name);
         fputs("</code> <span class=\"nw\">", out);
-        html_text(out, cov_claim_arrow(c->kind));
+        cov_html_text(out, cov_claim_arrow(c->kind));
         fputs("</span> <code>", out);
-        html_text(out, g->vars[c->outcome].name);
+        cov_html_text(out, g->vars[c->outcome].name);
         fputs("</code>: expected absence ", out);
-        html_text(out, eff);
+        cov_html_text(out, eff);
         html_units(out, g, c->treatment, c->outcome);
         fprintf(out, "; <span class=\"v-%s\">%s</span></li>\n", word, word);
     }
@@ -645,7 +648,7 @@ static void html_plots(FILE *out, const cov_findings *f, const cov_report_info *
     fputs("<section id=\"plots\"><h2>Where the runs are sparse</h2>\n", out);
     if (info->plot_note != NULL) {
         fputs("<p class=\"note\">Plots were skipped: ", out);
-        html_text(out, info->plot_note);
+        cov_html_text(out, info->plot_note);
         fputs("</p>\n</section>\n", out);
         return;
     }
@@ -690,7 +693,7 @@ static void html_coverage(FILE *out, const cov_findings *f)
         for (size_t b = 1; b < mg->n_bins; b++)
             if (mg->count[b] < least) least = mg->count[b];
         fputs("<tr><td>", out);
-        html_text(out, cov_report_var(f, mg->var));
+        cov_html_text(out, cov_report_var(f, mg->var));
         cov_report_share_text(mg->share, buf, sizeof buf);
         fprintf(out, "</td><td class=\"num\">%zu</td><td class=\"num\">%s</td>"
                      "<td class=\"num\">%zu</td></tr>\n", mg->n_bins, buf, least);
@@ -707,9 +710,9 @@ static void html_coverage(FILE *out, const cov_findings *f)
                     if (cv->inputs[i] == p->a && cv->inputs[j] == p->b)
                         dep = cv->dependence[i * cv->n_inputs + j];
             fputs("<tr><td>", out);
-            html_text(out, cov_report_var(f, p->a));
+            cov_html_text(out, cov_report_var(f, p->a));
             fputs(" &times; ", out);
-            html_text(out, cov_report_var(f, p->b));
+            cov_html_text(out, cov_report_var(f, p->b));
             cov_report_share_text(p->share, buf, sizeof buf);
             fprintf(out, "</td><td class=\"num\">%zu</td><td class=\"num\">%s</td>"
                          "<td class=\"num\">%zu</td>", p->na * p->nb, buf, p->n_empty);
@@ -738,7 +741,7 @@ static void html_found_cautions(FILE *out, const cov_findings *f, const cov_caut
         if (it->kind != last) {
             if (last != NULL) fputs("</ul>\n", out);
             fprintf(out, "<h3 class=\"caution\" id=\"caution-%s\">", it->kind->key);
-            html_text(out, it->kind->title);
+            cov_html_text(out, it->kind->title);
             fputs("</h3>\n<ul class=\"found\">\n", out);
             last = it->kind;
         }
@@ -753,13 +756,13 @@ static void html_found_cautions(FILE *out, const cov_findings *f, const cov_caut
                 cov_claim_pair_label(f->graph, &f->claims->items[k], lab, sizeof lab);
                 const char *word = cov_verdict_word(cov_report_verdict(f, k));
                 fprintf(out, "%s<span class=\"claim-name\">", first ? "" : "; ");
-                html_text(out, lab);
+                cov_html_text(out, lab);
                 fprintf(out, "</span> (<span class=\"v-%s\">%s</span>)", word, word);
                 first = 0;
             }
             fputs(": ", out);
         }
-        html_text(out, it->text);
+        cov_html_text(out, it->text);
         fputs("</li>\n", out);
     }
     fputs("</ul>\n</section>\n", out);
@@ -772,39 +775,39 @@ static void html_audit(FILE *out, const cov_findings *f, const cov_report_info *
     if (o == NULL) return;
     fputs("<section id=\"audit\"><h2>Audit trail</h2>\n<dl class=\"audit\">", out);
     fputs("<dt>shoal version</dt><dd>", out);
-    html_text(out, o->version ? o->version : "unknown");
+    cov_html_text(out, o->version ? o->version : "unknown");
     fputs("</dd><dt>command line</dt><dd><code class=\"cmdline\">", out);
     char *line = NULL;
     size_t len = 0;
     FILE *m = open_memstream(&line, &len);
     if (m != NULL) {
         cov_audit_command_line(o, m);
-        if (fclose(m) == 0 && line != NULL) html_text(out, line);
+        if (fclose(m) == 0 && line != NULL) cov_html_text(out, line);
     }
     free(line);
     fputs("</code></dd><dt>archive</dt><dd><code>", out);
-    html_text(out, o->archive_path);
+    cov_html_text(out, o->archive_path);
     fprintf(out, "</code>, table <code>");
-    html_text(out, o->table ? o->table : COV_DEFAULT_TABLE);
+    cov_html_text(out, o->table ? o->table : COV_DEFAULT_TABLE);
     fprintf(out, "</code>, %zu rows; runs digest (SHA-256 of the recorded columns) <code "
                  "class=\"digest\">", f->data ? f->data->n_runs : 0);
-    html_text(out, info->runs_digest ? info->runs_digest : "not computed");
+    cov_html_text(out, info->runs_digest ? info->runs_digest : "not computed");
     fputs("</code></dd><dt>graph</dt><dd><code>", out);
-    html_text(out, f->graph->path);
+    cov_html_text(out, f->graph->path);
     fputs("</code>; SHA-256 of the file <code class=\"digest\">", out);
-    html_text(out, info->graph_digest && info->graph_digest[0] ? info->graph_digest : "not computed");
+    cov_html_text(out, info->graph_digest && info->graph_digest[0] ? info->graph_digest : "not computed");
     fprintf(out, "</code></dd><dt>seed</dt><dd>%lu</dd><dt>surveyed (UTC)</dt><dd>",
             o->coverage.seed);
-    html_text(out, info->generated);
+    cov_html_text(out, info->generated);
     fputs("</dd></dl>\n<div class=\"wide\"><table class=\"options\"><thead><tr><th>option</th><th>value</th>"
           "<th>set by</th></tr></thead><tbody>\n", out);
     cov_audit_option opts[40];
     size_t n = cov_audit_options(o, opts, sizeof opts / sizeof opts[0]);
     for (size_t k = 0; k < n; k++) {
         fputs("<tr><td><code>--", out);
-        html_text(out, opts[k].name);
+        cov_html_text(out, opts[k].name);
         fputs("</code></td><td>", out);
-        html_text(out, opts[k].value);
+        cov_html_text(out, opts[k].value);
         fprintf(out, "</td><td>%s</td></tr>\n", opts[k].given ? "command line" : "default");
     }
     fputs("</tbody></table></div>\n</section>\n", out);
@@ -822,7 +825,7 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
         fputs("<p>History kept in the ", out);
         fputs(info->store == COV_HISTORY_ARCHIVE ? "archive " : "side file ", out);
         fputs("<code>", out);
-        html_text(out, info->history_path);
+        cov_html_text(out, info->history_path);
         fputs("</code>.</p>\n", out);
     }
     /* The vertical scale ends at the testable claims: the most that can ever be ample. */
@@ -872,7 +875,7 @@ static void html_history(FILE *out, const cov_findings *f, const cov_report_info
         char buf[64];
         cov_report_share_text(rd->pairwise_share, buf, sizeof buf);
         fprintf(out, "<tr><td class=\"num\">%zu</td><td>", r + 1);
-        html_text(out, rd->at);
+        cov_html_text(out, rd->at);
         fprintf(out, "</td><td class=\"num\">%lld</td><td class=\"num\">%lld</td>"
                      "<td class=\"num\">%lld</td><td class=\"num\">%lld</td>"
                      "<td class=\"num\">%lld</td><td class=\"num\">%s</td></tr>\n", rd->n_runs,
@@ -892,14 +895,14 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
     char buf[64];
     fputs("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">\n<meta name=\"viewport\""
           " content=\"width=device-width, initial-scale=1\">\n<title>Survey of ", out);
-    html_text(out, f->graph->path);
+    cov_html_text(out, f->graph->path);
     fprintf(out, "</title>\n<style>\n%s</style></head>\n<body>\n<header><h1>Is this campaign "
                  "enough to test the graph?</h1>\n<p class=\"sub\">Graph <code>", html_style);
-    html_text(out, f->graph->path);
+    cov_html_text(out, f->graph->path);
     fputs("</code>, archive <code>", out);
-    html_text(out, f->opt && f->opt->archive_path ? f->opt->archive_path : "");
+    cov_html_text(out, f->opt && f->opt->archive_path ? f->opt->archive_path : "");
     fputs("</code>, surveyed ", out);
-    html_text(out, info->generated);
+    cov_html_text(out, info->generated);
     fputs(" (UTC).</p></header>\n", out);
 
     fprintf(out, "<section id=\"summary\" class=\"verdict%s\"><p class=\"big\">%s</p>\n",
@@ -908,7 +911,7 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
                            : "Not adequate yet: some testable claims are underpowered.");
     if (info->gate_note) {
         fputs("<p>", out);
-        html_text(out, info->gate_note);
+        cov_html_text(out, info->gate_note);
         fputs("</p>\n", out);
     }
     fputs("<div class=\"cards\">", out);
@@ -932,7 +935,7 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
         char run_line[512];
         cov_runs_summary(f->data, run_line, sizeof run_line);
         fputs("<p>Runs: ", out);
-        html_text(out, run_line);
+        cov_html_text(out, run_line);
         fputs(".</p>\n", out);   /* a conflicting run is among the cautions below */
     }
     if (f->opt != NULL)
@@ -945,7 +948,7 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
         fputs("<section id=\"next\"><h2>Next steps</h2>\n<ol class=\"next\">\n", out);
         for (size_t k = 0; k < info->next->n; k++) {
             fputs("<li>", out);
-            html_text(out, info->next->lines[k]);
+            cov_html_text(out, info->next->lines[k]);
             fputs("</li>\n", out);
         }
         fputs("</ol>\n</section>\n", out);
@@ -968,7 +971,7 @@ int cov_report_html(const cov_findings *f, const cov_report_info *info, const ch
         fputs("<section id=\"cautions\"><h2>Read with care</h2>\n<ul class=\"cautions\">\n", out);
         for (size_t k = 0; k < cov_report_n_cautions; k++) {
             fputs("<li>", out);
-            html_text(out, cov_report_cautions[k]);
+            cov_html_text(out, cov_report_cautions[k]);
             fputs("</li>\n", out);
         }
         fprintf(out, "</ul>\n</section>\n<script>\n%s</script>\n</body></html>\n", html_script);
