@@ -578,4 +578,12 @@ int pw_wild_mde(const pw_wild *w, const pw_wild_test *t, double target, double n
 int pw_wild_runs(const pw_wild *w, const pw_wild_test *t, double effect, double target,
                  double *runs);
 
+/* ---------------------------------------------------------------------------------------------
+ * Sorting (power/sort.c). */
+
+/* Sort n values ascending in time linear in n (an LSD radix sort on the IEEE 754 bit patterns;
+ * Knuth, TAOCP vol. 3, sec. 5.2.5). Every -0 becomes +0; NaNs, which have no order, go to the
+ * ends. The sorted values are those of a comparison sort. PW_OK or PW_ENOMEM (x unchanged). */
+int pw_sort_doubles(double *x, size_t n);
+
 #endif

@@ -133,12 +133,6 @@ fail:
     return rc;
 }
 
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
-
 int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
                       double sigma_pure, double df_pe, cov_shape_fit *out)
 {
@@ -148,7 +142,10 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
     double *sx = malloc(m * sizeof *sx);
     if (sx == NULL) return COV_ENOMEM;
     memcpy(sx, x, m * sizeof *sx);
-    qsort(sx, m, sizeof *sx, cmp_double);
+    if (pw_sort_doubles(sx, m) != PW_OK) {
+        free(sx);
+        return COV_ENOMEM;
+    }
     size_t distinct = 1;
     for (size_t i = 1; i < m; i++) distinct += sx[i] != sx[i - 1];
     out->distinct = distinct;

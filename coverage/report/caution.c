@@ -100,12 +100,6 @@ static void shape(const cov_findings *f, const cov_caution_kind *k, sink *s)
             add(s, k, (long)i, "%s.", f->assess->items[i].caution);
 }
 
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return x < y ? -1 : x > y;
-}
-
 /* Outcomes that never vary, or take one value in most runs. */
 static void constant(const cov_findings *f, const cov_caution_kind *k, sink *s)
 {
@@ -120,7 +114,11 @@ static void constant(const cov_findings *f, const cov_caution_kind *k, sink *s)
         }
         for (size_t i = 0; i < f->data->n_runs; i++)
             if (!isnan(f->data->col[v][i])) x[n++] = f->data->col[v][i];
-        qsort(x, n, sizeof *x, cmp_double);
+        if (pw_sort_doubles(x, n) != PW_OK) {
+            free(x);
+            s->failed = 1;
+            return;
+        }
         size_t best = 0, run = 0;
         double mode = NAN;
         for (size_t i = 0; i < n; i++) {
