@@ -30,7 +30,11 @@ void cov_data_digest(const cov_graph *g, const cov_data *d, char hex[65])
                 if (x == 0) x = 0;   /* -0 and +0 are the same value */
                 memcpy(&bits, &x, sizeof bits);
             }
+#if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
+            memcpy(buf + fill, &bits, 8);   /* already little-endian */
+#else
             for (int i = 0; i < 8; i++) buf[fill + (size_t)i] = (unsigned char)(bits >> (8 * i));
+#endif
             fill += 8;
             if (fill == sizeof buf) {
                 cov_sha256_update(&h, buf, fill);
