@@ -64,12 +64,6 @@ static int group_rows(const double *keys, size_t kk, size_t m, size_t *group, si
     return PW_OK;
 }
 
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
-
 int pw_mode_share(const double *y, size_t m, double *share)
 {
     *share = NAN;
@@ -140,7 +134,10 @@ int pw_resid_diagnose(const double *y, const double *fitted, size_t m, pw_resid_
         double *sorted = malloc(m * sizeof *sorted);
         if (sorted == NULL) return PW_ENOMEM;
         memcpy(sorted, fitted, m * sizeof *sorted);
-        qsort(sorted, m, sizeof *sorted, cmp_double);
+        if (pw_sort_doubles(sorted, m) != PW_OK) {
+            free(sorted);
+            return PW_ENOMEM;
+        }
         double cut1 = sorted[m / 3], cut2 = sorted[(2 * m) / 3];
         double s_lo = 0, s_hi = 0;
         size_t n_lo = 0, n_hi = 0;

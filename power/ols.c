@@ -21,8 +21,11 @@ void pw_ols_free(pw_ols *fit)
 
 /* Householder QR without pivoting (Golub & Van Loan 2013, Algorithm 5.2.1), applied to the
  * n-by-p matrix A (column-major, overwritten by R in its upper triangle) and to the vector b
- * (overwritten by Q'b). v is scratch of n entries. Returns PW_ESING when a column is aliased. */
-static int householder_qr(double *A, double *b, size_t n, size_t p, double *v)
+ * (overwritten by Q'b; may be NULL). v is scratch of n entries. When keep is not NULL, reflector
+ * j's vector is kept in keep->v[j n + j .. j n + n - 1] and v'v in keep->vtv[j], so that Q'b of
+ * any later b repeats these very operations (pw_ols_reflect). Returns PW_ESING when a column is
+ * aliased. */
+static int householder_qr(double *A, double *b, size_t n, size_t p, double *v, pw_reflectors *keep)
 {
     double rmax = 0.0;
     for (size_t j = 0; j < p; j++) {
@@ -40,6 +43,10 @@ static int householder_qr(double *A, double *b, size_t n, size_t p, double *v)
         for (size_t i = j; i < n; i++) v[i] = aj[i];
         v[j] -= alpha;
         for (size_t i = j; i < n; i++) vtv += v[i] * v[i];
+        if (keep != NULL) {
+            memcpy(keep->v + j * n + j, v + j, (n - j) * sizeof *v);
+            keep->vtv[j] = vtv;
+        }
         for (size_t c = j; c < p; c++) {
             double *ac = A + c * n;
             double s = 0.0;
@@ -47,10 +54,12 @@ static int householder_qr(double *A, double *b, size_t n, size_t p, double *v)
             s = 2.0 * s / vtv;
             for (size_t i = j; i < n; i++) ac[i] -= s * v[i];
         }
-        double s = 0.0;
-        for (size_t i = j; i < n; i++) s += v[i] * b[i];
-        s = 2.0 * s / vtv;
-        for (size_t i = j; i < n; i++) b[i] -= s * v[i];
+        if (b != NULL) {
+            double s = 0.0;
+            for (size_t i = j; i < n; i++) s += v[i] * b[i];
+            s = 2.0 * s / vtv;
+            for (size_t i = j; i < n; i++) b[i] -= s * v[i];
+        }
         aj[j] = alpha;
         rmax = fmax(rmax, fabs(alpha));
     }
@@ -86,7 +95,7 @@ int pw_ols_fit(const double *X, const double *y, size_t n, size_t p, pw_ols **ou
         if (constant && X[j] != 0.0) has_intercept = 1;
     }
     memcpy(b, y, n * sizeof *b);
-    if ((rc = householder_qr(A, b, n, p, v)) != PW_OK) goto fail;
+    if ((rc = householder_qr(A, b, n, p, v, NULL)) != PW_OK) goto fail;
 
     /* Back substitution R coef = (Q'y)[0..p-1]. */
     for (size_t jj = p; jj-- > 0;) {
@@ -140,4 +149,53 @@ fail:
     free(Rinv);
     pw_ols_free(fit);
     return rc;
+}
+
+void pw_reflectors_free(pw_reflectors *q)
+{
+    if (q == NULL) return;
+    free(q->v);
+    free(q->vtv);
+    free(q);
+}
+
+int pw_ols_reflectors(const double *X, size_t n, size_t p, pw_reflectors **out)
+{
+    *out = NULL;
+    if (X == NULL || p == 0) return PW_EDOM;
+    if (n <= p) return PW_EFEW;
+    int rc = PW_ENOMEM;
+    double *A = malloc(n * p * sizeof *A), *v = malloc(n * sizeof *v);
+    pw_reflectors *q = calloc(1, sizeof *q);
+    if (A == NULL || v == NULL || q == NULL) goto fail;
+    q->n = n;
+    q->p = p;
+    q->v = calloc(n * p, sizeof *q->v);
+    q->vtv = calloc(p, sizeof *q->vtv);
+    if (q->v == NULL || q->vtv == NULL) goto fail;
+    for (size_t j = 0; j < p; j++)
+        for (size_t i = 0; i < n; i++) A[j * n + i] = X[i * p + j];
+    if ((rc = householder_qr(A, NULL, n, p, v, q)) != PW_OK) goto fail;
+    *out = q;
+    q = NULL;
+fail:
+    free(A);
+    free(v);
+    pw_reflectors_free(q);
+    return rc;
+}
+
+double pw_ols_reflect_rss(const pw_reflectors *q, double *b)
+{
+    size_t n = q->n;
+    for (size_t j = 0; j < q->p; j++) {
+        const double *v = q->v + j * n;
+        double s = 0.0;
+        for (size_t i = j; i < n; i++) s += v[i] * b[i];
+        s = 2.0 * s / q->vtv[j];
+        for (size_t i = j; i < n; i++) b[i] -= s * v[i];
+    }
+    double rss = 0.0;
+    for (size_t i = q->p; i < n; i++) rss += b[i] * b[i];
+    return rss;
 }

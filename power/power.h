@@ -89,6 +89,20 @@ typedef struct {
  * Returns PW_OK, PW_ESING (rank-deficient), PW_EFEW (n <= p) or PW_ENOMEM. */
 int pw_ols_fit(const double *X, const double *y, size_t n, size_t p, pw_ols **out);
 void pw_ols_free(pw_ols *fit);
+/* The Householder reflectors of pw_ols_fit's QR of one design, kept to fit many y on it: the
+ * residual sum of squares of each then costs 4 n p flops and equals pw_ols_fit's rss bit for
+ * bit (the same operations in the same order). */
+typedef struct {
+    size_t n, p;
+    double *v;     /* n * p: reflector j in v[j n + j .. j n + n - 1] */
+    double *vtv;   /* p: v'v of each reflector */
+} pw_reflectors;
+/* X is n-by-p, row-major, only read. PW_OK, PW_ESING (rank-deficient, as pw_ols_fit), PW_EFEW
+ * (n <= p), PW_EDOM, PW_ENOMEM. */
+int pw_ols_reflectors(const double *X, size_t n, size_t p, pw_reflectors **out);
+/* Overwrite b (n entries) by Q'b and return the squared norm of its last n - p entries. */
+double pw_ols_reflect_rss(const pw_reflectors *q, double *b);
+void pw_reflectors_free(pw_reflectors *q);
 
 /* Means and centred cross-products of k columns, accumulated one row at a time by the co-moment
  * update (Welford 1962; Chan, Golub & LeVeque 1983), which stays accurate when the means are large
@@ -577,5 +591,13 @@ int pw_wild_mde(const pw_wild *w, const pw_wild_test *t, double target, double n
  * PW_MAX_RUNS. */
 int pw_wild_runs(const pw_wild *w, const pw_wild_test *t, double effect, double target,
                  double *runs);
+
+/* ---------------------------------------------------------------------------------------------
+ * Sorting (power/sort.c). */
+
+/* Sort n values ascending in time linear in n (an LSD radix sort on the IEEE 754 bit patterns;
+ * Knuth, TAOCP vol. 3, sec. 5.2.5). Every -0 becomes +0; NaNs, which have no order, go to the
+ * ends. The sorted values are those of a comparison sort. PW_OK or PW_ENOMEM (x unchanged). */
+int pw_sort_doubles(double *x, size_t n);
 
 #endif

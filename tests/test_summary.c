@@ -37,6 +37,12 @@ typedef struct {
     size_t n_missing[N_VARS], n_outside[N_VARS];
 } fixture;
 
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
 static void make_fixture(fixture *f, size_t n)
 {
     memset(f, 0, sizeof *f);
@@ -203,6 +209,23 @@ static void test_threads(const fixture *f)
         }
     gsl_test(!same, "summary: support of %zu claims identical bit for bit with 1, 2, 3 threads",
              cl->n);
+    /* The shared distinct counts against the C library's sort of each treatment column (an
+     * independent count: adjacent unequal values after qsort). */
+    size_t checked = 0, wrong = 0;
+    for (size_t k = 0; s[0] != NULL && k < cl->n; k++) {
+        size_t t = cl->items[k].treatment;
+        if (!s[0]->items[k].ok || f->d.col[t] == NULL || f->d.n_missing[t] > 0) continue;
+        double *x = malloc(f->d.n_runs * sizeof *x);
+        memcpy(x, f->d.col[t], f->d.n_runs * sizeof *x);
+        qsort(x, f->d.n_runs, sizeof *x, cmp_double);
+        size_t distinct = f->d.n_runs > 0;
+        for (size_t i = 1; i < f->d.n_runs; i++) distinct += x[i] != x[i - 1];
+        free(x);
+        checked++;
+        wrong += s[0]->items[k].distinct != distinct;
+    }
+    gsl_test(checked == 0 || wrong > 0, "summary: distinct treatment values of %zu claims equal "
+             "a sorted count (%zu differ)", checked, wrong);
     /* The replicated configurations show: runs per configuration of claims on inputs only. */
     gsl_test(pure == 0, "summary: replicated configurations found (pure error on %d claims)", pure);
     for (int t = 0; t < 3; t++) cov_supports_free(s[t]);

@@ -71,6 +71,7 @@ typedef struct {
     size_t ws_rows, ws_kk;
     cov_seed_groups seeds;    /* each run's seed block (seedblock.c); group NULL when none */
     cov_seed_fit seed_global; /* the global cross-products demeaned by seed block */
+    cov_shape_cache *shape;   /* each treatment's shape basis on the sample (shape.c) */
 } assess_ctx;
 
 static int is_recorded(const cov_data *d, size_t v)
@@ -137,6 +138,7 @@ static void ctx_free(assess_ctx *x)
     free(x->ws_keys);
     cov_seed_groups_free(&x->seeds);
     cov_seed_fit_free(&x->seed_global);
+    cov_shape_cache_free(x->shape);
 }
 
 /* Make the scratch hold rows x kk keys. */
@@ -206,6 +208,7 @@ static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
         gsl_rng_free(r);
     }
     x->n_sample = m;
+    if ((x->shape = cov_shape_cache_new(g->n_vars, m)) == NULL) return COV_ENOMEM;
     if (K == 0 || n == 0) return COV_OK;
     /* The share of each complete variable's most common value on the sample: the outcome check
      * of the fast path, and a variable whose values are all distinct rules out replicates. */
@@ -701,8 +704,9 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         }
         int pure = lrc == PW_OK && isfinite(lof.sigma_pure);
         if (src0 == COV_OK)
-            src0 = cov_shape_numeric(xs, es, mrows, 1.0 + (double)fit->rank,
-                                     pure ? lof.sigma_pure : NAN, pure ? lof.df_pe : 0, &sf);
+            src0 = cov_shape_numeric_cached(fast ? x->shape : NULL, c->treatment, xs, es, mrows,
+                                            1.0 + (double)fit->rank, pure ? lof.sigma_pure : NAN,
+                                            pure ? lof.df_pe : 0, &sf);
         free(xs);
         free(es);
         if (src0 != COV_OK) {

@@ -50,6 +50,16 @@ typedef struct {
  * basis. Returns COV_OK or COV_ENOMEM. */
 int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
                       double sigma_pure, double df_pe, cov_shape_fit *out);
+/* The same from a cache of each treatment's basis (its distinct values, value groups or cubic
+ * reflectors), for many claims whose treatment key is measured on the same m rows: the basis is
+ * made on the first call per key, then each call costs what its residuals cost. The figures equal
+ * cov_shape_numeric's bit for bit. c NULL, a key >= n_keys or another m: computed afresh. */
+typedef struct cov_shape_cache cov_shape_cache;
+cov_shape_cache *cov_shape_cache_new(size_t n_keys, size_t m);   /* NULL when out of memory */
+void cov_shape_cache_free(cov_shape_cache *c);
+int cov_shape_numeric_cached(cov_shape_cache *c, size_t key, const double *x, const double *e,
+                             size_t m, double n_coef, double sigma_pure, double df_pe,
+                             cov_shape_fit *out);
 
 /* The table's note lines on an assessment's shape and units for one claim (`shoal power`). */
 void cov_assessment_table_shape(FILE *out, const char *label, const cov_claim *c,

@@ -133,38 +133,48 @@ fail:
     return rc;
 }
 
-static int cmp_double(const void *a, const void *b)
+/* What the lack-of-fit check needs of a treatment's values on the diagnostic rows, whatever the
+ * residuals: the count of distinct values and, with few, each row's value group; with many, the
+ * reflectors of the cubic basis' QR. */
+typedef struct {
+    int ready;
+    size_t distinct;
+    size_t *group;             /* levels: the group of each row, groups in ascending value */
+    pw_reflectors *cubic;      /* cubic: NULL when the basis is rank-deficient or too short */
+} shape_basis;
+
+struct cov_shape_cache {
+    size_t n_keys, m;
+    shape_basis *basis;
+};
+
+static void basis_free(shape_basis *b)
 {
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
+    free(b->group);
+    pw_reflectors_free(b->cubic);
+    memset(b, 0, sizeof *b);
 }
 
-int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
-                      double sigma_pure, double df_pe, cov_shape_fit *out)
+static int basis_make(const double *x, size_t m, shape_basis *b)
 {
-    memset(out, 0, sizeof *out);
-    out->f = out->p = out->df1 = out->df2 = NAN;
+    memset(b, 0, sizeof *b);
+    b->ready = 1;
     if (m == 0) return COV_OK;
     double *sx = malloc(m * sizeof *sx);
     if (sx == NULL) return COV_ENOMEM;
     memcpy(sx, x, m * sizeof *sx);
-    qsort(sx, m, sizeof *sx, cmp_double);
+    if (pw_sort_doubles(sx, m) != PW_OK) {
+        free(sx);
+        return COV_ENOMEM;
+    }
     size_t distinct = 1;
     for (size_t i = 1; i < m; i++) distinct += sx[i] != sx[i - 1];
-    out->distinct = distinct;
+    b->distinct = distinct;
     int rc = COV_OK;
     if (distinct < 3) goto done;
-    double ss_e = 0, ss_lof = 0;
-    for (size_t i = 0; i < m; i++) ss_e += e[i] * e[i];
     if (distinct <= COV_SHAPE_LEVELS_MAX) {
-        /* A level basis: one mean per value. The residuals of the straight line are orthogonal
-         * to the intercept and the slope, so the sum of squares of their value means is what
-         * the means gain over the line (the lack-of-fit sum of squares; Draper & Smith 1998,
-         * sec. 2.1), exactly so when the adjustment set is empty. */
-        double *sum = calloc(distinct, sizeof *sum), *cnt = calloc(distinct, sizeof *cnt);
-        if (sum == NULL || cnt == NULL) {
-            free(sum);
-            free(cnt);
+        b->group = malloc(m * sizeof *b->group);
+        if (b->group == NULL) {
             rc = COV_ENOMEM;
             goto done;
         }
@@ -179,15 +189,8 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
                 if (vals[mid] <= x[i]) lo = mid;
                 else hi = mid;
             }
-            sum[lo] += e[i];
-            cnt[lo] += 1;
+            b->group[i] = lo;
         }
-        for (size_t g = 0; g < nv; g++)
-            if (cnt[g] > 0) ss_lof += sum[g] * sum[g] / cnt[g];
-        free(sum);
-        free(cnt);
-        out->df1 = (double)distinct - 2.0;
-        out->basis = "levels";
     } else {
         /* Many values: the quadratic and cubic terms of the standardised treatment (a cubic
          * polynomial basis), fitted to the residuals by least squares. */
@@ -196,7 +199,6 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
         for (size_t i = 0; i < m; i++) var += (x[i] - mean) * (x[i] - mean) / (double)m;
         double sd = var > 0 ? sqrt(var) : 1;
         double *X = malloc(m * 4 * sizeof *X);
-        pw_ols *fit = NULL;
         if (X == NULL) {
             rc = COV_ENOMEM;
             goto done;
@@ -208,15 +210,55 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
             X[4 * i + 2] = z * z;
             X[4 * i + 3] = z * z * z;
         }
-        int prc = pw_ols_fit(X, e, m, 4, &fit);
+        int prc = pw_ols_reflectors(X, m, 4, &b->cubic);
         free(X);
-        if (prc == PW_ENOMEM) {
-            rc = COV_ENOMEM;
-            goto done;
+        if (prc == PW_ENOMEM) rc = COV_ENOMEM;
+    }
+done:
+    free(sx);
+    if (rc != COV_OK) basis_free(b);
+    return rc;
+}
+
+static int shape_from_basis(const shape_basis *b, const double *e, size_t m, double n_coef,
+                            double sigma_pure, double df_pe, cov_shape_fit *out)
+{
+    memset(out, 0, sizeof *out);
+    out->f = out->p = out->df1 = out->df2 = NAN;
+    if (m == 0) return COV_OK;
+    size_t distinct = b->distinct;
+    out->distinct = distinct;
+    if (distinct < 3) return COV_OK;
+    double ss_e = 0, ss_lof = 0;
+    for (size_t i = 0; i < m; i++) ss_e += e[i] * e[i];
+    if (distinct <= COV_SHAPE_LEVELS_MAX) {
+        /* A level basis: one mean per value. The residuals of the straight line are orthogonal
+         * to the intercept and the slope, so the sum of squares of their value means is what
+         * the means gain over the line (the lack-of-fit sum of squares; Draper & Smith 1998,
+         * sec. 2.1), exactly so when the adjustment set is empty. */
+        double *sum = calloc(distinct, sizeof *sum), *cnt = calloc(distinct, sizeof *cnt);
+        if (sum == NULL || cnt == NULL) {
+            free(sum);
+            free(cnt);
+            return COV_ENOMEM;
         }
-        if (prc != PW_OK) goto done;
-        ss_lof = ss_e - fit->rss;
-        pw_ols_free(fit);
+        for (size_t i = 0; i < m; i++) {
+            sum[b->group[i]] += e[i];
+            cnt[b->group[i]] += 1;
+        }
+        for (size_t g = 0; g < distinct; g++)
+            if (cnt[g] > 0) ss_lof += sum[g] * sum[g] / cnt[g];
+        free(sum);
+        free(cnt);
+        out->df1 = (double)distinct - 2.0;
+        out->basis = "levels";
+    } else {
+        if (b->cubic == NULL) return COV_OK;
+        double *r = malloc(m * sizeof *r);
+        if (r == NULL) return COV_ENOMEM;
+        memcpy(r, e, m * sizeof *r);
+        ss_lof = ss_e - pw_ols_reflect_rss(b->cubic, r);
+        free(r);
         out->df1 = 2.0;
         out->basis = "cubic";
     }
@@ -230,14 +272,58 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
         out->df2 = (double)m - n_coef - out->df1;
         if (!(out->df2 >= 1) || !(ss_e - ss_lof > 0)) {
             out->df1 = out->df2 = NAN;
-            goto done;
+            return COV_OK;
         }
         out->f = (ss_lof / out->df1) / ((ss_e - ss_lof) / out->df2);
     }
     out->p = gsl_cdf_fdist_Q(out->f, out->df1, out->df2);
-done:
-    free(sx);
-    return rc;
+    return COV_OK;
+}
+
+int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
+                      double sigma_pure, double df_pe, cov_shape_fit *out)
+{
+    return cov_shape_numeric_cached(NULL, 0, x, e, m, n_coef, sigma_pure, df_pe, out);
+}
+
+cov_shape_cache *cov_shape_cache_new(size_t n_keys, size_t m)
+{
+    cov_shape_cache *c = calloc(1, sizeof *c);
+    if (c == NULL) return NULL;
+    c->basis = calloc(n_keys ? n_keys : 1, sizeof *c->basis);
+    if (c->basis == NULL) {
+        free(c);
+        return NULL;
+    }
+    c->n_keys = n_keys;
+    c->m = m;
+    return c;
+}
+
+void cov_shape_cache_free(cov_shape_cache *c)
+{
+    if (c == NULL) return;
+    for (size_t k = 0; k < c->n_keys; k++) basis_free(&c->basis[k]);
+    free(c->basis);
+    free(c);
+}
+
+int cov_shape_numeric_cached(cov_shape_cache *c, size_t key, const double *x, const double *e,
+                             size_t m, double n_coef, double sigma_pure, double df_pe,
+                             cov_shape_fit *out)
+{
+    if (c == NULL || key >= c->n_keys || m != c->m) {
+        shape_basis b;
+        int rc = basis_make(x, m, &b);
+        if (rc == COV_OK) rc = shape_from_basis(&b, e, m, n_coef, sigma_pure, df_pe, out);
+        basis_free(&b);
+        return rc;
+    }
+    if (!c->basis[key].ready) {
+        int rc = basis_make(x, m, &c->basis[key]);
+        if (rc != COV_OK) return rc;
+    }
+    return shape_from_basis(&c->basis[key], e, m, n_coef, sigma_pure, df_pe, out);
 }
 
 void cov_assessment_table_shape(FILE *out, const char *label, const cov_claim *c,

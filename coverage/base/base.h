@@ -123,6 +123,8 @@ typedef struct {
     uint64_t bytes;           /* message length so far */
     unsigned char buf[64];
     size_t fill;
+    int hw;                   /* 1: the processor's SHA extensions (init sets it; a test may
+                                 clear it to check the portable path) */
 } cov_sha256;
 
 void cov_sha256_init(cov_sha256 *h);

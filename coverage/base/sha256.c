@@ -1,9 +1,16 @@
 /* SHA-256 (FIPS 180-4, section 6.2) for the audit trail's digests of the graph file and of the
- * runs. See LICENSE. */
+ * runs; by the x86 SHA extensions when the processor has them (the same digest, faster).
+ * See LICENSE. */
 #include <stdio.h>
 #include <string.h>
 
 #include "coverage/base/base.h"
+
+#if defined(__x86_64__) && defined(__GNUC__)
+#include <cpuid.h>
+#include <immintrin.h>
+#define COV_SHA_X86 1
+#endif
 
 /* The round constants: the first 32 bits of the fractional parts of the cube roots of the first
  * 64 primes (FIPS 180-4, section 4.2.2). */
@@ -20,6 +27,7 @@ static const uint32_t K[64] = {
 
 #define ROTR(x, n) (((x) >> (n)) | ((x) << (32 - (n))))
 
+/* One 64-byte block by the portable compression function (FIPS 180-4, section 6.2.2). */
 static void block(cov_sha256 *h, const unsigned char *p)
 {
     uint32_t w[64];
@@ -43,6 +51,67 @@ static void block(cov_sha256 *h, const unsigned char *p)
     h->state[4] += e, h->state[5] += f, h->state[6] += g, h->state[7] += k;
 }
 
+#ifdef COV_SHA_X86
+/* The same compression by the SHA extensions (Intel, "Intel SHA Extensions", 2013: SHA256RNDS2
+ * does two rounds on the state held as ABEF and CDGH; SHA256MSG1 and SHA256MSG2 compute the
+ * message schedule of section 6.2.2 four words at a time). */
+__attribute__((target("sha,sse4.1,ssse3"))) static void blocks_x86(uint32_t state[8],
+                                                                 const unsigned char *p,
+                                                                 size_t n_blocks)
+{
+    /* Each 32-bit word of the block is big-endian. */
+    const __m128i swap = _mm_set_epi64x(0x0c0d0e0f08090a0bLL, 0x0405060700010203LL);
+    __m128i dcba = _mm_loadu_si128((const __m128i *)&state[0]);
+    __m128i hgfe = _mm_loadu_si128((const __m128i *)&state[4]);
+    __m128i cdab = _mm_shuffle_epi32(dcba, 0xb1);
+    __m128i efgh = _mm_shuffle_epi32(hgfe, 0x1b);
+    __m128i abef = _mm_alignr_epi8(cdab, efgh, 8);
+    __m128i cdgh = _mm_blend_epi16(efgh, cdab, 0xf0);
+    for (; n_blocks > 0; n_blocks--, p += 64) {
+        __m128i abef0 = abef, cdgh0 = cdgh, w[16];
+        for (int g = 0; g < 16; g++) {
+            if (g < 4)
+                w[g] = _mm_shuffle_epi8(_mm_loadu_si128((const __m128i *)(p + 16 * g)), swap);
+            else
+                w[g] = _mm_sha256msg2_epu32(
+                    _mm_add_epi32(_mm_sha256msg1_epu32(w[g - 4], w[g - 3]),
+                                  _mm_alignr_epi8(w[g - 1], w[g - 2], 4)),
+                    w[g - 1]);
+            __m128i wk = _mm_add_epi32(w[g], _mm_loadu_si128((const __m128i *)&K[4 * g]));
+            cdgh = _mm_sha256rnds2_epu32(cdgh, abef, wk);
+            abef = _mm_sha256rnds2_epu32(abef, cdgh, _mm_shuffle_epi32(wk, 0x0e));
+        }
+        abef = _mm_add_epi32(abef, abef0);
+        cdgh = _mm_add_epi32(cdgh, cdgh0);
+    }
+    __m128i feba = _mm_shuffle_epi32(abef, 0x1b);
+    __m128i dchg = _mm_shuffle_epi32(cdgh, 0xb1);
+    _mm_storeu_si128((__m128i *)&state[0], _mm_blend_epi16(feba, dchg, 0xf0));
+    _mm_storeu_si128((__m128i *)&state[4], _mm_alignr_epi8(dchg, feba, 8));
+}
+
+/* CPUID leaf 7 EBX bit 29 (SHA), leaf 1 ECX bits 19 (SSE4.1) and 9 (SSSE3). */
+static int cpu_has_sha(void)
+{
+    unsigned a, b, c, d;
+    if (!__get_cpuid(1, &a, &b, &c, &d) || !(c & (1u << 19)) || !(c & (1u << 9))) return 0;
+    if (!__get_cpuid_count(7, 0, &a, &b, &c, &d)) return 0;
+    return (b >> 29) & 1u;
+}
+#endif
+
+/* n_blocks whole blocks from p, by the extensions when init found them. */
+static void blocks(cov_sha256 *h, const unsigned char *p, size_t n_blocks)
+{
+#ifdef COV_SHA_X86
+    if (h->hw) {
+        blocks_x86(h->state, p, n_blocks);
+        return;
+    }
+#endif
+    for (; n_blocks > 0; n_blocks--, p += 64) block(h, p);
+}
+
 void cov_sha256_init(cov_sha256 *h)
 {
     /* FIPS 180-4, section 5.3.3. */
@@ -51,6 +120,11 @@ void cov_sha256_init(cov_sha256 *h)
     memcpy(h->state, H0, sizeof H0);
     h->bytes = 0;
     h->fill = 0;
+#ifdef COV_SHA_X86
+    h->hw = cpu_has_sha();
+#else
+    h->hw = 0;
+#endif
 }
 
 void cov_sha256_update(cov_sha256 *h, const void *data, size_t n)
@@ -58,11 +132,16 @@ void cov_sha256_update(cov_sha256 *h, const void *data, size_t n)
     const unsigned char *p = data;
     h->bytes += n;
     while (n > 0) {
+        if (h->fill == 0 && n >= 64) {   /* whole blocks straight from the caller's bytes */
+            blocks(h, p, n / 64);
+            p += n / 64 * 64, n %= 64;
+            continue;
+        }
         size_t take = 64 - h->fill < n ? 64 - h->fill : n;
         memcpy(h->buf + h->fill, p, take);
         h->fill += take, p += take, n -= take;
         if (h->fill == 64) {
-            block(h, h->buf);
+            blocks(h, h->buf, 1);
             h->fill = 0;
         }
     }

@@ -87,9 +87,13 @@ static size_t distinct_values(const double *x, size_t n)
         start[b + 1] += start[b];
     }
     memcpy(fill, start, sizeof fill);
+    /* The partitions hold the hashes, not the values: mix64 is a bijection of 64-bit words
+     * (each step, an xor with a right shift or a multiplication by an odd number, is
+     * invertible), so the hashes are exactly as many as the values are distinct, and the table
+     * below need not hash again. */
     for (size_t i = 0; i < n; i++) {
-        uint64_t v = value_bits(x[i]);
-        part[fill[mix64(v) >> 56]++] = v;
+        uint64_t h = mix64(value_bits(x[i]));
+        part[fill[h >> 56]++] = h;
     }
     cap = 16;
     while (cap < 2 * biggest) cap *= 2;
@@ -103,7 +107,7 @@ static size_t distinct_values(const double *x, size_t n)
         memset(used, 0, c);
         for (size_t i = start[b]; i < start[b + 1]; i++) {
             uint64_t v = part[i];
-            size_t h = (size_t)mix64(v) & (c - 1);
+            size_t h = (size_t)v & (c - 1);
             while (used[h] && table[h] != v) h = (h + 1) & (c - 1);
             if (!used[h]) {
                 used[h] = 1;

@@ -100,34 +100,50 @@ static void shape(const cov_findings *f, const cov_caution_kind *k, sink *s)
             add(s, k, (long)i, "%s.", f->assess->items[i].caution);
 }
 
-static int cmp_double(const void *a, const void *b)
+/* The most common value of x's non-missing cells when it fills at least half of them, without
+ * sorting: any such value is the first cell's or the majority of the cells after it (a value
+ * with exactly half of n cells, not first, has more than half of the other n - 1), and the
+ * majority vote of Boyer & Moore (1981, "MJRTY") finds that one in a pass. A second pass counts
+ * both candidates; ties at exactly half go to the smaller value, as a sorted count would.
+ * Writes the cells counted to *n, and to *best and *mode the count and value (0 and NAN when no
+ * value fills half). */
+static void half_mode(const double *x, size_t n_runs, size_t *n, size_t *best, double *mode)
 {
-    double x = *(const double *)a, y = *(const double *)b;
-    return x < y ? -1 : x > y;
+    size_t first = 0, votes = 0, count = 0;
+    while (first < n_runs && isnan(x[first])) first++;
+    double c0 = first < n_runs ? x[first] : NAN, c1 = NAN;
+    for (size_t i = first; i < n_runs; i++) {
+        if (isnan(x[i])) continue;
+        count++;
+        if (i == first) continue;
+        if (votes == 0) c1 = x[i], votes = 1;
+        else votes += x[i] == c1 ? 1 : (size_t)-1;
+    }
+    size_t n0 = 0, n1 = 0;
+    for (size_t i = first; i < n_runs; i++) {
+        n0 += x[i] == c0;
+        n1 += x[i] == c1;
+    }
+    if (c0 == c1) n1 = 0;
+    *n = count;
+    *best = 0;
+    *mode = NAN;
+    if (2 * n0 >= count && n0 > 0) *best = n0, *mode = c0;
+    if (2 * n1 >= count && n1 > 0 && (n1 > *best || (n1 == *best && c1 < *mode)))
+        *best = n1, *mode = c1;
+    if (*mode == 0) *mode = 0;   /* -0 and +0 are one value */
 }
 
-/* Outcomes that never vary, or take one value in most runs. */
+/* Outcomes that never vary, or take one value in most runs (CAUTION_MODE_SHARE, at least one
+ * half, is what half_mode can find). */
 static void constant(const cov_findings *f, const cov_caution_kind *k, sink *s)
 {
     if (f->data == NULL) return;
     for (size_t v = 0; v < f->graph->n_vars; v++) {
         if (f->graph->vars[v].role != COV_OUTPUT || f->data->col[v] == NULL) continue;
-        size_t n = 0;
-        double *x = malloc((f->data->n_runs ? f->data->n_runs : 1) * sizeof *x);
-        if (x == NULL) {
-            s->failed = 1;
-            return;
-        }
-        for (size_t i = 0; i < f->data->n_runs; i++)
-            if (!isnan(f->data->col[v][i])) x[n++] = f->data->col[v][i];
-        qsort(x, n, sizeof *x, cmp_double);
-        size_t best = 0, run = 0;
-        double mode = NAN;
-        for (size_t i = 0; i < n; i++) {
-            run = i > 0 && x[i] == x[i - 1] ? run + 1 : 1;
-            if (run > best) best = run, mode = x[i];
-        }
-        free(x);
+        size_t n, best;
+        double mode;
+        half_mode(f->data->col[v], f->data->n_runs, &n, &best, &mode);
         if (n < 2) continue;
         if (best == n)
             add(s, k, -1, "%s never varies: all %zu recorded runs give %g, so no claim on it can "
