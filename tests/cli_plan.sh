@@ -109,4 +109,16 @@ check '[ ! -e "$tmp/b.csv" ]' "no plan file is written on bad input"
 rc=$?
 check '[ $rc -eq 2 ]' "an unwritable plan path exits 2 (got $rc)"
 
+# A campaign just started (1 to 5 runs of the demo archive, fewer than a claim's parameters): the
+# plan is made (exit 1: not adequate yet), never "a numeric routine failed" (exit 2); with one run
+# a claim whose input treatment never varied names the treatment, so new runs can vary it.
+for k in 1 2 3 5; do
+    head -n $((k + 1)) fixtures/demo/triage-runs.csv >"$tmp/start$k.csv"
+    "$SHOAL" import "$tmp/start$k.csv" --archive "$tmp/start$k.db" -q
+    "$SHOAL" plan fixtures/demo/triage.graph "$tmp/start$k.db" --budget 20 -o "$tmp/start$k-plan.csv" >"$tmp/start$k.out" 2>&1
+    rc=$?
+    check '[ $rc -eq 1 ] && [ -s "$tmp/start$k-plan.csv" ]' "plan after $k run(s) writes a plan and exits 1 (got $rc)"
+done
+check 'grep -q "treatment .arrivals. never varies" "$tmp/start1.out"' "after 1 run the constant treatment is named, not the outcome"
+
 [ "$fails" -eq 0 ]

@@ -496,16 +496,18 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         if (!moments_constant(m, idx[a0])) x_constant = 0;
     int y_constant = moments_constant(m, idx[k]);
     if ((y_constant || x_constant) && n_rows > 0) {
-        size_t v = y_constant ? c->outcome : c->treatment;
+        /* A treatment that never varied is named first: an outcome that did not move while
+         * nothing moved it says nothing, and new runs can set an input treatment (the plan does). */
+        size_t v = x_constant ? c->treatment : c->outcome;
         char val[160];
         a->fixed_var = v;
         a->fixed_value = d->col[v][rows[0]];
         cov_value_text(&g->vars[v], a->fixed_value, val, sizeof val);
         a->verdict = COV_BLIND;
         note_add(&a->reason, "untestable on these runs: %s '%s' never varies: it is %s in all "
-                 "%zu runs the claim uses%s", y_constant ? "outcome" : "treatment",
+                 "%zu runs the claim uses%s", x_constant ? "treatment" : "outcome",
                  g->vars[v].name, val, a->n,
-                 y_constant && x_constant ? ", and so is the treatment" : "");
+                 y_constant && x_constant ? ", and neither does the outcome" : "");
         rc = COV_OK;
         goto fail;
     }

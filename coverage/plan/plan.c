@@ -447,6 +447,12 @@ static int exact_test(const struct plan_state *st, const cov_claim *cl, const cl
     }
     int prc = pw_aug_info_subset(st->aug, w->target, on, pattern, info);
     free(on);
+    if (prc == PW_ESING) {
+        /* Fewer runs than the claim's parameters (or inputs moved together): no contrast to
+         * test yet, as for a level set with one level. */
+        *info = NAN;
+        return COV_OK;
+    }
     if (prc != PW_OK) return prc == PW_ENOMEM ? COV_ENOMEM : COV_ENUMERIC;
     return COV_OK;
 }
@@ -630,7 +636,10 @@ static int setup_claims(struct plan_state *st, const cov_assessments *a, cov_pla
             int ok = 0;
             it->power_now = NAN;
             if ((erc = exact_design(st, cl, w, (double)n_rows, &t, &ok)) != COV_OK) return erc;
-            if (ok && pw_power(&t, &it->power_now) != PW_OK) return COV_ENUMERIC;
+            int powrc = ok ? pw_power(&t, &it->power_now) : PW_OK;
+            /* Fewer runs than the claim's parameters: no power yet, not a failure. */
+            if (powrc == PW_EFEW) it->power_now = 0;
+            else if (powrc != PW_OK) return COV_ENUMERIC;
         }
         it->mode = COV_PLAN_STEERED;
         w->steered = 1;
