@@ -259,20 +259,10 @@ static int note_lost;
 static void note_add(char **s, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 static void note_add(char **s, const char *fmt, ...)
 {
-    char buf[512];
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(buf, sizeof buf, fmt, ap);
+    if (cov_text_vappend(s, "; ", fmt, ap) != COV_OK) note_lost = 1;
     va_end(ap);
-    size_t old = *s ? strlen(*s) : 0;
-    char *n = realloc(*s, old + strlen(buf) + 3);
-    if (n == NULL) {
-        note_lost = 1;
-        return;
-    }
-    if (old) strcpy(n + old, "; ");
-    strcpy(n + old + (old ? 2 : 0), buf);
-    *s = n;
 }
 
 /* A caution about the claim's figures: kept in a->caution and in a->reason, so that every output

@@ -59,17 +59,10 @@ const char *cov_method_word(int method)
 static void note_add(char **s, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 static void note_add(char **s, const char *fmt, ...)
 {
-    char buf[512];
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(buf, sizeof buf, fmt, ap);
+    (void)cov_text_vappend(s, "; ", fmt, ap);   /* out of memory keeps the old note */
     va_end(ap);
-    size_t old = *s ? strlen(*s) : 0;
-    char *n = realloc(*s, old + strlen(buf) + 3);
-    if (n == NULL) return;
-    if (old) strcpy(n + old, "; ");
-    strcpy(n + old + (old ? 2 : 0), buf);
-    *s = n;
 }
 
 int cov_size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, double sigma_hi)

@@ -16,17 +16,6 @@ void cov_trend_free(cov_trend *t)
     t->unrun = NULL;
 }
 
-/* Append ", name" (or "name") to a heap list. Returns COV_OK or COV_ENOMEM. */
-static int list_add(char **s, const char *name)
-{
-    size_t old = *s ? strlen(*s) : 0;
-    char *n = realloc(*s, old + strlen(name) + 3);
-    if (n == NULL) return COV_ENOMEM;
-    if (old) strcpy(n + old, ", ");
-    strcpy(n + old + (old ? 2 : 0), name);
-    *s = n;
-    return COV_OK;
-}
 
 int cov_trend_compute(const cov_var *xv, const pw_xfit *fit, const pw_moments *m,
                       const size_t *idx, size_t k, size_t t, cov_trend *out)
@@ -56,7 +45,7 @@ int cov_trend_compute(const cov_var *xv, const pw_xfit *fit, const pw_moments *m
         if (fit->kept[k - t + l - 1]) col_of[l] = (int)kept++;
     for (size_t l = 0; l < L; l++) {
         out->n_present += present[l];
-        if (!present[l] && list_add(&out->unrun, xv->levels[l]) != COV_OK) goto fail;
+        if (!present[l] && cov_text_append(&out->unrun, ", ", "%s", xv->levels[l]) != COV_OK) goto fail;
     }
     /* The reference is the one level run without a column of its own: level 0 when it was run,
      * else the level whose dummy the intercept aliased. Any other pattern means the separating

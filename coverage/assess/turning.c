@@ -25,18 +25,11 @@ int cov_claim_turns(const cov_graph *g, const cov_claim *c)
 static int text_add(char **s, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 static int text_add(char **s, const char *fmt, ...)
 {
-    char buf[512];
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(buf, sizeof buf, fmt, ap);
+    int rc = cov_text_vappend(s, "; ", fmt, ap);
     va_end(ap);
-    size_t old = *s ? strlen(*s) : 0;
-    char *n = realloc(*s, old + strlen(buf) + 3);
-    if (n == NULL) return COV_ENOMEM;
-    if (old) strcpy(n + old, "; ");
-    strcpy(n + old + (old ? 2 : 0), buf);
-    *s = n;
-    return COV_OK;
+    return rc;
 }
 
 /* Untestable on these runs, with one reason (the old reason, if any, is kept after it). */

@@ -3,6 +3,7 @@
 #ifndef SHOAL_COVERAGE_BASE_H
 #define SHOAL_COVERAGE_BASE_H
 
+#include <stdarg.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <sys/types.h>
@@ -46,6 +47,12 @@ void cov_claim_label(const cov_graph *g, const cov_claim *c, char *buf, size_t s
 void cov_claim_sentence(const cov_graph *g, const cov_claim *c, char *buf, size_t size);
 /* The claim without its adjustment set, "a -0-> y"; truncated to fit size bytes (size > 0). */
 void cov_claim_pair_label(const cov_graph *g, const cov_claim *c, char *buf, size_t size);
+/* Append printf-style text to the heap string *s (NULL counts as empty), after sep when *s is not
+ * empty: the notes, reasons and cautions of one claim grow this way. COV_OK, or COV_ENOMEM with *s
+ * unchanged. (util.c) */
+int cov_text_append(char **s, const char *sep, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+int cov_text_vappend(char **s, const char *sep, const char *fmt, va_list ap);
 /* Width of a UTF-8 string in characters (code points), for aligning table columns. */
 size_t cov_text_width(const char *s);
 /* The length of the longest prefix of s[0..n) that is well-formed UTF-8 (n when all of it is). */

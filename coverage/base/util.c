@@ -3,9 +3,10 @@
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
-#include "coverage/coverage.h"
+#include "coverage/base/base.h"
 
 int cov_fail(cov_error *err, int status, const char *where, const char *fmt, ...)
 {
@@ -52,4 +53,31 @@ void cov_options_default(cov_options *o)
     o->replicates = 1;
     o->rounds = 1;
     o->width = 80;
+}
+
+int cov_text_vappend(char **s, const char *sep, const char *fmt, va_list ap)
+{
+    va_list again;
+    va_copy(again, ap);
+    int len = vsnprintf(NULL, 0, fmt, ap);
+    size_t old = *s ? strlen(*s) : 0, gap = old ? strlen(sep) : 0;
+    char *n = len < 0 ? NULL : realloc(*s, old + gap + (size_t)len + 1);
+    if (n == NULL) {
+        va_end(again);
+        return COV_ENOMEM;
+    }
+    memcpy(n + old, sep, gap);
+    vsnprintf(n + old + gap, (size_t)len + 1, fmt, again);
+    va_end(again);
+    *s = n;
+    return COV_OK;
+}
+
+int cov_text_append(char **s, const char *sep, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    int rc = cov_text_vappend(s, sep, fmt, ap);
+    va_end(ap);
+    return rc;
 }
