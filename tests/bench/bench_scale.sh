@@ -27,7 +27,7 @@ load() { awk '{ printf "%s %s %s", $1, $2, $3 }' /proc/loadavg; }
 # scale LABEL GRAPH ARCHIVE COLUMNS: REPEATS alternating pairs of (bare scan, survey).
 scale() {
   label=$1 graph=$2 db=$3 cols=$4
-  : >"$tmp/sc"; : >"$tmp/sw"; : >"$tmp/vc"; : >"$tmp/vw"; : >"$tmp/vm"
+  : >"$tmp/sc"; : >"$tmp/sw"; : >"$tmp/vc"; : >"$tmp/vw"; : >"$tmp/vm"; : >"$tmp/kc"
   echo "$label: load average before $(load)"
   i=0
   while [ "$i" -lt "$REPEATS" ]; do
@@ -40,6 +40,15 @@ scale() {
     tail -1 "$tmp/one" | awk '{ print $1 >> "'"$tmp/vw"'"; print $2 + $3 >> "'"$tmp/vc"'";
                                 print $4 >> "'"$tmp/vm"'" }'
     rm -rf "$tmp/report"
+    if [ -n "$classic" ]; then
+      # The same survey with the classic test by formula: what the robust power (HC3, resampling
+      # where the noise asks for it) costs on top.
+      PATH="$tmp/nobin" /usr/bin/time -f "%e %U %S %M" -o "$tmp/one" "$SHOAL" survey "$graph" \
+        "$db" -o "$tmp/report" -q --threads "$THREADS" --test classic --power-by formula
+      [ $? -le 1 ] || { echo "bench_scale: classic survey failed"; exit 1; }
+      tail -1 "$tmp/one" | awk '{ print $2 + $3 >> "'"$tmp/kc"'" }'
+      rm -rf "$tmp/report"
+    fi
     i=$((i + 1))
   done
   sc=$(median <"$tmp/sc"); sw=$(median <"$tmp/sw")
@@ -47,6 +56,8 @@ scale() {
   raw=$(awk -v r="$(sqlite3 "$db" 'SELECT count(*) FROM runs')" -v c="$cols" \
         'BEGIN { printf "%.0f", r * c * 8 / 1024 }')
   echo "$label: load average after $(load)"
+  [ -n "$classic" ] && echo "$label: the same survey with --test classic --power-by formula:" \
+    "median CPU $(median <"$tmp/kc") s (the robust power's cost is the difference)"
   echo "$label: bare scan median CPU $sc s, wall $sw s; survey (no plots, --threads $THREADS)" \
        "median CPU $vc s, wall $vw s, peak $vm KB (medians of $REPEATS)"
   awk -v vc="$vc" -v sc="$sc" -v vw="$vw" -v sw="$sw" -v vm="$vm" -v raw="$raw" -v l="$label" \
@@ -58,13 +69,23 @@ scale() {
 }
 
 status=0
-"$BUILD/bench/bench_power" make "$tmp/wide.db" "$tmp/wide.graph" "$ROWS" || exit 1
-scale "survey $ROWS x 80" "$tmp/wide.graph" "$tmp/wide.db" 80
+# BENCH_SCALE_DIR: reuse (or keep) the generated archives there instead of a fresh temporary copy.
+if [ -n "${BENCH_SCALE_DIR:-}" ] && [ -f "$BENCH_SCALE_DIR/wide.db" ]; then
+  cp "$BENCH_SCALE_DIR/wide.graph" "$tmp/wide.graph" && ln -s "$BENCH_SCALE_DIR/wide.db" "$tmp/wide.db"
+else
+  "$BUILD/bench/bench_power" make "$tmp/wide.db" "$tmp/wide.graph" "$ROWS" || exit 1
+fi
+classic=1 scale "survey $ROWS x 80" "$tmp/wide.graph" "$tmp/wide.db" 80
 rm -f "$tmp/wide.db"
+[ "$LONG_ROWS" -gt 0 ] || exit $status   # BENCH_SCALE_LONG_ROWS=0: the wide archive only
 
 # A narrow, long campaign: 16 inputs on [0, 1000], 4 outputs, 10,000,000 runs (invented, seed
 # fixed), reported in the note with the same ratios.
-"$BUILD/bench/bench_coverage" generate "$tmp/long.db" "$LONG_ROWS" 20 20261205 || exit 1
+if [ -n "${BENCH_SCALE_DIR:-}" ] && [ -f "$BENCH_SCALE_DIR/long.db" ]; then
+  ln -s "$BENCH_SCALE_DIR/long.db" "$tmp/long.db"
+else
+  "$BUILD/bench/bench_coverage" generate "$tmp/long.db" "$LONG_ROWS" 20 20261205 || exit 1
+fi
 {
   echo "# Invented narrow campaign: 16 inputs, 4 outputs."
   echo "design independent"
@@ -76,5 +97,5 @@ rm -f "$tmp/wide.db"
   j=1
   while [ "$j" -le 16 ]; do echo "c$j -> c$((17 + (j - 1) / 4))"; j=$((j + 1)); done
 } >"$tmp/long.graph"
-scale "survey $LONG_ROWS x 20" "$tmp/long.graph" "$tmp/long.db" 20
+classic= scale "survey $LONG_ROWS x 20" "$tmp/long.graph" "$tmp/long.db" 20
 exit $status
