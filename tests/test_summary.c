@@ -236,6 +236,7 @@ static void test_threads(const fixture *f)
 int main(void)
 {
     gsl_set_error_handler_off();
+    gsl_test_verbose(1);   /* one PASS line per check, for the runner's count */
     fixture f;
     make_fixture(&f, N_RUNS);
     test_shard_merge(&f);
