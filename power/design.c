@@ -468,6 +468,44 @@ int pw_aug_score_scaled(pw_aug *a, const double *row, double w, const double *sc
     return PW_OK;
 }
 
+/* Of the group's columns j with on[j] != 0: how many (q), how many lie before target's block
+ * (first) and how many inside it (k). */
+static void subset_counts(const aug_group *gr, const aug_target *t, const unsigned char *on,
+                          size_t *q, size_t *first, size_t *k)
+{
+    *q = *first = *k = 0;
+    for (size_t j = 0; j < gr->p; j++) {
+        if (!on[j]) continue;
+        if (j < t->first) (*first)++;
+        else if (j < t->first + t->k) (*k)++;
+        (*q)++;
+    }
+}
+
+/* The inverse (*inv, q x q, the caller's to free) of the design with only the q columns j with
+ * on[j] != 0: leaving columns out of a least-squares design is taking the submatrix of its
+ * cross-products (X_S'X_S), so it comes from the kept exact cross-products. PW_OK, PW_ENOMEM or
+ * PW_ESING. */
+static int subset_inverse(const aug_group *gr, const unsigned char *on, size_t q, double **inv)
+{
+    double *sub = malloc(q * q * sizeof *sub);
+    *inv = malloc(q * q * sizeof **inv);
+    int rc = PW_ENOMEM;
+    if (sub != NULL && *inv != NULL) {
+        size_t r = 0;
+        for (size_t i = 0; i < gr->p; i++) {
+            if (!on[i]) continue;
+            size_t c = 0;
+            for (size_t j = 0; j < gr->p; j++)
+                if (on[j]) sub[r * q + c++] = gr->gram[i * gr->p + j];
+            r++;
+        }
+        rc = pw_spd_inverse(sub, q, *inv);
+    }
+    free(sub);
+    return rc;
+}
+
 int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, int pattern,
                        double *info)
 {
@@ -475,13 +513,8 @@ int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, 
     if (target >= a->n_targets) return PW_EDOM;
     const aug_target *t = &a->targets[target];
     const aug_group *gr = &a->groups[t->group];
-    size_t q = 0, first = 0, k = 0;
-    for (size_t j = 0; j < gr->p; j++) {
-        if (!on[j]) continue;
-        if (j < t->first) first++;
-        else if (j < t->first + t->k) k++;
-        q++;
-    }
+    size_t q, first, k;
+    subset_counts(gr, t, on, &q, &first, &k);
     if (k == 0) return PW_OK;
     if (q == gr->p) {
         /* The common case: every column in, the Sherman-Morrison inverse as it stands. */
@@ -489,24 +522,11 @@ int pw_aug_info_subset(const pw_aug *a, size_t target, const unsigned char *on, 
                         : pw_block_info(gr->inv, gr->p, t->first, t->k);
         return PW_OK;
     }
-    /* Leaving columns out of a least-squares design is taking the submatrix of its cross-products
-     * (X_S'X_S), so the smaller design's inverse comes from the kept exact cross-products. */
-    double *sub = malloc(q * q * sizeof *sub), *inv = malloc(q * q * sizeof *inv);
-    int rc = PW_ENOMEM;
-    if (sub == NULL || inv == NULL) goto fail;
-    size_t r = 0;
-    for (size_t i = 0; i < gr->p; i++) {
-        if (!on[i]) continue;
-        size_t c = 0;
-        for (size_t j = 0; j < gr->p; j++)
-            if (on[j]) sub[r * q + c++] = gr->gram[i * gr->p + j];
-        r++;
-    }
-    if ((rc = pw_spd_inverse(sub, q, inv)) != PW_OK) goto fail;
-    *info = pattern ? pw_block_pattern_info(inv, q, first, k, NULL, 0.0, 0.0)
-                    : pw_block_info(inv, q, first, k);
-fail:
-    free(sub);
+    double *inv = NULL;
+    int rc = subset_inverse(gr, on, q, &inv);
+    if (rc == PW_OK)
+        *info = pattern ? pw_block_pattern_info(inv, q, first, k, NULL, 0.0, 0.0)
+                        : pw_block_info(inv, q, first, k);
     free(inv);
     return rc;
 }
@@ -535,18 +555,13 @@ int pw_aug_contrast_subset(const pw_aug *a, size_t target, const unsigned char *
     if (target >= a->n_targets) return PW_EDOM;
     const aug_target *t = &a->targets[target];
     const aug_group *gr = &a->groups[t->group];
-    size_t q = 0, first = 0, k = 0;
-    for (size_t j = 0; j < gr->p; j++) {
-        if (!on[j]) continue;
-        if (j < t->first) first++;
-        else if (j < t->first + t->k) k++;
-        q++;
-    }
+    size_t q, first, k;
+    subset_counts(gr, t, on, &q, &first, &k);
     if (k == 0) return PW_OK;
     /* The block's weights of the columns that are in, in order. */
     double cb[PW_PATTERN_MAX_COLS];
     double *ck = k <= PW_PATTERN_MAX_COLS ? cb : malloc(k * sizeof *ck);
-    double *sub = NULL, *inv = NULL;
+    double *inv = NULL;
     int rc = PW_ENOMEM;
     if (ck == NULL) return rc;
     for (size_t j = 0, m = 0; j < t->k; j++)
@@ -556,25 +571,13 @@ int pw_aug_contrast_subset(const pw_aug *a, size_t target, const unsigned char *
         v = contrast_var(gr->inv, gr->p, t->first, t->k, ck, NULL, NULL, 0.0, 0.0);
     } else {
         /* The smaller design's inverse from the kept exact cross-products, as pw_aug_info_subset. */
-        sub = malloc(q * q * sizeof *sub);
-        inv = malloc(q * q * sizeof *inv);
-        if (sub == NULL || inv == NULL) goto fail;
-        size_t r = 0;
-        for (size_t i = 0; i < gr->p; i++) {
-            if (!on[i]) continue;
-            size_t cc = 0;
-            for (size_t j = 0; j < gr->p; j++)
-                if (on[j]) sub[r * q + cc++] = gr->gram[i * gr->p + j];
-            r++;
-        }
-        if ((rc = pw_spd_inverse(sub, q, inv)) != PW_OK) goto fail;
+        if ((rc = subset_inverse(gr, on, q, &inv)) != PW_OK) goto fail;
         v = contrast_var(inv, q, first, k, ck, NULL, NULL, 0.0, 0.0);
     }
     *info = v > 0.0 ? 1.0 / v : INFINITY;
     rc = PW_OK;
 fail:
     if (ck != cb) free(ck);
-    free(sub);
     free(inv);
     return rc;
 }
