@@ -120,7 +120,7 @@ cov_table *cov_table_new(size_t n_cols, const char *const *head, const char *ali
                          const char *detail);
 /* Append a row of n_cols cells (NULL cells print empty). COV_OK or COV_ENOMEM. */
 int cov_table_add(cov_table *t, const char *const *cells);
-void cov_table_print(const cov_table *t, FILE *out, size_t width);
+int cov_table_print(const cov_table *t, FILE *out, size_t width);   /* COV_OK or COV_ENOMEM */
 void cov_table_free(cov_table *t);
 
 /* ---- SHA-256 (coverage/base/sha256.c), FIPS 180-4 ------------------------------------------------ */

@@ -68,10 +68,10 @@ static void cell(FILE *out, const char *s, size_t width, char align, int last)
         for (size_t k = w; k < width; k++) fputc(' ', out);
 }
 
-void cov_table_print(const cov_table *t, FILE *out, size_t width)
+int cov_table_print(const cov_table *t, FILE *out, size_t width)
 {
     size_t *w = calloc(t->n_cols ? t->n_cols : 1, sizeof *w);
-    if (w == NULL) return;
+    if (w == NULL) return COV_ENOMEM;
     for (size_t k = 0; k < t->n_cols; k++) {
         w[k] = cov_text_width(t->head[k]);
         for (size_t r = 0; r < t->n_rows; r++) {
@@ -112,7 +112,7 @@ void cov_table_print(const cov_table *t, FILE *out, size_t width)
             }
         }
         free(w);
-        return;
+        return COV_OK;
     }
     for (size_t k = 0, first = 1; k < t->n_cols; k++) {
         if (below && t->detail[k] == 'd') continue;
@@ -141,6 +141,7 @@ void cov_table_print(const cov_table *t, FILE *out, size_t width)
         }
     }
     free(w);
+    return COV_OK;
 }
 
 void cov_table_free(cov_table *t)

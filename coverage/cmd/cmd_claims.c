@@ -52,8 +52,8 @@ static int print_table(const cov_graph *g, const cov_claims *cl, size_t width, F
         n_untestable += c->status != COV_TESTABLE;
         n_effect += c->kind == COV_CLAIM_EFFECT;
     }
+    if (rc == COV_OK) rc = cov_table_print(t, out, width);
     if (rc == COV_OK) {
-        cov_table_print(t, out, width);
         fprintf(out, "\n%zu claims (%zu effect, %zu absence), %zu untestable\n", cl->n, n_effect,
                 cl->n - n_effect, n_untestable);
     }

@@ -72,7 +72,7 @@ static int costs(const cov_claim *c, size_t a, size_t b)
            && ((c->treatment == a && holds(c, b)) || (c->treatment == b && holds(c, a)));
 }
 
-static void print_table(const cov_options *o, const cov_graph *g, const cov_claims *cl,
+static int print_table(const cov_options *o, const cov_graph *g, const cov_claims *cl,
                         const cov_data *d, const cov_coverage *c, const cov_supports *sp,
                         FILE *out)
 {
@@ -199,7 +199,8 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
     static const char *const head[8] = {"claim", "runs", "distinct", "overlap", "ESS", "support",
                                         "detail", "why short"};
     cov_table *t = cov_table_new(8, head, "lrrrrlll", "......dd");
-    for (size_t k = 0; t != NULL && k < cl->n; k++) {
+    if (t == NULL) return COV_ENOMEM;
+    for (size_t k = 0; k < cl->n; k++) {
         const cov_support *s = &sp->items[k];
         const cov_claim *cc = &cl->items[k];
         char lab[512], set[512], runs[32], distinct[32], detail[1024], f[5][32];
@@ -226,12 +227,14 @@ static void print_table(const cov_options *o, const cov_graph *g, const cov_clai
         const char *row[8] = {lab, runs, distinct, f[2], f[3], s->ok ? "ok" : "short", detail,
                               s->reason ? s->reason : "-"};
         if (cov_table_add(t, row) != COV_OK) {
+            /* A table that lost a row would read as fewer claims: fail instead. */
             cov_table_free(t);
-            t = NULL;
+            return COV_ENOMEM;
         }
     }
-    if (t != NULL) cov_table_print(t, out, o->width);
+    int rc = cov_table_print(t, out, o->width);
     cov_table_free(t);
+    return rc;
 }
 
 /* ---- CSV: one long table, scope,name,figure,value ------------------------------------------- */
@@ -525,7 +528,10 @@ int cov_cmd_coverage(const cov_options *o, FILE *out, FILE *note, int *adequate,
     case COV_FMT_JSON: print_json(g, cl, d, c, sp, out); break;
     case COV_FMT_CSV: print_csv(g, cl, d, c, sp, out); break;
     case COV_FMT_TABLE:
-        print_table(o, g, cl, d, c, sp, out);
+        if (print_table(o, g, cl, d, c, sp, out) != COV_OK) {
+            rc = cov_fail(err, COV_ENOMEM, "", "out of memory while printing the coverage table");
+            break;
+        }
         print_gates(o, c, out);
         break;
     }

@@ -104,7 +104,7 @@ static void shared_notes(const cov_graph *g, const cov_claims *cl, const cov_ass
     }
 }
 
-static void print_table(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
+static int print_table(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
                         const cov_data *d, size_t width, FILE *out)
 {
     char run_line[512], caution[768];
@@ -131,6 +131,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
     static const char *const head[8] = {"claim", "n", "power", "MDE", "effect", "needs",
                                         "verdict", "detail"};
     cov_table *t = cov_table_new(8, head, "lrrrrrll", ".......d");
+    if (t == NULL) return COV_ENOMEM;
     int any_noise = 0;
     for (size_t i = 0; t != NULL && i < cl->n; i++) {
         const cov_claim *c = &cl->items[i];
@@ -170,15 +171,15 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
         }
         const char *row[8] = {label, n, pw, mde, eff, runs, verdict, detail};
         if (cov_table_add(t, row) != COV_OK) {
+            /* A table that lost a row would read as a shorter campaign: fail instead. */
             cov_table_free(t);
-            t = NULL;
+            return COV_ENOMEM;
         }
     }
-    if (t != NULL) {
-        fputc('\n', out);
-        cov_table_print(t, out, width);
-        cov_table_free(t);
-    }
+    fputc('\n', out);
+    int prc = cov_table_print(t, out, width);
+    cov_table_free(t);
+    if (prc != COV_OK) return prc;
     fputs("\nMDE and effect (of interest): outcome units per unit of the treatment.\n"
           "needs: runs in all for the target power.\n", out);
     for (size_t i = 0; i < cl->n; i++)
@@ -234,6 +235,7 @@ static void print_table(const cov_graph *g, const cov_claims *cl, const cov_asse
     }
     fprintf(out, "\n%zu claims: %zu ample, %zu underpowered, %zu untestable\n", as->n, n_ample, n_underpowered,
             n_blind);
+    return COV_OK;
 }
 
 static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,
@@ -298,7 +300,10 @@ int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     switch (o->format) {
     case COV_FMT_JSON: print_json(g, cl, as, d, out); break;
     case COV_FMT_CSV: print_csv(g, cl, as, out); break;
-    case COV_FMT_TABLE: print_table(g, cl, as, d, o->width, out); break;
+    case COV_FMT_TABLE:
+        if (print_table(g, cl, as, d, o->width, out) != COV_OK)
+            rc = cov_fail(err, COV_ENOMEM, "", "out of memory while printing the power table");
+        break;
     }
 done:
     cov_assessments_free(as);

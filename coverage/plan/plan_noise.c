@@ -49,7 +49,7 @@ int cov_plan_noise_alloc(size_t n_cols, const unsigned char *numeric, const doub
     nz->n_rows = n_rows;
     nz->rows = malloc((n_rows * n_cols + 1) * sizeof *nz->rows);
     nz->t = calloc(n_targets + 1, sizeof *nz->t);
-    nz->n_t = n_targets;
+    nz->n_t = nz->t != NULL ? n_targets : 0;
     if (nz->rows == NULL || nz->t == NULL) {
         cov_plan_noise_free(nz);
         return COV_ENOMEM;
