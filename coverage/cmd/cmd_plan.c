@@ -389,10 +389,14 @@ int cov_cmd_plan(const cov_options *o, FILE *out, FILE *note, int *adequate, cov
             goto done;
     }
     if ((rc = cov_plan_write_csv(g, p, path, err)) != COV_OK) goto done;
-    if ((rc = cov_sha256_file(path, xi.digest, err)) != COV_OK) goto done;
-    if ((rc = record_predictions(o, g, c, p, d, owned, path, &xi, note_buf, sizeof note_buf,
-                                 err)) != COV_OK)
+    if ((rc = cov_sha256_file(path, xi.digest, err)) == COV_OK)
+        rc = record_predictions(o, g, c, p, d, owned, path, &xi, note_buf, sizeof note_buf, err);
+    if (rc != COV_OK) {
+        /* A plan whose predictions were not recorded could never be checked against what its
+         * runs achieve: the command fails, and leaves no plan file behind. */
+        if (strcmp(path, "-") != 0) unlink(path);
         goto done;
+    }
     size_t n_testable = 0;
     for (size_t i = 0; i < c->n; i++) n_testable += c->items[i].status == COV_TESTABLE;
     if (!o->quiet && o->format == COV_FMT_JSON)
