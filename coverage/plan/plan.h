@@ -8,7 +8,7 @@
 #include "coverage/assess/assess.h"
 #include "coverage/measure/measure.h"
 
-/* ---- plan (coverage/plan.c, plan_candidates.c, plan_cover.c; the plan file: cmd_plan.c) -------- */
+/* ---- plan (plan.c, plan_claims.c, plan_candidates.c, plan_cover.c; the plan file: cmd_plan.c) -- */
 
 /* How the plan predicts one claim's power after the planned runs. */
 typedef enum {
@@ -166,8 +166,8 @@ int cov_plan_write_csv(const cov_graph *g, const cov_plan *p, const char *path, 
 int cov_plan_read_csv(const cov_graph *g, const char *path, double **rows, size_t *n_rows,
                       cov_error *err);
 
-/* Shared by the plan files: coverage/plan.c (claims, greedy search), coverage/plan_candidates.c
- * (the candidate set) and coverage/plan_cover.c (the coverage bonus of a candidate). */
+/* Shared by the plan files: plan.c (greedy search), plan_claims.c (the claims' designs),
+ * plan_candidates.c (the candidate set) and plan_cover.c (the coverage bonus of a candidate). */
 /* Whether v is numeric (real or integer): scaled to [-1, 1] when coded, measured by distance. */
 int cov_plan_is_numeric(const cov_var *v);
 /* Whether run i of d has a value of variable v (its column exists and the cell is not NAN). */
@@ -196,5 +196,89 @@ void cov_plan_cover_commit(cov_plan_cover *cv, size_t chosen, int replicates);
 double cov_plan_cover_cost(const cov_plan_cover *cv);
 /* Free cv; NULL is allowed. */
 void cov_plan_cover_free(cov_plan_cover *cv);
+
+/* ---- the plan's working state (plan.c; the claims' part: plan_claims.c) ---------------------- */
+
+/* The coded column layout of the inputs: column 0 is the intercept; numeric inputs are scaled to
+ * [-1, 1]; bools are 0/1; a level set has L - 1 dummies against its first level. */
+typedef struct {
+    size_t n_cols;
+    size_t *first, *count;    /* per variable; count 0 for non-inputs */
+    size_t *slot;             /* per level-set input: its first level's index in a presence map */
+    size_t n_slots;           /* levels over all level-set inputs */
+} layout;
+
+typedef struct {
+    size_t *cols;
+    size_t p;
+    long outcome;             /* the outcome whose missing cells narrow the rows, or -1 */
+    size_t group;             /* in the pw_aug */
+    size_t n_rows;
+    unsigned char *present;   /* n_slots: the levels that occur in the group's archive rows */
+} plan_group;
+
+/* Per-claim working state. */
+typedef struct {
+    pw_design pd;
+    int have_pd;
+    double q_mul;             /* q^2 = info * q_mul (coded information to the test's q^2) */
+    size_t target;            /* in the pw_aug, for steered claims */
+    int steered;
+    double n_base;            /* runs the current figures rest on */
+    double runs_needed;       /* assumed claims: total runs for the target */
+    /* Predictions code the design as the assessment does (coverage/archive/design.c): a level-set input
+     * has dummies only for the levels present in the rows. pd0 is the test on the archive's rows
+     * in that coding (or sized from declared noise), q_mul0 its coded information to q^2. */
+    pw_design pd0;
+    double q_mul0;
+    size_t gi;                /* the claim's plan_group */
+} claim_work;
+
+struct plan_state {
+    const cov_graph *g;
+    const cov_claims *c;
+    const cov_data *d;
+    const cov_power_options *opt;
+    layout L;
+    plan_group *groups;
+    size_t n_groups;
+    claim_work *w;
+    pw_aug *aug;
+    size_t n_cand;
+    double *cand_vals;        /* n_cand * n_vars */
+    double *cand_rows;        /* n_cand * n_cols */
+    cov_plan_cover *cover;    /* the coverage bonus of each candidate */
+    struct delta_cache *dc;
+    unsigned char *planned;   /* n_slots: the levels the planned runs so far set */
+    cov_plan_noise *nz;       /* the residual variance each claim will see, or NULL */
+    double *scale_after;      /* per pw_aug target: scratch for cov_plan_noise_scales_after */
+    double *cand_cost;        /* per candidate: fitted cost of one run (1 without a cost model) */
+    double cost_ref;          /* the mean candidate cost: scores are per this much cost */
+    unsigned char *excluded;  /* per candidate: beyond the runs' range while a model is uncertain */
+};
+
+/* Exact searches for the standardised noncentrality a test needs, cached by what else it depends
+ * on (plan_claims.c). */
+typedef struct {
+    int test, sides;
+    double alpha, target, n_levels, df, delta;
+} delta_entry;
+
+struct delta_cache {
+    delta_entry *e;
+    size_t n, cap;
+};
+
+/* Code one run's input values vals (g->n_vars) as a row of L's columns. */
+void cov_plan_code_row(const cov_graph *g, const layout *L, const double *vals, double *row);
+/* q_req^2 / q_mul: the coded information at which claim w reaches its target at n runs. */
+double cov_plan_need_at(struct delta_cache *dc, const claim_work *w, double n);
+/* Set up each testable claim of st into p: its mode, its test now and, when steered, its design
+ * group. Returns COV_OK, COV_ENOMEM or COV_ENUMERIC. */
+int cov_plan_setup_claims(struct plan_state *st, const cov_assessments *a, cov_plan *p);
+/* Predicted power of plan item it after `added` runs: *power is NAN when the claim cannot be sized
+ * or has no contrast to test yet. Returns COV_OK, COV_ENOMEM or COV_ENUMERIC. */
+int cov_plan_predict(const struct plan_state *st, const cov_plan_claim *it, double added,
+                     double *power);
 
 #endif
