@@ -234,6 +234,11 @@ int cov_plot_all(const cov_findings *f, const char *dir, FILE *note, cov_error *
  * '>' in names unescaped; XML 1.0 section 2.4 forbids "]]>" in character data). COV_OK, COV_EIO
  * or COV_ENOMEM (coverage/report/svg_safe.c). */
 int cov_svg_make_wellformed(const char *path, cov_error *err);
+/* Plot number `number` (1-based) of index.html from DIR/NAME.svg: inline SVG when it holds only
+ * what gnuplot writes, else an image from a data URI; its caption and a link to the file
+ * (coverage/report/report_figure.c). Returns 1, or 0 when the file cannot be read (nothing
+ * written). */
+int cov_html_figure(FILE *out, const char *dir, const cov_plot *plot, size_t number);
 
 /* Shared by the two plot files: coverage/plot.c (the list, the script pieces, the coverage plots)
  * and coverage/plot_claims.c (the claim plots). The usual plot height in pixels; the bytes of a
