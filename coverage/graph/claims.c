@@ -12,16 +12,54 @@
 /* The run's own random stream, which every output of the run shares unless declared otherwise. */
 #define NOISE_LABEL "[run noise]"
 
+/* The adjustment sets of all claims live in blocks the claims own, not in two allocations per
+ * claim: a large graph's 300,000 claims would otherwise spend more time in malloc and free than in
+ * the separator searches. */
+#define SET_BLOCK_NODES 8192
+
+typedef struct set_block {
+    struct set_block *next;
+    size_t used, cap;
+    size_t v[];
+} set_block;
+
+/* What cov_claims_derive hands out: the public claims, then the blocks of their sets. */
+typedef struct {
+    cov_claims pub;
+    set_block *blocks;
+} claims_store;
+
 void cov_claims_free(cov_claims *c)
 {
     if (c == NULL) return;
-    for (size_t i = 0; i < c->n; i++) {
-        free(c->items[i].cond);
-        free(c->items[i].min_cond);
-        free(c->items[i].reason);
+    claims_store *st = (claims_store *)c;
+    for (size_t i = 0; i < c->n; i++) free(c->items[i].reason);
+    while (st->blocks != NULL) {
+        set_block *b = st->blocks;
+        st->blocks = b->next;
+        free(b);
     }
     free(c->items);
-    free(c);
+    free(st);
+}
+
+/* Room for m nodes in st's blocks (never NULL when it succeeds, even for m = 0). */
+static size_t *set_room(claims_store *st, size_t m)
+{
+    size_t need = m ? m : 1;
+    set_block *b = st->blocks;
+    if (b == NULL || b->cap - b->used < need) {
+        size_t cap = need > SET_BLOCK_NODES ? need : SET_BLOCK_NODES;
+        b = malloc(sizeof *b + cap * sizeof b->v[0]);
+        if (b == NULL) return NULL;
+        b->used = 0;
+        b->cap = cap;
+        b->next = st->blocks;
+        st->blocks = b;
+    }
+    size_t *at = b->v + b->used;
+    b->used += need;
+    return at;
 }
 
 static int recorded(const cov_graph *g, size_t v)
@@ -112,11 +150,11 @@ fail:
     return rc;
 }
 
-/* The listed nodes (ascending) as a new array; *steerable = 1 when all are inputs. */
-static int to_set(const cov_graph *g, const size_t *list, size_t m, size_t **set, size_t *k,
-                  int *steerable)
+/* The listed nodes (ascending) as a set in st's blocks; *steerable = 1 when all are inputs. */
+static int to_set(const cov_graph *g, claims_store *st, const size_t *list, size_t m,
+                  size_t **set, size_t *k, int *steerable)
 {
-    *set = malloc((m ? m : 1) * sizeof **set);
+    *set = set_room(st, m);
     if (*set == NULL) return COV_ENOMEM;
     memcpy(*set, list, m * sizeof **set);
     *k = m;
@@ -132,6 +170,7 @@ typedef struct {
     cov_dsep_ws *ws;
     unsigned char *allowed, *in_z, *recorded;
     size_t *z, *pref;
+    claims_store *store;   /* where the sets go */
 } sep_ctx;
 
 static int cmp_node(const void *a, const void *b)
@@ -171,7 +210,8 @@ static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y, se
         sc->pref[np++] = v;
     }
     qsort(sc->pref, np, sizeof *sc->pref, cmp_node);
-    if (all_recorded && cov_dsep_minsep_ws(sc->ws, d, x, y, sc->allowed, sc->z, &nz, &found))
+    if (all_recorded &&
+        cov_dsep_minsep_parents_ws(sc->ws, d, x, y, sc->allowed, sc->z, &nz, &found))
         goto fail;
     for (size_t i = 0; i < np; i++) sc->allowed[sc->pref[i]] = 0;
     if (!found) {
@@ -188,7 +228,7 @@ static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y, se
     }
     if (check_separates(sc, d, x, y, sc->z, nz, &sep)) goto fail;
     if (!sep) return COV_ENUMERIC;
-    if (to_set(g, sc->z, nz, &c->min_cond, &c->n_min_cond, &steer)) goto fail;
+    if (to_set(g, sc->store, sc->z, nz, &c->min_cond, &c->n_min_cond, &steer)) goto fail;
     if (all_recorded) {
         /* The preferred set holds the checked minimal one and lies within An({x, y}), whose moral
          * graph it shares: separation is monotone there (Lauritzen et al. 1990), so it separates
@@ -197,9 +237,9 @@ static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y, se
             while (j < np && sc->pref[j] < sc->z[i]) j++;
             if (j == np || sc->pref[j] != sc->z[i]) return COV_ENUMERIC;
         }
-        if (to_set(g, sc->pref, np, &c->cond, &c->n_cond, &c->steerable)) goto fail;
+        if (to_set(g, sc->store, sc->pref, np, &c->cond, &c->n_cond, &c->steerable)) goto fail;
     } else {
-        if (to_set(g, sc->z, nz, &c->cond, &c->n_cond, &c->steerable)) goto fail;
+        if (to_set(g, sc->store, sc->z, nz, &c->cond, &c->n_cond, &c->steerable)) goto fail;
     }
     c->status = COV_TESTABLE;
     rc = COV_OK;
@@ -304,7 +344,8 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
 {
     *out = NULL;
     int with_design = !g->inputs_independent;
-    cov_claims *cl = calloc(1, sizeof *cl);
+    claims_store *st = calloc(1, sizeof *st);
+    cov_claims *cl = st != NULL ? &st->pub : NULL;
     cov_dag *full = NULL, *cut = NULL;
     size_t cap = 0, n = g->n_vars + 2;   /* the variables, the design and run-noise nodes */
     size_t *rank = calloc(n, sizeof *rank);
@@ -313,6 +354,7 @@ int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err)
     if (cl == NULL || rank == NULL) goto fail;
     if (sep_ctx_init(g, n, &sc)) goto fail;
     have_sc = 1;
+    sc.store = st;
     if (cov_dag_build(g, with_design, COV_NO_NODE, &full)) goto fail;
 
     /* Effect claims, in edge order: the edge is removed so that the set isolates the direct

@@ -120,6 +120,14 @@ struct cov_dsep_ws {
     size_t *out_list, n_out;     /* the members of An(y), in the order they were found */
     const cov_dag *fix_d;        /* the fixed outcome's DAG and node; NULL when none is fixed */
     size_t fix_y;
+    /* The shortcut for the fixed outcome (see cov_dsep_minsep_parents_ws): its distinct parents
+     * ascending, stamped in pa; for each node, how many of them it reaches by a directed path
+     * through no other parent of y (counted in hits where hit_stamp carries hit_gen). */
+    int pa_state;                /* 0: not yet computed for this outcome, 1: ready, -1: not used */
+    unsigned *pa, pa_gen;
+    unsigned *walk, walk_gen;    /* one backward walk from a parent */
+    unsigned *hits, *hit_stamp, hit_gen;
+    size_t *pa_list, n_pa;
 };
 
 void cov_dsep_ws_free(cov_dsep_ws *w)
@@ -137,6 +145,11 @@ void cov_dsep_ws_free(cov_dsep_ws *w)
     free(w->stack);
     free(w->list);
     free(w->out_list);
+    free(w->pa);
+    free(w->walk);
+    free(w->hits);
+    free(w->hit_stamp);
+    free(w->pa_list);
     free(w);
 }
 
@@ -159,8 +172,14 @@ int cov_dsep_ws_alloc(size_t n, cov_dsep_ws **out)
     w->stack = malloc(m * sizeof *w->stack);
     w->list = malloc(m * sizeof *w->list);
     w->out_list = malloc(m * sizeof *w->out_list);
+    w->pa = calloc(m, sizeof *w->pa);
+    w->walk = calloc(m, sizeof *w->walk);
+    w->hits = calloc(m, sizeof *w->hits);
+    w->hit_stamp = calloc(m, sizeof *w->hit_stamp);
+    w->pa_list = malloc(m * sizeof *w->pa_list);
     if (!w->anc || !w->out || !w->seen || !w->wed || !w->zm || !w->za || !w->st || !w->prev || !w->queue
-        || !w->stack || !w->list || !w->out_list) {
+        || !w->stack || !w->list || !w->out_list || !w->pa || !w->walk || !w->hits || !w->hit_stamp
+        || !w->pa_list) {
         cov_dsep_ws_free(w);
         return COV_ENOMEM;
     }
@@ -215,6 +234,7 @@ void cov_dsep_ws_fix_outcome(cov_dsep_ws *w, const cov_dag *d, size_t y)
     w->n_out = stamp_ancestors(d, w->stack, 1, w->out, gen, NULL, 0, w->out_list);
     w->fix_d = d;
     w->fix_y = y;
+    w->pa_state = 0;
 }
 
 void cov_dsep_ws_unfix(cov_dsep_ws *w)
@@ -340,6 +360,77 @@ int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
     *nz = n2;
     *found = 1;
     return COV_OK;
+}
+
+/* Parents of the fixed outcome above which the shortcut below is not prepared: preparing costs
+ * one backward walk over An(y) per parent, which the outcome's pairs repay when the parents are
+ * few; with many, the general search does the work. */
+#define PA_SHORTCUT_MAX 64
+
+/* Prepare the shortcut for the fixed outcome y: its distinct parents, ascending, and for each
+ * node u the number of them that u reaches by a directed path of one or more edges with no other
+ * parent of y inside it (one backward walk from each parent, never entering another). */
+static void prepare_parents(cov_dsep_ws *w, const cov_dag *d, size_t y)
+{
+    size_t k0 = d->par_start[y], k1 = d->par_start[y + 1];
+    w->pa_state = -1;
+    if (k1 - k0 > PA_SHORTCUT_MAX) return;
+    unsigned pg = next_gen(w->pa, &w->pa_gen, w->n);
+    unsigned hg = next_gen(w->hit_stamp, &w->hit_gen, w->n);
+    w->n_pa = 0;
+    for (size_t k = k0; k < k1; k++) {
+        size_t p = d->par[k];
+        if (w->pa[p] == pg) continue;
+        w->pa[p] = pg;
+        w->pa_list[w->n_pa++] = p;
+    }
+    qsort(w->pa_list, w->n_pa, sizeof *w->pa_list, cmp_size);
+    for (size_t i = 0; i < w->n_pa; i++) {
+        unsigned wg = next_gen(w->walk, &w->walk_gen, w->n);
+        size_t top = 0;
+        w->stack[top++] = w->pa_list[i];
+        while (top > 0) {
+            size_t v = w->stack[--top];
+            for (size_t k = d->par_start[v]; k < d->par_start[v + 1]; k++) {
+                size_t u = d->par[k];
+                if (w->walk[u] == wg || w->pa[u] == pg) continue;
+                w->walk[u] = wg;
+                if (w->hit_stamp[u] != hg) {
+                    w->hit_stamp[u] = hg;
+                    w->hits[u] = 0;
+                }
+                w->hits[u]++;
+                w->stack[top++] = u;
+            }
+        }
+    }
+    w->pa_state = 1;
+}
+
+/* The shortcut: when y is the fixed outcome, every parent of y is allowed and x reaches each of
+ * them by a directed path through no other parent of y, FindMinSep's answer is Pa(y), found
+ * without its two searches (which on a long chain walk every node between x and y, for every
+ * pair). Why: x is then an ancestor of y, so A = An(y) holds no child of y and y's neighbours in
+ * M are exactly Pa(y), all in Z0: Z0 separates. Each such directed path lies in A; its interior
+ * nodes are descendants of x (so not parents of x), not parents of y, and so, by the caller's
+ * promise, not in Z0: the first search reaches every parent of y, which puts all of Pa(y) in Z1,
+ * and the second search, from y, meets only them. */
+int cov_dsep_minsep_parents_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
+                               const unsigned char *allowed, size_t *z, size_t *nz, int *found)
+{
+    if (fixed(w, d, y)) {
+        if (w->pa_state == 0) prepare_parents(w, d, y);
+        int ok = w->pa_state == 1 && w->n_pa > 0 && x != y && w->pa[x] != w->pa_gen &&
+                 w->hit_stamp[x] == w->hit_gen && w->hits[x] == w->n_pa;
+        for (size_t i = 0; ok && i < w->n_pa; i++) ok = allowed[w->pa_list[i]] != 0;
+        if (ok) {
+            memcpy(z, w->pa_list, w->n_pa * sizeof *z);
+            *nz = w->n_pa;
+            *found = 1;
+            return COV_OK;
+        }
+    }
+    return cov_dsep_minsep_ws(w, d, x, y, allowed, z, nz, found);
 }
 
 /* The reachability walk of Bayes-ball (Shachter 1998, "Bayes-ball: the rational pastime", UAI;

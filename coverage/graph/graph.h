@@ -144,6 +144,11 @@ void cov_dsep_ws_unfix(cov_dsep_ws *w);
  * is written to z (room for d->n) as *nz ascending nodes. allowed is read only on An({x, y}). */
 int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
                        const unsigned char *allowed, size_t *z, size_t *nz, int *found);
+/* cov_dsep_minsep_ws for an allowed set that marks, within An({x, y}), no node but parents of x
+ * and of y (the claims' preferred sets): the caller promises this, which lets a pair with the
+ * fixed outcome skip both searches when the answer is Pa(y) (see dsep.c). Same results. */
+int cov_dsep_minsep_parents_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
+                               const unsigned char *allowed, size_t *z, size_t *nz, int *found);
 /* cov_dsep_separated with a workspace; z lists the nz members of in_z. */
 int cov_dsep_separated_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
                           const unsigned char *in_z, const size_t *z, size_t nz, int *separated);
