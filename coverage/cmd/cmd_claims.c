@@ -65,7 +65,7 @@ static void print_csv(const cov_graph *g, const cov_claims *cl, FILE *out)
 {
     cov_record_src src = {g, cl, NULL, NULL};
     cov_record_csv_header(out, COV_RECORD_CLAIM);
-    for (size_t i = 0; i < cl->n; i++) cov_record_csv_row(out, &src, i, COV_RECORD_CLAIM);
+    cov_record_csv_rows(out, &src, 0, cl->n, COV_RECORD_CLAIM);
 }
 
 static void print_json(const cov_graph *g, const cov_claims *cl, const char *path, FILE *out)

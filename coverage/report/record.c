@@ -5,6 +5,7 @@
 #include <stdint.h>
 #include <stddef.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "coverage/report/report.h"
@@ -428,18 +429,133 @@ static void csv_names(FILE *out, const cov_graph *g, const size_t *vars, size_t 
     if (outer) fputc('"', out);
 }
 
-static void csv_value(FILE *out, const cov_graph *g, const rec_value *v)
+/* A table of rows is assembled in a buffer and written in large blocks: a claims table of
+ * 300,000 rows would otherwise cost a dozen stdio calls and several printf's per row. The bytes
+ * are those of the stdio forms (cov_emit_csv_field, cov_emit_csv_number, csv_names); a cell that
+ * needs quoting or a formula guard is rare, so it flushes the buffer and is written by those. */
+#define CSV_BUF 65536     /* the table's buffer */
+#define CSV_BUF_SMALL 1024 /* one row's, or the table's when the large one cannot be had */
+#define CSV_NUM_TEXT 32   /* "%.10g" of a double: at most 17 characters */
+
+typedef struct {
+    FILE *f;
+    char *buf;
+    size_t n, cap;
+    /* per field, the last double formatted and its text: a column often repeats one value */
+    int have[sizeof fields / sizeof fields[0]];
+    double last[sizeof fields / sizeof fields[0]];
+    char text[sizeof fields / sizeof fields[0]][CSV_NUM_TEXT];
+} csv_out;
+
+static void out_flush(csv_out *o)
 {
+    if (o->n) fwrite(o->buf, 1, o->n, o->f);
+    o->n = 0;
+}
+
+static void out_write(csv_out *o, const char *s, size_t len)
+{
+    if (len > o->cap - o->n) {
+        out_flush(o);
+        if (len > o->cap) {
+            fwrite(s, 1, len, o->f);
+            return;
+        }
+    }
+    memcpy(o->buf + o->n, s, len);
+    o->n += len;
+}
+
+static void out_char(csv_out *o, char c)
+{
+    if (o->n == o->cap) out_flush(o);
+    o->buf[o->n++] = c;
+}
+
+/* A whole number in decimal, as "%lld" writes it. */
+static size_t count_text(long long v, char *t)
+{
+    char rev[24];
+    size_t k = 0, n = 0;
+    unsigned long long m = v < 0 ? 0ull - (unsigned long long)v : (unsigned long long)v;
+    do {
+        rev[k++] = (char)('0' + m % 10);
+        m /= 10;
+    } while (m);
+    if (v < 0) t[n++] = '-';
+    while (k) t[n++] = rev[--k];
+    return n;
+}
+
+/* A finite double as "%.10g" writes it. A whole number below 1e10 in magnitude has at most 10
+ * digits, so "%.10g" prints it as an integer; -0 keeps its sign through printf. */
+static size_t num_text(double x, char *t)
+{
+    if (fabs(x) < 1e10 && x == (double)(long long)x && !(x == 0 && signbit(x)))
+        return count_text((long long)x, t);
+    int len = snprintf(t, CSV_NUM_TEXT, "%.10g", x);
+    return len > 0 && len < CSV_NUM_TEXT ? (size_t)len : 0;
+}
+
+static int csv_plain(const char *s)
+{
+    return strpbrk(s, ",\"\r\n") == NULL && (s[0] == '\0' || strchr("=+-@\t\r", s[0]) == NULL);
+}
+
+static void csv_value(csv_out *o, const cov_graph *g, const rec_value *v, size_t k)
+{
+    char t[CSV_NUM_TEXT];
+    size_t len;
     switch (v->kind) {
     case RV_NULL: break;
-    case RV_NUM: cov_emit_csv_number(out, v->num); break;
-    case RV_COUNT: fprintf(out, "%lld", v->count); break;
-    case RV_BOOL: fputc(v->count ? '1' : '0', out); break;
+    case RV_NUM:
+        if (isfinite(v->num)) {
+            if (!o->have[k] || memcmp(&o->last[k], &v->num, sizeof v->num) != 0) {
+                len = num_text(v->num, t);
+                if (len == 0) {
+                    out_flush(o);
+                    cov_emit_csv_number(o->f, v->num);
+                    break;
+                }
+                memcpy(o->text[k], t, len);
+                o->text[k][len] = '\0';
+                o->last[k] = v->num;
+                o->have[k] = 1;
+            }
+            out_write(o, o->text[k], strlen(o->text[k]));
+        } else if (isinf(v->num)) {
+            out_write(o, v->num > 0 ? "inf" : "-inf", v->num > 0 ? 3 : 4);
+        }
+        break;
+    case RV_COUNT: out_write(o, t, count_text(v->count, t)); break;
+    case RV_BOOL: out_char(o, v->count ? '1' : '0'); break;
     case RV_WORD:
     case RV_TEXT:
-        if (v->text) cov_emit_csv_field(out, v->text);
+        if (v->text == NULL) break;
+        if (csv_plain(v->text)) {
+            out_write(o, v->text, strlen(v->text));
+        } else {
+            out_flush(o);
+            cov_emit_csv_field(o->f, v->text);
+        }
         break;
-    case RV_NAMES: csv_names(out, g, v->vars, v->n_vars); break;
+    case RV_NAMES: {
+        int plain = 1;
+        for (size_t j = 0; j < v->n_vars && plain; j++)
+            plain = strpbrk(g->vars[v->vars[j]].name, ";,\"\r\n") == NULL &&
+                    (j > 0 || csv_plain(g->vars[v->vars[j]].name));
+        if (!plain) {
+            out_flush(o);
+            csv_names(o->f, g, v->vars, v->n_vars);
+            break;
+        }
+        for (size_t j = 0; j < v->n_vars; j++) {
+            const char *name = g->vars[v->vars[j]].name;
+            if (j) out_char(o, ';');
+            out_write(o, name, strlen(name));
+        }
+        break;
+    }
     }
 }
 
@@ -454,18 +570,39 @@ void cov_record_csv_header(FILE *out, unsigned parts)
     fputc('\n', out);
 }
 
-void cov_record_csv_row(FILE *out, const cov_record_src *src, size_t i, unsigned parts)
+static void csv_row(csv_out *o, const cov_record_src *src, size_t i, unsigned parts)
 {
     rec_row r = row_of(src, i);
     int first = 1;
     for (size_t k = 0; k < n_fields; k++) {
         if (!(fields[k].parts & parts)) continue;
-        if (!first) fputc(',', out);
+        if (!first) out_char(o, ',');
         rec_value v = value_of(&fields[k], &r);
-        csv_value(out, src->g, &v);
+        csv_value(o, src->g, &v, k);
         first = 0;
     }
-    fputc('\n', out);
+    out_char(o, '\n');
+}
+
+void cov_record_csv_row(FILE *out, const cov_record_src *src, size_t i, unsigned parts)
+{
+    cov_record_csv_rows(out, src, i, i + 1, parts);
+}
+
+void cov_record_csv_rows(FILE *out, const cov_record_src *src, size_t from, size_t to,
+                         unsigned parts)
+{
+    char small[CSV_BUF_SMALL];
+    csv_out o;
+    o.f = out;
+    o.n = 0;
+    o.buf = to - from > 1 ? malloc(CSV_BUF) : NULL;
+    o.cap = o.buf != NULL ? CSV_BUF : sizeof small;
+    if (o.buf == NULL) o.buf = small;
+    memset(o.have, 0, sizeof o.have);
+    for (size_t i = from; i < to; i++) csv_row(&o, src, i, parts);
+    out_flush(&o);
+    if (o.buf != small) free(o.buf);
 }
 
 size_t cov_record_field_names(unsigned parts, const char **names, size_t cap)
