@@ -31,6 +31,15 @@ typedef struct {
     size_t n_vars;
 } rec_value;
 
+/* The last written amount and its text, kept by a table writer: every absence claim of a graph
+ * carries the same margin, so its text is formatted once, not once per row. cov_amount_text reads
+ * the value, unit, per and step only. */
+typedef struct {
+    int have;
+    cov_amount key;
+    char text[96];
+} amount_memo;
+
 /* What one row of the record is made from (all borrowed). */
 typedef struct {
     const cov_graph *g;
@@ -40,6 +49,7 @@ typedef struct {
     const cov_assessment *any;  /* the assessment whatever the status, or NULL */
     const cov_support *s;       /* the support, or NULL */
     char text[96];              /* scratch for a formatted field */
+    amount_memo *written;       /* a table writer's memo of effect_written, or NULL */
 } rec_row;
 
 static rec_value v_null(void) { return (rec_value){RV_NULL, NAN, 0, NULL, NULL, 0}; }
@@ -78,9 +88,21 @@ static rec_value get_min_set(rec_row *r) { return v_names(r->c->min_cond, r->c->
  * amount as written and what it is counted over, the variables' units, the expected shape, and
  * whether the claim rests on the declaration that two outputs' run noise is independent. The
  * written amount is formatted into the row's own buffer. */
+static int same_amount(const cov_amount *a, const cov_amount *b)
+{
+    return memcmp(&a->value, &b->value, sizeof a->value) == 0 && a->unit == b->unit &&
+           a->per == b->per && memcmp(&a->step, &b->step, sizeof a->step) == 0;
+}
 static rec_value get_written(rec_row *r)
 {
-    return v_text(cov_amount_text(&r->c->effect, r->text, sizeof r->text));
+    amount_memo *m = r->written;
+    if (m == NULL) return v_text(cov_amount_text(&r->c->effect, r->text, sizeof r->text));
+    if (!m->have || !same_amount(&m->key, &r->c->effect)) {
+        cov_amount_text(&r->c->effect, m->text, sizeof m->text);
+        m->key = r->c->effect;
+        m->have = 1;
+    }
+    return v_text(m->text);
 }
 static rec_value get_per(rec_row *r)
 {
@@ -348,7 +370,7 @@ static rec_row row_of(const cov_record_src *src, size_t i)
     assert(src != NULL && src->g != NULL && src->claims != NULL && i < src->claims->n);
     assert(src->assess == NULL || src->assess->n == src->claims->n);
     assert(src->support == NULL || src->support->n == src->claims->n);
-        rec_row r = {src->g, &src->claims->items[i], i, NULL, NULL, NULL, ""};
+        rec_row r = {src->g, &src->claims->items[i], i, NULL, NULL, NULL, "", NULL};
     if (src->assess != NULL && i < src->assess->n) r.any = &src->assess->items[i];
     if (r.any != NULL && r.c->status == COV_TESTABLE) r.a = r.any;
     if (src->support != NULL && i < src->support->n) r.s = &src->support->items[i];
@@ -445,6 +467,7 @@ typedef struct {
     int have[sizeof fields / sizeof fields[0]];
     double last[sizeof fields / sizeof fields[0]];
     char text[sizeof fields / sizeof fields[0]][CSV_NUM_TEXT];
+    amount_memo written;
 } csv_out;
 
 static void out_flush(csv_out *o)
@@ -497,9 +520,17 @@ static size_t num_text(double x, char *t)
     return len > 0 && len < CSV_NUM_TEXT ? (size_t)len : 0;
 }
 
-static int csv_plain(const char *s)
+/* 1 when s is written as it is (nothing to quote, no formula guard), with its length in *len;
+ * one pass, since the cells are short. */
+static int csv_plain(const char *s, size_t *len)
 {
-    return strpbrk(s, ",\"\r\n") == NULL && (s[0] == '\0' || strchr("=+-@\t\r", s[0]) == NULL);
+    if (s[0] == '=' || s[0] == '+' || s[0] == '-' || s[0] == '@' || s[0] == '\t' || s[0] == '\r')
+        return 0;
+    size_t n = 0;
+    for (; s[n]; n++)
+        if (s[n] == ',' || s[n] == '"' || s[n] == '\r' || s[n] == '\n') return 0;
+    *len = n;
+    return 1;
 }
 
 static void csv_value(csv_out *o, const cov_graph *g, const rec_value *v, size_t k)
@@ -532,8 +563,8 @@ static void csv_value(csv_out *o, const cov_graph *g, const rec_value *v, size_t
     case RV_WORD:
     case RV_TEXT:
         if (v->text == NULL) break;
-        if (csv_plain(v->text)) {
-            out_write(o, v->text, strlen(v->text));
+        if (csv_plain(v->text, &len)) {
+            out_write(o, v->text, len);
         } else {
             out_flush(o);
             cov_emit_csv_field(o->f, v->text);
@@ -543,7 +574,7 @@ static void csv_value(csv_out *o, const cov_graph *g, const rec_value *v, size_t
         int plain = 1;
         for (size_t j = 0; j < v->n_vars && plain; j++)
             plain = strpbrk(g->vars[v->vars[j]].name, ";,\"\r\n") == NULL &&
-                    (j > 0 || csv_plain(g->vars[v->vars[j]].name));
+                    (j > 0 || csv_plain(g->vars[v->vars[j]].name, &len));
         if (!plain) {
             out_flush(o);
             csv_names(o->f, g, v->vars, v->n_vars);
@@ -573,6 +604,7 @@ void cov_record_csv_header(FILE *out, unsigned parts)
 static void csv_row(csv_out *o, const cov_record_src *src, size_t i, unsigned parts)
 {
     rec_row r = row_of(src, i);
+    r.written = &o->written;
     int first = 1;
     for (size_t k = 0; k < n_fields; k++) {
         if (!(fields[k].parts & parts)) continue;
@@ -600,6 +632,7 @@ void cov_record_csv_rows(FILE *out, const cov_record_src *src, size_t from, size
     o.cap = o.buf != NULL ? CSV_BUF : sizeof small;
     if (o.buf == NULL) o.buf = small;
     memset(o.have, 0, sizeof o.have);
+    o.written.have = 0;
     for (size_t i = from; i < to; i++) csv_row(&o, src, i, parts);
     out_flush(&o);
     if (o.buf != small) free(o.buf);
