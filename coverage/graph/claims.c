@@ -15,7 +15,7 @@
 /* The adjustment sets of all claims live in blocks the claims own, not in two allocations per
  * claim: a large graph's 300,000 claims would otherwise spend more time in malloc and free than in
  * the separator searches. */
-#define SET_BLOCK_NODES 8192
+#define SET_BLOCK_NODES 65536
 
 typedef struct set_block {
     struct set_block *next;
@@ -72,6 +72,17 @@ static const char *node_name(const cov_graph *g, const cov_dag *d, size_t v)
     return v < g->n_vars ? g->vars[v].name : v == d->noise ? NOISE_LABEL : DESIGN_LABEL;
 }
 
+/* What the separator searches of one derivation share: a d-separation workspace and dense marks
+ * that are all zero between calls (each call clears what it set). */
+typedef struct {
+    cov_dsep_ws *ws;
+    unsigned char *allowed, *in_z, *recorded;
+    size_t *z, *pref;
+    size_t *path;          /* an open path (room for 2n + 1 nodes) and its arrows */
+    int *dir;
+    claims_store *store;   /* where the sets go */
+} sep_ctx;
+
 /* A growable string for reasons. */
 typedef struct {
     char *s;
@@ -101,15 +112,14 @@ static void sb_add(strbuf *b, const char *t)
 /* "open path a <- h -> b runs through hidden h": the path comes from the walk that finds the
  * largest candidate set open, so each of its non-colliders is unrecorded. */
 static int untestable_reason(const cov_graph *g, const cov_dag *d, size_t x, size_t y,
-                             const unsigned char *z, char **out)
+                             sep_ctx *sc, size_t nz, char **out)
 {
-    size_t *path = malloc((2 * d->n + 1) * sizeof *path);
-    int *dir = malloc((2 * d->n + 1) * sizeof *dir);
+    size_t *path = sc->path;
+    int *dir = sc->dir;
     strbuf b = {NULL, 0, 0, 0};
     size_t len = 0;
     int rc = COV_ENOMEM;
-    if (path == NULL || dir == NULL) goto fail;
-    if (cov_dsep_open_path(d, x, y, z, path, dir, &len)) goto fail;
+    if (cov_dsep_open_path_ws(sc->ws, d, x, y, sc->in_z, sc->z, nz, path, dir, &len)) goto fail;
     if (len == 0) {
         sb_add(&b, "no adjustment set among recorded variables");
     } else {
@@ -145,8 +155,6 @@ static int untestable_reason(const cov_graph *g, const cov_dag *d, size_t x, siz
     rc = COV_OK;
 fail:
     free(b.s);
-    free(path);
-    free(dir);
     return rc;
 }
 
@@ -163,15 +171,6 @@ static int to_set(const cov_graph *g, claims_store *st, const size_t *list, size
         if (list[i] >= g->n_vars || g->vars[list[i]].role != COV_INPUT) *steerable = 0;
     return COV_OK;
 }
-
-/* What the separator searches of one derivation share: a d-separation workspace and dense marks
- * that are all zero between calls (each call clears what it set). */
-typedef struct {
-    cov_dsep_ws *ws;
-    unsigned char *allowed, *in_z, *recorded;
-    size_t *z, *pref;
-    claims_store *store;   /* where the sets go */
-} sep_ctx;
 
 static int cmp_node(const void *a, const void *b)
 {
@@ -222,7 +221,7 @@ static int separate(const cov_graph *g, const cov_dag *d, size_t x, size_t y, se
         c->status = COV_UNTESTABLE;
         c->steerable = 0;
         for (size_t i = 0; i < nz; i++) sc->in_z[sc->z[i]] = 1;
-        rc = untestable_reason(g, d, x, y, sc->in_z, &c->reason) ? COV_ENOMEM : COV_OK;
+        rc = untestable_reason(g, d, x, y, sc, nz, &c->reason) ? COV_ENOMEM : COV_OK;
         for (size_t i = 0; i < nz; i++) sc->in_z[sc->z[i]] = 0;
         return rc;
     }
@@ -321,6 +320,8 @@ static void sep_ctx_free(sep_ctx *sc)
     free(sc->recorded);
     free(sc->z);
     free(sc->pref);
+    free(sc->path);
+    free(sc->dir);
 }
 
 static int sep_ctx_init(const cov_graph *g, size_t n, sep_ctx *sc)
@@ -331,7 +332,9 @@ static int sep_ctx_init(const cov_graph *g, size_t n, sep_ctx *sc)
     sc->recorded = calloc(n, 1);
     sc->z = malloc(n * sizeof *sc->z);
     sc->pref = malloc(2 * n * sizeof *sc->pref);   /* Pa(x) and Pa(y) before repeats go */
-    if (!sc->allowed || !sc->in_z || !sc->recorded || !sc->z || !sc->pref
+    sc->path = malloc((2 * n + 1) * sizeof *sc->path);
+    sc->dir = malloc((2 * n + 1) * sizeof *sc->dir);
+    if (!sc->allowed || !sc->in_z || !sc->recorded || !sc->z || !sc->pref || !sc->path || !sc->dir
         || cov_dsep_ws_alloc(n, &sc->ws)) {
         sep_ctx_free(sc);
         return COV_ENOMEM;

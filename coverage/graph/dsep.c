@@ -172,14 +172,8 @@ int cov_dsep_ws_alloc(size_t n, cov_dsep_ws **out)
     w->stack = malloc(m * sizeof *w->stack);
     w->list = malloc(m * sizeof *w->list);
     w->out_list = malloc(m * sizeof *w->out_list);
-    w->pa = calloc(m, sizeof *w->pa);
-    w->walk = calloc(m, sizeof *w->walk);
-    w->hits = calloc(m, sizeof *w->hits);
-    w->hit_stamp = calloc(m, sizeof *w->hit_stamp);
-    w->pa_list = malloc(m * sizeof *w->pa_list);
     if (!w->anc || !w->out || !w->seen || !w->wed || !w->zm || !w->za || !w->st || !w->prev || !w->queue
-        || !w->stack || !w->list || !w->out_list || !w->pa || !w->walk || !w->hits || !w->hit_stamp
-        || !w->pa_list) {
+        || !w->stack || !w->list || !w->out_list) {
         cov_dsep_ws_free(w);
         return COV_ENOMEM;
     }
@@ -372,9 +366,28 @@ int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
  * parent of y inside it (one backward walk from each parent, never entering another). */
 static void prepare_parents(cov_dsep_ws *w, const cov_dag *d, size_t y)
 {
-    size_t k0 = d->par_start[y], k1 = d->par_start[y + 1];
+    size_t k0 = d->par_start[y], k1 = d->par_start[y + 1], m = w->n ? w->n : 1;
     w->pa_state = -1;
     if (k1 - k0 > PA_SHORTCUT_MAX) return;
+    /* Allocated on first use: most workspaces never take the shortcut. Without memory the
+     * general search does the work. */
+    if (w->pa == NULL) {
+        w->pa = calloc(m, sizeof *w->pa);
+        w->walk = calloc(m, sizeof *w->walk);
+        w->hits = calloc(m, sizeof *w->hits);
+        w->hit_stamp = calloc(m, sizeof *w->hit_stamp);
+        w->pa_list = malloc(m * sizeof *w->pa_list);
+        if (!w->pa || !w->walk || !w->hits || !w->hit_stamp || !w->pa_list) {
+            free(w->pa);
+            free(w->walk);
+            free(w->hits);
+            free(w->hit_stamp);
+            free(w->pa_list);
+            w->pa = w->walk = w->hits = w->hit_stamp = NULL;
+            w->pa_list = NULL;
+            return;
+        }
+    }
     unsigned pg = next_gen(w->pa, &w->pa_gen, w->n);
     unsigned hg = next_gen(w->hit_stamp, &w->hit_gen, w->n);
     w->n_pa = 0;
@@ -524,18 +537,14 @@ int cov_dsep_separated(const cov_dag *d, size_t x, size_t y, const unsigned char
     return rc;
 }
 
-int cov_dsep_open_path(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
-                       size_t *path, int *dir, size_t *len)
+int cov_dsep_open_path_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
+                          const unsigned char *in_z, const size_t *z, size_t nz, size_t *path,
+                          int *dir, size_t *len)
 {
     *len = 0;
-    cov_dsep_ws *w = NULL;
-    size_t *z = malloc((d->n ? d->n : 1) * sizeof *z);
-    int *tmp = NULL;
-    int rc = z != NULL ? cov_dsep_ws_alloc(d->n, &w) : COV_ENOMEM;
-    if (rc != COV_OK) goto done;
-    reach(w, d, x, in_z, z, dense_list(d, in_z, z), 0, 0);
+    reach(w, d, x, in_z, z, nz, 0, 0);
     size_t s = w->st[2 * y] == w->st_gen ? 2 * y : 2 * y + 1;
-    if (w->st[s] != w->st_gen) goto done;
+    if (w->st[s] != w->st_gen) return COV_OK;
     /* Read the states back to x, then reverse. A state entered from a parent (odd) was reached
      * over the arrow parent -> node. */
     size_t n = 0;
@@ -551,18 +560,27 @@ int cov_dsep_open_path(const cov_dag *d, size_t x, size_t y, const unsigned char
         path[i] = path[n - 1 - i];
         path[n - 1 - i] = t;
     }
-    /* dir was recorded on the arriving node; shift it onto the edge's first node. */
-    tmp = malloc(n * sizeof *tmp);
-    if (tmp == NULL) {
-        rc = COV_ENOMEM;
-        goto done;
+    /* dir was recorded on the arriving node, read back from y: the arrow between path[i] and
+     * path[i + 1] (after the reversal) is the one recorded at position n - 2 - i. */
+    for (size_t i = 0; i < (n - 1) / 2; i++) {
+        int t = dir[i];
+        dir[i] = dir[n - 2 - i];
+        dir[n - 2 - i] = t;
     }
-    for (size_t i = 0; i < n; i++) tmp[i] = dir[n - 1 - i];
-    for (size_t i = 0; i + 1 < n; i++) dir[i] = tmp[i + 1];
     dir[n - 1] = 0;
     *len = n;
-done:
-    free(tmp);
+    return COV_OK;
+}
+
+int cov_dsep_open_path(const cov_dag *d, size_t x, size_t y, const unsigned char *in_z,
+                       size_t *path, int *dir, size_t *len)
+{
+    *len = 0;
+    cov_dsep_ws *w = NULL;
+    size_t *z = malloc((d->n ? d->n : 1) * sizeof *z);
+    int rc = z != NULL ? cov_dsep_ws_alloc(d->n, &w) : COV_ENOMEM;
+    if (rc == COV_OK)
+        rc = cov_dsep_open_path_ws(w, d, x, y, in_z, z, dense_list(d, in_z, z), path, dir, len);
     free(z);
     cov_dsep_ws_free(w);
     return rc;

@@ -149,6 +149,10 @@ int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
  * fixed outcome skip both searches when the answer is Pa(y) (see dsep.c). Same results. */
 int cov_dsep_minsep_parents_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
                                const unsigned char *allowed, size_t *z, size_t *nz, int *found);
+/* cov_dsep_open_path with a workspace; z lists the nz members of in_z. */
+int cov_dsep_open_path_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
+                          const unsigned char *in_z, const size_t *z, size_t nz, size_t *path,
+                          int *dir, size_t *len);
 /* cov_dsep_separated with a workspace; z lists the nz members of in_z. */
 int cov_dsep_separated_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
                           const unsigned char *in_z, const size_t *z, size_t nz, int *separated);
