@@ -557,8 +557,11 @@ double pw_hc_contrast_var(const pw_hcfit *f, const double *c, int robust);
  * Mammen weights; each replicate refits and keeps the contrast's estimation error and its SE (HC3
  * when robust, else classic). Power at any effect and run count is then read off the same
  * replicates: estimate = effect + error, both error and SE scaled by sqrt(n / n_new). B replicates
- * from a mt19937 stream seeded with seed: the same inputs and seed give the same figures.
- * Cost O(B n p). PW_OK, PW_EDOM, PW_EFEW (df < 1), PW_ENOMEM. */
+ * from a mt19937 stream seeded with seed: the same inputs and seed give the same figures
+ * (Rademacher: bit j of the stream's k-th 32-bit word signs run 32 k + j, replicate after
+ * replicate; Mammen: one uniform per run). Each replicate is computed from 2p sums over the runs
+ * (no refit; the same figures as refitting y*, up to rounding): cost O(n p^2 + B n p).
+ * PW_OK, PW_EDOM, PW_EFEW (df < 1), PW_ENOMEM. */
 enum { PW_WILD_RADEMACHER = 0, PW_WILD_MAMMEN = 1 };
 typedef struct pw_wild pw_wild;
 int pw_wild_draw(const pw_hcfit *f, const double *X, const double *c, int robust, int weights,
@@ -567,8 +570,11 @@ void pw_wild_free(pw_wild *w);
 /* The same replicates from a pairs bootstrap (resampling whole runs; for discrete outcomes, which
  * then keep their values): X (n-by-p, row-major, intercept included) and y are the runs; each
  * replicate refits and keeps its contrast estimate less the archive's, and its SE (HC3 when
- * robust). A replicate whose refit is singular or constant gets SE 0 and never rejects. Cost
- * O(B n p^2). PW_OK, PW_EDOM, PW_EFEW, PW_ESING (the archive's own fit), PW_ENOMEM. */
+ * robust). A replicate whose refit is singular, holds a run of leverage 1 (within 1e-8) or has a
+ * constant outcome gets SE 0 and never rejects. Run indices: n calls of gsl_rng_uniform_int per
+ * replicate from a mt19937 stream seeded with seed. Each refit is by the weighted cross-products
+ * of the runs drawn (Householder QR when they are near singular). Cost O(B n p^2).
+ * PW_OK, PW_EDOM, PW_EFEW, PW_ESING (the archive's own fit), PW_ENOMEM. */
 int pw_pairs_draw(const double *X, const double *y, size_t n, size_t p, const double *c,
                   int robust, size_t B, unsigned long seed, pw_wild **out);
 size_t pw_wild_replicates(const pw_wild *w);

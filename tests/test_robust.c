@@ -164,6 +164,176 @@ done:
     pw_hcfit_free(f);
 }
 
+/* The replicates by their sums equal full refits: the test draws the same weights from the same
+ * mt19937 stream as pw_wild_draw documents (Rademacher: bit j of the k-th 32-bit word signs run
+ * 32 k + j; Mammen: one uniform per run), builds each replicate's outcome y* = fitted + e_i /
+ * sqrt(1 - h_ii) v_i, refits it by Householder QR (pw_hc3_fit) and counts the replicates whose
+ * test rejects at each of a sweep of effects. The counts must agree exactly (a tie within
+ * rounding at a threshold is the only way they could differ; none in these fixtures). 45 runs, so
+ * that the last word's bits are only partly used; an invented heteroscedastic fixture with an
+ * adjustment column, so that every term of the HC3 sum matters. */
+#define REFIT_RUNS 45
+#define REFIT_B 150
+static void test_replicates_refit(gsl_rng *r)
+{
+    size_t n = REFIT_RUNS, p = 3;
+    double X[REFIT_RUNS * 3], y[REFIT_RUNS], ys[REFIT_RUNS], v[REFIT_RUNS], c[3] = {0, 1, 0};
+    for (size_t i = 0; i < n; i++) {
+        double x = 2 * gsl_rng_uniform(r), s = gsl_rng_uniform(r);
+        X[i * 3] = 1;
+        X[i * 3 + 1] = x;
+        X[i * 3 + 2] = s;
+        y[i] = 1 + 0.5 * x + s + gsl_ran_exponential(r, 0.2 + x * x) - (0.2 + x * x);
+    }
+    pw_hcfit *f = NULL;
+    if (pw_hc3_fit(X, y, n, p, &f) != PW_OK) {
+        gsl_test(1, "refit fixture could be fitted");
+        return;
+    }
+    double s5 = sqrt(5.0);
+    for (int k = 0; k < 4; k++) {
+        int robust = k & 1, weights = k & 2 ? PW_WILD_MAMMEN : PW_WILD_RADEMACHER;
+        unsigned long seed = 11 + (unsigned long)k;
+        pw_wild *w = NULL;
+        if (pw_wild_draw(f, X, c, robust, weights, REFIT_B, seed, &w) != PW_OK) {
+            gsl_test(1, "wild replicates could be drawn");
+            continue;
+        }
+        gsl_rng *g = gsl_rng_alloc(gsl_rng_mt19937);
+        gsl_rng_set(g, seed);
+        double err[REFIT_B], se[REFIT_B];
+        int ok = 1;
+        for (size_t b = 0; b < REFIT_B && ok; b++) {
+            if (weights == PW_WILD_RADEMACHER) {
+                for (size_t i = 0; i < n; i += 32) {
+                    unsigned long bits = gsl_rng_get(g);
+                    for (size_t j = 0; j < 32 && i + j < n; j++) v[i + j] = (bits >> j) & 1 ? 1 : -1;
+                }
+            } else {
+                for (size_t i = 0; i < n; i++)
+                    v[i] = gsl_rng_uniform(g) < (s5 + 1) / (2 * s5) ? -(s5 - 1) / 2 : (s5 + 1) / 2;
+            }
+            for (size_t i = 0; i < n; i++)
+                ys[i] = y[i] - f->resid[i] + f->resid[i] / sqrt(1 - f->lev[i]) * v[i];
+            pw_hcfit *fb = NULL;
+            ok = pw_hc3_fit(X, ys, n, p, &fb) == PW_OK;
+            if (ok) {
+                err[b] = fb->coef[1] - f->coef[1];
+                se[b] = sqrt(pw_hc_contrast_var(fb, c, robust));
+            }
+            pw_hcfit_free(fb);
+        }
+        gsl_rng_free(g);
+        double tc = gsl_cdf_tdist_Qinv(ALPHA / 2, (double)(n - p));
+        int worst = 0;
+        double mean_se = 0;
+        for (size_t b = 0; b < REFIT_B; b++) mean_se += se[b] / REFIT_B;
+        for (int e = 0; e <= 20 && ok; e++) {
+            double effect = mean_se * 0.25 * e, rate = NAN;
+            pw_wild_test t = {0, 2, ALPHA};
+            pw_wild_power(w, &t, effect, (double)n, &rate, NULL);
+            int hits = 0;
+            for (size_t b = 0; b < REFIT_B; b++) hits += fabs(effect + err[b]) / se[b] > tc;
+            int diff = abs(hits - (int)lround(rate * REFIT_B));
+            if (diff > worst) worst = diff;
+        }
+        gsl_test(!ok || worst != 0, "wild replicates (%s, %s test) reject exactly where full "
+                 "refits of the same draws do, at 21 effects (largest difference %d of %d)",
+                 weights == PW_WILD_MAMMEN ? "Mammen" : "Rademacher", robust ? "robust" : "classic",
+                 worst, REFIT_B);
+        pw_wild_free(w);
+    }
+    pw_hcfit_free(f);
+}
+
+/* The pairs replicates by weighted cross-products equal full refits of the runs drawn: the test
+ * draws the same run indices from the same stream (one gsl_rng_uniform_int per run, as
+ * pw_pairs_draw documents), copies the runs and refits them by Householder QR (pw_hc3_fit). A
+ * resample whose refit is singular, holds a run of leverage 1 (within 1e-8: a treatment level
+ * drawn once) or whose outcome is constant has SE 0 (never rejects). The
+ * invented fixtures: a mostly-zero count (about 80% zeros) and a rare bool treatment (3 of 40
+ * runs), so that some resamples lose the treatment's variation and take the QR route; and an
+ * outcome at 1 in all but 2 runs, so that some resamples hold a constant outcome. */
+#define PAIRS_RUNS 40
+#define PAIRS_B 300
+static void test_pairs_refit(gsl_rng *r)
+{
+    size_t n = PAIRS_RUNS, p = 3;
+    double X[PAIRS_RUNS * 3], y[PAIRS_RUNS], Xb[PAIRS_RUNS * 3], yb[PAIRS_RUNS], c[3] = {0, 1, 0};
+    for (size_t i = 0; i < n; i++) {
+        double x = i % 13 == 5, s = gsl_rng_uniform(r);
+        X[i * 3] = 1;
+        X[i * 3 + 1] = x;
+        X[i * 3 + 2] = s;
+        y[i] = gsl_rng_uniform(r) < 0.15 + 0.3 * x ? 1 + gsl_ran_poisson(r, 2 + 3 * s) : 0;
+    }
+    for (int k = 0; k < 4; k++) {
+        int robust = k & 1, nearly_constant = k >= 2;
+        if (k == 2)   /* the second fixture: 1 in all runs but two */
+            for (size_t i = 0; i < n; i++) y[i] = i % 20 == 7 ? 2.5 + X[i * 3 + 2] : 1;
+        pw_hcfit *f = NULL;
+        if (pw_hc3_fit(X, y, n, p, &f) != PW_OK) {
+            gsl_test(1, "pairs fixture could be fitted");
+            return;
+        }
+        double est = f->coef[1];
+        pw_hcfit_free(f);
+        unsigned long seed = 21 + (unsigned long)k;
+        pw_wild *w = NULL;
+        if (pw_pairs_draw(X, y, n, p, c, robust, PAIRS_B, seed, &w) != PW_OK) {
+            gsl_test(1, "pairs replicates could be drawn");
+            continue;
+        }
+        gsl_rng *g = gsl_rng_alloc(gsl_rng_mt19937);
+        gsl_rng_set(g, seed);
+        double err[PAIRS_B], se[PAIRS_B], mean_se = 0;
+        int singular = 0, constants = 0;
+        for (size_t b = 0; b < PAIRS_B; b++) {
+            int constant = 1, lev1 = 0;
+            for (size_t i = 0; i < n; i++) {
+                size_t j = (size_t)gsl_rng_uniform_int(g, n);
+                memcpy(Xb + i * p, X + j * p, p * sizeof *Xb);
+                yb[i] = y[j];
+                constant &= yb[i] == yb[0];
+            }
+            constants += constant;
+            pw_hcfit *fb = NULL;
+            err[b] = se[b] = 0;
+            if (pw_hc3_fit(Xb, yb, n, p, &fb) == PW_OK) {
+                double v = pw_hc_contrast_var(fb, c, robust);
+                for (size_t i = 0; i < n; i++) lev1 |= fb->lev[i] > 1 - 1e-8;
+                err[b] = fb->coef[1] - est;
+                se[b] = v > 0 && !constant && !lev1 ? sqrt(v) : 0;
+            } else {
+                singular++;
+            }
+            pw_hcfit_free(fb);
+            mean_se += se[b] / PAIRS_B;
+        }
+        gsl_rng_free(g);
+        double tc = gsl_cdf_tdist_Qinv(ALPHA / 2, (double)(n - p));
+        int worst = 0;
+        for (int e = 0; e <= 20; e++) {
+            double effect = mean_se * 0.25 * e, rate = NAN;
+            pw_wild_test t = {0, 2, ALPHA};
+            pw_wild_power(w, &t, effect, (double)n, &rate, NULL);
+            int hits = 0;
+            for (size_t b = 0; b < PAIRS_B; b++)
+                hits += se[b] > 0 && fabs(effect + err[b]) / se[b] > tc;
+            int diff = abs(hits - (int)lround(rate * PAIRS_B));
+            if (diff > worst) worst = diff;
+        }
+        /* Each fixture must reach the route it is there for. */
+        int reached = nearly_constant ? constants > 0 : singular > 0;
+        gsl_test(worst != 0 || !reached, "pairs replicates (%s, %s test) reject exactly where "
+                 "full refits of the same draws do, at 21 effects (largest difference %d of %d; "
+                 "%d singular resamples, %d with a constant outcome)",
+                 nearly_constant ? "outcome 1 in all but 2 runs" : "mostly-zero count",
+                 robust ? "robust" : "classic", worst, PAIRS_B, singular, constants);
+        pw_wild_free(w);
+    }
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -173,6 +343,8 @@ int main(void)
     test_size(r);
     test_resampled_vs_formula(r);
     test_reproducible(r);
+    test_replicates_refit(r);
+    test_pairs_refit(r);
     gsl_rng_free(r);
     return gsl_test_summary();
 }
