@@ -124,6 +124,12 @@ void pw_moments_add(pw_moments *m, const double *row);
  * merged by Chan, Golub & LeVeque (1983). The same figures as nb calls of pw_moments_add (to
  * rounding), and faster: the block's products stay in cache. PW_OK or PW_ENOMEM. */
 int pw_moments_add_block(pw_moments *m, const double *rows, size_t nb);
+/* The moments of nb >= 1 rows alone (row-major, out->k values each, none NaN) into out, which the
+ * caller allocated: n = nb, the block's means and the upper triangle of its centred
+ * cross-products. pw_moments_add_block(m, rows, nb) is exactly pw_moments_merge(m, out) after
+ * this, so one block's moments can be merged into several totals bit for bit as if each had added
+ * the block itself. PW_OK, PW_EDOM (nb == 0) or PW_ENOMEM. */
+int pw_moments_of_block(const double *rows, size_t nb, pw_moments *out);
 /* Merge the moments b of other rows into a (both of k columns): a then holds the moments of all
  * their rows (Chan, Golub & LeVeque 1983, eq. 2.1), so shards summarised apart give the figures of
  * one pass to rounding. PW_OK, or PW_EDOM when the column counts differ. */

@@ -62,28 +62,21 @@ void pw_moments_add(pw_moments *m, const double *row)
 #if defined(__GNUC__) && !defined(__clang__)
 __attribute__((optimize("O3")))
 #endif
-int pw_moments_add_block(pw_moments *m, const double *rows, size_t nb)
+int pw_moments_of_block(const double *rows, size_t nb, pw_moments *out)
 {
-    size_t k = m->k;
-    if (nb == 0) return PW_OK;
-    double *dev = malloc(nb * k * sizeof *dev), *mb = calloc(k, sizeof *mb);
-    if (dev == NULL || mb == NULL) {
-        free(dev);
-        free(mb);
-        return PW_ENOMEM;
-    }
+    size_t k = out->k;
+    if (nb == 0) return PW_EDOM;
+    double *dev = malloc(nb * k * sizeof *dev), *mb = out->mean;
+    if (dev == NULL) return PW_ENOMEM;
     /* Two passes within the block: its mean, then deviations from it. */
+    for (size_t i = 0; i < k; i++) mb[i] = 0;
     for (size_t r = 0; r < nb; r++)
         for (size_t i = 0; i < k; i++) mb[i] += rows[r * k + i];
     for (size_t i = 0; i < k; i++) mb[i] /= (double)nb;
     for (size_t r = 0; r < nb; r++)
         for (size_t i = 0; i < k; i++) dev[r * k + i] = rows[r * k + i] - mb[i];
-    /* Merge with what came before (Chan, Golub & LeVeque 1983, eq. 2.1):
-     * C = C_a + C_b + (n_a n_b / n) delta delta', delta = mean_b - mean_a. */
-    double na = m->n, n = na + (double)nb, w = na * (double)nb / n;
     for (size_t i = 0; i < k; i++) {
-        double di = mb[i] - m->mean[i];
-        double *ci = m->xprod + i * k;
+        double *ci = out->xprod + i * k;
         for (size_t j0 = i; j0 < k; j0 += TILE) {
             double acc[TILE] = {0};
             size_t nj = k - j0 < TILE ? k - j0 : TILE;
@@ -99,15 +92,25 @@ int pw_moments_add_block(pw_moments *m, const double *rows, size_t nb)
                     for (size_t t = 0; t < nj; t++) acc[t] += dr[i] * dr[j0 + t];
                 }
             }
-            for (size_t t = 0; t < nj; t++)
-                ci[j0 + t] += acc[t] + w * di * (mb[j0 + t] - m->mean[j0 + t]);
+            for (size_t t = 0; t < nj; t++) ci[j0 + t] = acc[t];
         }
     }
-    for (size_t i = 0; i < k; i++) m->mean[i] += (mb[i] - m->mean[i]) * (double)nb / n;
-    m->n = n;
+    out->n = (double)nb;
     free(dev);
-    free(mb);
     return PW_OK;
+}
+
+/* The block's own moments, then merged (Chan, Golub & LeVeque 1983, eq. 2.1): the same arithmetic
+ * as pw_moments_merge of pw_moments_of_block's result, by construction. */
+int pw_moments_add_block(pw_moments *m, const double *rows, size_t nb)
+{
+    if (nb == 0) return PW_OK;
+    pw_moments *b = NULL;
+    int rc = pw_moments_alloc(m->k, &b);
+    if (rc == PW_OK) rc = pw_moments_of_block(rows, nb, b);
+    if (rc == PW_OK) rc = pw_moments_merge(m, b);
+    pw_moments_free(b);
+    return rc;
 }
 
 double pw_moments_at(const pw_moments *m, size_t i, size_t j)

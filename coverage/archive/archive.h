@@ -221,4 +221,29 @@ int cov_history_record(const char *db_path, int create_file, const cov_history_s
  * levels by index). 64 hex digits and a NUL into hex. */
 void cov_data_digest(const cov_graph *g, const cov_data *d, char hex[65]);
 
+/* The runs' centred cross-products in one pass for both the assessment and each claim's support
+ * (coverage/archive/xshare.c): each block of COV_XSHARE_BLOCK runs has its moments computed once
+ * (pw_moments_of_block) and merged into two totals, each bit for bit what its reader would have
+ * summed on its own: `global`, every complete recorded variable (a level set as its L - 1 dummies
+ * against level 0, a level-set output also as its level index) merged block after block in run
+ * order, as cov_assess sums it; and `sub`, the complete variables that are not level sets, merged
+ * block after block within shards of COV_XSHARE_SHARD runs and the shards in order, as the
+ * support's summary sums it. The figures do not depend on threads. */
+#define COV_XSHARE_BLOCK 128
+#define COV_XSHARE_SHARD 65536
+typedef struct {
+    size_t k;             /* global columns */
+    size_t *base;         /* per variable: its first global column; SIZE_MAX when left out */
+    size_t *index_col;    /* per level-set output: the column of its level index; else SIZE_MAX */
+    pw_moments *global;   /* NULL when k == 0 or there are no runs */
+    size_t k_sub;         /* subset columns */
+    size_t *sub_col;      /* per variable: its subset column; SIZE_MAX when left out */
+    size_t *sub_global;   /* per subset column: its global column */
+    pw_moments *sub;      /* NULL when k_sub == 0 or there are no runs */
+} cov_xshare;
+/* Build on up to `threads` threads. *out is the caller's (cov_xshare_free, which accepts NULL).
+ * COV_OK or COV_ENOMEM. */
+int cov_xshare_build(const cov_graph *g, const cov_data *d, int threads, cov_xshare **out);
+void cov_xshare_free(cov_xshare *x);
+
 #endif

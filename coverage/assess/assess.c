@@ -55,6 +55,7 @@ typedef struct {
     const cov_graph *g;
     const cov_data *d;
     pw_moments *global;  /* NULL when no variable is complete */
+    int global_borrowed; /* global is the shared pass's (cov_xshare), not ours to free */
     size_t *base;        /* first global column of each variable; SIZE_MAX when not included */
     size_t *index_col;   /* level-set outputs: global column of the level index; SIZE_MAX */
     size_t *sample;      /* runs for diagnostics on the fast path */
@@ -124,7 +125,7 @@ static int sample_keep(gsl_rng *r, size_t *want, size_t left)
 
 static void ctx_free(assess_ctx *x)
 {
-    pw_moments_free(x->global);
+    if (!x->global_borrowed) pw_moments_free(x->global);
     free(x->base);
     free(x->index_col);
     free(x->sample);
@@ -176,7 +177,8 @@ static int global_row(void *ctx, size_t i, double *row)
 
 /* Accumulate the global centred cross-products of every recorded variable without missing cells,
  * in one pass over the runs, and draw the fixed-seed diagnostic sample. */
-static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
+static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d,
+                    const cov_xshare *shared)
 {
     memset(x, 0, sizeof *x);
     x->g = g;
@@ -227,11 +229,21 @@ static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d)
         for (size_t r = 0; r < m; r++) sc[r] = d->col[v][x->sample[r]];
         if (pw_mode_share(sc, m, &x->mode_share[v]) == PW_ENOMEM) return COV_ENOMEM;
     }
-    if (pw_moments_alloc(K, &x->global) != PW_OK) return COV_ENOMEM;
+    /* The shared pass summed the same columns in the same blocks (archive/xshare.c). */
+    _Static_assert(COV_MOMENT_BLOCK == COV_XSHARE_BLOCK, "the shared pass's blocks are ours");
+    int same = shared != NULL && shared->global != NULL && shared->k == K;
+    for (size_t v = 0; same && v < g->n_vars; v++)
+        same = shared->base[v] == x->base[v] && shared->index_col[v] == x->index_col[v];
+    if (same) {
+        x->global = shared->global;
+        x->global_borrowed = 1;
+    } else if (pw_moments_alloc(K, &x->global) != PW_OK) {
+        return COV_ENOMEM;
+    }
     double *block = malloc(COV_MOMENT_BLOCK * K * sizeof *block);
     if (block == NULL) return COV_ENOMEM;
     size_t nb = 0;
-    for (size_t i = 0; i < n; i++) {
+    for (size_t i = 0; i < n && !same; i++) {
         global_row(x, i, block + nb * K);
         if (++nb == COV_MOMENT_BLOCK || i + 1 == n) {
             if (pw_moments_add_block(x->global, block, nb) != PW_OK) {
@@ -982,13 +994,20 @@ fail:
 int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
                const cov_power_options *opt, cov_assessments **out, cov_error *err)
 {
+    return cov_assess_shared(g, c, d, opt, NULL, out, err);
+}
+
+int cov_assess_shared(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                      const cov_power_options *opt, const cov_xshare *shared,
+                      cov_assessments **out, cov_error *err)
+{
     *out = NULL;
     if (!(opt->alpha > 0 && opt->alpha < 1) || !(opt->target > 0 && opt->target < 1))
         return cov_fail(err, COV_EINPUT, "", "alpha and target power must lie strictly between "
                         "0 and 1, got %g and %g", opt->alpha, opt->target);
     cov_assessments *as = calloc(1, sizeof *as);
     assess_ctx x;
-    int rc = ctx_init(&x, g, d);
+    int rc = ctx_init(&x, g, d, shared);
     if (as == NULL || rc != COV_OK) {
         rc = COV_ENOMEM;
         goto fail;

@@ -7,6 +7,13 @@
 
 #include "coverage/archive/archive.h"
 
+/* cov_assess with the runs' cross-products already summed by cov_xshare_build (NULL: sum them
+ * here). shared must be of the same g and d; it is only read, and the figures are the same bit for
+ * bit either way. */
+int cov_assess_shared(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                      const cov_power_options *opt, const cov_xshare *shared,
+                      cov_assessments **out, cov_error *err);
+
 /* ---- assessment (coverage/assess.c) ----------------------------------------------------------- */
 
 /* The pw_design of an assessed claim with its current figures, so that callers (plots, plan) can

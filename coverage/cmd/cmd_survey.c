@@ -337,6 +337,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     cov_assessments *as = NULL;
     cov_coverage *cv = NULL;
     cov_supports *sp = NULL;
+    cov_xshare *xs = NULL;
     cov_snapshot *snaps = NULL;
     size_t n_snapshots = 0;
     cov_cautions *cautions = NULL;
@@ -433,11 +434,19 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
             COV_OK)
         goto fail;
 
+    /* One pass of cross-products over the runs for both the assessment and the support. */
+    if (cov_xshare_build(g, d, o.coverage.threads, &xs) != COV_OK) {
+        rc = cov_fail(err, COV_ENOMEM, "", "out of memory summing the runs' cross-products");
+        goto fail;
+    }
     step_note(&o, note, "assessing the claims");
-    if ((rc = cov_assess(g, claims, d, &o.power, &as, err)) != COV_OK) goto fail;
+    if ((rc = cov_assess_shared(g, claims, d, &o.power, xs, &as, err)) != COV_OK) goto fail;
     step_note(&o, note, "measuring coverage and support");
     if ((rc = cov_coverage_measure(g, d, &o.coverage, &cv, err)) != COV_OK) goto fail;
-    if ((rc = cov_support_measure(g, claims, d, &o.coverage, &sp, err)) != COV_OK) goto fail;
+    if ((rc = cov_support_measure_shared(g, claims, d, &o.coverage, xs, &sp, err)) != COV_OK)
+        goto fail;
+    cov_xshare_free(xs);
+    xs = NULL;
 
     time_t now = time(NULL);
     struct tm tm_utc;
@@ -556,6 +565,7 @@ fail:
     free(seed_col);
     free(frozen);
     cov_pred_records_free(preds, n_preds);
+    cov_xshare_free(xs);
     cov_supports_free(sp);
     cov_coverage_free(cv);
     cov_assessments_free(as);

@@ -41,6 +41,12 @@ double cov_abs_pearson(const double *x, const double *y, size_t n);
 /* Fill c->dependence from c->pairs and the data (coverage/dependence.c). */
 int cov_dependence_fill(const cov_graph *g, const cov_data *d, cov_coverage *c);
 
+/* cov_support_measure with the runs' cross-products already summed by cov_xshare_build of the
+ * same g and d (NULL: summed here); the same figures bit for bit either way. */
+int cov_support_measure_shared(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                               const cov_coverage_options *opt, const cov_xshare *shared,
+                               cov_supports **out, cov_error *err);
+
 /* Shared summaries of the archive for every claim's support (coverage/measure/summary.c): the
  * centred cross-products of every complete, non-level-set variable, merged shard by shard
  * (Chan, Golub & LeVeque 1983), and the distinct values of the variables asked for. */
@@ -56,6 +62,11 @@ typedef struct {
  * not depend on the thread count. Returns COV_OK or COV_ENOMEM. */
 int cov_summary_build(const cov_graph *g, const cov_data *d, const unsigned char *want_distinct,
                       int threads, cov_summary **out);
+/* The same with the cross-products taken from the shared pass (cov_xshare_build of the same g and
+ * d; NULL: summed here): the same figures bit for bit. */
+int cov_summary_build_shared(const cov_graph *g, const cov_data *d,
+                             const unsigned char *want_distinct, int threads,
+                             const cov_xshare *shared, cov_summary **out);
 void cov_summary_free(cov_summary *s);
 
 /* Kish's effective sample size (Kish 1965) of weights w: (sum w)^2 / sum w^2; NAN when all are 0. */

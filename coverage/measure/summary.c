@@ -170,6 +170,13 @@ static void *summary_worker(void *arg)
 int cov_summary_build(const cov_graph *g, const cov_data *d, const unsigned char *want_distinct,
                       int threads, cov_summary **out)
 {
+    return cov_summary_build_shared(g, d, want_distinct, threads, NULL, out);
+}
+
+int cov_summary_build_shared(const cov_graph *g, const cov_data *d,
+                             const unsigned char *want_distinct, int threads,
+                             const cov_xshare *shared, cov_summary **out)
+{
     *out = NULL;
     cov_summary *s = calloc(1, sizeof *s);
     if (s == NULL) return COV_ENOMEM;
@@ -188,13 +195,23 @@ int cov_summary_build(const cov_graph *g, const cov_data *d, const unsigned char
         return COV_OK;
     }
     if (pw_moments_alloc(K, &s->xprod) != PW_OK) goto fail;
+    /* The shared pass summed these columns in these shards and blocks (archive/xshare.c). */
+    _Static_assert(COV_SHARD_ROWS == COV_XSHARE_SHARD && COV_SUMMARY_BLOCK == COV_XSHARE_BLOCK,
+                   "the shared pass's shards and blocks are ours");
+    int same = shared != NULL && shared->sub != NULL && shared->k_sub == K;
+    for (size_t v = 0; same && v < d->n_vars; v++) same = shared->sub_col[v] == s->col[v];
+    if (same) {
+        s->xprod->n = shared->sub->n;
+        memcpy(s->xprod->mean, shared->sub->mean, K * sizeof *s->xprod->mean);
+        memcpy(s->xprod->xprod, shared->sub->xprod, K * K * sizeof *s->xprod->xprod);
+    }
     summary_job j;
     memset(&j, 0, sizeof j);
     j.s = s;
     j.want = want_distinct;
     j.shard_rows = COV_SHARD_ROWS;
-    j.n_shards = (d->n_runs + j.shard_rows - 1) / j.shard_rows;
-    j.shard = calloc(j.n_shards, sizeof *j.shard);
+    j.n_shards = same ? 0 : (d->n_runs + j.shard_rows - 1) / j.shard_rows;
+    j.shard = calloc(j.n_shards ? j.n_shards : 1, sizeof *j.shard);
     if (j.shard == NULL || pthread_mutex_init(&j.lock, NULL) != 0) {
         free(j.shard);
         goto fail;

@@ -584,6 +584,13 @@ done:
 int cov_support_measure(const cov_graph *g, const cov_claims *c, const cov_data *d,
                         const cov_coverage_options *opt, cov_supports **out, cov_error *err)
 {
+    return cov_support_measure_shared(g, c, d, opt, NULL, out, err);
+}
+
+int cov_support_measure_shared(const cov_graph *g, const cov_claims *c, const cov_data *d,
+                               const cov_coverage_options *opt, const cov_xshare *shared,
+                               cov_supports **out, cov_error *err)
+{
     *out = NULL;
     cov_summary *sh = NULL;
     cov_supports *s = calloc(1, sizeof *s);
@@ -601,7 +608,7 @@ int cov_support_measure(const cov_graph *g, const cov_claims *c, const cov_data 
         for (size_t j = 0; j < cl->n_cond; j++) want[cl->cond[j]] = 1;
         any = 1;
     }
-    if (any && d->n_runs > 0 && cov_summary_build(g, d, want, opt->threads, &sh) != COV_OK)
+    if (any && d->n_runs > 0 && cov_summary_build_shared(g, d, want, opt->threads, shared, &sh) != COV_OK)
         goto oom;
     for (size_t k = 0; k < c->n; k++) {
         cov_support *it = &s->items[k];
