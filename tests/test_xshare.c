@@ -204,6 +204,50 @@ static void test_figures(const fixture *f, const cov_graph *g)
     cov_claims_free(cl);
 }
 
+/* pw_moments_of_block against its definition written out here: the block's means summed in row
+ * order and divided by nb, deviations from them, and each cross-product the sum over rows in
+ * order from 0, so bit for bit; over shapes that leave every remainder of the register tiles. */
+static void test_block_kernel(void)
+{
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng_set(r, 20261206UL);
+    size_t shapes = 0, wrong = 0;
+    const size_t ks[] = {1, 2, 3, 5, 8, 9, 12, 13, 17, 31, 80, 83};
+    const size_t nbs[] = {1, 2, 7, 64, 107, 128};
+    for (size_t a = 0; a < sizeof ks / sizeof *ks; a++)
+        for (size_t b = 0; b < sizeof nbs / sizeof *nbs; b++) {
+            size_t k = ks[a], nb = nbs[b];
+            double *rows = malloc(nb * k * sizeof *rows), *dev = malloc(nb * k * sizeof *dev);
+            double *mean = calloc(k, sizeof *mean);
+            pw_moments *m = NULL;
+            if (rows == NULL || dev == NULL || mean == NULL || pw_moments_alloc(k, &m) != PW_OK)
+                break;
+            for (size_t i = 0; i < nb * k; i++)   /* skewed, far from zero in some columns */
+                rows[i] = (i % k % 3 == 0 ? 1000 : 0) + gsl_ran_lognormal(r, 0, 1.5);
+            for (size_t i = 0; i < nb; i++)
+                for (size_t j = 0; j < k; j++) mean[j] += rows[i * k + j];
+            for (size_t j = 0; j < k; j++) mean[j] /= (double)nb;
+            for (size_t i = 0; i < nb * k; i++) dev[i] = rows[i] - mean[i % k];
+            int ok = pw_moments_of_block(rows, nb, m) == PW_OK && m->n == (double)nb &&
+                     memcmp(m->mean, mean, k * sizeof *mean) == 0;
+            for (size_t i = 0; ok && i < k; i++)
+                for (size_t j = i; ok && j < k; j++) {
+                    double s = 0;
+                    for (size_t q = 0; q < nb; q++) s += dev[q * k + i] * dev[q * k + j];
+                    ok = memcmp(&s, &m->xprod[i * k + j], sizeof s) == 0;
+                }
+            shapes++;
+            wrong += !ok;
+            pw_moments_free(m);
+            free(rows);
+            free(dev);
+            free(mean);
+        }
+    gsl_rng_free(r);
+    gsl_test(shapes != 72 || wrong > 0, "xshare: block moments = the row-order sums bit for bit "
+             "(%zu shapes, %zu differ)", shapes, wrong);
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -216,6 +260,7 @@ int main(void)
     }
     fixture f;
     make_fixture(&f, g, N_RUNS);
+    test_block_kernel();
     test_totals(&f, g);
     test_figures(&f, g);
     for (size_t v = 0; v < N_VARS; v++) free(f.cols[v]);

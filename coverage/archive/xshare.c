@@ -25,22 +25,27 @@ void cov_xshare_free(cov_xshare *x)
     free(x);
 }
 
-/* The global columns of run i (x->k values): each variable's value, a level set's dummies against
- * its level 0, and a level-set output's level index too. */
-static void fill_global_row(const cov_xshare *x, const cov_graph *g, const cov_data *d, size_t i,
-                            double *row)
+/* The global columns of runs [r0, r0 + nb) into rows (x->k values each), column by column: each
+ * variable's value, a level set's dummies against its level 0, and a level-set output's level
+ * index too. */
+static void fill_global_rows(const cov_xshare *x, const cov_graph *g, const cov_data *d,
+                             size_t r0, size_t nb, double *rows)
 {
+    size_t K = x->k;
     for (size_t v = 0; v < d->n_vars; v++) {
         if (x->base[v] == SIZE_MAX) continue;
         const cov_var *var = &g->vars[v];
-        double val = d->col[v][i];
+        const double *col = d->col[v] + r0;
+        double *dst = rows + x->base[v];
         if (var->type == COV_LEVELS && var->n_levels >= 2) {
-            for (size_t l = 1; l < var->n_levels; l++)
-                row[x->base[v] + l - 1] = val == (double)l ? 1.0 : 0.0;
+            for (size_t r = 0; r < nb; r++)
+                for (size_t l = 1; l < var->n_levels; l++)
+                    dst[r * K + l - 1] = col[r] == (double)l ? 1.0 : 0.0;
         } else {
-            row[x->base[v]] = val;
+            for (size_t r = 0; r < nb; r++) dst[r * K] = col[r];
         }
-        if (x->index_col[v] != SIZE_MAX) row[x->index_col[v]] = val;
+        if (x->index_col[v] != SIZE_MAX)
+            for (size_t r = 0; r < nb; r++) rows[r * K + x->index_col[v]] = col[r];
     }
 }
 
@@ -70,7 +75,7 @@ static void *chunk_worker(void *arg)
         if (stop || item >= j->count) break;
         size_t r0 = (j->first + item) * COV_XSHARE_BLOCK;
         size_t nb = n - r0 < COV_XSHARE_BLOCK ? n - r0 : COV_XSHARE_BLOCK;
-        for (size_t r = 0; r < nb; r++) fill_global_row(j->x, j->g, j->d, r0 + r, rows + r * K);
+        fill_global_rows(j->x, j->g, j->d, r0, nb, rows);
         if (pw_moments_of_block(rows, nb, j->slot[item]) != PW_OK) {
             pthread_mutex_lock(&j->lock);
             j->failed = 1;

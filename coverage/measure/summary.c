@@ -71,15 +71,16 @@ static uint64_t value_bits(double x)
  * byte of their hash into 256 buckets, then each bucket is counted in a small open-addressing
  * table (linear probing, Knuth TAOCP vol. 3, 6.4, Algorithm L) that stays in cache: two
  * sequential passes instead of one random access per value into a table of the whole column.
- * Returns (size_t)-1 when out of memory. */
-static size_t distinct_values(const double *x, size_t n)
+ * part: room for n hashes, the caller's scratch (one per thread, reused from column to column, so
+ * no column's worth of fresh pages is faulted in again for each). Returns (size_t)-1 when out of
+ * memory. */
+static size_t distinct_values(const double *x, size_t n, uint64_t *part)
 {
     if (n == 0) return 0;
     size_t start[257] = {0}, fill[256];
-    uint64_t *part = malloc(n * sizeof *part), *table = NULL;
+    uint64_t *table = NULL;
     unsigned char *used = NULL;
     size_t distinct = (size_t)-1, cap = 0;
-    if (part == NULL) return distinct;
     for (size_t i = 0; i < n; i++) start[(mix64(value_bits(x[i])) >> 56) + 1]++;
     size_t biggest = 0;
     for (int b = 0; b < 256; b++) {
@@ -117,7 +118,6 @@ static size_t distinct_values(const double *x, size_t n)
         }
     }
 done:
-    free(part);
     free(table);
     free(used);
     return distinct;
@@ -140,6 +140,7 @@ static void *summary_worker(void *arg)
 {
     summary_job *j = arg;
     size_t n_vars = j->s->d->n_vars;
+    uint64_t *part = NULL;   /* distinct_values' scratch, made at the first count */
     for (;;) {
         pthread_mutex_lock(&j->lock);
         size_t item = j->next++;
@@ -154,7 +155,9 @@ static void *summary_worker(void *arg)
         } else {
             size_t v = item - j->n_shards;
             if (j->want == NULL || !j->want[v] || j->s->col[v] == SIZE_MAX) continue;
-            size_t k = distinct_values(j->s->d->col[v], j->s->d->n_runs);
+            size_t n = j->s->d->n_runs;
+            if (part == NULL) part = malloc((n ? n : 1) * sizeof *part);
+            size_t k = part == NULL ? (size_t)-1 : distinct_values(j->s->d->col[v], n, part);
             if (k == (size_t)-1) rc = COV_ENOMEM;
             else j->s->distinct[v] = k;
         }
@@ -164,6 +167,7 @@ static void *summary_worker(void *arg)
             pthread_mutex_unlock(&j->lock);
         }
     }
+    free(part);
     return NULL;
 }
 
