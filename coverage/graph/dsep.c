@@ -356,10 +356,11 @@ int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
     return COV_OK;
 }
 
-/* Parents of the fixed outcome above which the shortcut below is not prepared: preparing costs
- * one backward walk over An(y) per parent, which the outcome's pairs repay when the parents are
- * few; with many, the general search does the work. */
-#define PA_SHORTCUT_MAX 64
+/* Preparing the shortcut below costs one backward walk over An(y) per parent of y. It stops, and
+ * the general search does the work, once the walks have taken this many times the size of An(y)
+ * in steps: about as much as that many of the outcome's pairs would cost without it, so a graph
+ * whose outcomes never take the shortcut pays a bounded share for trying. */
+#define PA_WALK_BUDGET 16
 
 /* Prepare the shortcut for the fixed outcome y: its distinct parents, ascending, and for each
  * node u the number of them that u reaches by a directed path of one or more edges with no other
@@ -367,8 +368,8 @@ int cov_dsep_minsep_ws(cov_dsep_ws *w, const cov_dag *d, size_t x, size_t y,
 static void prepare_parents(cov_dsep_ws *w, const cov_dag *d, size_t y)
 {
     size_t k0 = d->par_start[y], k1 = d->par_start[y + 1], m = w->n ? w->n : 1;
+    size_t budget = PA_WALK_BUDGET * (w->n_out + (k1 - k0) + 1), steps = 0;
     w->pa_state = -1;
-    if (k1 - k0 > PA_SHORTCUT_MAX) return;
     /* Allocated on first use: most workspaces never take the shortcut. Without memory the
      * general search does the work. */
     if (w->pa == NULL) {
@@ -404,6 +405,7 @@ static void prepare_parents(cov_dsep_ws *w, const cov_dag *d, size_t y)
         w->stack[top++] = w->pa_list[i];
         while (top > 0) {
             size_t v = w->stack[--top];
+            if (++steps > budget) return;
             for (size_t k = d->par_start[v]; k < d->par_start[v + 1]; k++) {
                 size_t u = d->par[k];
                 if (w->walk[u] == wg || w->pa[u] == pg) continue;
