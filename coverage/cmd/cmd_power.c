@@ -243,7 +243,7 @@ static void print_csv(const cov_graph *g, const cov_claims *cl, const cov_assess
 {
     cov_record_src src = {g, cl, as, NULL};
     cov_record_csv_header(out, COV_RECORD_ASSESS);
-    for (size_t i = 0; i < cl->n; i++) cov_record_csv_row(out, &src, i, COV_RECORD_ASSESS);
+    cov_record_csv_rows(out, &src, 0, cl->n, COV_RECORD_ASSESS);
 }
 
 static void print_json(const cov_graph *g, const cov_claims *cl, const cov_assessments *as,

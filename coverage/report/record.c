@@ -616,11 +616,6 @@ static void csv_row(csv_out *o, const cov_record_src *src, size_t i, unsigned pa
     out_char(o, '\n');
 }
 
-void cov_record_csv_row(FILE *out, const cov_record_src *src, size_t i, unsigned parts)
-{
-    cov_record_csv_rows(out, src, i, i + 1, parts);
-}
-
 void cov_record_csv_rows(FILE *out, const cov_record_src *src, size_t from, size_t to,
                          unsigned parts)
 {

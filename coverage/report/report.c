@@ -377,7 +377,7 @@ void cov_report_claims_csv(const cov_findings *f, FILE *out)
 {
     cov_record_src src = record_src(f);
     cov_record_csv_header(out, COV_RECORD_ASSESS);
-    for (size_t i = 0; i < f->claims->n; i++) cov_record_csv_row(out, &src, i, COV_RECORD_ASSESS);
+    cov_record_csv_rows(out, &src, 0, f->claims->n, COV_RECORD_ASSESS);
 }
 
 /* ---- the report directory -------------------------------------------------------------------- */

@@ -117,11 +117,9 @@ typedef struct {
 void cov_record_json(FILE *out, const cov_record_src *src, size_t i, unsigned parts);
 /* The CSV header line of parts, newline included. */
 void cov_record_csv_header(FILE *out, unsigned parts);
-/* Claim i as one CSV row under cov_record_csv_header(parts), newline included (RFC 4180 quoting;
- * a set of names is one cell joined by ';'). */
-void cov_record_csv_row(FILE *out, const cov_record_src *src, size_t i, unsigned parts);
-/* Claims from .. to - 1 as CSV rows, the same bytes as cov_record_csv_row on each, assembled in
- * memory and written in large blocks (a small block on the stack when memory is short). */
+/* Claims from .. to - 1, one CSV row each under cov_record_csv_header(parts), newline included
+ * (RFC 4180 quoting; a set of names is one cell joined by ';'), assembled in memory and written
+ * in large blocks (a small block on the stack when memory is short). */
 void cov_record_csv_rows(FILE *out, const cov_record_src *src, size_t from, size_t to,
                          unsigned parts);
 /* The field names of parts in output order: writes up to cap of them into names and returns how
