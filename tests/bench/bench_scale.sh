@@ -70,6 +70,11 @@ scale() {
 
 status=0
 # BENCH_SCALE_DIR: reuse (or keep) the generated archives there instead of a fresh temporary copy.
+# The links made to them live in the temporary directory, so a relative directory is made absolute.
+case ${BENCH_SCALE_DIR:-} in
+''|/*) ;;
+*) BENCH_SCALE_DIR=$(pwd)/$BENCH_SCALE_DIR ;;
+esac
 if [ -n "${BENCH_SCALE_DIR:-}" ] && [ -f "$BENCH_SCALE_DIR/wide.db" ]; then
   cp "$BENCH_SCALE_DIR/wide.graph" "$tmp/wide.graph" && ln -s "$BENCH_SCALE_DIR/wide.db" "$tmp/wide.db"
 else
