@@ -12,11 +12,6 @@
 
 #include "coverage/assess/assess.h"
 
-/* Residual diagnostics (kurtosis, heteroscedasticity, replicates) use every complete run up to
- * this many, and a fixed-seed random subsample of this size above it: 20,000 rows pin the excess
- * kurtosis to about +-0.035 under normal noise (SE sqrt(24/m)), far finer than the flag needs. */
-#define COV_DIAG_MAX_ROWS 20000
-#define COV_DIAG_SEED 20261202UL
 /* One value in at least this share of runs: a mostly-constant outcome, whose residual SD says
  * little about the noise of the rest (a count that is zero in most runs). */
 #define COV_MODE_SHARE 0.5
@@ -30,237 +25,10 @@
 #define COV_HETERO_RATIO 3.0
 /* Fewer residual degrees of freedom than this: sigma's 95% interval spans a factor above 2. */
 #define COV_MIN_DF 10
-/* Rows per block of the global cross-products: 128 rows of 80 columns fit the L2 cache. */
-#define COV_MOMENT_BLOCK 128
 /* A lack-of-fit test significant at this level is reported in the noise note. */
 #define COV_LOF_P 0.01
 
-/* How one variable enters a claim's regression: cols columns (level sets: L - 1 dummies against
- * level 0; an outcome level set: its level index as one column). */
-typedef struct {
-    size_t var;
-    size_t cols;
-    int dummies;
-} term;
 
-/* A claim's variables in regression order: the adjustment set, the treatment, the outcome. */
-typedef struct {
-    term *terms;
-    size_t n_terms;
-    size_t k, t;         /* predictor columns, treatment columns */
-} layout;
-
-/* Shared across claims: the global cross-products of every complete variable (the fast path). */
-typedef struct {
-    const cov_graph *g;
-    const cov_data *d;
-    pw_moments *global;  /* NULL when no variable is complete */
-    int global_borrowed; /* global is the shared pass's (cov_xshare), not ours to free */
-    size_t *base;        /* first global column of each variable; SIZE_MAX when not included */
-    size_t *index_col;   /* level-set outputs: global column of the level index; SIZE_MAX */
-    size_t *sample;      /* runs for diagnostics on the fast path */
-    size_t n_sample;
-    double *mode_share;  /* per complete variable: share of its most common value on the sample */
-    /* The sampled runs of every complete variable, gathered once into short contiguous columns
-     * (rows 0 .. n_sample - 1): the diagnostics of each claim then read memory in order instead of
-     * jumping through million-row columns. */
-    cov_data sampled;
-    size_t *sample_ids;  /* 0 .. n_sample - 1 */
-    /* Scratch reused from claim to claim: large blocks allocated afresh each time cost more in
-     * page faults than the diagnostics themselves. */
-    double *ws_y, *ws_fit, *ws_keys;
-    size_t ws_rows, ws_kk;
-    cov_seed_groups seeds;    /* each run's seed block (seedblock.c); group NULL when none */
-    cov_seed_fit seed_global; /* the global cross-products demeaned by seed block */
-    cov_shape_cache *shape;   /* each treatment's shape basis on the sample (shape.c) */
-} assess_ctx;
-
-static int is_recorded(const cov_data *d, size_t v)
-{
-    return d->col[v] != NULL;
-}
-
-static size_t dummy_cols(const cov_var *v)
-{
-    return v->type == COV_LEVELS && v->n_levels >= 2 ? v->n_levels - 1 : 1;
-}
-
-static void fill_term(const term *tm, double x, double *dst)
-{
-    if (!tm->dummies) {
-        dst[0] = x;
-        return;
-    }
-    for (size_t l = 1; l <= tm->cols; l++) dst[l - 1] = x == (double)l ? 1.0 : 0.0;
-}
-
-/* The k + 1 regression values of run i in layout order. */
-static void fill_row(const cov_data *d, const layout *lay, size_t i, double *row)
-{
-    size_t c = 0;
-    for (size_t j = 0; j < lay->n_terms; j++) {
-        fill_term(&lay->terms[j], d->col[lay->terms[j].var][i], row + c);
-        c += lay->terms[j].cols;
-    }
-}
-
-static int row_complete(const cov_data *d, const layout *lay, size_t i)
-{
-    for (size_t j = 0; j < lay->n_terms; j++)
-        if (isnan(d->col[lay->terms[j].var][i])) return 0;
-    return 1;
-}
-
-/* Selection sampling (Knuth, TAOCP vol. 2, sec. 3.4.2, Algorithm S): want of the remaining
- * candidates, each kept with probability want / left, gives a uniform sample in run order. */
-static int sample_keep(gsl_rng *r, size_t *want, size_t left)
-{
-    if (*want == 0) return 0;
-    if ((double)left * gsl_rng_uniform(r) < (double)*want) {
-        (*want)--;
-        return 1;
-    }
-    return 0;
-}
-
-static void ctx_free(assess_ctx *x)
-{
-    if (!x->global_borrowed) pw_moments_free(x->global);
-    free(x->base);
-    free(x->index_col);
-    free(x->sample);
-    free(x->mode_share);
-    if (x->sampled.col != NULL)
-        for (size_t v = 0; v < x->sampled.n_vars; v++) free(x->sampled.col[v]);
-    free(x->sampled.col);
-    free(x->sample_ids);
-    free(x->ws_y);
-    free(x->ws_fit);
-    free(x->ws_keys);
-    cov_seed_groups_free(&x->seeds);
-    cov_seed_fit_free(&x->seed_global);
-    cov_shape_cache_free(x->shape);
-}
-
-/* Make the scratch hold rows x kk keys. */
-static int ctx_scratch(assess_ctx *x, size_t rows, size_t kk)
-{
-    if (rows <= x->ws_rows && kk <= x->ws_kk) return COV_OK;
-    rows = rows > x->ws_rows ? rows : x->ws_rows;
-    kk = kk > x->ws_kk ? kk : x->ws_kk;
-    free(x->ws_y);
-    free(x->ws_fit);
-    free(x->ws_keys);
-    x->ws_y = malloc((rows ? rows : 1) * sizeof *x->ws_y);
-    x->ws_fit = malloc((rows ? rows : 1) * sizeof *x->ws_fit);
-    x->ws_keys = malloc((rows ? rows : 1) * (kk ? kk : 1) * sizeof *x->ws_keys);
-    x->ws_rows = x->ws_kk = 0;
-    if (x->ws_y == NULL || x->ws_fit == NULL || x->ws_keys == NULL) return COV_ENOMEM;
-    x->ws_rows = rows;
-    x->ws_kk = kk;
-    return COV_OK;
-}
-
-/* Run i's values in the global columns (K of them); always complete. */
-static int global_row(void *ctx, size_t i, double *row)
-{
-    const assess_ctx *x = ctx;
-    for (size_t v = 0; v < x->g->n_vars; v++) {
-        if (x->base[v] == SIZE_MAX) continue;
-        double val = x->d->col[v][i];
-        term tm = {v, dummy_cols(&x->g->vars[v]), x->g->vars[v].type == COV_LEVELS};
-        fill_term(&tm, val, row + x->base[v]);
-        if (x->index_col[v] != SIZE_MAX) row[x->index_col[v]] = val;
-    }
-    return 1;
-}
-
-/* Accumulate the global centred cross-products of every recorded variable without missing cells,
- * in one pass over the runs, and draw the fixed-seed diagnostic sample. */
-static int ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d,
-                    const cov_xshare *shared)
-{
-    memset(x, 0, sizeof *x);
-    x->g = g;
-    x->d = d;
-    x->base = malloc((g->n_vars ? g->n_vars : 1) * sizeof *x->base);
-    x->index_col = malloc((g->n_vars ? g->n_vars : 1) * sizeof *x->index_col);
-    if (x->base == NULL || x->index_col == NULL) return COV_ENOMEM;
-    size_t K = 0;
-    for (size_t v = 0; v < g->n_vars; v++) {
-        x->base[v] = x->index_col[v] = SIZE_MAX;
-        if (!is_recorded(d, v) || d->n_missing[v] > 0) continue;
-        x->base[v] = K;
-        K += dummy_cols(&g->vars[v]);
-        if (g->vars[v].type == COV_LEVELS && g->vars[v].role == COV_OUTPUT) x->index_col[v] = K++;
-    }
-    size_t n = d->n_runs;
-    size_t m = n < COV_DIAG_MAX_ROWS ? n : COV_DIAG_MAX_ROWS;
-    x->sample = malloc((m ? m : 1) * sizeof *x->sample);
-    if (x->sample == NULL) return COV_ENOMEM;
-    if (n <= COV_DIAG_MAX_ROWS) {
-        for (size_t i = 0; i < n; i++) x->sample[i] = i;
-    } else {
-        gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
-        if (r == NULL) return COV_ENOMEM;
-        gsl_rng_set(r, COV_DIAG_SEED);
-        size_t want = m, got = 0;
-        for (size_t i = 0; i < n; i++)
-            if (sample_keep(r, &want, n - i)) x->sample[got++] = i;
-        gsl_rng_free(r);
-    }
-    x->n_sample = m;
-    if ((x->shape = cov_shape_cache_new(g->n_vars, m)) == NULL) return COV_ENOMEM;
-    if (K == 0 || n == 0) return COV_OK;
-    /* The share of each complete variable's most common value on the sample: the outcome check
-     * of the fast path, and a variable whose values are all distinct rules out replicates. */
-    x->mode_share = malloc(g->n_vars * sizeof *x->mode_share);
-    x->sampled.col = calloc(g->n_vars, sizeof *x->sampled.col);
-    x->sample_ids = malloc(m * sizeof *x->sample_ids);
-    if (x->mode_share == NULL || x->sampled.col == NULL || x->sample_ids == NULL) return COV_ENOMEM;
-    x->sampled.n_vars = g->n_vars;
-    x->sampled.n_runs = m;
-    for (size_t r = 0; r < m; r++) x->sample_ids[r] = r;
-    for (size_t v = 0; v < g->n_vars; v++) {
-        x->mode_share[v] = NAN;
-        if (x->base[v] == SIZE_MAX) continue;
-        double *sc = x->sampled.col[v] = malloc(m * sizeof *sc);
-        if (sc == NULL) return COV_ENOMEM;
-        for (size_t r = 0; r < m; r++) sc[r] = d->col[v][x->sample[r]];
-        if (pw_mode_share(sc, m, &x->mode_share[v]) == PW_ENOMEM) return COV_ENOMEM;
-    }
-    /* The shared pass summed the same columns in the same blocks (archive/xshare.c). */
-    _Static_assert(COV_MOMENT_BLOCK == COV_XSHARE_BLOCK, "the shared pass's blocks are ours");
-    int same = shared != NULL && shared->global != NULL && shared->k == K;
-    for (size_t v = 0; same && v < g->n_vars; v++)
-        same = shared->base[v] == x->base[v] && shared->index_col[v] == x->index_col[v];
-    if (same) {
-        x->global = shared->global;
-        x->global_borrowed = 1;
-    } else if (pw_moments_alloc(K, &x->global) != PW_OK) {
-        return COV_ENOMEM;
-    }
-    double *block = malloc(COV_MOMENT_BLOCK * K * sizeof *block);
-    if (block == NULL) return COV_ENOMEM;
-    size_t nb = 0;
-    for (size_t i = 0; i < n && !same; i++) {
-        global_row(x, i, block + nb * K);
-        if (++nb == COV_MOMENT_BLOCK || i + 1 == n) {
-            if (pw_moments_add_block(x->global, block, nb) != PW_OK) {
-                free(block);
-                return COV_ENOMEM;
-            }
-            nb = 0;
-        }
-    }
-    free(block);
-    /* Runs that share seeds: the same cross-products demeaned by seed block (seedblock.c). */
-    if (cov_seed_groups_init(d, &x->seeds) != COV_OK) return COV_ENOMEM;
-    if (x->seeds.group != NULL &&
-        cov_seed_within(&x->seeds, n, K, global_row, x, &x->seed_global) != COV_OK)
-        return COV_ENOMEM;
-    return COV_OK;
-}
 
 /* Set when a note could not be stored: cov_assess then fails with COV_ENOMEM rather than hand
  * out an assessment that lacks a caution. (shoal assesses from one thread.) */
@@ -346,7 +114,7 @@ static void decide(cov_assessment *a, const cov_claim *c, double target)
 }
 
 /* Before any usable run: plan from the declared noise SD and the declared treatment domain. */
-static int assess_planning(const cov_graph *g, const cov_claim *c, const layout *lay,
+static int assess_planning(const cov_graph *g, const cov_claim *c, const assess_layout *lay,
                            const cov_power_options *opt, double alpha, cov_assessment *a)
 {
     const cov_var *y = &g->vars[c->outcome], *x = &g->vars[c->treatment];
@@ -432,50 +200,8 @@ static int assess_planning(const cov_graph *g, const cov_claim *c, const layout 
     return COV_OK;
 }
 
-static int build_layout(const cov_graph *g, const cov_claim *c, layout *lay)
-{
-    lay->n_terms = c->n_cond + 2;
-    lay->terms = calloc(lay->n_terms, sizeof *lay->terms);
-    if (lay->terms == NULL) return COV_ENOMEM;
-    lay->k = 0;
-    for (size_t j = 0; j < lay->n_terms; j++) {
-        size_t v = j < c->n_cond ? c->cond[j] : (j == c->n_cond ? c->treatment : c->outcome);
-        term *tm = &lay->terms[j];
-        tm->var = v;
-        int outcome = j == lay->n_terms - 1;
-        tm->dummies = !outcome && g->vars[v].type == COV_LEVELS && g->vars[v].n_levels >= 2;
-        tm->cols = tm->dummies ? g->vars[v].n_levels - 1 : 1;
-        if (!outcome) lay->k += tm->cols;
-    }
-    lay->t = lay->terms[c->n_cond].cols;
-    return COV_OK;
-}
-
-/* Map the layout's columns to the global cross-product columns (fast path). */
-static void global_index(const assess_ctx *x, const layout *lay, size_t *idx)
-{
-    size_t c = 0;
-    for (size_t j = 0; j < lay->n_terms; j++) {
-        const term *tm = &lay->terms[j];
-        if (j == lay->n_terms - 1 && x->index_col[tm->var] != SIZE_MAX) {
-            idx[c++] = x->index_col[tm->var];
-            continue;
-        }
-        for (size_t l = 0; l < tm->cols; l++) idx[c++] = x->base[tm->var] + l;
-    }
-}
-
 /* A claim whose outcome given the treatment and adjustment set was fitted: everything else. */
-/* A column whose centred sum of squares is within rounding of zero takes one value: a constant
- * 0.12 summed in binary leaves deviations near 1e-17, so "> 0" alone would call it varying. The
- * cut is 1e-12 of the mean's magnitude in SD, far below any spread a simulator records. */
-static int moments_constant(const pw_moments *m, size_t i)
-{
-    double ss = pw_moments_at(m, i, i), scale = 1e-12 * fabs(m->mean[i]);
-    return !(ss > m->n * scale * scale);
-}
-
-static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
+static int assess_fitted(assess_ctx *x, const cov_claim *c, const assess_layout *lay,
                          const pw_moments *m, const size_t *idx, const cov_data *d,
                          const size_t *rows, size_t n_rows, int fast,
                          const cov_seed_fit *seeds, const cov_power_options *opt, double alpha,
@@ -495,8 +221,8 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
      * like these can test it, so it is untestable on these runs, never ample and never thin. */
     int x_constant = 1;
     for (size_t a0 = k - t; a0 < k; a0++)
-        if (!moments_constant(m, idx[a0])) x_constant = 0;
-    int y_constant = moments_constant(m, idx[k]);
+        if (!cov_assess_moments_constant(m, idx[a0])) x_constant = 0;
+    int y_constant = cov_assess_moments_constant(m, idx[k]);
     if ((y_constant || x_constant) && n_rows > 0) {
         /* A treatment that never varied is named first: an outcome that did not move while
          * nothing moved it says nothing, and new runs can set an input treatment (the plan does). */
@@ -660,7 +386,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     /* Residual diagnostics on the diagnostic rows. */
     size_t mrows = n_rows, kk = lay->n_terms - 1;
     row = malloc((k + 1) * sizeof *row);
-    if (row == NULL || ctx_scratch(x, mrows, kk) != COV_OK) {
+    if (row == NULL || cov_assess_ctx_scratch(x, mrows, kk) != COV_OK) {
         rc = COV_ENOMEM;
         goto fail;
     }
@@ -669,7 +395,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
     keys = x->ws_keys;
     for (size_t r = 0; r < mrows; r++) {
         size_t i = rows[r];
-        fill_row(d, lay, i, row);
+        cov_assess_fill_row(d, lay, i, row);
         double f = fit->intercept;
         for (size_t a0 = 0; a0 < k; a0++) f += fit->coef[a0] * row[a0];
         fitted[r] = f;
@@ -793,7 +519,7 @@ static int assess_fitted(assess_ctx *x, const cov_claim *c, const layout *lay,
         goto fail;
     }
     for (size_t r = 0; r < mrows; r++) {
-        fill_row(d, lay, rows[r], row);
+        cov_assess_fill_row(d, lay, rows[r], row);
         double *xr = Xd + r * p;
         size_t q = 0;
         xr[q++] = 1.0;
@@ -903,14 +629,14 @@ void cov_value_text(const cov_var *v, double x, char *buf, size_t size)
 /* A claim's complete rows for its seed blocks (seedblock.c). */
 typedef struct {
     const cov_data *d;
-    const layout *lay;
+    const assess_layout *lay;
 } claim_rows;
 
 static int claim_row(void *ctx, size_t i, double *row)
 {
     const claim_rows *cr = ctx;
-    if (!row_complete(cr->d, cr->lay, i)) return 0;
-    fill_row(cr->d, cr->lay, i, row);
+    if (!cov_assess_row_complete(cr->d, cr->lay, i)) return 0;
+    cov_assess_fill_row(cr->d, cr->lay, i, row);
     return 1;
 }
 
@@ -920,16 +646,16 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
 {
     const cov_graph *g = x->g;
     const cov_data *d = x->d;
-    layout lay = {0};
+    assess_layout lay = {0};
     size_t *idx = NULL, *rows = NULL;
     pw_moments *local = NULL;
     double *row = NULL;
     gsl_rng *r = NULL;
     cov_seed_fit sf = {NULL, 0, 0, 0};
-    int rc = build_layout(g, c, &lay);
+    int rc = cov_assess_build_layout(g, c, &lay);
     if (rc != COV_OK) goto fail;
     for (size_t j = 0; j < lay.n_terms; j++) {
-        if (!is_recorded(d, lay.terms[j].var)) {
+        if (!cov_assess_is_recorded(d, lay.terms[j].var)) {
             a->verdict = COV_BLIND;
             note_add(&a->reason, "'%s' is not in the archive", g->vars[lay.terms[j].var].name);
             goto fail;
@@ -945,7 +671,7 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
         g->vars[c->outcome].type == COV_LEVELS)
         fast = 0;
     if (fast) {
-        global_index(x, &lay, idx);
+        cov_assess_global_index(x, &lay, idx);
         a->n = d->n_runs;
         rc = assess_fitted(x, c, &lay, x->global, idx, &x->sampled, x->sample_ids, x->n_sample, 1,
                            &x->seed_global, opt, alpha, a);
@@ -953,7 +679,7 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
     }
     /* Complete cases of this claim: count them, then accumulate and sample in one more pass. */
     size_t n = 0;
-    for (size_t i = 0; i < d->n_runs; i++) n += (size_t)row_complete(d, &lay, i);
+    for (size_t i = 0; i < d->n_runs; i++) n += (size_t)cov_assess_row_complete(d, &lay, i);
     a->n = n;
     if (n < 2) {
         rc = assess_planning(g, c, &lay, opt, alpha, a);
@@ -968,10 +694,10 @@ static int assess_claim(assess_ctx *x, const cov_claim *c, const cov_power_optio
     if (pw_moments_alloc(lay.k + 1, &local) != PW_OK) goto fail;
     gsl_rng_set(r, COV_DIAG_SEED);
     for (size_t i = 0; i < d->n_runs; i++) {
-        if (!row_complete(d, &lay, i)) continue;
-        fill_row(d, &lay, i, row);
+        if (!cov_assess_row_complete(d, &lay, i)) continue;
+        cov_assess_fill_row(d, &lay, i, row);
         pw_moments_add(local, row);
-        if (sample_keep(r, &want, left--)) rows[n_rows++] = i;
+        if (cov_assess_sample_keep(r, &want, left--)) rows[n_rows++] = i;
     }
     claim_rows cr = {d, &lay};
     if (x->seeds.group != NULL &&
@@ -1007,7 +733,7 @@ int cov_assess_shared(const cov_graph *g, const cov_claims *c, const cov_data *d
                         "0 and 1, got %g and %g", opt->alpha, opt->target);
     cov_assessments *as = calloc(1, sizeof *as);
     assess_ctx x;
-    int rc = ctx_init(&x, g, d, shared);
+    int rc = cov_assess_ctx_init(&x, g, d, shared);
     if (as == NULL || rc != COV_OK) {
         rc = COV_ENOMEM;
         goto fail;
@@ -1050,11 +776,11 @@ int cov_assess_shared(const cov_graph *g, const cov_claims *c, const cov_data *d
     }
     rc = cov_seed_outcomes(g, x.global, &x.seed_global, x.base, x.index_col, &as->seed_outcome);
     if (rc != COV_OK) goto fail;
-    ctx_free(&x);
+    cov_assess_ctx_free(&x);
     *out = as;
     return COV_OK;
 fail:
-    ctx_free(&x);
+    cov_assess_ctx_free(&x);
     cov_assessments_free(as);
     if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory assessing the claims");
     return rc;

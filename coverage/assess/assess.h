@@ -5,6 +5,8 @@
 
 #include <stdio.h>
 
+#include <gsl/gsl_rng.h>
+
 #include "coverage/archive/archive.h"
 
 /* cov_assess with the runs' cross-products already summed by cov_xshare_build (NULL: sum them
@@ -212,5 +214,81 @@ int cov_size_claim(cov_assessment *a, const pw_design *d, double sigma_lo, doubl
  * failure of the formula). */
 int cov_assess_noise(const cov_claim_rows *cr, const cov_power_options *opt, size_t claim,
                      cov_assessment *a, pw_design *dz);
+
+/* ---- what the claims of one assessment share (context.c) ------------------------------------ */
+
+/* Residual diagnostics (kurtosis, heteroscedasticity, replicates) use every complete run up to
+ * this many, and a fixed-seed random subsample of this size above it: 20,000 rows pin the excess
+ * kurtosis to about +-0.035 under normal noise (SE sqrt(24/m)), far finer than the flag needs. */
+#define COV_DIAG_MAX_ROWS 20000
+#define COV_DIAG_SEED 20261202UL
+/* Rows per block of the global cross-products: 128 rows of 80 columns fit the L2 cache. */
+#define COV_MOMENT_BLOCK 128
+
+/* How one variable enters a claim's regression: cols columns (level sets: L - 1 dummies against
+ * level 0; an outcome level set: its level index as one column). */
+typedef struct {
+    size_t var;
+    size_t cols;
+    int dummies;
+} assess_term;
+
+/* A claim's variables in regression order: the adjustment set, the treatment, the outcome. */
+typedef struct {
+    assess_term *terms;
+    size_t n_terms;
+    size_t k, t;         /* predictor columns, treatment columns */
+} assess_layout;
+
+/* Shared across claims: the global cross-products of every complete variable (the fast path). */
+typedef struct {
+    const cov_graph *g;
+    const cov_data *d;
+    pw_moments *global;  /* NULL when no variable is complete */
+    int global_borrowed; /* global is the shared pass's (cov_xshare), not ours to free */
+    size_t *base;        /* first global column of each variable; SIZE_MAX when not included */
+    size_t *index_col;   /* level-set outputs: global column of the level index; SIZE_MAX */
+    size_t *sample;      /* runs for diagnostics on the fast path */
+    size_t n_sample;
+    double *mode_share;  /* per complete variable: share of its most common value on the sample */
+    /* The sampled runs of every complete variable, gathered once into short contiguous columns
+     * (rows 0 .. n_sample - 1): the diagnostics of each claim then read memory in order instead of
+     * jumping through million-row columns. */
+    cov_data sampled;
+    size_t *sample_ids;  /* 0 .. n_sample - 1 */
+    /* Scratch reused from claim to claim: large blocks allocated afresh each time cost more in
+     * page faults than the diagnostics themselves. */
+    double *ws_y, *ws_fit, *ws_keys;
+    size_t ws_rows, ws_kk;
+    cov_seed_groups seeds;    /* each run's seed block (seedblock.c); group NULL when none */
+    cov_seed_fit seed_global; /* the global cross-products demeaned by seed block */
+    cov_shape_cache *shape;   /* each treatment's shape basis on the sample (shape.c) */
+} assess_ctx;
+
+/* Whether d records variable v (its column exists). */
+int cov_assess_is_recorded(const cov_data *d, size_t v);
+/* The regression columns of v: L - 1 dummies for a level set, else 1. */
+size_t cov_assess_dummy_cols(const cov_var *v);
+/* The k + 1 regression values of run i of d in lay's order. */
+void cov_assess_fill_row(const cov_data *d, const assess_layout *lay, size_t i, double *row);
+/* Whether run i of d has a value of every variable of lay. */
+int cov_assess_row_complete(const cov_data *d, const assess_layout *lay, size_t i);
+/* Selection sampling (Knuth, TAOCP vol. 2, sec. 3.4.2, Algorithm S): 1 when the next of left
+ * candidates is kept (then *want falls by one). */
+int cov_assess_sample_keep(gsl_rng *r, size_t *want, size_t left);
+/* Set up x for g and d: the global cross-products (borrowed from shared when it summed the same
+ * columns, else summed here), the diagnostic sample, the seed blocks. COV_OK or COV_ENOMEM (then
+ * cov_assess_ctx_free still frees what was made). */
+int cov_assess_ctx_init(assess_ctx *x, const cov_graph *g, const cov_data *d,
+                        const cov_xshare *shared);
+void cov_assess_ctx_free(assess_ctx *x);
+/* Make x's scratch hold rows x kk keys. COV_OK or COV_ENOMEM. */
+int cov_assess_ctx_scratch(assess_ctx *x, size_t rows, size_t kk);
+/* Claim c's regression layout: its adjustment set, treatment, outcome. COV_OK or COV_ENOMEM. */
+int cov_assess_build_layout(const cov_graph *g, const cov_claim *c, assess_layout *lay);
+/* Map lay's columns to x's global cross-product columns (fast path). */
+void cov_assess_global_index(const assess_ctx *x, const assess_layout *lay, size_t *idx);
+/* Whether column i of m takes one value (its centred sum of squares within rounding of zero). */
+int cov_assess_moments_constant(const pw_moments *m, size_t i);
 
 #endif
