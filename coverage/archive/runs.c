@@ -204,6 +204,10 @@ int cov_runs_identify(cov_data *d, const cov_graph *g, unsigned char *kept, cov_
     }
     d->n_conflicts = 0;
     for (size_t i = 0; i < n; i++) d->n_conflicts += conflict[i];
+    /* Freed as soon as they are read: the passes below hold the most memory of the whole read. */
+    free(keep);
+    free(conflict);
+    keep = conflict = NULL;
 
     /* Configurations and how often each was run. */
     config_of = malloc((n + 1) * sizeof *config_of);
@@ -229,6 +233,8 @@ int cov_runs_identify(cov_data *d, const cov_graph *g, unsigned char *kept, cov_
     hin = NULL;
     d->n_replicated = 0;
     for (size_t c = 0; c < d->n_configs; c++) d->n_replicated += config_runs[c] >= 2;
+    free(config_runs);
+    config_runs = NULL;
 
     /* Seeds, and those that more than one configuration used. */
     d->n_seeds = d->n_shared_seeds = 0;
