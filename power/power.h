@@ -136,6 +136,9 @@ int pw_moments_of_block(const double *rows, size_t nb, pw_moments *out);
 int pw_moments_merge(pw_moments *a, const pw_moments *b);
 /* The centred cross-product of columns i and j of m, either order. */
 double pw_moments_at(const pw_moments *m, size_t i, size_t j);
+/* sum_i a_i b_i over n entries in four partial sums, so that the additions do not wait on one
+ * another; always the same order, so the same bits on every call. */
+double pw_dot(const double *a, const double *b, size_t n);
 
 /* A regression solved from centred cross-products: y on k predictors and an intercept, where the
  * last t predictors are the treatment (t = 1 for a single column, L - 1 dummies for a level set).

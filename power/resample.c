@@ -49,21 +49,6 @@ static double wild_weight(gsl_rng *r, int weights)
     return u < 0.5 ? -1.0 : 1.0;
 }
 
-/* sum_i x_i s_i in four partial sums, so that the additions do not wait on one another. */
-static double dot4(const double *x, const double *s, size_t n)
-{
-    double s0 = 0, s1 = 0, s2 = 0, s3 = 0;
-    size_t i = 0;
-    for (; i + 4 <= n; i += 4) {
-        s0 += x[i] * s[i];
-        s1 += x[i + 1] * s[i + 1];
-        s2 += x[i + 2] * s[i + 2];
-        s3 += x[i + 3] * s[i + 3];
-    }
-    for (; i < n; i++) s0 += x[i] * s[i];
-    return (s0 + s1) + (s2 + s3);
-}
-
 int pw_wild_draw(const pw_hcfit *f, const double *X, const double *c, int robust, int weights,
                  size_t B, unsigned long seed, pw_wild **out)
 {
@@ -144,7 +129,7 @@ int pw_wild_draw(const pw_hcfit *f, const double *X, const double *c, int robust
          *   sum_i q_i^2 e_i^2 = sum_i q_i^2 u_i^2 - 2 bu'g + bu' (sum_i q_i^2 x_i x_i') bu,
          *   e'e = u'u - (X'u)'bu,
          * where u_i^2 = e~_i^2 for Rademacher weights (v_i^2 = 1). */
-        for (size_t a = 0; a < 2 * p; a++) xtu[a] = dot4(cols + a * n, v, n);
+        for (size_t a = 0; a < 2 * p; a++) xtu[a] = pw_dot(cols + a * n, v, n);
         double uu = c1, quu = c0;
         if (weights == PW_WILD_MAMMEN) {
             uu = quu = 0;

@@ -348,3 +348,17 @@ int pw_moments_merge(pw_moments *a, const pw_moments *b)
     a->n = n;
     return PW_OK;
 }
+
+double pw_dot(const double *a, const double *b, size_t n)
+{
+    double s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    size_t i = 0;
+    for (; i + 4 <= n; i += 4) {
+        s0 += a[i] * b[i];
+        s1 += a[i + 1] * b[i + 1];
+        s2 += a[i + 2] * b[i + 2];
+        s3 += a[i + 3] * b[i + 3];
+    }
+    for (; i < n; i++) s0 += a[i] * b[i];
+    return (s0 + s1) + (s2 + s3);
+}

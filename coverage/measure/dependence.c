@@ -79,21 +79,6 @@ typedef struct {
     double n, sa, sb, saa, sbb, sab;
 } pair_sums;
 
-/* Dot product with four accumulators, for instruction-level parallelism. */
-static double dot(const double *a, const double *b, size_t m)
-{
-    double s0 = 0, s1 = 0, s2 = 0, s3 = 0;
-    size_t i = 0;
-    for (; i + 4 <= m; i += 4) {
-        s0 += a[i] * b[i];
-        s1 += a[i + 1] * b[i + 1];
-        s2 += a[i + 2] * b[i + 2];
-        s3 += a[i + 3] * b[i + 3];
-    }
-    for (; i < m; i++) s0 += a[i] * b[i];
-    return (s0 + s1) + (s2 + s3);
-}
-
 /* All numeric pairs in one blocked pass. The values are shifted by the middle of their declared
  * domain and divided by its width (r is unchanged by such maps), which keeps the one-pass
  * co-moments well conditioned for data that spread over the domain. */
@@ -133,7 +118,7 @@ static int numeric_correlations(const cov_graph *g, const cov_data *d, const siz
                     s->n += (double)m;
                     s->sa += csum[a], s->saa += csq[a];
                     s->sb += csum[b], s->sbb += csq[b];
-                    s->sab += dot(ua, ub, m);
+                    s->sab += pw_dot(ua, ub, m);
                 } else {
                     for (size_t i = 0; i < m; i++)
                         if (isfinite(ua[i]) && isfinite(ub[i])) {
