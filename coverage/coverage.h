@@ -174,6 +174,8 @@ typedef struct {
 
 /* Derive every effect and absence claim that g implies (see README.md, "Claims"). */
 int cov_claims_derive(const cov_graph *g, cov_claims **out, cov_error *err);
+/* Free claims that cov_claims_derive made (only those: their adjustment sets live in blocks the
+ * derivation owns, not in each claim); NULL is allowed. */
 void cov_claims_free(cov_claims *c);
 
 /* ---------------------------------------------------------------------------------------------
