@@ -18,14 +18,10 @@ from statsmodels.stats.anova import anova_lm
 shoal = os.environ.get("SHOAL", "build/shoal")
 SEED = 20261205
 N = 360
-fails = 0
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import refcheck  # noqa: E402
 
-
-def check(ok, msg):
-    global fails
-    print("%s: %s" % ("PASS" if ok else "FAIL", msg))
-    if not ok:
-        fails += 1
+check = refcheck.report
 
 
 def grouped(c):
@@ -176,5 +172,5 @@ with tempfile.TemporaryDirectory() as tmp:
           "three-valued treatment: lack of fit F %s, p %s vs statsmodels anova_lm(line, means) "
           "F %.10g, p %.6g" % (lof and lof["f"], lof and lof["p"], f3, p3))
 
-print("ref_forms: %d failed" % fails)
-sys.exit(1 if fails else 0)
+print("ref_forms: %d failed" % refcheck.failures)
+sys.exit(1 if refcheck.failures else 0)

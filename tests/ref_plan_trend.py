@@ -17,14 +17,10 @@ from scipy import stats
 
 shoal = os.environ.get("SHOAL", "build/shoal")
 SEED = 20261205
-fails = 0
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import refcheck  # noqa: E402
 
-
-def check(ok, msg):
-    global fails
-    print("%s: %s" % ("PASS" if ok else "FAIL", msg))
-    if not ok:
-        fails += 1
+check = refcheck.report
 
 
 POS = np.array([30.0, 40.0, 50.0, 60.0, 70.0])
@@ -97,4 +93,4 @@ with tempfile.TemporaryDirectory() as tmp:
               "plan of %d runs: predicted power %s vs the trend test's power %.10f on the archive "
               "and the planned runs (numpy/scipy, abs 1e-6)" % (budget, pc["power_after"], p1))
 
-sys.exit(1 if fails else 0)
+sys.exit(1 if refcheck.failures else 0)

@@ -21,14 +21,10 @@ from statsmodels.stats.anova import anova_lm
 
 shoal = os.environ.get("SHOAL", "build/shoal")
 SEED = 20261205
-fails = 0
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import refcheck  # noqa: E402
 
-
-def check(ok, msg):
-    global fails
-    print("%s: %s" % ("PASS" if ok else "FAIL", msg))
-    if not ok:
-        fails += 1
+check = refcheck.report
 
 
 def rel(a, b):
@@ -233,4 +229,4 @@ with tempfile.TemporaryDirectory() as tmp:
     check(ok, "the plan from the declared noise predicts power %s after %s runs; scipy at the "
           "planned runs' own lambda: %s (abs 0.02)" % (pa, N, pr))
 
-sys.exit(1 if fails else 0)
+sys.exit(1 if refcheck.failures else 0)
