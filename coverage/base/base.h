@@ -16,6 +16,9 @@
 void cov_emit_json_string(FILE *f, const char *s);
 /* Write a JSON number; NAN and infinities become null, since JSON has no such numbers. */
 void cov_emit_json_number(FILE *f, double x);
+/* Write ', "key": ' and x as cov_emit_json_number writes it: one member of a JSON object after
+ * its first. key is written as it is (a plain field name, nothing to escape). */
+void cov_emit_json_num_field(FILE *f, const char *key, double x);
 /* Write s as one RFC 4180 CSV field: quoted when it holds a comma, quote, CR or LF; a text that a
  * spreadsheet would run as a formula (starting with =, +, -, @, tab or CR) gets a leading
  * apostrophe. Numbers go through cov_emit_csv_number and are never prefixed. */

@@ -32,6 +32,12 @@ void cov_emit_json_number(FILE *f, double x)
     else fprintf(f, "%.10g", x);
 }
 
+void cov_emit_json_num_field(FILE *f, const char *key, double x)
+{
+    fprintf(f, ", \"%s\": ", key);
+    cov_emit_json_number(f, x);
+}
+
 /* Cells a spreadsheet would run as a formula start with one of these (OWASP, "CSV Injection":
  * =, +, -, @, tab and carriage return); such a cell gets a leading apostrophe, the usual practice,
  * which spreadsheets show as text. */

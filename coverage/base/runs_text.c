@@ -95,16 +95,11 @@ void cov_seed_outcomes_json(FILE *f, const cov_graph *g, const cov_claims *c,
         fprintf(f, ", \"blocks\": %zu, \"unblocked_runs\": %zu, \"share\": ", sh->blocks,
                 sh->unblocked);
         cov_emit_json_number(f, sh->share);
-        fputs(", \"variance_drop\": ", f);
-        cov_emit_json_number(f, sh->var_drop);
-        fputs(", \"f\": ", f);
-        cov_emit_json_number(f, sh->f);
-        fputs(", \"df1\": ", f);
-        cov_emit_json_number(f, sh->df1);
-        fputs(", \"df2\": ", f);
-        cov_emit_json_number(f, sh->df2);
-        fputs(", \"p\": ", f);
-        cov_emit_json_number(f, sh->p);
+        cov_emit_json_num_field(f, "variance_drop", sh->var_drop);
+        cov_emit_json_num_field(f, "f", sh->f);
+        cov_emit_json_num_field(f, "df1", sh->df1);
+        cov_emit_json_num_field(f, "df2", sh->df2);
+        cov_emit_json_num_field(f, "p", sh->p);
         fprintf(f, ", \"claims_using_blocks\": %zu}", claims_using_blocks(c, as, v));
     }
     fputc(']', f);

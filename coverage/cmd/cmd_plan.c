@@ -224,12 +224,9 @@ static void print_json(FILE *out, const cov_options *o, const cov_graph *g, cons
                 "\"runs_now\": ", mode_word(it), it->from_noise ? "true" : "false",
                 it->seed_unblocked ? "true" : "false");
         cov_emit_json_number(out, it->n_now);
-        fputs(", \"power_now\": ", out);
-        cov_emit_json_number(out, it->power_now);
-        fputs(", \"runs_after\": ", out);
-        cov_emit_json_number(out, it->n_after);
-        fputs(", \"power_after\": ", out);
-        cov_emit_json_number(out, it->power_after);
+        cov_emit_json_num_field(out, "power_now", it->power_now);
+        cov_emit_json_num_field(out, "runs_after", it->n_after);
+        cov_emit_json_num_field(out, "power_after", it->power_after);
         fprintf(out, ", \"reaches\": %s, \"unreachable\": %s", it->reaches ? "true" : "false",
                 it->unreachable ? "true" : "false");
         fputs(", \"verdict_reason\": ", out);

@@ -258,8 +258,7 @@ static void print_json(const cov_graph *g, const cov_claims *cl, const cov_asses
     cov_runs_json(out, d);
     fputs(", \"seed_blocks\": ", out);
     cov_seed_outcomes_json(out, g, cl, as);
-    fputs(", \"alpha\": ", out);
-    cov_emit_json_number(out, p->alpha);
+    cov_emit_json_num_field(out, "alpha", p->alpha);
     fprintf(out, ", \"family\": \"%s\", \"family_size\": %zu, \"sides\": \"%s\", "
             "\"target_power\": ", p->bonferroni ? "bonferroni" : "none", as->n_testable,
             p->one_sided ? "one-sided where signed" : "two-sided");

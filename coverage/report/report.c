@@ -137,10 +137,8 @@ static void json_round(FILE *out, const cov_snapshot *r)
                  "\"untestable\": %lld, \"marginal_share\": ", r->n_runs, r->n_batches, r->n_ample,
             r->n_underpowered, r->n_blind);
     cov_emit_json_number(out, r->marginal_share);
-    fputs(", \"pairwise_share\": ", out);
-    cov_emit_json_number(out, r->pairwise_share);
-    fputs(", \"threeway_share\": ", out);
-    cov_emit_json_number(out, r->threeway_share);
+    cov_emit_json_num_field(out, "pairwise_share", r->pairwise_share);
+    cov_emit_json_num_field(out, "threeway_share", r->threeway_share);
     fputc('}', out);
 }
 
@@ -169,8 +167,7 @@ static void json_coverage(FILE *out, const cov_findings *f)
         const cov_marginal *mg = &cv->marginal[m];
         fprintf(out, "%s\n      {\"input\": ", m ? "," : "");
         cov_emit_json_string(out, cov_report_var(f, mg->var));
-        fputs(", \"share\": ", out);
-        cov_emit_json_number(out, mg->share);
+        cov_emit_json_num_field(out, "share", mg->share);
         fputs(", \"counts\": [", out);
         for (size_t b = 0; b < mg->n_bins; b++) fprintf(out, "%s%zu", b ? ", " : "", mg->count[b]);
         fputs("]}", out);
@@ -182,8 +179,7 @@ static void json_coverage(FILE *out, const cov_findings *f)
         cov_emit_json_string(out, cov_report_var(f, p->a));
         fputs(", \"b\": ", out);
         cov_emit_json_string(out, cov_report_var(f, p->b));
-        fputs(", \"share\": ", out);
-        cov_emit_json_number(out, p->share);
+        cov_emit_json_num_field(out, "share", p->share);
         fprintf(out, ", \"cells\": %zu, \"empty_cells\": %zu}", p->na * p->nb, p->n_empty);
     }
     fputs("],\n    \"dependence\": [", out);
@@ -195,8 +191,7 @@ static void json_coverage(FILE *out, const cov_findings *f)
             cov_emit_json_string(out, cov_report_var(f, cv->inputs[i]));
             fputs(", \"b\": ", out);
             cov_emit_json_string(out, cov_report_var(f, cv->inputs[j]));
-            fputs(", \"strength\": ", out);
-            cov_emit_json_number(out, dep);
+            cov_emit_json_num_field(out, "strength", dep);
             fprintf(out, ", \"flagged\": %s}",
                     isfinite(dep) && dep > cv->opt.dependence_threshold ? "true" : "false");
         }
@@ -297,17 +292,14 @@ void cov_report_summary_json(const cov_findings *f, const cov_report_info *info,
     if (o != NULL) {
         fputs("  \"options\": {\"alpha\": ", out);
         cov_emit_json_number(out, o->power.alpha);
-        fputs(", \"target_power\": ", out);
-        cov_emit_json_number(out, o->power.target);
+        cov_emit_json_num_field(out, "target_power", o->power.target);
         fprintf(out, ", \"family\": \"%s\", \"one_sided\": %s, \"min_runs\": %zu, \"bins\": %zu, "
                      "\"way\": %d,\n    \"need_marginal\": ", o->power.bonferroni ? "bonferroni" : "none",
                 o->power.one_sided ? "true" : "false", o->coverage.min_runs, o->coverage.bins,
                 o->coverage.way);
         cov_emit_json_number(out, o->need_marginal);
-        fputs(", \"need_pairwise\": ", out);
-        cov_emit_json_number(out, o->need_pairwise);
-        fputs(", \"need_threeway\": ", out);
-        cov_emit_json_number(out, o->need_threeway);
+        cov_emit_json_num_field(out, "need_pairwise", o->need_pairwise);
+        cov_emit_json_num_field(out, "need_threeway", o->need_threeway);
         fputs("},\n", out);
     }
     if (o != NULL) json_audit(out, f, info);
