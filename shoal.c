@@ -110,7 +110,7 @@ static const struct option_doc options[] = {
     {"seed", 1, OPT_SEED, C_POWER | C_COVERAGE | C_SURVEY | C_PLAN, "S",
      "seed for resampling, probes, subsamples, plan seeds"},
     {"threads", 1, OPT_THREADS, C_COVERAGE | C_SURVEY, "N",
-     "threads for shared summaries (default 1)"},
+     "threads for summaries and survey stages (default 1)"},
     {"output", 1, 'o', C_SURVEY | C_PLAN, "PATH",
      "survey: report directory; plan: CSV file"},
     {"history", 1, OPT_HISTORY, C_SURVEY | C_PLAN, "FILE",

@@ -164,4 +164,27 @@ int cov_seed_outcome_text(const cov_graph *g, const cov_claims *c, const cov_ass
 void cov_seed_outcomes_json(FILE *f, const cov_graph *g, const cov_claims *c,
                             const cov_assessments *as);
 
+/* ---- independent jobs on several threads (coverage/base/jobs.c) ------------------------------ */
+
+/* One job: run(arg, err) returns COV_OK or a status with err filled. It must only read what other
+ * jobs of the same call read, and write only what no other job reads or writes. */
+typedef int (*cov_job_fn)(void *arg, cov_error *err);
+typedef struct {
+    cov_job_fn run;
+    void *arg;
+    int rc;               /* set by cov_jobs_run: the job's status, or COV_JOB_SKIPPED */
+    cov_error err;        /* the job's own error (filled when rc is a failure) */
+} cov_job;
+/* rc of a job that did not run because a job before it in the list failed. */
+#define COV_JOB_SKIPPED (-1)
+#define COV_JOBS_MAX_THREADS 64
+/* Run jobs[0..n) on up to `threads` threads, the calling thread among them. With threads <= 1 the
+ * calling thread runs them in list order and stops at the first failure. With more, they are
+ * started in list order on whichever thread is free, and a job is skipped only when one before it
+ * in the list has failed. Either way the result is the status of the first job in list order that
+ * failed, with *err copied from that job (err may be NULL), or COV_OK when every job succeeded:
+ * the error does not depend on the thread count or on the order in which jobs finish. A thread
+ * that cannot be created leaves its jobs to the others; the runner allocates nothing. */
+int cov_jobs_run(cov_job *jobs, size_t n, int threads, cov_error *err);
+
 #endif

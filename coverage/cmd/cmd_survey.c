@@ -324,6 +324,73 @@ static int write_junit(const char *path, const cov_findings *f, const cov_report
     return COV_OK;
 }
 
+/* ---- the stages after the read --------------------------------------------------------------- */
+
+/* The claims' assessment, coverage, support and (with threads) the runs' digest only read the
+ * graph, the claims, the runs, the options and the shared cross-products, and each writes its own
+ * result, so with --threads 2 or more they run as independent jobs (coverage/base/jobs.c). Their
+ * order below is today's order of the one-thread survey, so the error reported when several fail
+ * is the same whatever the thread count. With one thread the digest is left to the snapshot, as
+ * before, and everything runs in the calling thread in that order. */
+typedef struct {
+    const cov_options *o;
+    FILE *note;           /* the stages' progress notes; NULL while they run concurrently */
+    const cov_graph *g;
+    const cov_claims *claims;
+    const cov_data *d;
+    const cov_xshare *xs;
+    cov_assessments *as;  /* each job writes its own result */
+    cov_coverage *cv;
+    cov_supports *sp;
+    char digest[65];      /* "" when not computed here */
+} survey_stages;
+
+static int stage_assess(void *arg, cov_error *err)
+{
+    survey_stages *s = arg;
+    step_note(s->o, s->note, "assessing the claims");
+    return cov_assess_shared(s->g, s->claims, s->d, &s->o->power, s->xs, &s->as, err);
+}
+
+static int stage_coverage(void *arg, cov_error *err)
+{
+    survey_stages *s = arg;
+    step_note(s->o, s->note, "measuring coverage and support");
+    return cov_coverage_measure(s->g, s->d, &s->o->coverage, &s->cv, err);
+}
+
+static int stage_support(void *arg, cov_error *err)
+{
+    survey_stages *s = arg;
+    return cov_support_measure_shared(s->g, s->claims, s->d, &s->o->coverage, s->xs, &s->sp, err);
+}
+
+static int stage_digest(void *arg, cov_error *err)
+{
+    survey_stages *s = arg;
+    (void)err;
+    cov_data_digest(s->g, s->d, s->digest);
+    return COV_OK;
+}
+
+/* Run the stages on up to `threads` threads. The results are s's whatever the status (NULL where
+ * a stage failed or did not run), for the caller to free. */
+static int survey_stages_run(survey_stages *s, int threads, cov_error *err)
+{
+    cov_job jobs[] = {{stage_assess, s, 0, {{0}, {0}}}, {stage_coverage, s, 0, {{0}, {0}}},
+                      {stage_support, s, 0, {{0}, {0}}}, {stage_digest, s, 0, {{0}, {0}}}};
+    size_t n = sizeof jobs / sizeof jobs[0];
+    if (threads <= 1) {
+        n--;   /* the digest stays where it was, in the snapshot */
+    } else {
+        /* Notes from concurrent jobs would come in any order: say both first. */
+        step_note(s->o, s->note, "assessing the claims");
+        step_note(s->o, s->note, "measuring coverage and support");
+        s->note = NULL;
+    }
+    return cov_jobs_run(jobs, n, threads, err);
+}
+
 /* ---- the command ----------------------------------------------------------------------------- */
 
 int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate, cov_error *err)
@@ -350,6 +417,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     size_t n_preds = 0;
     unsigned char *frozen = NULL;
     char tmp[4096] = "", gate[256], plot_msg[sizeof err->msg + 64], at[32], graph_digest[65] = "";
+    char runs_digest[65] = "";
     int rc;
     *adequate = 0;
 
@@ -439,12 +507,16 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         rc = cov_fail(err, COV_ENOMEM, "", "out of memory summing the runs' cross-products");
         goto fail;
     }
-    step_note(&o, note, "assessing the claims");
-    if ((rc = cov_assess_shared(g, claims, d, &o.power, xs, &as, err)) != COV_OK) goto fail;
-    step_note(&o, note, "measuring coverage and support");
-    if ((rc = cov_coverage_measure(g, d, &o.coverage, &cv, err)) != COV_OK) goto fail;
-    if ((rc = cov_support_measure_shared(g, claims, d, &o.coverage, xs, &sp, err)) != COV_OK)
-        goto fail;
+    {
+        /* The stages after the read, concurrently with --threads 2 or more (survey_stages). */
+        survey_stages st = {&o, note, g, claims, d, xs, NULL, NULL, NULL, ""};
+        rc = survey_stages_run(&st, o.coverage.threads, err);
+        as = st.as;
+        cv = st.cv;
+        sp = st.sp;
+        memcpy(runs_digest, st.digest, sizeof runs_digest);
+        if (rc != COV_OK) goto fail;
+    }
     cov_xshare_free(xs);
     xs = NULL;
 
@@ -500,7 +572,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     /* A snapshot is recorded only when the runs differ from the last one's (or when asked):
      * surveying the same runs again adds nothing to the campaign's history. */
     cov_snapshot this_snap;
-    cov_snapshot_from_findings(&f, &this_snap);
+    cov_snapshot_from_findings_digest(&f, runs_digest[0] ? runs_digest : NULL, &this_snap);
     snprintf(this_snap.at, sizeof this_snap.at, "%s", at);
     int record = store != COV_HISTORY_NONE &&
                  (o.record_snapshot || n_snapshots == 0 || snaps[n_snapshots - 1].digest[0] == '\0' ||

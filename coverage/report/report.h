@@ -90,6 +90,10 @@ typedef enum { COV_HISTORY_NONE, COV_HISTORY_ARCHIVE, COV_HISTORY_SIDE } cov_his
 
 /* Fill r with the counts and shares of f (the time is the caller's). */
 void cov_snapshot_from_findings(const cov_findings *f, cov_snapshot *r);
+/* The same with the runs' digest already computed (cov_data_digest of f's graph and data, 64 hex
+ * digits), so that the survey can take it beside its other stages; NULL: computed here. */
+void cov_snapshot_from_findings_digest(const cov_findings *f, const char *runs_digest,
+                                       cov_snapshot *r);
 /* Record snapshot r of f in the history kept in db_path (cov_history_record), with one line per
  * claim of f; create_file as there. Returns COV_OK, COV_EIO or COV_ENOMEM (err filled). */
 int cov_report_history_record(const char *db_path, int create_file, const cov_findings *f,

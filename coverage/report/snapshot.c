@@ -1,11 +1,18 @@
 /* A survey's snapshot for the history: its counts and shares, and one line per claim, handed to
  * the archive's history tables (coverage/archive/history.c). See LICENSE. */
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 
 #include "coverage/report/report.h"
 
 void cov_snapshot_from_findings(const cov_findings *f, cov_snapshot *r)
+{
+    cov_snapshot_from_findings_digest(f, NULL, r);
+}
+
+void cov_snapshot_from_findings_digest(const cov_findings *f, const char *runs_digest,
+                                       cov_snapshot *r)
 {
     r->n_runs = f->data ? (long long)f->data->n_runs : 0;
     r->n_batches = f->data ? (long long)f->data->n_batches : 0;
@@ -17,8 +24,9 @@ void cov_snapshot_from_findings(const cov_findings *f, cov_snapshot *r)
     r->marginal_share = f->coverage ? f->coverage->marginal_share : NAN;
     r->pairwise_share = f->coverage ? f->coverage->pairwise_share : NAN;
     r->threeway_share = f->coverage ? f->coverage->threeway_share : NAN;
-    if (f->data != NULL) cov_data_digest(f->graph, f->data, r->digest);
-    else r->digest[0] = '\0';
+    if (f->data == NULL) r->digest[0] = '\0';
+    else if (runs_digest != NULL) snprintf(r->digest, sizeof r->digest, "%s", runs_digest);
+    else cov_data_digest(f->graph, f->data, r->digest);
 }
 
 int cov_report_history_record(const char *db_path, int create_file, const cov_findings *f,
