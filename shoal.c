@@ -109,8 +109,8 @@ static const struct option_doc options[] = {
     {"rounds", 1, OPT_ROUNDS, C_PLAN, "K", "write the first of K batches; plan again after it"},
     {"seed", 1, OPT_SEED, C_POWER | C_COVERAGE | C_SURVEY | C_PLAN, "S",
      "seed for resampling, probes, subsamples, plan seeds"},
-    {"threads", 1, OPT_THREADS, C_COVERAGE | C_SURVEY, "N",
-     "threads for summaries and survey stages (default 1)"},
+    {"threads", 1, OPT_THREADS, C_POWER | C_COVERAGE | C_SURVEY, "N",
+     "threads for summaries, stages, claims (default 1)"},
     {"output", 1, 'o', C_SURVEY | C_PLAN, "PATH",
      "survey: report directory; plan: CSV file"},
     {"history", 1, OPT_HISTORY, C_SURVEY | C_PLAN, "FILE",
@@ -276,7 +276,7 @@ static int apply_option(int c, const char *arg, cov_options *o)
         return 0;
     case OPT_THREADS:
         if (parse_long("--threads", arg, 1, 64, &k)) return -1;
-        o->coverage.threads = (int)k;
+        o->coverage.threads = o->power.threads = (int)k;
         return 0;
     case 'o': o->out_path = arg; return 0;
     case OPT_HISTORY: o->history_path = arg; return 0;

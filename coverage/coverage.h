@@ -291,6 +291,8 @@ typedef struct {
     int power_by;         /* COV_POWER_BY_AUTO (0), _FORMULA or _RESAMPLING */
     unsigned long resample_seed;   /* 0: COV_RESAMPLE_SEED */
     size_t resample_reps; /* wild bootstrap replicates per claim; 0: COV_RESAMPLE_REPS */
+    int threads;          /* threads assessing the claims (0 or 1: the calling thread only); the
+                             figures and the error reported do not depend on it */
 } cov_power_options;
 
 /* The test the figures are for: classic OLS standard errors, or HC3 ones (robust to spread that

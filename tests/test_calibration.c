@@ -238,7 +238,7 @@ int main(void)
     gsl_rng_set(r, SEED);
     campaign c;
     campaign_init(&c);
-    cov_power_options opt = {ALPHA, 0.80, 0, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0, 0};
+    cov_power_options opt = {ALPHA, 0.80, 0, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0, 0, 1};
     double hits[N_KINDS] = {0}, pred[N_KINDS] = {0}, pred2[N_KINDS] = {0};
     int failed = 0;
     for (int rep = 0; rep < R && !failed; rep++) {

@@ -243,7 +243,7 @@ int main(void)
     d.n_vars = N_VARS;
     d.col = col;
     d.n_missing = miss;
-    cov_power_options opt = {ALPHA, 0.80, 0, 0, COV_TEST_ROBUST, COV_POWER_BY_AUTO, 0, 0};
+    cov_power_options opt = {ALPHA, 0.80, 0, 0, COV_TEST_ROBUST, COV_POWER_BY_AUTO, 0, 0, 1};
     const char *which = getenv("SHOAL_HARNESS_TEST");
     if (which != NULL && strcmp(which, "classic") == 0) opt.test = COV_TEST_CLASSIC;
     /* SHOAL_HARNESS_SEED draws other campaigns (and other resampling seeds), so that a rule can

@@ -94,7 +94,7 @@ static void fx_free(fixture *f)
 
 static cov_power_options default_opt(void)
 {
-    cov_power_options o = {0.05, 0.80, 1, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0, 0};
+    cov_power_options o = {0.05, 0.80, 1, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0, 0, 1};
     return o;
 }
 

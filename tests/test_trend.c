@@ -94,7 +94,7 @@ int main(void)
     size_t miss[2] = {0, 0};
     cov_data d = {.n_runs = RUNS, .n_vars = 2, .col = cols, .n_missing = miss};
     /* The trend test simulated here uses classic (OLS) standard errors. */
-    cov_power_options opt = {ALPHA, 0.80, 0, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0, 0};
+    cov_power_options opt = {ALPHA, 0.80, 0, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0, 0, 1};
     gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
     gsl_rng_set(r, SEED);
     for (size_t s = 0; s < sizeof scenarios / sizeof scenarios[0]; s++) {

@@ -149,7 +149,7 @@ static int run(int R, double h_true, double h_decl, double hetero, double *mean,
     gsl_rng_set(r, SEED);
     campaign c;
     campaign_init(&c, h_decl);
-    cov_power_options opt = {ALPHA, 0.80, 0, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0, 0};
+    cov_power_options opt = {ALPHA, 0.80, 0, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0, 0, 1};
     double hits = 0, pred = 0, pred2 = 0;
     int rc = 0;
     *worst_f = 0;

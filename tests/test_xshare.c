@@ -165,7 +165,7 @@ static void test_figures(const fixture *f, const cov_graph *g)
         return;
     }
     /* The CLI's defaults: robust test, power by the noise (resampled where it asks for it). */
-    cov_power_options po = {0.05, 0.80, 1, 0, COV_TEST_ROBUST, COV_POWER_BY_AUTO, 0, 0};
+    cov_power_options po = {0.05, 0.80, 1, 0, COV_TEST_ROBUST, COV_POWER_BY_AUTO, 0, 0, 1};
     cov_coverage_options co = {5, 10, 2, 0.5, 20261202UL, 2};
     cov_xshare *x = NULL;
     cov_assessments *a0 = NULL, *a1 = NULL;

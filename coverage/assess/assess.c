@@ -31,8 +31,9 @@
 
 
 /* Set when a note could not be stored: cov_assess then fails with COV_ENOMEM rather than hand
- * out an assessment that lacks a caution. (shoal assesses from one thread.) */
-static int note_lost;
+ * out an assessment that lacks a caution. One per thread: a claim is assessed on one thread,
+ * which clears it before the claim and reads it after. */
+static _Thread_local int note_lost;
 
 /* Append printf-style text to a heap string, separated by "; ". Out of memory keeps the old text
  * and sets note_lost. */
@@ -723,6 +724,36 @@ int cov_assess(const cov_graph *g, const cov_claims *c, const cov_data *d,
     return cov_assess_shared(g, c, d, opt, NULL, out, err);
 }
 
+/* What every claim's assessment shares, and one context per thread (worker 0: the caller's). */
+typedef struct {
+    const cov_claims *c;
+    const cov_power_options *opt;
+    double alpha;
+    cov_assessments *as;
+    assess_ctx *main;     /* worker 0 */
+    assess_ctx *extra;    /* workers 1 .. : the shared parts borrowed, scratch of their own */
+} claim_job;
+
+/* Claim i into its own slot, on the worker's context: nothing in it depends on the thread. */
+static int claim_item(void *arg, int worker, size_t i)
+{
+    claim_job *j = arg;
+    cov_assessment *a = &j->as->items[i];
+    const cov_claim *cl = &j->c->items[i];
+    assessment_init(a, i);
+    if (cl->status != COV_TESTABLE) {
+        a->verdict = COV_BLIND;
+        a->reason = text_dup(cl->reason ? cl->reason : "no adjustment set among the recorded "
+                                                       "variables");
+        return a->reason == NULL ? COV_ENOMEM : COV_OK;
+    }
+    a->alpha = j->alpha;
+    note_lost = 0;
+    int rc = assess_claim(worker == 0 ? j->main : &j->extra[worker - 1], cl, j->opt, j->alpha, a);
+    if (rc == COV_OK && note_lost) rc = COV_ENOMEM;
+    return rc;
+}
+
 int cov_assess_shared(const cov_graph *g, const cov_claims *c, const cov_data *d,
                       const cov_power_options *opt, const cov_xshare *shared,
                       cov_assessments **out, cov_error *err)
@@ -747,33 +778,28 @@ int cov_assess_shared(const cov_graph *g, const cov_claims *c, const cov_data *d
     }
     for (size_t i = 0; i < c->n; i++)
         if (c->items[i].status == COV_TESTABLE) as->n_testable++;
-    double alpha = cov_family_alpha(opt, as->n_testable);
-    for (size_t i = 0; i < c->n; i++) {
-        cov_assessment *a = &as->items[i];
-        const cov_claim *cl = &c->items[i];
-        assessment_init(a, i);
-        if (cl->status != COV_TESTABLE) {
-            a->verdict = COV_BLIND;
-            a->reason = text_dup(cl->reason ? cl->reason : "no adjustment set among the recorded "
-                                                           "variables");
-            if (a->reason == NULL) {
-                rc = COV_ENOMEM;
-                goto fail;
-            }
-            continue;
-        }
-        a->alpha = alpha;
-        note_lost = 0;
-        rc = assess_claim(&x, cl, opt, alpha, a);
-        if (rc == COV_OK && note_lost) rc = COV_ENOMEM;
-        if (rc == COV_ENUMERIC) {
-            cov_fail(err, rc, "", "a power computation did not converge for the claim %s %s %s",
-                     g->vars[cl->treatment].name, cov_claim_arrow(cl->kind),
-                     g->vars[cl->outcome].name);
-            goto fail;
-        }
-        if (rc != COV_OK) goto fail;
+    /* Each claim into its own slot on up to opt->threads threads; the first failing claim in
+     * claim order is the one reported, whatever the thread count (pool.c). */
+    int threads = opt->threads < 1 ? 1 : opt->threads;
+    if (threads > COV_ASSESS_MAX_THREADS) threads = COV_ASSESS_MAX_THREADS;
+    if ((size_t)threads > as->n_testable) threads = as->n_testable > 1 ? (int)as->n_testable : 1;
+    claim_job job = {c, opt, cov_family_alpha(opt, as->n_testable), as, &x, NULL};
+    if (threads > 1 && (job.extra = calloc((size_t)threads - 1, sizeof *job.extra)) == NULL) {
+        rc = COV_ENOMEM;
+        goto fail;
     }
+    for (int t = 1; t < threads; t++) cov_assess_ctx_worker(&x, &job.extra[t - 1]);
+    size_t bad = cov_assess_pool(c->n, threads, claim_item, &job, &rc);
+    for (int t = 1; t < threads; t++) cov_assess_ctx_worker_free(&job.extra[t - 1]);
+    free(job.extra);
+    if (rc == COV_ENUMERIC) {
+        const cov_claim *cl = &c->items[bad];
+        cov_fail(err, rc, "", "a power computation did not converge for the claim %s %s %s",
+                 g->vars[cl->treatment].name, cov_claim_arrow(cl->kind),
+                 g->vars[cl->outcome].name);
+        goto fail;
+    }
+    if (rc != COV_OK) goto fail;
     rc = cov_seed_outcomes(g, x.global, &x.seed_global, x.base, x.index_col, &as->seed_outcome);
     if (rc != COV_OK) goto fail;
     cov_assess_ctx_free(&x);

@@ -62,7 +62,8 @@ int cov_shape_numeric(const double *x, const double *e, size_t m, double n_coef,
 /* The same from a cache of each treatment's basis (its distinct values, value groups or cubic
  * reflectors), for many claims whose treatment key is measured on the same m rows: the basis is
  * made on the first call per key, then each call costs what its residuals cost. The figures equal
- * cov_shape_numeric's bit for bit. c NULL, a key >= n_keys or another m: computed afresh. */
+ * cov_shape_numeric's bit for bit. c NULL, a key >= n_keys or another m: computed afresh. One
+ * cache may serve several threads: each key's basis is made once, under that key's lock. */
 typedef struct cov_shape_cache cov_shape_cache;
 cov_shape_cache *cov_shape_cache_new(size_t n_keys, size_t m);   /* NULL when out of memory */
 void cov_shape_cache_free(cov_shape_cache *c);
@@ -290,5 +291,21 @@ int cov_assess_build_layout(const cov_graph *g, const cov_claim *c, assess_layou
 void cov_assess_global_index(const assess_ctx *x, const assess_layout *lay, size_t *idx);
 /* Whether column i of m takes one value (its centred sum of squares within rounding of zero). */
 int cov_assess_moments_constant(const pw_moments *m, size_t i);
+/* A context for another thread: x's shared parts borrowed (read only, and the shape cache, which
+ * locks), scratch of its own. cov_assess_ctx_worker_free frees that scratch only. */
+void cov_assess_ctx_worker(const assess_ctx *x, assess_ctx *w);
+void cov_assess_ctx_worker_free(assess_ctx *w);
+
+/* ---- the claims shared out among threads (pool.c) ---------------------------------------------- */
+
+#define COV_ASSESS_MAX_THREADS 64
+/* fn(ctx, worker, i) for every item i < n on up to `threads` threads (worker 0 the calling thread,
+ * the others 1 .. threads - 1; threads <= 1: every item in the calling thread, in order, as a
+ * plain loop). Items are taken in order from one counter; once an item has failed no later item
+ * is started, and every item before it is finished. Returns the first failing item in item order, its status
+ * in *status, or n with *status COV_OK. Whatever the thread count, the same items fail first, as
+ * long as each item's result depends only on the item. */
+size_t cov_assess_pool(size_t n, int threads, int (*fn)(void *ctx, int worker, size_t item),
+                       void *ctx, int *status);
 
 #endif

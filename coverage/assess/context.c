@@ -77,6 +77,24 @@ void cov_assess_ctx_free(assess_ctx *x)
     cov_shape_cache_free(x->shape);
 }
 
+void cov_assess_ctx_worker(const assess_ctx *x, assess_ctx *w)
+{
+    *w = *x;
+    w->global_borrowed = 1;   /* never the worker's to free; cov_assess_ctx_worker_free frees
+                                 only the scratch anyway */
+    w->ws_y = w->ws_fit = w->ws_keys = NULL;
+    w->ws_rows = w->ws_kk = 0;
+}
+
+void cov_assess_ctx_worker_free(assess_ctx *w)
+{
+    free(w->ws_y);
+    free(w->ws_fit);
+    free(w->ws_keys);
+    w->ws_y = w->ws_fit = w->ws_keys = NULL;
+    w->ws_rows = w->ws_kk = 0;
+}
+
 /* Make the scratch hold rows x kk keys. */
 int cov_assess_ctx_scratch(assess_ctx *x, size_t rows, size_t kk)
 {

@@ -1,6 +1,7 @@
 /* The shape of a claim's effect: the linear trend of an ordered level set with the omnibus F beside
  * it, levels never run, and the lack of fit of a numeric treatment's straight line. See LICENSE. */
 #include <math.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -135,6 +136,7 @@ typedef struct {
 struct cov_shape_cache {
     size_t n_keys, m;
     shape_basis *basis;
+    pthread_mutex_t *lock;     /* one per key: the claims of several threads share the cache */
 };
 
 static void basis_free(shape_basis *b)
@@ -280,9 +282,21 @@ cov_shape_cache *cov_shape_cache_new(size_t n_keys, size_t m)
     cov_shape_cache *c = calloc(1, sizeof *c);
     if (c == NULL) return NULL;
     c->basis = calloc(n_keys ? n_keys : 1, sizeof *c->basis);
-    if (c->basis == NULL) {
+    c->lock = malloc((n_keys ? n_keys : 1) * sizeof *c->lock);
+    if (c->basis == NULL || c->lock == NULL) {
+        free(c->basis);
+        free(c->lock);
         free(c);
         return NULL;
+    }
+    for (size_t k = 0; k < n_keys; k++) {
+        if (pthread_mutex_init(&c->lock[k], NULL) != 0) {
+            while (k-- > 0) pthread_mutex_destroy(&c->lock[k]);
+            free(c->basis);
+            free(c->lock);
+            free(c);
+            return NULL;
+        }
     }
     c->n_keys = n_keys;
     c->m = m;
@@ -292,8 +306,12 @@ cov_shape_cache *cov_shape_cache_new(size_t n_keys, size_t m)
 void cov_shape_cache_free(cov_shape_cache *c)
 {
     if (c == NULL) return;
-    for (size_t k = 0; k < c->n_keys; k++) basis_free(&c->basis[k]);
+    for (size_t k = 0; k < c->n_keys; k++) {
+        basis_free(&c->basis[k]);
+        pthread_mutex_destroy(&c->lock[k]);
+    }
     free(c->basis);
+    free(c->lock);
     free(c);
 }
 
@@ -308,10 +326,12 @@ int cov_shape_numeric_cached(cov_shape_cache *c, size_t key, const double *x, co
         basis_free(&b);
         return rc;
     }
-    if (!c->basis[key].ready) {
-        int rc = basis_make(x, m, &c->basis[key]);
-        if (rc != COV_OK) return rc;
-    }
+    /* The first claim of a key makes its basis; the others wait for it, then only read it. The
+     * basis depends on x alone, so whichever thread makes it, it is the same. */
+    pthread_mutex_lock(&c->lock[key]);
+    int rc = c->basis[key].ready ? COV_OK : basis_make(x, m, &c->basis[key]);
+    pthread_mutex_unlock(&c->lock[key]);
+    if (rc != COV_OK) return rc;
     return shape_from_basis(&c->basis[key], e, m, n_coef, sigma_pure, df_pe, out);
 }
 

@@ -46,6 +46,7 @@ void cov_options_default(cov_options *o)
     o->coverage.dependence_threshold = 0.5;
     o->coverage.seed = 20261202UL;
     o->coverage.threads = 1;
+    o->power.threads = 1;
     o->need_marginal = NAN;
     o->need_pairwise = NAN;
     o->need_threeway = NAN;

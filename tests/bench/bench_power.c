@@ -130,12 +130,12 @@ static int time_all(const char *db_path, const char *graph_path)
         fprintf(stderr, "bench_power: %s: %s\n", err.where, err.msg);
         return 1;
     }
-    cov_power_options opt = {0.05, 0.80, 1, 0, COV_TEST_ROBUST, COV_POWER_BY_AUTO, 0, 0};
+    cov_power_options opt = {0.05, 0.80, 1, 0, COV_TEST_ROBUST, COV_POWER_BY_AUTO, 0, 0, 1};
     double t_scan[REPEATS], t_read[REPEATS], t_assess[REPEATS], sink = 0;
     double c_scan[REPEATS], c_read[REPEATS], c_assess[REPEATS], c_classic[REPEATS];
     /* Baseline of the same run: the classic test with the normal formula only (issue 11's cost). */
     cov_power_options opt_classic = {0.05, 0.80, 1, 0, COV_TEST_CLASSIC, COV_POWER_BY_FORMULA, 0,
-                                     0};
+                                     0, 1};
     size_t runs = 0, n_ample = 0, n_resampled = 0;
     for (int r = 0; r < REPEATS; r++) {
         t_scan[r] = bare_scan(db_path, &sink, &c_scan[r]);
@@ -189,6 +189,82 @@ static int time_all(const char *db_path, const char *graph_path)
     return 0;
 }
 
+/* Every claim's record (the serializer of `shoal power --json`), to compare thread counts. */
+static char *records_of(const cov_graph *g, const cov_claims *cl, const cov_assessments *as)
+{
+    char *buf = NULL;
+    size_t len = 0;
+    FILE *m = open_memstream(&buf, &len);
+    if (m == NULL) return NULL;
+    cov_record_src src = {g, cl, as, NULL};
+    for (size_t i = 0; i < cl->n; i++) cov_record_json(m, &src, i, COV_RECORD_ASSESS);
+    fclose(m);
+    return buf;
+}
+
+/* The claims' assessment alone (the archive read once) on 1 and `threads` threads, alternating,
+ * REPEATS times each, power by the noise and by resampling: medians of CPU and wall, and whether
+ * every claim's record is the same bytes on both. */
+static int time_threads(const char *db_path, const char *graph_path, int threads)
+{
+    cov_error err = {{0}, {0}};
+    cov_graph *g = NULL;
+    cov_claims *cl = NULL;
+    cov_archive *a = NULL;
+    cov_data *d = NULL;
+    if (cov_graph_parse_file(graph_path, &g, &err) || cov_claims_derive(g, &cl, &err) ||
+        cov_archive_open(db_path, NULL, &a, &err) || cov_data_read(a, g, NULL, NULL, &d, &err)) {
+        fprintf(stderr, "bench_power: %s: %s\n", err.where, err.msg);
+        return 1;
+    }
+    int status = 0;
+    for (int by = 0; by < 2; by++) {
+        double wall[2][REPEATS], cpu[2][REPEATS];
+        char *rec[2] = {NULL, NULL};
+        int same = 1;
+        for (int r = 0; r < REPEATS; r++)
+            for (int k = 0; k < 2; k++) {
+                cov_power_options opt = {0.05, 0.80, 1, 0, COV_TEST_ROBUST,
+                                         by ? COV_POWER_BY_RESAMPLING : COV_POWER_BY_AUTO, 0, 0,
+                                         k ? threads : 1};
+                cov_assessments *as = NULL;
+                double t0 = bench_wall(), c0 = bench_cpu();
+                if (cov_assess(g, cl, d, &opt, &as, &err) != COV_OK) {
+                    fprintf(stderr, "bench_power: %s\n", err.msg);
+                    return 1;
+                }
+                wall[k][r] = bench_wall() - t0;
+                cpu[k][r] = bench_cpu() - c0;
+                char *text = records_of(g, cl, as);
+                if (rec[k] == NULL) rec[k] = text;
+                else {
+                    same &= text != NULL && strcmp(text, rec[k]) == 0;
+                    free(text);
+                }
+                cov_assessments_free(as);
+            }
+        same &= rec[0] != NULL && rec[1] != NULL && strcmp(rec[0], rec[1]) == 0;
+        free(rec[0]);
+        free(rec[1]);
+        for (int k = 0; k < 2; k++) {
+            qsort(wall[k], REPEATS, sizeof(double), bench_cmp_double);
+            qsort(cpu[k], REPEATS, sizeof(double), bench_cmp_double);
+        }
+        double w1 = wall[0][REPEATS / 2], wn = wall[1][REPEATS / 2];
+        printf("cov_assess of %zu claims on %zu runs, power by %s (medians of %d, alternating): "
+               "1 thread cpu %.2f s wall %.2f s; %d threads cpu %.2f s wall %.2f s; wall ratio "
+               "%.2f; records %s\n", cl->n, d->n_runs, by ? "resampling" : "auto", REPEATS,
+               cpu[0][REPEATS / 2], w1, threads, cpu[1][REPEATS / 2], wn, wn / w1,
+               same ? "byte-identical" : "DIFFER");
+        if (!same) status = 1;
+    }
+    cov_data_free(d);
+    cov_archive_close(a);
+    cov_claims_free(cl);
+    cov_graph_free(g);
+    return status;
+}
+
 int main(int argc, char **argv)
 {
     gsl_set_error_handler_off();
@@ -204,7 +280,11 @@ int main(int argc, char **argv)
         return write_archive(argv[2], rows, 20261202ULL) != 0;
     }
     if (argc == 4 && strcmp(argv[1], "time") == 0) return time_all(argv[2], argv[3]);
+    if (argc == 5 && strcmp(argv[1], "threads") == 0) {
+        int t = atoi(argv[4]);
+        return time_threads(argv[2], argv[3], t >= 2 && t <= 64 ? t : 2);
+    }
     fprintf(stderr, "usage: bench_power make ARCHIVE.db GRAPH ROWS | bench_power time ARCHIVE.db "
-                    "GRAPH\n");
+                    "GRAPH | bench_power threads ARCHIVE.db GRAPH N\n");
     return 2;
 }

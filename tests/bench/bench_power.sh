@@ -113,4 +113,13 @@ read, analysis = res[len(res) // 2]
 print(f"numpy/statsmodels, same claims: read {read:.2f} s + analysis {analysis:.2f} s = "
       f"{read + analysis:.2f} s (median of {repeats})")
 EOF
+
+# The claims' assessment alone on BENCH_POWER_THREADS threads (default 2) against one, alternating
+# (issue 12): every claim's record must be the same bytes. The CPU and wall times are printed with
+# no target: on a machine shared with other work the wall clock measures the run queue as much as
+# the threads.
+"$BENCH" threads "$db" "$graph" "${BENCH_POWER_THREADS:-2}" || {
+  echo "bench_power: the claims' records differ between thread counts (or the run failed)"
+  status=1
+}
 exit $status
