@@ -1,7 +1,11 @@
 /* Times cov_data_read of a table's columns against a bare sqlite3_step scan of the same columns,
  * each as the median of REPEATS runs, and prints both and their ratio. See LICENSE. */
+#if defined(__linux__) && !defined(_DEFAULT_SOURCE)
+#define _DEFAULT_SOURCE     /* madvise */
+#endif
 #include <errno.h>
 #include <math.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -9,6 +13,9 @@
 
 #include <gsl/gsl_errno.h>
 #include <sqlite3.h>
+#if defined(__linux__)
+#include <sys/mman.h>
+#endif
 
 #include "coverage/plan/plan.h"
 #include "coverage/report/report.h"
@@ -93,12 +100,88 @@ static int bare_all(const char *db_path)
     return 0;
 }
 
+/* Fresh memory of bytes, first written: from the heap, its pages populated in one call as
+ * coverage/archive/data.c does (huge == 0), or as an anonymous mapping advised to use huge pages
+ * and populated in one call (huge == 1). The CPU time of getting, writing and releasing it. */
+static double touch(size_t bytes, int huge, size_t *check)
+{
+    stamp t0 = now();
+    unsigned char *p = NULL;
+#if defined(__linux__) && defined(MADV_HUGEPAGE) && defined(MADV_POPULATE_WRITE)
+    if (huge) {
+        void *m = mmap(NULL, bytes, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+        if (m == MAP_FAILED) return NAN;
+        p = m;
+        (void)madvise(p, bytes, MADV_HUGEPAGE);
+        (void)madvise(p, bytes, MADV_POPULATE_WRITE);
+    } else {
+        p = malloc(bytes);
+        if (p == NULL) return NAN;
+        size_t lo = (4096 - (uintptr_t)p % 4096) % 4096;
+        if (bytes > lo + 4096) (void)madvise(p + lo, (bytes - lo) / 4096 * 4096, MADV_POPULATE_WRITE);
+    }
+#else
+    if (huge) return NAN;
+    p = malloc(bytes);
+    if (p == NULL) return NAN;
+#endif
+    memset(p, 1, bytes);
+    *check += p[bytes - 1];
+#if defined(__linux__) && defined(MADV_HUGEPAGE) && defined(MADV_POPULATE_WRITE)
+    if (huge) munmap(p, bytes);
+    else free(p);
+#else
+    free(p);
+#endif
+    return since(t0).cpu;
+}
+
+/* The floor under any survey that holds the analysed columns in memory and digests them, as the
+ * baseline of bench_scale.sh: the CPU time to get and first write the raw column bytes of fresh
+ * memory in the cheaper of two ways (heap pages populated in one call; huge pages populated in
+ * one call), and to take their SHA-256 with shoal's own code (cov_data_digest's cost). On a
+ * virtual machine whose host backs guest memory lazily the first write costs far more than a
+ * write to memory already touched. Prints "MEMORY DIGEST HEAP HUGE" seconds of CPU, MEMORY being
+ * the lesser of HEAP and HUGE. */
+static int touch_floor(const char *arg)
+{
+    char *end = NULL;
+    errno = 0;
+    unsigned long long b = strtoull(arg, &end, 10);
+    if (errno || *end || b < 64 || b > ((unsigned long long)1 << 40)) {
+        fprintf(stderr, "bench_scan: BYTES must be 64 to 2^40\n");
+        return 2;
+    }
+    size_t bytes = (size_t)b, check = 0;
+    double heap = touch(bytes, 0, &check), huge = touch(bytes, 1, &check);
+    unsigned char *p = malloc(bytes);
+    if (p == NULL) {
+        fprintf(stderr, "bench_scan: out of memory\n");
+        return 1;
+    }
+    memset(p, 2, bytes);   /* touched before the clock starts: only the digest is timed */
+    char hex[65];
+    stamp t0 = now();
+    cov_sha256 h;
+    cov_sha256_init(&h);
+    cov_sha256_update(&h, p, bytes);
+    cov_sha256_hex(&h, hex);
+    double digest = since(t0).cpu;
+    free(p);
+    sink_out = (double)check + (double)hex[0];
+    double memory = isnan(huge) || heap < huge ? heap : huge;
+    printf("%.3f %.3f %.3f %.3f\n", memory, digest, heap, huge);
+    return 0;
+}
+
 int main(int argc, char **argv)
 {
     gsl_set_error_handler_off();
     if (argc == 3 && strcmp(argv[1], "bare") == 0) return bare_all(argv[2]);
+    if (argc == 3 && strcmp(argv[1], "touch") == 0) return touch_floor(argv[2]);
     if (argc != 3) {
-        fprintf(stderr, "usage: bench_scan ARCHIVE.db COLUMNS | bench_scan bare ARCHIVE.db\n");
+        fprintf(stderr, "usage: bench_scan ARCHIVE.db COLUMNS | bench_scan bare ARCHIVE.db | "
+                        "bench_scan touch BYTES\n");
         return 2;
     }
     char *end = NULL;
