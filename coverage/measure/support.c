@@ -41,9 +41,19 @@ void cov_supports_free(cov_supports *s)
     free(s);
 }
 
-/* Dense ids for the distinct rows of an n x k table (row-major), by open addressing on an FNV-1a
- * hash of the values (Fowler, Noll & Vo; linear probing, Knuth TAOCP vol. 3, 6.4, Algorithm L).
- * Writes id[i] and returns the number of distinct rows, or (size_t)-1 when out of memory. */
+/* splitmix64's finaliser (Steele, Lea & Flood 2014): spreads the bits of a word over the word. */
+static uint64_t mix64(uint64_t z)
+{
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
+    return z ^ (z >> 31);
+}
+
+/* Dense ids for the distinct rows of an n x k table (row-major), in the order of each row's first
+ * appearance, by open addressing (linear probing, Knuth TAOCP vol. 3, 6.4, Algorithm L) on a hash
+ * that folds each value's bits through splitmix64's finaliser. The ids, hence every figure made
+ * from them, do not depend on the hash; only the time does. Writes id[i] and returns the number
+ * of distinct rows, or (size_t)-1 when out of memory. */
 static size_t tuple_ids(const double *t, size_t n, size_t k, size_t *id)
 {
     size_t cap = 16;
@@ -59,15 +69,12 @@ static size_t tuple_ids(const double *t, size_t n, size_t k, size_t *id)
     }
     for (size_t i = 0; i < n; i++) {
         const double *row = t + i * k;
-        uint64_t h = 1469598103934665603ULL;
+        uint64_t h = 0;
         for (size_t j = 0; j < k; j++) {
             double x = row[j] == 0 ? 0.0 : row[j];   /* -0 and +0 are one value */
             uint64_t bits;
             memcpy(&bits, &x, sizeof bits);
-            for (int b = 0; b < 8; b++) {
-                h ^= (bits >> (8 * b)) & 0xff;
-                h *= 1099511628211ULL;
-            }
+            h = mix64(h + bits);
         }
         size_t s = (size_t)h & (cap - 1);
         for (;;) {
@@ -379,9 +386,32 @@ static double sd_n(const double *x, size_t n)
     return sqrt(q / (double)n);
 }
 
-/* One testable claim's support. */
+/* Distinct values of variable v among the claim's rows, when known without hashing them: a level
+ * set's levels present (its cells are level indices), or the shared summaries' count when the
+ * claim's rows are all the runs. (size_t)-1 when not known. */
+static size_t known_distinct(const cov_graph *g, const cov_data *d, const cov_summary *sh,
+                             size_t v, const double *x, size_t n)
+{
+    const cov_var *var = &g->vars[v];
+    if (var->type == COV_LEVELS && var->n_levels <= 256) {
+        unsigned char seen[256] = {0};
+        size_t k = 0;
+        for (size_t i = 0; i < n; i++) {
+            size_t l = (size_t)x[i];
+            if (l < var->n_levels && !seen[l]) seen[l] = 1, k++;
+        }
+        return k;
+    }
+    if (sh != NULL && n == d->n_runs && sh->col[v] != SIZE_MAX && sh->distinct[v] > 0)
+        return sh->distinct[v];
+    return (size_t)-1;
+}
+
+/* One testable claim's support. sh: the shared summaries (or NULL), whose distinct counts spare
+ * hashing the runs where they settle a count. */
 static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *d,
-                       const cov_coverage_options *opt, cov_support *s, cov_error *err)
+                       const cov_coverage_options *opt, const cov_summary *sh, cov_support *s,
+                       cov_error *err)
 {
     cov_claim_design *cd = NULL;
     claim_rows cr;
@@ -433,16 +463,23 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
                 cr.z[i * cr.q + c++] = row[j];
     }
 
-    /* Replication: runs per distinct configuration of the treatment and S. */
-    size_t n_cfg = tuple_ids(cfg, n, k1, ids);
+    /* Distinct treatment values. */
+    size_t distinct = known_distinct(g, d, sh, cl->treatment, cr.x, n);
+    if (distinct == (size_t)-1) distinct = tuple_ids(cr.x, n, 1, ids);
+    if (distinct == (size_t)-1) goto done;
+    s->distinct = distinct;
+
+    /* Replication: runs per distinct configuration of the treatment and S. When one member takes
+     * a distinct value in every run, so does every configuration. */
+    size_t n_cfg = distinct == n ? n : (size_t)-1;
+    for (size_t j = 0; n_cfg != n && j < cl->n_cond; j++)
+        if (g->vars[cl->cond[j]].type != COV_LEVELS &&
+            known_distinct(g, d, sh, cl->cond[j], NULL, n) == n)
+            n_cfg = n;
+    if (n_cfg != n) n_cfg = tuple_ids(cfg, n, k1, ids);
     if (n_cfg == (size_t)-1) goto done;
     s->runs_per_config = (double)n / (double)n_cfg;
     s->pure_error = n_cfg < n;
-
-    /* Distinct treatment values. */
-    size_t distinct = tuple_ids(cr.x, n, 1, ids);
-    if (distinct == (size_t)-1) goto done;
-    s->distinct = distinct;
 
     /* The variable whose spread is measured: the treatment, or for a level set the indicator of
      * its rarest level (the comparison with the least information). */
@@ -623,7 +660,7 @@ int cov_support_measure_shared(const cov_graph *g, const cov_claims *c, const co
         }
         int rc = summarised(g, &c->items[k], d, sh)
                      ? support_summary(g, &c->items[k], d, sh, it, err)
-                     : support_one(g, &c->items[k], d, opt, it, err);
+                     : support_one(g, &c->items[k], d, opt, sh, it, err);
         if (rc != COV_OK) {
             cov_summary_free(sh);
             free(want);
