@@ -15,20 +15,21 @@
 #include "coverage/measure/measure.h"
 
 /* Invented data only (fixed seed), shaped like a simulator's archive: a switch, a level set with
- * a declared level never run, a small integer input, replicated configurations, an input with
- * missing cells, one input that differs in every run, a skewed output whose noise grows with
- * load and a zero-inflated, heavy-tailed one. */
+ * a declared level never run, a small integer input, replicated configurations, an input and an
+ * output with missing cells, continuous inputs (each names its configuration), a skewed output whose noise
+ * grows with load (zero where the run stayed idle), a zero-inflated, heavy-tailed one and one
+ * that bends. */
 #define N_RUNS 30011
-enum { SW, MODE, K, A, G, U, LOAD, WAIT, N_VARS };
+enum { SW, MODE, K, A, G, U, H, LOAD, WAIT, HEAT, N_VARS };
 
 static const char *GRAPH =
     "# Invented test graph.\n"
     "default effect 0.2 sd\ndefault margin 0.1 sd\ndesign independent\nnoise independent\n"
     "input sw bool\ninput mode levels {low, mid, high, idle}\ninput k integer [1, 4]\n"
-    "input a real [0, 10]\ninput g real [0, 1]\ninput u real [0, 1]\n"
-    "output load real\noutput wait real\n"
-    "sw -> load\nmode -> load\nk -> load\na -> load\nload -> wait\ng -> wait\nu -> wait\n"
-    "mode -> wait\n";
+    "input a real [0, 10]\ninput g real [0, 1]\ninput u real [0, 1]\ninput h real [0, 1]\n"
+    "output load real\noutput wait real\noutput heat real\n"
+    "sw -> load\nmode -> load\nk -> load\na -> load\ng -> load\nload -> wait\nu -> wait\n"
+    "mode -> wait\nh -> wait\nload -> heat\n";
 
 typedef struct {
     cov_data d;
@@ -36,7 +37,8 @@ typedef struct {
     size_t n_missing[N_VARS], n_outside[N_VARS];
 } fixture;
 
-static void make_fixture(fixture *f, size_t n)
+/* idle: the share of runs whose load stays 0 (the system idled): a load that repeats. */
+static void make_fixture(fixture *f, size_t n, double idle)
 {
     memset(f, 0, sizeof *f);
     gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
@@ -44,23 +46,26 @@ static void make_fixture(fixture *f, size_t n)
     for (size_t v = 0; v < N_VARS; v++) f->cols[v] = malloc(n * sizeof(double));
     double **c = f->cols;
     for (size_t i = 0; i < n; i++) {
-        /* Every third run replicates the configuration before it (u aside: it is new in every
-         * run, as a continuous input drawn afresh would be). */
+        /* Every third run replicates the configuration before it. */
         if (i > 0 && i % 3 == 0) {
-            for (int v = SW; v <= G; v++) c[v][i] = c[v][i - 1];
+            for (int v = SW; v <= H; v++) c[v][i] = c[v][i - 1];
         } else {
             c[SW][i] = gsl_rng_uniform(r) < 0.25;
             c[MODE][i] = (double)gsl_rng_uniform_int(r, 3);   /* "idle" (3) is never run */
             c[K][i] = (double)(1 + gsl_rng_uniform_int(r, 4));
             c[A][i] = 10 * gsl_rng_uniform(r);
-            c[G][i] = gsl_rng_uniform(r) < 0.02 ? NAN : gsl_rng_uniform(r);
+            c[G][i] = gsl_rng_uniform(r);
+            c[U][i] = gsl_rng_uniform(r);
+            c[H][i] = gsl_rng_uniform(r) < 0.03 ? NAN : gsl_rng_uniform(r);
         }
-        c[U][i] = gsl_rng_uniform(r);
-        double load = 2 * c[SW][i] + 0.5 * c[MODE][i] + 0.3 * c[K][i] + 0.4 * c[A][i];
+        double load = 2 * c[SW][i] + 0.5 * c[MODE][i] + 0.3 * c[K][i] + 0.4 * c[A][i] + c[G][i];
         load += gsl_ran_lognormal(r, 0, 0.8) * (1 + 0.2 * c[A][i]);
-        c[LOAD][i] = load;
+        c[LOAD][i] = gsl_rng_uniform(r) < idle ? 0 : load;
         c[WAIT][i] = gsl_rng_uniform(r) < 0.3 ? 0
-                     : load + c[G][i] + c[U][i] + 0.3 * c[MODE][i] + gsl_ran_cauchy(r, 0.2);
+                     : load + c[U][i] + 0.3 * c[MODE][i] + gsl_ran_cauchy(r, 0.2);
+        if (gsl_rng_uniform(r) < 0.02) c[WAIT][i] = NAN;   /* a run that failed to report it */
+        else if (!isnan(c[H][i])) c[WAIT][i] += c[H][i];
+        c[HEAT][i] = 0.1 * load * load + gsl_ran_gamma(r, 2, 0.5);
     }
     for (size_t i = 0; i < n; i++)
         for (size_t v = 0; v < N_VARS; v++) f->n_missing[v] += isnan(c[v][i]);
@@ -92,8 +97,13 @@ static size_t sorted_distinct(double *t, size_t n, size_t k)
     return m;
 }
 
+/* How many claims took each way of settling the counts, over the fixtures. */
+typedef struct {
+    size_t checked, categorical, partial, all_distinct, replicated, inputs;
+} reach;
+
 /* Each testable claim's support counts against sorting the claim's complete rows. */
-static void test_counts(const fixture *f)
+static void test_counts(fixture *f, const char *label, reach *rc)
 {
     cov_graph *g = NULL;
     cov_claims *cl = NULL;
@@ -102,11 +112,15 @@ static void test_counts(const fixture *f)
         gsl_test(1, "support: test graph parses (%s %s)", err.where, err.msg);
         return;
     }
+    /* What counts as one run, and the configurations of all inputs (coverage/archive/runs.c). */
+    gsl_test_int(cov_runs_identify(&f->d, g, NULL, &err), COV_OK, "support (%s): runs identified", label);
+    gsl_test(!(f->d.n_configs > 0 && f->d.n_configs < f->d.n_runs && f->d.n_runs == N_RUNS   /* no row repeats another */),
+             "support (%s): %zu runs in %zu configurations", label, f->d.n_runs, f->d.n_configs);
     cov_coverage_options opt = {5, 10, 2, 0.5, 20261202UL, 1};
     cov_supports *s = NULL;
-    gsl_test_int(cov_support_measure(g, cl, &f->d, &opt, &s, &err), COV_OK, "support: measured");
-    size_t checked = 0, categorical = 0, partial = 0, all_distinct = 0, replicated = 0, bad_n = 0,
-           bad_distinct = 0, bad_rpc = 0;
+    gsl_test_int(cov_support_measure(g, cl, &f->d, &opt, &s, &err), COV_OK,
+                 "support (%s): measured", label);
+    size_t bad_n = 0, bad_distinct = 0, bad_rpc = 0;
     double *t = malloc(N_RUNS * (2 + N_VARS) * sizeof *t), *x = malloc(N_RUNS * sizeof *x);
     for (size_t c = 0; s != NULL && c < cl->n; c++) {
         const cov_claim *it = &cl->items[c];
@@ -123,30 +137,29 @@ static void test_counts(const fixture *f)
         }
         size_t distinct = sorted_distinct(x, n, 1), configs = sorted_distinct(t, n, k1);
         const cov_support *sp = &s->items[c];
-        checked++;
+        rc->checked++;
         int cat = g->vars[it->treatment].type == COV_BOOL ||
                   g->vars[it->treatment].type == COV_LEVELS;
         for (size_t j = 0; j < it->n_cond; j++) cat |= g->vars[it->cond[j]].type == COV_LEVELS;
-        categorical += cat;
-        partial += n < N_RUNS;
-        all_distinct += configs == n;
-        replicated += configs < n;
+        rc->categorical += cat;
+        rc->partial += n < N_RUNS;
+        rc->all_distinct += configs == n;
+        rc->replicated += configs < n;
+        int only_inputs = g->vars[it->treatment].role == COV_INPUT;
+        for (size_t j = 0; j < it->n_cond; j++) only_inputs &= g->vars[it->cond[j]].role == COV_INPUT;
+        rc->inputs += only_inputs && n == N_RUNS && configs < n;
         bad_n += sp->n != n;
         bad_distinct += sp->distinct != distinct;
         bad_rpc += !(sp->runs_per_config == (double)n / (double)configs);
     }
     free(t);
     free(x);
-    /* The fixture reaches every way of settling the counts. */
-    gsl_test(checked < 13 || categorical < 8 || partial < 4 || all_distinct < 4 || replicated < 3,
-             "support: %zu claims checked (%zu with a switch or level set, %zu on part of the "
-             "runs, %zu with every configuration distinct, %zu with replicates)", checked,
-             categorical, partial, all_distinct, replicated);
-    gsl_test(bad_n != 0, "support: rows used equal the complete rows (%zu claims differ)", bad_n);
-    gsl_test(bad_distinct != 0, "support: distinct treatment values equal a sorted count (%zu "
-             "claims differ)", bad_distinct);
-    gsl_test(bad_rpc != 0, "support: runs per configuration equal a sorted count of the "
-             "configurations (%zu claims differ)", bad_rpc);
+    gsl_test(bad_n != 0, "support (%s): rows used equal the complete rows (%zu claims differ)",
+             label, bad_n);
+    gsl_test(bad_distinct != 0, "support (%s): distinct treatment values equal a sorted count (%zu "
+             "claims differ)", label, bad_distinct);
+    gsl_test(bad_rpc != 0, "support (%s): runs per configuration equal a sorted count of the "
+             "configurations (%zu claims differ)", label, bad_rpc);
     cov_supports_free(s);
     cov_claims_free(cl);
     cov_graph_free(g);
@@ -156,9 +169,20 @@ int main(void)
 {
     gsl_set_error_handler_off();
     gsl_test_verbose(1);   /* one PASS line per check, for the runner's count */
-    fixture f;
-    make_fixture(&f, N_RUNS);
-    test_counts(&f);
-    for (size_t v = 0; v < N_VARS; v++) free(f.cols[v]);
+    reach rc = {0, 0, 0, 0, 0, 0};
+    for (int idle = 0; idle < 2; idle++) {
+        fixture f;
+        make_fixture(&f, N_RUNS, idle ? 0.2 : 0);
+        test_counts(&f, idle ? "load idles in a fifth of the runs" : "load never idles", &rc);
+        for (size_t v = 0; v < N_VARS; v++) free(f.cols[v]);
+        free(f.d.row_of);
+    }
+    /* The fixtures reach every way of settling the counts. */
+    gsl_test(rc.checked < 40 || rc.categorical < 16 || rc.partial < 6 || rc.all_distinct < 6 ||
+             rc.replicated < 6 || rc.inputs < 4,
+             "support: %zu claims checked (%zu with a switch or level set, %zu on part of the "
+             "runs, %zu with every configuration distinct, %zu with replicates, %zu of them on "
+             "inputs only and every run)", rc.checked, rc.categorical, rc.partial,
+             rc.all_distinct, rc.replicated, rc.inputs);
     return gsl_test_summary();
 }

@@ -407,6 +407,26 @@ static size_t known_distinct(const cov_graph *g, const cov_data *d, const cov_su
     return (size_t)-1;
 }
 
+/* The claim's configurations when the archive's settle them: its rows are all the runs, the
+ * treatment and every member of S are inputs, and one of them takes as many distinct values as
+ * the runs have configurations of all inputs (d->n_configs, coverage/archive/runs.c). That
+ * member's value then names the configuration (each configuration has one value of it, and no
+ * two share one), so the claim's tuples, which a configuration fixes and which fix that member,
+ * are exactly as many as the configurations. (size_t)-1 otherwise. */
+static size_t archive_configs(const cov_graph *g, const cov_claim *cl, const cov_data *d,
+                              const cov_summary *sh, size_t n)
+{
+    if (sh == NULL || n != d->n_runs || d->n_configs == 0) return (size_t)-1;
+    if (g->vars[cl->treatment].role != COV_INPUT) return (size_t)-1;
+    for (size_t j = 0; j < cl->n_cond; j++)
+        if (g->vars[cl->cond[j]].role != COV_INPUT) return (size_t)-1;
+    for (size_t j = 0; j <= cl->n_cond; j++) {
+        size_t v = j < cl->n_cond ? cl->cond[j] : cl->treatment;
+        if (sh->col[v] != SIZE_MAX && sh->distinct[v] == d->n_configs) return d->n_configs;
+    }
+    return (size_t)-1;
+}
+
 /* One testable claim's support. sh: the shared summaries (or NULL), whose distinct counts spare
  * hashing the runs where they settle a count. */
 static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *d,
@@ -476,7 +496,8 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
         if (g->vars[cl->cond[j]].type != COV_LEVELS &&
             known_distinct(g, d, sh, cl->cond[j], NULL, n) == n)
             n_cfg = n;
-    if (n_cfg != n) n_cfg = tuple_ids(cfg, n, k1, ids);
+    if (n_cfg == (size_t)-1) n_cfg = archive_configs(g, cl, d, sh, n);
+    if (n_cfg == (size_t)-1) n_cfg = tuple_ids(cfg, n, k1, ids);
     if (n_cfg == (size_t)-1) goto done;
     s->runs_per_config = (double)n / (double)n_cfg;
     s->pure_error = n_cfg < n;
@@ -553,7 +574,8 @@ static int summarised(const cov_graph *g, const cov_claim *cl, const cov_data *d
  * the root of the residual sum of squares of X on S and an intercept over n, solved from the
  * cross-products (pw_xfit_solve) instead of a least-squares fit over the runs; the spread is the
  * root of X's centred sum of squares over n. Replication: when some member of (X, S) takes as
- * many distinct values as there are runs, every configuration is distinct; otherwise the runs'
+ * many distinct values as there are runs, every configuration is distinct; when the archive's
+ * configurations settle it (archive_configs), they are counted; otherwise the runs'
  * configurations are counted as before. */
 static int support_summary(const cov_graph *g, const cov_claim *cl, const cov_data *d,
                            const cov_summary *sh, cov_support *s, cov_error *err)
@@ -582,8 +604,8 @@ static int support_summary(const cov_graph *g, const cov_claim *cl, const cov_da
     } else {
         s->spread_resid = 0;   /* no more runs than columns: nothing is left over */
     }
-    size_t n_cfg = n;
-    if (most < n) {
+    size_t n_cfg = most < n ? archive_configs(g, cl, d, sh, n) : n;
+    if (n_cfg == (size_t)-1) {
         double *cfg = malloc(n * k1 * sizeof *cfg);
         size_t *ids = malloc(n * sizeof *ids);
         if (cfg == NULL || ids == NULL) {
