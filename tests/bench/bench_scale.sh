@@ -1,15 +1,17 @@
 #!/bin/sh
 # Scale benchmark (issue 12): the whole survey without plots of an invented 1,000,000-run x 80
 # column archive (64 inputs, 16 outputs, 1,144 claims) beside a bare SQLite scan of every column of
-# the same file, in the same run, alternating; then a narrow, long campaign of 10,000,000 runs x 20
-# columns. Medians of 3; CPU (user + system) and wall ratios, peak resident memory against the raw
-# bytes of the analysed columns. Targets: survey <= 1.5x the scan in CPU, memory <= 1.2x the raw
-# column bytes. Beside them, the floor under any survey that holds the analysed columns in memory
-# and digests them (as exact distinct counts, exact replication counts and the exact comparison of
-# repeated runs need, and the content digest, column by column): the scan, plus a first write of
-# that many bytes of fresh memory, plus their SHA-256, all measured in the same run (bench_scan
-# touch). Scratch files live in a temporary directory that is deleted at the end. See LICENSE.
-: "${BUILD:=build}" "${SHOAL:=$BUILD/shoal}"
+# the same file, in the same run, alternating; then a mixed campaign of as many runs with a switch,
+# a level set, shared seeds and skewed outputs (tests/bench/make_mixed.py); then a narrow, long
+# campaign of 10,000,000 runs x 20 columns. Medians of 3; CPU (user + system) and wall ratios, peak
+# resident memory against the raw bytes of the analysed columns. Targets: survey <= 1.5x the scan
+# in CPU, memory <= 1.2x the raw column bytes. Beside them, the floor under any survey that holds
+# the analysed columns in memory and digests them (as exact distinct counts, exact replication
+# counts and the exact comparison of repeated runs need, and the content digest, column by
+# column): the scan, plus a first write of that many bytes of fresh memory, plus their SHA-256, all
+# measured in the same run (bench_scan touch). Scratch files live in a temporary directory that is
+# deleted at the end. See LICENSE.
+: "${BUILD:=build}" "${SHOAL:=$BUILD/shoal}" "${PYTHON:=/usr/bin/python3}"
 ROWS=${BENCH_SCALE_ROWS:-1000000}
 LONG_ROWS=${BENCH_SCALE_LONG_ROWS:-10000000}
 THREADS=${BENCH_SCALE_THREADS:-1}
@@ -98,6 +100,17 @@ else
 fi
 classic=1 scale "survey $ROWS x 80" "$tmp/wide.graph" "$tmp/wide.db" 80
 rm -f "$tmp/wide.db"
+
+# A mixed campaign as simulators write them (tests/bench/make_mixed.py, invented, seed fixed): a
+# switch, a level set, an integer and three continuous inputs, three seeds per configuration shared
+# across configurations, skewed, zero-inflated and bending outputs, a cost, repeated imports.
+if [ -n "${BENCH_SCALE_DIR:-}" ] && [ -f "$BENCH_SCALE_DIR/mixed.db" ]; then
+  cp "$BENCH_SCALE_DIR/mixed.graph" "$tmp/mixed.graph" && ln -s "$BENCH_SCALE_DIR/mixed.db" "$tmp/mixed.db"
+else
+  "$PYTHON" tests/bench/make_mixed.py "$tmp/mixed.db" "$tmp/mixed.graph" "$ROWS" || exit 1
+fi
+classic= scale "mixed survey $ROWS x 9" "$tmp/mixed.graph" "$tmp/mixed.db" 9
+rm -f "$tmp/mixed.db"
 [ "$LONG_ROWS" -gt 0 ] || exit $status   # BENCH_SCALE_LONG_ROWS=0: the wide archive only
 
 # A narrow, long campaign: 16 inputs on [0, 1000], 4 outputs, 10,000,000 runs (invented, seed
