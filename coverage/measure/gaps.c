@@ -134,26 +134,29 @@ static void select_rows(double *pts, size_t d, size_t lo, size_t hi, size_t m, s
     }
 }
 
-static void kd_build(kdtree *t, size_t lo, size_t hi, double *tmp, double *bmin, double *bmax)
+/* Split rows [lo, hi) at the median of the widest side of their cell: the cell is the root's
+ * bounding box narrowed by the splits above (cell_lo, cell_hi; restored on return), so no node
+ * scans its rows for their extent. The tree only prunes the search: any choice of splits gives
+ * the same nearest distances. */
+static void kd_build(kdtree *t, size_t lo, size_t hi, double *tmp, double *cell_lo,
+                     double *cell_hi)
 {
     if (hi - lo <= COV_KD_LEAF) return;
     const size_t d = t->d;
-    for (size_t k = 0; k < d; k++) bmin[k] = INFINITY, bmax[k] = -INFINITY;
-    for (size_t i = lo; i < hi; i++)
-        for (size_t k = 0; k < d; k++) {
-            double x = coord(t->pts, d, i, k);
-            if (x < bmin[k]) bmin[k] = x;
-            if (x > bmax[k]) bmax[k] = x;
-        }
     size_t best = 0;
     for (size_t k = 1; k < d; k++)
-        if (bmax[k] - bmin[k] > bmax[best] - bmin[best]) best = k;
+        if (cell_hi[k] - cell_lo[k] > cell_hi[best] - cell_lo[best]) best = k;
     size_t m = lo + (hi - lo) / 2;
     select_rows(t->pts, d, lo, hi, m, best, tmp);
     t->dim[m] = (unsigned char)best;
-    t->split[m] = coord(t->pts, d, m, best);
-    kd_build(t, lo, m, tmp, bmin, bmax);
-    kd_build(t, m, hi, tmp, bmin, bmax);
+    double split = t->split[m] = coord(t->pts, d, m, best), keep = cell_hi[best];
+    cell_hi[best] = split;
+    kd_build(t, lo, m, tmp, cell_lo, cell_hi);
+    cell_hi[best] = keep;
+    keep = cell_lo[best];
+    cell_lo[best] = split;
+    kd_build(t, m, hi, tmp, cell_lo, cell_hi);
+    cell_lo[best] = keep;
 }
 
 static void kd_nearest(const kdtree *t, size_t lo, size_t hi, const double *q, double *best2)
@@ -235,6 +238,13 @@ int cov_fill_gaps(const double *pts, size_t n, size_t d, unsigned long seed, siz
         keep = m;
     }
     t.n = keep;
+    for (size_t k = 0; k < d; k++) bmin[k] = INFINITY, bmax[k] = -INFINITY;
+    for (size_t i = 0; i < keep; i++)
+        for (size_t k = 0; k < d; k++) {
+            double x = coord(t.pts, d, i, k);
+            if (x < bmin[k]) bmin[k] = x;
+            if (x > bmax[k]) bmax[k] = x;
+        }
     kd_build(&t, 0, keep, tmp, bmin, bmax);
     if ((rc = cov_probe_points(np, d, seed, probe)) != COV_OK) goto fail;
 
