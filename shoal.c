@@ -330,21 +330,21 @@ static size_t terminal_width(void)
     return TERM_WIDTH_DEFAULT;
 }
 
-/* Keep freed memory on the heap while shoal runs. The analysis makes and frees scratch of many
- * megabytes per claim (a claim's rows and design, its configuration table, its strata); glibc
- * serves blocks above a threshold that adapts up to 32 MB with fresh mappings and gives freed
- * heap back, so every claim takes its page faults again, and first-touch faults are dear (several
- * times a plain write of the page, more on a virtual machine). Here blocks below 32 MB (glibc's
- * largest threshold on 64-bit systems) come from the heap and freed heap stays for the next claim;
- * larger blocks (the columns of a long archive) keep their own mappings, which grow without a copy
- * and leave no hole when freed. On an invented archive of a million runs with a switch, a level
- * set and shared seeds this takes the survey from 11.7 to 7.0 s of CPU; peak memory stays within
- * 4% (tests/bench/bench_scale.sh; the 10,000,000-run archive's within 1%). Letting every block
- * come from the heap saved a little more CPU but raised that archive's peak by a quarter. */
+/* Keep freed memory on the heap while shoal runs. The analysis makes and frees scratch of
+ * megabytes per claim (a claim's rows, its treatment and configuration ids, its strata); glibc
+ * serves blocks above an adaptive threshold with fresh mappings and gives freed heap back, so
+ * every claim takes its page faults again, and first-touch faults are dear (several times a plain
+ * write of the page, more on a virtual machine). Here blocks below 8 MiB (a million doubles) come
+ * from the heap and freed heap stays for the next claim; larger blocks keep their own mappings,
+ * which grow without a copy and leave no resident hole when freed. On an invented archive of a
+ * million runs with a switch, a level set and shared seeds this takes the survey from 11.7 to
+ * about 6 s of CPU with peak memory within 1% (tests/bench/bench_scale.sh); a 32 MB threshold
+ * kept the 10,000,000-run archive's freed per-run flags resident (+20 MB at its peak, 1.21x its
+ * raw columns), and taking every block from the heap kept its columns' holes (1.52x). */
 static void keep_freed_memory(void)
 {
 #if defined(__GLIBC__)
-    mallopt(M_MMAP_THRESHOLD, (int)(4 * 1024 * 1024 * sizeof(long)));
+    mallopt(M_MMAP_THRESHOLD, 8 * 1024 * 1024);
     mallopt(M_TRIM_THRESHOLD, INT_MAX);
 #endif
 }
