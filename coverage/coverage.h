@@ -267,6 +267,12 @@ typedef struct {
  * the column (and the row). progress may be NULL; it is called now and then with the share done. */
 int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double share, void *ctx),
                   void *ctx, cov_data **out, cov_error *err);
+/* The same read on `threads` threads (1 or less: exactly cov_data_read): with 2 or more, a second
+ * thread copies the rows into the columns while the caller's thread reads the archive; the result,
+ * every error (the same first bad cell) and the progress calls are those of the one-thread read. */
+int cov_data_read_threads(cov_archive *a, const cov_graph *g, int threads,
+                          void (*progress)(double share, void *ctx), void *ctx, cov_data **out,
+                          cov_error *err);
 void cov_data_free(cov_data *d);
 /* A column read row by row in the archive's order (cov_archive_read_number: *n values) turned into
  * one value per run of d, in place: when *n is d->n_rows and rows repeated, the value of each

@@ -141,6 +141,35 @@ void cov_overlap_match(cov_overlap *o, uint64_t h);
 void cov_overlap_result(const cov_overlap *o, cov_import_overlap *res);
 void cov_overlap_free(cov_overlap *o);
 
+/* ---- the read's staged blocks (coverage/archive/stage.c) ---------------------------------------- */
+
+/* The read gathers rows row-major in blocks and copies each finished block into the columns
+ * (col[vars[k]] for k < n_rec) one column at a time. cov_stage_unstage copies rows [base, base +
+ * count) of one block; cov_stage_prefault asks Linux to map a fresh column of `bytes` at once
+ * (advice only, and only for columns of 1 MiB or more). */
+void cov_stage_unstage(double *const *col, const size_t *vars, size_t n_rec, const double *stage,
+                       size_t base, size_t count);
+void cov_stage_prefault(void *p, size_t bytes);
+/* The copy on a second thread: the reading thread fills cov_stage_block's block of `rows` rows and
+ * hands it over with cov_stage_pass (rows [base, base + count), the columns' capacity cap), which
+ * returns the next block to fill, waiting while every block of the small ring (about 256 KiB,
+ * two blocks at least) waits to be copied. The copier also maps the columns' pages a little ahead
+ * of the rows it writes. The copier touches nothing but the blocks and the columns' values: before
+ * the reader moves or frees the columns (realloc), cov_stage_drain waits until every block handed
+ * over is copied. cov_stage_close hands over a last block (count may be 0) and waits for the
+ * copier to finish; cov_stage_abort stops it without copying what is left; both free s (NULL is
+ * allowed). cov_stage_open returns COV_ENOMEM, or COV_OK with *out NULL when no thread could be
+ * started (then the caller copies its blocks itself). Every allocation is made by the caller's
+ * thread, in cov_stage_open. */
+typedef struct cov_stage cov_stage;
+int cov_stage_open(double *const *col, const size_t *vars, size_t n_rec, size_t rows,
+                   cov_stage **out);
+double *cov_stage_block(cov_stage *s);
+double *cov_stage_pass(cov_stage *s, size_t base, size_t count, size_t cap);
+void cov_stage_drain(cov_stage *s);
+void cov_stage_close(cov_stage *s, size_t base, size_t count, size_t cap);
+void cov_stage_abort(cov_stage *s);
+
 /* ---- what counts as one run (coverage/runs.c) ------------------------------------------------- */
 
 /* Make d hold each run once: rows equal in every input and the seed (d->seed, when the graph

@@ -1,8 +1,5 @@
 /* Reading the graph's recorded variables from the archive into contiguous columns, checking each
  * cell against the variable's declared type and domain. See LICENSE. */
-#if defined(__linux__) && !defined(_DEFAULT_SOURCE)
-#define _DEFAULT_SOURCE     /* madvise, used on Linux only */
-#endif
 #include <errno.h>
 #include <float.h>
 #include <math.h>
@@ -12,10 +9,6 @@
 #include <string.h>
 
 #include <sqlite3.h>
-#if defined(__linux__)
-#include <sys/mman.h>
-#include <unistd.h>
-#endif
 
 #include "coverage/archive/archive.h"
 
@@ -25,8 +18,6 @@
  * time defeats the processor's store prefetch, while a block of 64 rows (40 KiB for 80 columns)
  * stays in cache and is copied out one column at a time. */
 #define STAGE_ROWS 64
-/* Columns smaller than this fault in quickly enough on their own. */
-#define PREFAULT_MIN_BYTES ((size_t)1 << 20)
 /* First guess at the run count when the table's rowids say nothing useful. */
 #define START_CAPACITY 1024
 /* The rowid span overstates the run count when rows were deleted; beyond this many rows the
@@ -219,24 +210,9 @@ static int in_domain(const cov_var *var, double x, char *what, size_t n)
     return 1;
 }
 
-/* Ask Linux to map the pages of a new column in one call (MADV_POPULATE_WRITE, Linux 5.14):
- * taking the page faults one 4 KiB page at a time while the scan runs costs several times more.
- * It is advice only; where it is not available nothing changes. */
-static void prefault(void *p, size_t bytes)
-{
-#if defined(__linux__) && defined(MADV_POPULATE_WRITE)
-    long page = sysconf(_SC_PAGESIZE);
-    if (page <= 0 || bytes < PREFAULT_MIN_BYTES) return;
-    uintptr_t lo = ((uintptr_t)p + (uintptr_t)page - 1) / (uintptr_t)page * (uintptr_t)page;
-    uintptr_t hi = ((uintptr_t)p + bytes) / (uintptr_t)page * (uintptr_t)page;
-    if (hi > lo) (void)madvise((void *)lo, hi - lo, MADV_POPULATE_WRITE);
-#else
-    (void)p;
-    (void)bytes;
-#endif
-}
-
-static int grow(cov_data *d, const cov_graph *g, size_t cap, int with_batch, int with_seed)
+/* Make room for cap rows. A fresh column is mapped at once unless a copier thread maps the
+ * columns as it goes (map 0). */
+static int grow(cov_data *d, const cov_graph *g, size_t cap, int with_batch, int with_seed, int map)
 {
     if (with_seed) {
         long long *sd = realloc(d->seed, cap * sizeof *sd);
@@ -249,7 +225,7 @@ static int grow(cov_data *d, const cov_graph *g, size_t cap, int with_batch, int
         double *p = realloc(d->col[v], cap * sizeof *p);
         if (p == NULL) return -1;
         d->col[v] = p;
-        if (fresh) prefault(p, cap * sizeof *p);
+        if (fresh && map) cov_stage_prefault(p, cap * sizeof *p);
     }
     if (with_batch) {
         long long *b = realloc(d->batch, cap * sizeof *b);
@@ -263,21 +239,6 @@ static int cmp_ll(const void *a, const void *b)
 {
     long long x = *(const long long *)a, y = *(const long long *)b;
     return (x > y) - (x < y);
-}
-
-/* Copy rows [base, base + count) from the row-major stage into the columns. */
-static void unstage(cov_data *d, const size_t *vars, size_t n_rec, const double *stage,
-                    size_t base, size_t count)
-{
-    /* Eight columns at a time: each staged row is then read a whole cache line at once, and
-     * eight column streams are written, few enough for the store buffers. */
-    for (size_t k0 = 0; k0 < n_rec; k0 += 8) {
-        size_t k1 = k0 + 8 < n_rec ? k0 + 8 : n_rec;
-        for (size_t i = 0; i < count; i++) {
-            const double *src = stage + i * n_rec;
-            for (size_t k = k0; k < k1; k++) d->col[vars[k]][base + i] = src[k];
-        }
-    }
 }
 
 /* A first guess at the row count without a counting scan: the rowid span. */
@@ -355,6 +316,13 @@ static int check_ledger_columns(const cov_archive *a, const cov_graph *g, cov_er
 int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double share, void *ctx),
                   void *ctx, cov_data **out, cov_error *err)
 {
+    return cov_data_read_threads(a, g, 1, progress, ctx, out, err);
+}
+
+int cov_data_read_threads(cov_archive *a, const cov_graph *g, int threads,
+                          void (*progress)(double share, void *ctx), void *ctx, cov_data **out,
+                          cov_error *err)
+{
     *out = NULL;
     sqlite3 *db = cov_archive_db(a);
     sqlite3_stmt *st = NULL;
@@ -363,7 +331,9 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
     size_t *vars = NULL;    /* the recorded variables in SELECT order */
     size_t *n_examples = NULL;
     unsigned char *fast = NULL, *whole = NULL;
-    double *stage = NULL;
+    double *stage = NULL;   /* the one-thread read's block; with a copier, the block being filled */
+    double *own_stage = NULL;
+    cov_stage *pipe = NULL;
     double *lo = NULL, *hi = NULL;
     size_t *out_cells = NULL, n_out_cells = 0, cap_out_cells = 0;   /* (row, var) outside */
     unsigned char *kept = NULL;
@@ -472,19 +442,29 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
         whole[k] = ranged && var->type == COV_INTEGER;
     }
 
-    stage = malloc(STAGE_ROWS * (n_rec ? n_rec : 1) * sizeof *stage);
-    if (stage == NULL) goto nomem;
+    /* With two threads or more, a second thread copies finished blocks into the columns while
+     * this one, which alone calls SQLite and reports cells, keeps reading (coverage/archive/
+     * stage.c); the values, counts and messages are the same either way. */
+    if (threads >= 2 && cov_stage_open(d->col, vars, n_rec, STAGE_ROWS, &pipe) != COV_OK)
+        goto nomem;
+    if (pipe != NULL) {
+        stage = cov_stage_block(pipe);
+    } else {
+        own_stage = stage = malloc(STAGE_ROWS * (n_rec ? n_rec : 1) * sizeof *stage);
+        if (stage == NULL) goto nomem;
+    }
 
     size_t est = estimate_rows(db, qt);
     size_t cap = est == 0 ? START_CAPACITY : est < MAX_FIRST_CAPACITY ? est : MAX_FIRST_CAPACITY;
-    if (grow(d, g, cap, with_batch, seed_col >= 0)) goto nomem;
+    if (grow(d, g, cap, with_batch, seed_col >= 0, pipe == NULL)) goto nomem;
     reader r = {a, g, 0, err};
     size_t n = 0;
     int step;
     while ((step = sqlite3_step(st)) == SQLITE_ROW) {
         if (n == cap) {
             cap *= 2;
-            if (grow(d, g, cap, with_batch, seed_col >= 0)) goto nomem;
+            if (pipe != NULL) cov_stage_drain(pipe);   /* the copier must not see columns move */
+            if (grow(d, g, cap, with_batch, seed_col >= 0, pipe == NULL)) goto nomem;
         }
         r.row = n + 1;
         double *row = stage + (n % STAGE_ROWS) * n_rec;
@@ -546,7 +526,10 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
             (rc = read_seed(a, g, st, (int)n_rec + 1, n + 1, &d->seed[n], err)) != COV_OK)
             goto fail;
         n++;
-        if (n % STAGE_ROWS == 0) unstage(d, vars, n_rec, stage, n - STAGE_ROWS, STAGE_ROWS);
+        if (n % STAGE_ROWS == 0) {
+            if (pipe != NULL) stage = cov_stage_pass(pipe, n - STAGE_ROWS, STAGE_ROWS, cap);
+            else cov_stage_unstage(d->col, vars, n_rec, stage, n - STAGE_ROWS, STAGE_ROWS);
+        }
         if (progress != NULL && n % PROGRESS_EVERY_ROWS == 0)
             progress(est > n ? (double)n / (double)est : 0.99, ctx);
     }
@@ -555,7 +538,12 @@ int cov_data_read(cov_archive *a, const cov_graph *g, void (*progress)(double sh
                       sqlite3_errmsg(db));
         goto fail;
     }
-    unstage(d, vars, n_rec, stage, n - n % STAGE_ROWS, n % STAGE_ROWS);
+    if (pipe != NULL) {
+        cov_stage_close(pipe, n - n % STAGE_ROWS, n % STAGE_ROWS, cap);
+        pipe = NULL;
+    } else {
+        cov_stage_unstage(d->col, vars, n_rec, stage, n - n % STAGE_ROWS, n % STAGE_ROWS);
+    }
     d->n_runs = n;
     /* Each run once (coverage/archive/runs.c); inputs outside their domain are counted again
      * over the runs kept. */
@@ -589,6 +577,7 @@ nomem:
     rc = cov_fail(err, COV_ENOMEM, cov_archive_path(a), "out of memory while reading the archive");
 fail:
 done:
+    cov_stage_abort(pipe);      /* before the columns are freed below */
     sqlite3_finalize(st);
     free(sql);
     free(qt);
@@ -596,7 +585,7 @@ done:
     free(vars);
     free(n_examples);
     free(fast);
-    free(stage);
+    free(own_stage);
     free(whole);
     free(lo);
     free(hi);
