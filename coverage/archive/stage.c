@@ -80,6 +80,10 @@ struct cov_stage {
     size_t n_full;              /* blocks handed over and not yet copied (the copier's included) */
     size_t fill;                /* the slot the reader fills */
     size_t cap;                 /* the columns' capacity in rows, as of the last hand-over */
+    size_t wake;                /* blocks that wake an idle copier; a full ring's reader waits
+                                   until this many are free again */
+    int copier_waiting, reader_waiting;
+    size_t reader_until;        /* the reader waits until n_full is at most this */
     int done, stop;
     double *const *col;
     const size_t *vars;
@@ -107,7 +111,11 @@ static void *copier_main(void *arg)
     cov_stage *s = arg;
     pthread_mutex_lock(&s->mu);
     for (;;) {
-        while (s->n_full == 0 && !s->done && !s->stop) pthread_cond_wait(&s->filled, &s->mu);
+        while (s->n_full == 0 && !s->done && !s->stop) {
+            s->copier_waiting = 1;
+            pthread_cond_wait(&s->filled, &s->mu);
+            s->copier_waiting = 0;
+        }
         if (s->stop || s->n_full == 0) break;
         size_t slot = s->head, base = s->base[slot], count = s->count[slot], cap = s->cap;
         pthread_mutex_unlock(&s->mu);
@@ -118,7 +126,7 @@ static void *copier_main(void *arg)
         pthread_mutex_lock(&s->mu);
         s->head = (s->head + 1) % s->slots;
         s->n_full--;
-        pthread_cond_signal(&s->emptied);
+        if (s->reader_waiting && s->n_full <= s->reader_until) pthread_cond_signal(&s->emptied);
     }
     pthread_mutex_unlock(&s->mu);
     return NULL;
@@ -135,6 +143,7 @@ int cov_stage_open(double *const *col, const size_t *vars, size_t n_rec, size_t 
     s->slots = RING_BYTES / block;
     if (s->slots < 2) s->slots = 2;
     if (s->slots > RING_MAX_SLOTS) s->slots = RING_MAX_SLOTS;
+    s->wake = s->slots / 2;
     s->rows = rows;
     s->n_rec = n_rec;
     s->col = col;
@@ -176,6 +185,17 @@ double *cov_stage_block(cov_stage *s)
     return s->ring + s->fill * s->rows * s->n_rec;
 }
 
+/* Wait, holding the lock, until at most `until` blocks wait to be copied. */
+static void reader_wait(cov_stage *s, size_t until)
+{
+    s->reader_until = until;
+    s->reader_waiting = 1;
+    while (s->n_full > until) pthread_cond_wait(&s->emptied, &s->mu);
+    s->reader_waiting = 0;
+}
+
+/* The threads wake each other a few blocks at a time, not at every block: a wake-up costs a
+ * system call and a switch on each side, about as much as copying a block. */
 double *cov_stage_pass(cov_stage *s, size_t base, size_t count, size_t cap)
 {
     pthread_mutex_lock(&s->mu);
@@ -183,9 +203,9 @@ double *cov_stage_pass(cov_stage *s, size_t base, size_t count, size_t cap)
     s->count[s->fill] = count;
     s->cap = cap;
     s->n_full++;
-    pthread_cond_signal(&s->filled);
+    if (s->copier_waiting && s->n_full >= s->wake) pthread_cond_signal(&s->filled);
     /* The next slot is free once fewer than all slots wait to be copied. */
-    while (s->n_full == s->slots) pthread_cond_wait(&s->emptied, &s->mu);
+    if (s->n_full == s->slots) reader_wait(s, s->slots - s->wake);
     s->fill = (s->head + s->n_full) % s->slots;
     pthread_mutex_unlock(&s->mu);
     return cov_stage_block(s);
@@ -194,7 +214,8 @@ double *cov_stage_pass(cov_stage *s, size_t base, size_t count, size_t cap)
 void cov_stage_drain(cov_stage *s)
 {
     pthread_mutex_lock(&s->mu);
-    while (s->n_full > 0) pthread_cond_wait(&s->emptied, &s->mu);
+    if (s->copier_waiting && s->n_full > 0) pthread_cond_signal(&s->filled);
+    reader_wait(s, 0);
     pthread_mutex_unlock(&s->mu);
 }
 
