@@ -71,7 +71,7 @@ static double unif(void) { return (double)(rng_next() >> 11) * 0x1.0p-53; }
 static double normal(void)
 {
     double u = unif(), v = unif();
-    return sqrt(-2 * log(u + 1e-300)) * cos(6.283185307179586 * v);
+    return sqrt(-2 * log(u + 1e-300)) * cos(8 * atan(1.0) * v);   /* Box and Muller (1958) */
 }
 
 /* What the generator wrote in each row, as the read must give it back: NAN for a missing cell,
