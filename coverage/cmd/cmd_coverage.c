@@ -512,7 +512,8 @@ int cov_cmd_coverage(const cov_options *o, FILE *out, FILE *note, int *adequate,
     int rc = cov_graph_parse_file(o->graph_path, &g, err);
     if (!rc) rc = cov_claims_derive(g, &cl, err);
     if (!rc) rc = cov_archive_open(o->archive_path, o->table, &ar, err);
-    if (!rc) rc = cov_data_read_threads(ar, g, copt.threads, show ? cov_progress_note : NULL, note, &d, err);
+    if (!rc) rc = cov_data_read_threads(ar, g, copt.threads, show ? cov_progress_note : NULL, note,
+                                        &d, err);
     if (!rc && show) fprintf(note, "measuring coverage of %zu runs\n", d->n_runs);
     if (!rc) rc = cov_coverage_measure(g, d, &copt, &c, err);
     if (!rc && show) fprintf(note, "measuring the support of %zu claims\n", cl->n);

@@ -286,8 +286,9 @@ int cov_cmd_power(const cov_options *o, FILE *out, FILE *note, int *adequate, co
     if (!rc) rc = cov_claims_derive(g, &cl, err);
     if (!rc) rc = cov_archive_open(o->archive_path, o->table, &ar, err);
     if (!rc)
-        rc = cov_data_read(ar, g, o->progress && note && !o->quiet ? cov_progress_note : NULL, note,
-                           &d, err);
+        rc = cov_data_read_threads(ar, g, o->power.threads,
+                                   o->progress && note && !o->quiet ? cov_progress_note : NULL,
+                                   note, &d, err);
     if (!rc) rc = cov_assess(g, cl, d, &o->power, &as, err);
     if (rc) goto done;
     /* A graph that implies no claim gives the runs nothing to be adequate for. */
