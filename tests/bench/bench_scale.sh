@@ -1,6 +1,6 @@
 #!/bin/sh
 # Scale benchmark (issue 12): the whole survey without plots of an invented 1,000,000-run x 80
-# column archive (64 inputs, 16 outputs, 1,144 claims) beside a bare SQLite scan of every column of
+# column archive (64 inputs, 16 outputs, 1,024 claims) beside a bare SQLite scan of every column of
 # the same file, in the same run, alternating; then a mixed campaign of as many runs with a switch,
 # a level set, shared seeds and skewed outputs (tests/bench/make_mixed.py); then a narrow, long
 # campaign of 10,000,000 runs x 20 columns. Medians of 3; CPU (user + system) and wall ratios, peak
