@@ -16,9 +16,9 @@
 
 /* Invented data only (fixed seed), shaped like a simulator's archive: a switch, a level set with
  * a declared level never run, a small integer input, replicated configurations, an input and an
- * output with missing cells, continuous inputs (each names its configuration), a skewed output whose noise
- * grows with load (zero where the run stayed idle), a zero-inflated, heavy-tailed one and one
- * that bends. */
+ * output with missing cells, continuous inputs (each names its configuration), a skewed output
+ * whose noise grows with load (zero where the run stayed idle), a zero-inflated, heavy-tailed one
+ * and one that bends. */
 #define N_RUNS 30011
 enum { SW, MODE, K, A, G, U, H, LOAD, WAIT, HEAT, N_VARS };
 
@@ -113,8 +113,10 @@ static void test_counts(fixture *f, const char *label, reach *rc)
         return;
     }
     /* What counts as one run, and the configurations of all inputs (coverage/archive/runs.c). */
-    gsl_test_int(cov_runs_identify(&f->d, g, NULL, &err), COV_OK, "support (%s): runs identified", label);
-    gsl_test(!(f->d.n_configs > 0 && f->d.n_configs < f->d.n_runs && f->d.n_runs == N_RUNS   /* no row repeats another */),
+    gsl_test_int(cov_runs_identify(&f->d, g, NULL, &err), COV_OK, "support (%s): runs identified",
+                 label);
+    /* No row repeats another: every run is kept. */
+    gsl_test(!(f->d.n_configs > 0 && f->d.n_configs < f->d.n_runs && f->d.n_runs == N_RUNS),
              "support (%s): %zu runs in %zu configurations", label, f->d.n_runs, f->d.n_configs);
     cov_coverage_options opt = {5, 10, 2, 0.5, 20261202UL, 1};
     cov_supports *s = NULL;
@@ -146,7 +148,8 @@ static void test_counts(fixture *f, const char *label, reach *rc)
         rc->all_distinct += configs == n;
         rc->replicated += configs < n;
         int only_inputs = g->vars[it->treatment].role == COV_INPUT;
-        for (size_t j = 0; j < it->n_cond; j++) only_inputs &= g->vars[it->cond[j]].role == COV_INPUT;
+        for (size_t j = 0; j < it->n_cond; j++)
+            only_inputs &= g->vars[it->cond[j]].role == COV_INPUT;
         rc->inputs += only_inputs && n == N_RUNS && configs < n;
         bad_n += sp->n != n;
         bad_distinct += sp->distinct != distinct;

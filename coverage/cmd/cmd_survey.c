@@ -461,7 +461,9 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
         goto fail;
     if ((rc = cov_archive_open(o.archive_path, o.table, &ar, err)) != COV_OK) goto fail;
     int owned = cov_archive_owned(ar);
-    rc = cov_data_read_threads(ar, g, o.coverage.threads, o.progress && note && !o.quiet ? cov_progress_note : NULL, note, &d, err);
+    rc = cov_data_read_threads(ar, g, o.coverage.threads,
+                               o.progress && note && !o.quiet ? cov_progress_note : NULL, note,
+                               &d, err);
     if (rc != COV_OK) goto fail;
     /* The seeds of the runs, which tell which planned runs have arrived (the plan file's column). */
     const char *seed_name = cov_graph_seed_column(g) != NULL ? cov_graph_seed_column(g) : "seed";
