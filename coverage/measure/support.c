@@ -386,6 +386,27 @@ static double sd_n(const double *x, size_t n)
     return sqrt(q / (double)n);
 }
 
+/* Distinct tuples among the claim's rows of the treatment and the first k1 - 1 members of S, by
+ * tuple_ids over a table made for the purpose only when no count settles them without it.
+ * (size_t)-1 when out of memory. */
+static size_t count_tuples(const claim_rows *cr, size_t k1)
+{
+    const size_t n = cr->cd->n;
+    double *t = malloc((n ? n : 1) * k1 * sizeof *t);
+    size_t *ids = malloc((n ? n : 1) * sizeof *ids), m = (size_t)-1;
+    if (t != NULL && ids != NULL) {
+        for (size_t i = 0; i < n; i++) {
+            t[i * k1] = cr->x[i];
+            for (size_t j = 0; j + 1 < k1; j++)
+                t[i * k1 + 1 + j] = cr->d->col[cr->cl->cond[j]][cr->cd->row[i]];
+        }
+        m = tuple_ids(t, n, k1, ids);
+    }
+    free(t);
+    free(ids);
+    return m;
+}
+
 /* Distinct values of variable v among the claim's rows, when known without hashing them: a level
  * set's levels present (its cells are level indices), or the shared summaries' count when the
  * claim's rows are all the runs. (size_t)-1 when not known. */
@@ -436,8 +457,7 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
     cov_claim_design *cd = NULL;
     claim_rows cr;
     memset(&cr, 0, sizeof cr);
-    double *cfg = NULL, *ind = NULL;
-    size_t *ids = NULL;
+    double *ind = NULL;
     int rc = cov_claim_design_build(g, cl, d, &cd, err);
     if (rc != COV_OK) return rc;
     rc = COV_ENOMEM;
@@ -458,20 +478,14 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
     cr.z = malloc(n * cr.q * sizeof *cr.z);
     cr.lo = malloc(k1 * sizeof *cr.lo);
     cr.hi = malloc(k1 * sizeof *cr.hi);
-    cfg = malloc(n * k1 * sizeof *cfg);
     ind = malloc(n * sizeof *ind);
-    ids = malloc(n * sizeof *ids);
-    if (cr.x == NULL || cr.z == NULL || cr.lo == NULL || cr.hi == NULL || cfg == NULL
-        || ind == NULL || ids == NULL)
-        goto done;
+    if (cr.x == NULL || cr.z == NULL || cr.lo == NULL || cr.hi == NULL || ind == NULL) goto done;
     for (size_t j = 0; j < cl->n_cond; j++) cr.lo[j] = INFINITY, cr.hi[j] = -INFINITY;
     for (size_t i = 0; i < n; i++) {
         size_t run = cd->row[i];
         cr.x[i] = d->col[cl->treatment][run];
-        cfg[i * k1] = cr.x[i];
         for (size_t j = 0; j < cl->n_cond; j++) {
             double v = d->col[cl->cond[j]][run];
-            cfg[i * k1 + 1 + j] = v;
             if (v < cr.lo[j]) cr.lo[j] = v;
             if (v > cr.hi[j]) cr.hi[j] = v;
         }
@@ -485,7 +499,7 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
 
     /* Distinct treatment values. */
     size_t distinct = known_distinct(g, d, sh, cl->treatment, cr.x, n);
-    if (distinct == (size_t)-1) distinct = tuple_ids(cr.x, n, 1, ids);
+    if (distinct == (size_t)-1) distinct = count_tuples(&cr, 1);
     if (distinct == (size_t)-1) goto done;
     s->distinct = distinct;
 
@@ -497,7 +511,7 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
             known_distinct(g, d, sh, cl->cond[j], NULL, n) == n)
             n_cfg = n;
     if (n_cfg == (size_t)-1) n_cfg = archive_configs(g, cl, d, sh, n);
-    if (n_cfg == (size_t)-1) n_cfg = tuple_ids(cfg, n, k1, ids);
+    if (n_cfg == (size_t)-1) n_cfg = count_tuples(&cr, k1);
     if (n_cfg == (size_t)-1) goto done;
     s->runs_per_config = (double)n / (double)n_cfg;
     s->pure_error = n_cfg < n;
@@ -547,9 +561,7 @@ done:
     free(cr.z);
     free(cr.lo);
     free(cr.hi);
-    free(cfg);
     free(ind);
-    free(ids);
     if (rc == COV_ENOMEM) cov_fail(err, rc, "", "out of memory measuring support");
     return rc;
 }
