@@ -3,9 +3,31 @@
 #ifndef SHOAL_COVERAGE_MEASURE_H
 #define SHOAL_COVERAGE_MEASURE_H
 
+#include <stdint.h>
 #include <stdio.h>
+#include <string.h>
 
 #include "coverage/archive/archive.h"
+
+/* ---- hashing values (coverage/measure/summary.c's distinct counts, support.c's tuples) -------- */
+
+/* splitmix64's finaliser (Steele, Lea & Flood 2014): a bijection of 64-bit words that spreads the
+ * bits of a word over the word. Inline: the distinct counts call it once per value. */
+static inline uint64_t cov_mix64(uint64_t z)
+{
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
+    return z ^ (z >> 31);
+}
+
+/* The bits of a number for hashing, -0 as +0 (one value). */
+static inline uint64_t cov_value_bits(double x)
+{
+    double v = x == 0 ? 0.0 : x;
+    uint64_t b;
+    memcpy(&b, &v, sizeof b);
+    return b;
+}
 
 /* ---- coverage and support (coverage/space.c, coverage/support.c, ...) ------------------------- */
 

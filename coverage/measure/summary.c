@@ -51,22 +51,6 @@ static int shard_moments(const cov_summary *s, size_t r0, size_t r1, pw_moments 
     return COV_OK;
 }
 
-/* splitmix64's finaliser (Steele, Lea & Flood 2014): spreads the bits of a value over the word. */
-static uint64_t mix64(uint64_t z)
-{
-    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
-    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
-    return z ^ (z >> 31);
-}
-
-static uint64_t value_bits(double x)
-{
-    double v = x == 0 ? 0.0 : x;   /* -0 and +0 are one value */
-    uint64_t b;
-    memcpy(&b, &v, sizeof b);
-    return b;
-}
-
 /* Distinct values of x[0..n-1] (no NaN), exactly. The values are first partitioned by the top
  * byte of their hash into 256 buckets, then each bucket is counted in a small open-addressing
  * table (linear probing, Knuth TAOCP vol. 3, 6.4, Algorithm L) that stays in cache: two
@@ -81,19 +65,19 @@ static size_t distinct_values(const double *x, size_t n, uint64_t *part)
     uint64_t *table = NULL;
     unsigned char *used = NULL;
     size_t distinct = (size_t)-1, cap = 0;
-    for (size_t i = 0; i < n; i++) start[(mix64(value_bits(x[i])) >> 56) + 1]++;
+    for (size_t i = 0; i < n; i++) start[(cov_mix64(cov_value_bits(x[i])) >> 56) + 1]++;
     size_t biggest = 0;
     for (int b = 0; b < 256; b++) {
         if (start[b + 1] > biggest) biggest = start[b + 1];
         start[b + 1] += start[b];
     }
     memcpy(fill, start, sizeof fill);
-    /* The partitions hold the hashes, not the values: mix64 is a bijection of 64-bit words
+    /* The partitions hold the hashes, not the values: cov_mix64 is a bijection of 64-bit words
      * (each step, an xor with a right shift or a multiplication by an odd number, is
      * invertible), so the hashes are exactly as many as the values are distinct, and the table
      * below need not hash again. */
     for (size_t i = 0; i < n; i++) {
-        uint64_t h = mix64(value_bits(x[i]));
+        uint64_t h = cov_mix64(cov_value_bits(x[i]));
         part[fill[h >> 56]++] = h;
     }
     cap = 16;

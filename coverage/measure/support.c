@@ -41,19 +41,11 @@ void cov_supports_free(cov_supports *s)
     free(s);
 }
 
-/* splitmix64's finaliser (Steele, Lea & Flood 2014): spreads the bits of a word over the word. */
-static uint64_t mix64(uint64_t z)
-{
-    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
-    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
-    return z ^ (z >> 31);
-}
-
 /* Dense ids for the distinct rows of an n x k table (row-major), in the order of each row's first
  * appearance, by open addressing (linear probing, Knuth TAOCP vol. 3, 6.4, Algorithm L) on a hash
- * that folds each value's bits through splitmix64's finaliser. The ids, hence every figure made
- * from them, do not depend on the hash; only the time does. Writes id[i] and returns the number
- * of distinct rows, or (size_t)-1 when out of memory. */
+ * that folds each value's bits through splitmix64's finaliser (cov_mix64). The ids, hence every
+ * figure made from them, do not depend on the hash; only the time does. Writes id[i] and returns
+ * the number of distinct rows, or (size_t)-1 when out of memory. */
 static size_t tuple_ids(const double *t, size_t n, size_t k, size_t *id)
 {
     size_t cap = 16;
@@ -70,12 +62,7 @@ static size_t tuple_ids(const double *t, size_t n, size_t k, size_t *id)
     for (size_t i = 0; i < n; i++) {
         const double *row = t + i * k;
         uint64_t h = 0;
-        for (size_t j = 0; j < k; j++) {
-            double x = row[j] == 0 ? 0.0 : row[j];   /* -0 and +0 are one value */
-            uint64_t bits;
-            memcpy(&bits, &x, sizeof bits);
-            h = mix64(h + bits);
-        }
+        for (size_t j = 0; j < k; j++) h = cov_mix64(h + cov_value_bits(row[j]));
         size_t s = (size_t)h & (cap - 1);
         for (;;) {
             if (slot[s] == 0) {
