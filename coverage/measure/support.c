@@ -395,13 +395,14 @@ static size_t count_tuples(const claim_rows *cr, size_t k1)
 }
 
 /* Distinct values of variable v among the claim's rows, when known without hashing them: a level
- * set's levels present (its cells are level indices), or the shared summaries' count when the
- * claim's rows are all the runs. (size_t)-1 when not known. */
+ * set's levels present (its cells x[0..n-1] are level indices; x may be NULL when they are not at
+ * hand), or the shared summaries' count when the claim's rows are all the runs. (size_t)-1 when
+ * not known. */
 static size_t known_distinct(const cov_graph *g, const cov_data *d, const cov_summary *sh,
                              size_t v, const double *x, size_t n)
 {
     const cov_var *var = &g->vars[v];
-    if (var->type == COV_LEVELS && var->n_levels <= 256) {
+    if (var->type == COV_LEVELS && var->n_levels <= 256 && x != NULL) {
         unsigned char seen[256] = {0};
         size_t k = 0;
         for (size_t i = 0; i < n; i++) {
@@ -494,9 +495,7 @@ static int support_one(const cov_graph *g, const cov_claim *cl, const cov_data *
      * a distinct value in every run, so does every configuration. */
     size_t n_cfg = distinct == n ? n : (size_t)-1;
     for (size_t j = 0; n_cfg != n && j < cl->n_cond; j++)
-        if (g->vars[cl->cond[j]].type != COV_LEVELS &&
-            known_distinct(g, d, sh, cl->cond[j], NULL, n) == n)
-            n_cfg = n;
+        if (known_distinct(g, d, sh, cl->cond[j], NULL, n) == n) n_cfg = n;
     if (n_cfg == (size_t)-1) n_cfg = archive_configs(g, cl, d, sh, n);
     if (n_cfg == (size_t)-1) n_cfg = count_tuples(&cr, k1);
     if (n_cfg == (size_t)-1) goto done;
