@@ -330,8 +330,8 @@ static int write_junit(const char *path, const cov_findings *f, const cov_report
  * graph, the claims, the runs, the options and the shared cross-products, and each writes its own
  * result, so with --threads 2 or more they run as independent jobs (coverage/base/jobs.c). Their
  * order below is today's order of the one-thread survey, so the error reported when several fail
- * is the same whatever the thread count. With one thread the digest is left to the snapshot, as
- * before, and everything runs in the calling thread in that order. */
+ * is the same whatever the thread count. With one thread everything runs in the calling thread in
+ * that order. */
 typedef struct {
     const cov_options *o;
     FILE *note;           /* the stages' progress notes; NULL while they run concurrently */
@@ -342,7 +342,7 @@ typedef struct {
     cov_assessments *as;  /* each job writes its own result */
     cov_coverage *cv;
     cov_supports *sp;
-    char digest[65];      /* "" when not computed here */
+    char digest[65];      /* the runs' content digest, for the snapshot */
 } survey_stages;
 
 static int stage_assess(void *arg, cov_error *err)
@@ -379,16 +379,13 @@ static int survey_stages_run(survey_stages *s, int threads, cov_error *err)
 {
     cov_job jobs[] = {{stage_assess, s, 0, {{0}, {0}}}, {stage_coverage, s, 0, {{0}, {0}}},
                       {stage_support, s, 0, {{0}, {0}}}, {stage_digest, s, 0, {{0}, {0}}}};
-    size_t n = sizeof jobs / sizeof jobs[0];
-    if (threads <= 1) {
-        n--;   /* the digest stays where it was, in the snapshot */
-    } else {
+    if (threads > 1) {
         /* Notes from concurrent jobs would come in any order: say both first. */
         step_note(s->o, s->note, "assessing the claims");
         step_note(s->o, s->note, "measuring coverage and support");
         s->note = NULL;
     }
-    return cov_jobs_run(jobs, n, threads, err);
+    return cov_jobs_run(jobs, sizeof jobs / sizeof jobs[0], threads, err);
 }
 
 /* ---- the command ----------------------------------------------------------------------------- */
@@ -574,7 +571,7 @@ int cov_cmd_survey(const cov_options *o_in, FILE *out, FILE *note, int *adequate
     /* A snapshot is recorded only when the runs differ from the last one's (or when asked):
      * surveying the same runs again adds nothing to the campaign's history. */
     cov_snapshot this_snap;
-    cov_snapshot_from_findings_digest(&f, runs_digest[0] ? runs_digest : NULL, &this_snap);
+    cov_snapshot_from_findings_digest(&f, runs_digest, &this_snap);
     snprintf(this_snap.at, sizeof this_snap.at, "%s", at);
     int record = store != COV_HISTORY_NONE &&
                  (o.record_snapshot || n_snapshots == 0 || snaps[n_snapshots - 1].digest[0] == '\0' ||
